@@ -1,0 +1,31 @@
+# Two commands set everything up on a fresh machine: `make demo` and `make test`.
+PYTHON ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+STAMP := $(VENV)/.installed
+
+.PHONY: demo test lint bench clean-venv
+
+$(BIN)/python:
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+
+$(STAMP): pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e ".[test]"
+	touch $(STAMP)
+
+demo: $(STAMP)
+	$(BIN)/pumpscreen scan configs/demo_plant.toml --out reports/demo
+
+test: $(STAMP)
+	$(BIN)/python -m pytest -q
+
+lint: $(STAMP)
+	$(BIN)/ruff check screening tests benchmarks demo_exports
+	$(BIN)/ruff format --check screening tests benchmarks demo_exports
+
+bench: $(STAMP)
+	$(BIN)/python benchmarks/bench_scan.py
+
+clean-venv:
+	rm -rf $(VENV)

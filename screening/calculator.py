@@ -1,0 +1,264 @@
+"""The per-pump calculation: aligned tags -> NPSHa, NPSH3, margin and a state for every moment.
+
+Alignment (see DESIGN.md, "Time weighting"): the timeline of a pump is cut at every sample time
+of any of its tags, at the window's start and at every local midnight. On each piece, every tag
+holds its last sample, for at most that tag's stale limit. A piece therefore has one state for
+as long as all the tags it needs are fresh, and is ``no_data`` for the rest of it. Which tags a
+piece needs depends on what it is: the run status (or flow and speed, without a run tag) to
+decide running or stopped; all process tags when running. Time is kept in integer nanoseconds
+until the very end, so the hours of all states add up to the window.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from . import npsh, states
+from .atmosphere import standard_pressure
+from .curves import Npsh3Curve
+from .loader import TagSeries
+from .policy import Guidance, margin_band
+from .properties import FluidTable
+from .quality import frozen_samples
+from .register import PumpSpec, TagSpec
+from .units import to_si
+
+NS_PER_HOUR = 3_600_000_000_000
+_NEVER = np.iinfo(np.int64).min // 4
+#: Plausible barometric pressures [Pa]; a barometer reading outside is not used.
+BARO_RANGE = (50_000.0, 110_000.0)
+
+
+@dataclass
+class Settings:
+    """What the calculation needs besides the pump: SI units throughout.
+
+    Attributes: stale_limit [s] (plant default), frozen_after [s] or None, min_flow_fraction
+    and min_speed_fraction [-], ample_ratio [-], site_elevation [m].
+    """
+
+    stale_limit: float
+    frozen_after: float | None
+    min_flow_fraction: float
+    min_speed_fraction: float
+    ample_ratio: float
+    site_elevation: float
+
+
+@dataclass
+class PumpResult:
+    """The outcome for one pump over one window."""
+
+    pump_id: str
+    hours: np.ndarray  # [h] per state code
+    daily: np.ndarray  # [h] per day and state code, shape (days, states)
+    window_hours: float
+    worst_ratio: float = np.nan
+    worst_time: pd.Timestamp | None = None
+    baro_fallback_hours: float = 0.0
+    series: pd.DataFrame | None = field(default=None, repr=False)
+
+
+def prepare_tag(
+    series: TagSeries | None, spec: TagSpec, settings: Settings, role: str, check=None
+) -> TagSeries | None:
+    """Convert a tag's raw values to SI, flag frozen and impossible samples (counted)."""
+    if series is None:
+        return None
+    q = series.quality
+    if spec.kind == "status":
+        values = series.values.copy()
+    else:
+        values = to_si(series.values, spec.unit, spec.kind)
+    bad = series.bad.copy()
+    if settings.frozen_after is not None and role != "run":
+        frozen = frozen_samples(series.times, values, bad, int(settings.frozen_after * 1e9))
+        frozen &= ~bad
+        if frozen.any():
+            q.frozen = int(frozen.sum())
+            bad |= frozen
+    if check is not None:
+        impossible = check(values) & ~bad
+        if impossible.any():
+            q.out_of_range = int(impossible.sum())
+            bad |= impossible
+    return TagSeries(series.tag, series.times, values, bad, q)
+
+
+class _Held:
+    """A tag's last sample at each grid point, with the time until which it stays fresh."""
+
+    def __init__(self, s: TagSeries | None, grid: np.ndarray, stale_ns: int):
+        if s is None or len(s.times) == 0:
+            self.value = np.full(len(grid), np.nan)
+            self.bad = np.zeros(len(grid), dtype=bool)
+            self.until = np.full(len(grid), _NEVER, dtype=np.int64)
+            return
+        j = np.searchsorted(s.times, grid, side="right") - 1
+        has = j >= 0
+        jj = np.maximum(j, 0)
+        self.value = s.values[jj]
+        self.bad = s.bad[jj] & has
+        self.until = np.where(has, s.times[jj] + stale_ns, _NEVER)
+
+
+def calculate_pump(
+    pump: PumpSpec,
+    curve: Npsh3Curve,
+    guidance: Guidance,
+    table: FluidTable,
+    tags: dict[str, TagSeries | None],
+    barometer: TagSeries | None,
+    settings: Settings,
+    start_ns: int,
+    end_ns: int,
+    day_edges: np.ndarray,
+    keep_series: bool = False,
+) -> PumpResult:
+    """Screen one pump over the window [start_ns, end_ns).
+
+    Parameters
+    ----------
+    pump : PumpSpec
+        Register row (SI).
+    curve : Npsh3Curve
+        Vendor NPSH3 curve at ``pump.rated_speed``.
+    guidance : Guidance
+        The pump's margin guidance.
+    table : FluidTable
+        Saturated-liquid properties of the pump's fluid.
+    tags : dict
+        Prepared (SI) series by role: suction [Pa], temperature [K], flow [m³/s], and optional
+        speed [rpm] and run [-]; see :func:`prepare_tag`.
+    barometer : TagSeries or None
+        Prepared barometer series [Pa], or None to use the standard atmosphere.
+    settings : Settings
+        Plant-wide rules.
+    start_ns, end_ns : int
+        Window bounds [ns since epoch, UTC]; end exclusive.
+    day_edges : numpy.ndarray
+        Local midnights [ns] from the window start to its end, both included.
+    keep_series : bool
+        Keep the per-piece series (NPSHa, NPSH3, ratio, state) in the result.
+    """
+    def stale_ns(spec: TagSpec | None) -> int:
+        limit = settings.stale_limit if spec is None or spec.stale_limit is None else (
+            spec.stale_limit
+        )
+        return int(round(limit * 1e9))
+
+    # --- the grid: every sample time in the window, the window start and local midnights
+    parts = [np.array([start_ns], dtype=np.int64), day_edges[:-1]]
+    for s in list(tags.values()) + [barometer]:
+        if s is not None and len(s.times):
+            lo, hi = np.searchsorted(s.times, [start_ns, end_ns])
+            parts.append(s.times[lo:hi])
+    grid = np.unique(np.concatenate(parts))
+    grid = grid[(grid >= start_ns) & (grid < end_ns)]
+    t_next = np.append(grid[1:], end_ns)
+    roles = {
+        "suction": pump.suction,
+        "temperature": pump.temperature,
+        "flow": pump.flow,
+        "speed": pump.speed,
+        "run": pump.run,
+    }
+    held = {r: _Held(tags.get(r), grid, stale_ns(spec)) for r, spec in roles.items() if spec}
+
+    # --- running or stopped
+    bep = pump.bep_flow
+    if "run" in held:
+        decide = ["run"]
+        running = held["run"].value > 0.5
+    else:
+        decide = ["flow"] + (["speed"] if "speed" in held else [])
+        running = held["flow"].value > settings.min_flow_fraction * bep
+        if "speed" in held:
+            running &= held["speed"].value > settings.min_speed_fraction * pump.rated_speed
+    decide_bad = np.zeros(len(grid), dtype=bool)
+    decide_until = np.full(len(grid), np.iinfo(np.int64).max, dtype=np.int64)
+    for r in decide:
+        decide_bad |= held[r].bad
+        decide_until = np.minimum(decide_until, held[r].until)
+    all_bad = decide_bad.copy()
+    all_until = decide_until.copy()
+    for r, h in held.items():
+        all_bad |= h.bad
+        all_until = np.minimum(all_until, h.until)
+
+    # --- barometric pressure: the barometer where fresh and plausible, else the standard
+    # atmosphere at the site elevation (U.S. Standard Atmosphere 1976)
+    p_std = standard_pressure(settings.site_elevation)
+    baro = np.full(len(grid), p_std)
+    baro_used = np.zeros(len(grid), dtype=bool)
+    if barometer is not None and len(barometer.times):
+        hb = _Held(barometer, grid, stale_ns(None))
+        fresh = ~hb.bad & (hb.until > grid) & (hb.value >= BARO_RANGE[0])
+        fresh &= hb.value <= BARO_RANGE[1]
+        baro = np.where(fresh, hb.value, p_std)
+        baro_used = fresh
+
+    # --- NPSHa and NPSH3 (pure functions of SI arrays)
+    temp = held["temperature"].value
+    p_v, rho = table.properties(temp)
+    p_abs = npsh.absolute_pressure(held["suction"].value, baro, pump.gauge)
+    flow = held["flow"].value
+    npsha = npsh.npsha_from_pressure(
+        p_abs, p_v, rho, flow, pump.tap_bore, pump.tap_elevation
+    )
+    speed = held["speed"].value if "speed" in held else None
+    npsh3 = curve.at_speed(flow, speed, pump.rated_speed, pump.npsh3_exponent)
+
+    # --- states
+    on_curve = np.isfinite(npsh3) & np.isfinite(npsha)
+    code = np.full(len(grid), states.OFF_CURVE, dtype=np.int8)
+    code[on_curve] = margin_band(npsha[on_curve], npsh3[on_curve], guidance, settings.ample_ratio)
+    code[all_bad] = states.BAD_DATA
+    code[~running] = states.STOPPED
+    code[decide_bad] = states.BAD_DATA
+    until = np.where(running & ~decide_bad, all_until, decide_until)
+
+    # --- time weighting: the fresh part of each piece has the state, the rest has no data
+    length = t_next - grid
+    fresh = np.clip(np.minimum(until, t_next) - grid, 0, None)
+    stale = length - fresh
+    n_days = len(day_edges) - 1
+    day = np.clip(np.searchsorted(day_edges, grid, side="right") - 1, 0, n_days - 1)
+    n_states = len(states.STATES)
+    daily = np.bincount(day * n_states + code, weights=fresh, minlength=n_days * n_states)
+    daily += np.bincount(
+        day * n_states + states.NO_DATA, weights=stale, minlength=n_days * n_states
+    )
+    daily = daily.reshape(n_days, n_states) / NS_PER_HOUR
+    hours = daily.sum(axis=0)
+    window_hours = (end_ns - start_ns) / NS_PER_HOUR
+
+    ratio = npsha / npsh3
+    banded = (code <= states.AMPLE_MARGIN) & (fresh > 0)
+    result = PumpResult(pump.pump_id, hours, daily, window_hours)
+    if banded.any():
+        i = int(np.argmin(np.where(banded, ratio, np.inf)))
+        result.worst_ratio = float(ratio[i])
+        result.worst_time = pd.Timestamp(int(grid[i]), tz="UTC")
+    if pump.gauge:
+        counted = running & ~all_bad & (code != states.STOPPED)
+        result.baro_fallback_hours = float(fresh[counted & ~baro_used].sum() / NS_PER_HOUR)
+    if keep_series:
+        result.series = pd.DataFrame(
+            {
+                "time": pd.to_datetime(grid, utc=True),
+                "hours": fresh / NS_PER_HOUR,
+                "state": pd.Categorical.from_codes(code, categories=list(states.STATES)),
+                "npsha_m": np.where(running, npsha, np.nan),
+                "npsh3_m": np.where(running, npsh3, np.nan),
+                "ratio": np.where(running, ratio, np.nan),
+                "suction_pressure_abs_pa": p_abs,
+                "temperature_k": temp,
+                "flow_m3_s": flow,
+                "speed_rpm": speed if speed is not None else np.nan,
+            }
+        )
+    return result

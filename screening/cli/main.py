@@ -1,0 +1,21 @@
+"""The ``pumpscreen`` command."""
+
+from __future__ import annotations
+
+import typer
+
+from .check_cmd import check_command
+from .scan_cmd import scan_command
+
+app = typer.Typer(
+    name="pumpscreen",
+    help="Screen a plant's centrifugal pumps for NPSH margin from historian exports.",
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+)
+app.command("scan")(scan_command)
+app.command("check")(check_command)
+
+if __name__ == "__main__":  # pragma: no cover
+    app()

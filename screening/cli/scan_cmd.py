@@ -1,0 +1,64 @@
+"""``pumpscreen scan``: screen the whole plant over a window and write the report folder."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from ..report import write_report
+from ..scan import scan
+from .common import (
+    DEBUG_OPTION,
+    EXIT_NOTHING,
+    EXIT_OK,
+    EXIT_PARTIAL,
+    QUIET_OPTION,
+    friendly_errors,
+)
+
+
+@friendly_errors
+def scan_command(
+    config: Path = typer.Argument(..., help="The plant file (TOML).", exists=False),
+    start: str = typer.Option(
+        None, "--from", help="Window start, a date or time (site time zone unless an offset)."
+    ),
+    end: str = typer.Option(None, "--to", help="Window end (exclusive)."),
+    out: Path = typer.Option(
+        None, "--out", help="Report folder (default: reports/<plant file>_<start>_<end>)."
+    ),
+    pump: list[str] = typer.Option(None, "--pump", help="Screen only this pump (repeatable)."),
+    quiet: bool = QUIET_OPTION,
+    debug: bool = DEBUG_OPTION,
+) -> None:
+    """Screen every pump over a window: hours in each NPSH margin band, with every hour counted."""
+    result = scan(config, start, end, pumps=pump or None)
+    if out is None:
+        tz = result.plant.timezone
+        a = result.start.tz_convert(tz).strftime("%Y%m%d")
+        b = result.end.tz_convert(tz).strftime("%Y%m%d")
+        out = Path("reports") / f"{config.stem}_{a}_{b}"
+    folder = write_report(result, out)
+    n_ok, n_bad = len(result.summary), len(result.problems)
+    if not quiet:
+        rate = result.samples / result.elapsed_s if result.elapsed_s else 0.0
+        typer.echo(
+            f"screened {n_ok} pump(s), {n_bad} not screened; {result.samples:,} samples in "
+            f"{result.elapsed_s:.1f} s ({rate:,.0f} samples/s)"
+        )
+        if len(result.summary):
+            worst = result.summary.head(5)
+            typer.echo("most exposed (hours below NPSH3 / below guidance):")
+            for row in worst.itertuples(index=False):
+                typer.echo(
+                    f"  {row.pump_id:<12} {row.below_npsh3_hours:8.1f} h "
+                    f"{row.below_guidance_hours:8.1f} h   {row.service}"
+                )
+        for row in result.problems.itertuples(index=False):
+            typer.echo(f"not screened: {row.pump_id}: {row.message}", err=True)
+        typer.echo("report:")
+    typer.echo(str((folder / "index.html").resolve()))
+    if n_ok == 0:
+        raise typer.Exit(EXIT_NOTHING)
+    raise typer.Exit(EXIT_PARTIAL if n_bad else EXIT_OK)

@@ -1,0 +1,230 @@
+"""The plant file (TOML): site, where the exports are, data rules, margin policy, window.
+
+Validated on load with pydantic; any error names the file, the table and key, and what would be
+valid. Quantities are written with their unit ("120 m", "5 min") and converted to SI here. The
+pump register and the NPSH3 curves are tables of their own (see :mod:`screening.register`).
+"""
+
+from __future__ import annotations
+
+import tomllib
+import zoneinfo
+from pathlib import Path
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
+
+from .units import UnitError, parse_duration, parse_quantity, parse_unit
+
+
+class ConfigError(ValueError):
+    """A config file that cannot be used; the message names file, place and what is valid."""
+
+
+class _Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+def _length(value) -> float:
+    try:
+        return parse_quantity(value, "length", None)
+    except UnitError as exc:
+        raise ValueError(str(exc)) from exc
+
+
+def _duration(value) -> float:
+    try:
+        return parse_duration(value)
+    except UnitError as exc:
+        raise ValueError(str(exc)) from exc
+
+
+class Site(_Strict):
+    """Where the plant is: its name, elevation [m], time zone and optional barometer."""
+
+    name: str
+    elevation: float = Field(description="site elevation above sea level [m]")
+    timezone: str
+    barometer_tag: str | None = None
+    barometer_unit: str | None = None
+
+    _elev = field_validator("elevation", mode="before")(lambda v: _length(v))
+
+    @field_validator("timezone")
+    @classmethod
+    def _tz(cls, v: str) -> str:
+        try:
+            zoneinfo.ZoneInfo(v)
+        except (zoneinfo.ZoneInfoNotFoundError, ValueError) as exc:
+            raise ValueError(
+                f"time zone {v!r} is not an IANA name (for example 'Europe/Berlin', 'UTC', "
+                "'America/Chicago')"
+            ) from exc
+        return v
+
+    @field_validator("barometer_unit")
+    @classmethod
+    def _baro_unit(cls, v):
+        if v is not None:
+            try:
+                parse_unit(v, "pressure")
+            except UnitError as exc:
+                raise ValueError(str(exc)) from exc
+        return v
+
+
+class RegisterFiles(_Strict):
+    """Paths (relative to the plant file) of the pump register and the NPSH3 curves."""
+
+    pumps: str
+    curves: str
+
+
+class DataRules(_Strict):
+    """How samples are held and judged: stale limit [s], frozen-value limit [s], quality."""
+
+    stale_limit: float = 300.0
+    frozen_after: float | None = 6 * 3600.0
+    good_quality: tuple[str, ...] = ("good",)
+
+    _dur = field_validator("stale_limit", "frozen_after", mode="before")(
+        lambda v: None if v in (None, "", "none", "off") else _duration(v)
+    )
+
+    @field_validator("stale_limit")
+    @classmethod
+    def _positive(cls, v: float) -> float:
+        if v <= 0:
+            raise ValueError("stale_limit must be a positive duration such as '5 min'")
+        return v
+
+
+class Running(_Strict):
+    """When no run-status tag exists: running above these fractions of BEP flow and speed."""
+
+    min_flow_fraction: float = Field(0.05, ge=0, le=1)
+    min_speed_fraction: float = Field(0.2, ge=0, le=1)
+
+
+class Window(_Strict):
+    """Default screening window (dates in the site time zone; end exclusive)."""
+
+    start: str | None = None
+    end: str | None = None
+
+
+class ExportSource(_Strict):
+    """One family of historian export files and how they are laid out."""
+
+    files: str = Field(description="glob relative to the plant file")
+    layout: Literal["wide", "long"]
+    format: Literal["csv", "parquet"] | None = None
+    time_column: str = "timestamp"
+    tag_column: str = "tag"
+    value_column: str = "value"
+    quality_column: str | None = None
+    delimiter: str = ","
+    decimal: str = "."
+    encoding: str = "utf-8"
+
+
+class PolicyRule(_Strict):
+    """Minimum margin for an application class and suction-specific-speed range (US units).
+
+    Guidance head = max(ratio · NPSH3, NPSH3 + margin): "ratio or margin, whichever is
+    greater" (ANSI/HI 9.6.1-2012, as summarised in secondary sources).
+    """
+
+    application: str
+    min_suction_specific_speed: float | None = None
+    max_suction_specific_speed: float | None = None
+    ratio: float = Field(gt=0)
+    margin: float = Field(description="margin above NPSH3 [m]")
+
+    _m = field_validator("margin", mode="before")(lambda v: _length(v))
+
+    def matches(self, application: str, s: float) -> bool:
+        """True when this rule applies to ``application`` at suction specific speed ``s``."""
+        if application != self.application:
+            return False
+        if self.min_suction_specific_speed is not None and s < self.min_suction_specific_speed:
+            return False
+        if self.max_suction_specific_speed is not None and s >= self.max_suction_specific_speed:
+            return False
+        return True
+
+
+class Policy(_Strict):
+    """The margin policy: guidance rules and the ratio from which margin is called ample."""
+
+    ample_ratio: float = Field(2.0, gt=1)
+    rules: tuple[PolicyRule, ...] = Field(min_length=1)
+
+
+class PlantFile(_Strict):
+    """The whole plant file."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True, populate_by_name=True)
+
+    site: Site
+    register_files: RegisterFiles = Field(alias="register")
+    data: DataRules = DataRules()
+    running: Running = Running()
+    window: Window = Window()
+    exports: tuple[ExportSource, ...] = Field(min_length=1)
+    policy: Policy
+
+
+def _location(loc: tuple) -> str:
+    parts = []
+    for item in loc:
+        if isinstance(item, int):
+            parts[-1] = f"{parts[-1]}[{item + 1}]" if parts else f"[{item + 1}]"
+        else:
+            parts.append(str(item))
+    return ".".join(parts)
+
+
+def read_plant_file(path: str | Path) -> tuple[PlantFile, Path]:
+    """Read and validate a plant file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML file.
+
+    Returns
+    -------
+    (PlantFile, Path)
+        The validated settings (SI units) and the folder that relative paths start from.
+
+    Raises
+    ------
+    ConfigError
+        Naming the file, the key and what would be valid.
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8-sig")
+    except FileNotFoundError as exc:
+        raise ConfigError(f"{path}: plant file not found") from exc
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ConfigError(f"{path}: cannot be read as UTF-8 text ({exc})") from exc
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(f"{path}: not valid TOML: {exc}") from exc
+    try:
+        plant = PlantFile.model_validate(raw)
+    except ValidationError as exc:
+        lines = []
+        for err in exc.errors():
+            where = _location(err["loc"]) or "(top level)"
+            msg = err["msg"].removeprefix("Value error, ")
+            if err["type"] == "extra_forbidden":
+                msg = "unknown key (check its spelling; see the configuration reference)"
+            if err["type"] == "too_short" and any(line.startswith(f"{path}: [{where}") for line in lines):
+                continue  # the item's own error says more than "too few items"
+            lines.append(f"{path}: [{where}] {msg}")
+        raise ConfigError("\n".join(lines)) from None
+    return plant, path.parent

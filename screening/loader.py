@@ -1,0 +1,370 @@
+"""Readers of historian exports: CSV (plain or gzip) and Parquet, wide and long layouts.
+
+The loader turns files into one time series per tag: sorted unique UTC times, the raw numbers
+(in the tag's own unit; the calculator converts to SI), and a bad flag per sample. Nothing is
+dropped silently: text in a numeric column, a bad quality word, a non-finite number, an
+unplaceable timestamp, a duplicate or out-of-order row are all counted per tag in a
+:class:`TagQuality` together with the first file and row where each was seen. Values that are
+bad stay in the series as bad samples, so their time is counted as bad data.
+
+Only the tags and the time span asked for are read: wide files by column, long Parquet files
+with a filter on the tag column. The index of which file holds which tag is built once.
+"""
+
+from __future__ import annotations
+
+import glob
+import gzip
+from collections import OrderedDict
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.parquet as pq
+
+from .config import ExportSource, PlantFile
+from .timestamps import parse_times
+
+
+class ExportError(ValueError):
+    """An export file that cannot be read; the message names the file and the column."""
+
+
+@dataclass
+class TagQuality:
+    """What the loader found for one tag (counts of samples, first place of each problem)."""
+
+    tag: str
+    samples: int = 0
+    text_values: int = 0
+    bad_quality: int = 0
+    not_finite: int = 0
+    bad_timestamps: int = 0
+    duplicates: int = 0
+    out_of_order: int = 0
+    frozen: int = 0
+    out_of_range: int = 0
+    words: dict[str, int] = field(default_factory=dict)
+    first_problem: dict[str, str] = field(default_factory=dict)
+
+    def note(self, kind: str, where: str) -> None:
+        """Remember the first place a problem of ``kind`` was seen."""
+        self.first_problem.setdefault(kind, where)
+
+
+@dataclass
+class TagSeries:
+    """One tag's samples: times [ns since epoch, UTC], raw values, bad flags."""
+
+    tag: str
+    times: np.ndarray
+    values: np.ndarray
+    bad: np.ndarray
+    quality: TagQuality
+
+
+@dataclass(frozen=True)
+class _FileInfo:
+    path: Path
+    source: ExportSource
+    fmt: str
+    tags: frozenset[str]
+
+
+def _format_of(path: Path, source: ExportSource) -> str:
+    if source.format:
+        return source.format
+    name = path.name.lower()
+    if name.endswith(".parquet") or name.endswith(".pq"):
+        return "parquet"
+    if name.endswith(".csv") or name.endswith(".csv.gz") or name.endswith(".txt"):
+        return "csv"
+    raise ExportError(f"{path}: cannot tell the format from the name; set 'format' in [[exports]]")
+
+
+def _csv_header(path: Path, source: ExportSource) -> list[str]:
+    opener = gzip.open if path.name.lower().endswith(".gz") else open
+    try:
+        with opener(path, "rt", encoding=source.encoding, newline="") as fh:
+            line = fh.readline()
+    except (OSError, UnicodeDecodeError, EOFError) as exc:
+        raise ExportError(f"{path}: cannot be read ({exc})") from exc
+    line = line.lstrip("\ufeff").rstrip("\r\n")
+    if not line:
+        raise ExportError(f"{path}: empty file (no header line)")
+    return [c.strip().strip('"') for c in line.split(source.delimiter)]
+
+
+class ExportIndex:
+    """The export files of a plant and the tags each holds; reads tags on demand.
+
+    Parameters
+    ----------
+    plant : PlantFile
+        Validated plant file.
+    base : Path
+        Folder the export globs are relative to.
+    """
+
+    def __init__(self, plant: PlantFile, base: Path):
+        self.plant = plant
+        self.timezone = plant.site.timezone
+        self.good_quality = {q.strip().lower() for q in plant.data.good_quality}
+        self.files: list[_FileInfo] = []
+        #: Files that could not be read at all: path -> message.
+        self.file_problems: dict[str, str] = {}
+        self._by_tag: dict[str, list[_FileInfo]] = {}
+        self._time_cache: OrderedDict[Path, tuple[np.ndarray, np.ndarray]] = OrderedDict()
+        for source in plant.exports:
+            pattern = source.files
+            if not Path(pattern).is_absolute():
+                pattern = str(base / pattern)
+            matches = sorted(glob.glob(pattern, recursive=True))
+            if not matches:
+                self.file_problems[pattern] = "no file matches this pattern"
+            for name in matches:
+                path = Path(name)
+                try:
+                    info = self._inspect(path, source)
+                except ExportError as exc:
+                    self.file_problems[str(path)] = str(exc)
+                    continue
+                self.files.append(info)
+                for tag in info.tags:
+                    self._by_tag.setdefault(tag, []).append(info)
+
+    # -- discovery ---------------------------------------------------------------------------
+    def _inspect(self, path: Path, source: ExportSource) -> _FileInfo:
+        fmt = _format_of(path, source)
+        if source.layout == "wide":
+            if fmt == "parquet":
+                try:
+                    names = pq.read_schema(path).names
+                except (pa.ArrowException, OSError) as exc:
+                    raise ExportError(f"{path}: not a readable Parquet file ({exc})") from exc
+            else:
+                names = _csv_header(path, source)
+            if source.time_column not in names:
+                raise ExportError(
+                    f"{path}: no time column {source.time_column!r} (columns: "
+                    f"{', '.join(names[:8])}{', ...' if len(names) > 8 else ''})"
+                )
+            tags = frozenset(n for n in names if n != source.time_column)
+        else:
+            needed = [source.tag_column, source.time_column, source.value_column]
+            if source.quality_column:
+                needed.append(source.quality_column)
+            if fmt == "parquet":
+                try:
+                    names = pq.read_schema(path).names
+                    missing = [c for c in needed if c not in names]
+                    if missing:
+                        raise ExportError(f"{path}: missing column(s) {', '.join(missing)}")
+                    col = pq.read_table(path, columns=[source.tag_column]).column(0)
+                    tags = frozenset(str(t) for t in pc.unique(col).to_pylist() if t is not None)
+                except (pa.ArrowException, OSError) as exc:
+                    raise ExportError(f"{path}: not a readable Parquet file ({exc})") from exc
+            else:
+                names = _csv_header(path, source)
+                missing = [c for c in needed if c not in names]
+                if missing:
+                    raise ExportError(
+                        f"{path}: missing column(s) {', '.join(missing)} (found: "
+                        f"{', '.join(names)})"
+                    )
+                frame = self._read_csv(path, source, [source.tag_column])
+                tags = frozenset(frame[source.tag_column].dropna().str.strip().unique())
+        return _FileInfo(path, source, fmt, tags)
+
+    def known_tags(self) -> set[str]:
+        """Every tag found in any readable export file."""
+        return set(self._by_tag)
+
+    def files_for(self, tag: str) -> list[Path]:
+        """The files that hold ``tag``."""
+        return [f.path for f in self._by_tag.get(tag, [])]
+
+    # -- reading -----------------------------------------------------------------------------
+    def _read_csv(self, path: Path, source: ExportSource, columns: list[str]) -> pd.DataFrame:
+        try:
+            return pd.read_csv(
+                path,
+                usecols=lambda c: c.strip().strip('"').lstrip("\ufeff") in columns,
+                dtype=str,
+                keep_default_na=False,
+                na_values=[""],
+                sep=source.delimiter,
+                encoding=source.encoding,
+                skipinitialspace=True,
+            ).rename(columns=lambda c: c.strip().strip('"').lstrip("\ufeff"))
+        except (pd.errors.ParserError, UnicodeDecodeError, OSError, EOFError, ValueError) as exc:
+            raise ExportError(f"{path}: cannot be read as CSV ({exc})") from exc
+
+    def _wide_times(self, info: _FileInfo, raw: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+        cached = self._time_cache.get(info.path)
+        if cached is None:
+            cached = parse_times(raw, self.timezone)
+            self._time_cache[info.path] = cached
+            while len(self._time_cache) > 64:
+                self._time_cache.popitem(last=False)
+        return cached
+
+    def read(self, tags: list[str]) -> tuple[dict[str, TagSeries], dict[str, str]]:
+        """Read ``tags`` from every file that holds them.
+
+        Returns
+        -------
+        (series, problems)
+            One :class:`TagSeries` per tag found, and file problems met while reading
+            (path -> message); a tag whose every file failed is absent from ``series``.
+        """
+        wanted = [t for t in dict.fromkeys(tags) if t in self._by_tag]
+        chunks: dict[str, list[tuple]] = {t: [] for t in wanted}
+        quality = {t: TagQuality(t) for t in wanted}
+        problems: dict[str, str] = {}
+        files: dict[Path, tuple[_FileInfo, list[str]]] = {}
+        for tag in wanted:
+            for info in self._by_tag[tag]:
+                files.setdefault(info.path, (info, []))[1].append(tag)
+        for info, file_tags in files.values():
+            try:
+                if info.source.layout == "wide":
+                    self._read_wide(info, file_tags, chunks, quality)
+                else:
+                    self._read_long(info, file_tags, chunks, quality)
+            except ExportError as exc:
+                problems[str(info.path)] = str(exc)
+        series = {}
+        for tag in wanted:
+            if chunks[tag] or quality[tag].samples or quality[tag].bad_timestamps:
+                series[tag] = _assemble(tag, chunks[tag], quality[tag])
+        return series, problems
+
+    def _read_wide(self, info, tags, chunks, quality) -> None:
+        src = info.source
+        cols = [src.time_column, *tags]
+        if info.fmt == "parquet":
+            try:
+                frame = pq.read_table(info.path, columns=cols).to_pandas()
+            except (pa.ArrowException, OSError) as exc:
+                raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
+            first_row = 0
+        else:
+            frame = self._read_csv(info.path, src, cols)
+            first_row = 2  # line numbers: the header is line 1
+        times, ok = self._wide_times(info, frame[src.time_column])
+        rows = np.arange(len(frame)) + first_row
+        for tag in tags:
+            raw = frame[tag]
+            present = raw.notna().to_numpy()
+            _add_chunk(
+                tag, info, raw[present], times[present], ok[present], rows[present],
+                None, chunks, quality, self.good_quality,
+            )  # fmt: skip
+
+    def _read_long(self, info, tags, chunks, quality) -> None:
+        src = info.source
+        cols = [src.tag_column, src.time_column, src.value_column]
+        if src.quality_column:
+            cols.append(src.quality_column)
+        if info.fmt == "parquet":
+            try:
+                table = pq.read_table(
+                    info.path, columns=cols, filters=[(src.tag_column, "in", list(tags))]
+                )
+            except (pa.ArrowException, OSError) as exc:
+                raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
+            frame = table.to_pandas()
+            rows = np.arange(len(frame))
+            label = "row"
+        else:
+            frame = self._read_csv(info.path, src, cols)
+            rows = np.arange(len(frame)) + 2
+            label = "line"
+            frame[src.tag_column] = frame[src.tag_column].str.strip()
+            keep = frame[src.tag_column].isin(tags).to_numpy()
+            frame, rows = frame[keep], rows[keep]
+        frame = frame.reset_index(drop=True)
+        times, ok = parse_times(frame[src.time_column], self.timezone, frame[src.tag_column])
+        tag_col = frame[src.tag_column].astype(str).to_numpy()
+        for tag in tags:
+            sel = tag_col == tag
+            qual = frame[src.quality_column][sel] if src.quality_column else None
+            _add_chunk(
+                tag, info, frame[src.value_column][sel], times[sel], ok[sel], rows[sel],
+                qual, chunks, quality, self.good_quality, label,
+            )  # fmt: skip
+
+
+def _add_chunk(tag, info, raw, times, ok, rows, qual, chunks, quality, good, label="line"):
+    """Parse one file's values of one tag into numbers and bad flags; count the problems."""
+    q: TagQuality = quality[tag]
+    if len(raw) == 0:
+        return
+    where = f"{info.path} {label} "
+    if not ok.all():
+        q.bad_timestamps += int((~ok).sum())
+        q.note("bad timestamp", where + str(rows[~ok][0]))
+    raw = raw[ok] if not ok.all() else raw
+    times, rows = times[ok], rows[ok]
+    if qual is not None:
+        qual = qual[ok]
+    if raw.dtype.kind == "f" or raw.dtype.kind in "iu":
+        values = raw.to_numpy(dtype=np.float64)
+        is_text = np.zeros(len(values), dtype=bool)
+    else:
+        text = raw.astype("string").str.strip()
+        if info.source.decimal != ".":
+            text = text.str.replace(info.source.decimal, ".", regex=False)
+        values = pd.to_numeric(text, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan)
+        is_text = np.isnan(values) & text.notna().to_numpy()
+        if is_text.any():
+            q.text_values += int(is_text.sum())
+            q.note("text value", where + str(rows[is_text][0]))
+            for word, count in text[is_text].value_counts().items():
+                q.words[str(word)] = q.words.get(str(word), 0) + int(count)
+    not_finite = ~np.isfinite(values) & ~is_text
+    if not_finite.any():
+        q.not_finite += int(not_finite.sum())
+        q.note("missing or infinite value", where + str(rows[not_finite][0]))
+    bad = is_text | not_finite
+    if qual is not None:
+        words = qual.astype("string").str.strip().str.lower().fillna("")
+        bad_q = (~words.isin(good) & (words != "")).to_numpy()
+        if bad_q.any():
+            q.bad_quality += int(bad_q.sum())
+            q.note("bad quality", where + str(rows[bad_q][0]))
+        bad = bad | bad_q
+    back = np.diff(times) < 0
+    if back.any():
+        q.out_of_order += int(back.sum())
+        q.note("out of order", where + str(rows[1:][back][0]))
+    q.samples += len(values)
+    chunks[tag].append((times, values, bad))
+
+
+def _assemble(tag: str, parts: list[tuple], q: TagQuality) -> TagSeries:
+    """Merge a tag's chunks: sort by time (stable) and keep the last of duplicate times."""
+    if parts:
+        times = np.concatenate([p[0] for p in parts])
+        values = np.concatenate([p[1] for p in parts])
+        bad = np.concatenate([p[2] for p in parts])
+    else:
+        times = np.zeros(0, np.int64)
+        values = np.zeros(0)
+        bad = np.zeros(0, bool)
+    if len(times) > 1 and np.any(np.diff(times) < 0):
+        order = np.argsort(times, kind="stable")
+        times, values, bad = times[order], values[order], bad[order]
+    if len(times) > 1:
+        last = np.append(times[1:] != times[:-1], True)
+        dup = int((~last).sum())
+        if dup:
+            # Several samples at one instant: the last in file order stands (a historian's
+            # later correction); the others are counted as duplicates.
+            q.duplicates += dup
+            times, values, bad = times[last], values[last], bad[last]
+    return TagSeries(tag, times, values, bad, q)

@@ -1,0 +1,42 @@
+"""The report's colours: a palette of our own, readable by colour-blind readers and in grey.
+
+Worse margin is darker and warmer (brown to amber), healthy margin is blue, states without a
+margin are greys; lightness alone orders the bands, so a greyscale print keeps their order.
+Every bar and cell also carries a text label, so colour never carries meaning alone.
+"""
+
+from __future__ import annotations
+
+STATE_COLOURS: dict[str, str] = {
+    "below_npsh3": "#5c2a00",
+    "below_guidance": "#c7761c",
+    "meets_guidance": "#9cc3e4",
+    "ample_margin": "#2d5f8f",
+    "off_curve": "#7d7d7d",
+    "stopped": "#d6d6d6",
+    "no_data": "#f4f4f4",
+    "bad_data": "#262626",
+}
+
+#: Fill patterns (plotly bar pattern shapes) so that the states differ without colour.
+STATE_PATTERNS: dict[str, str] = {
+    "below_npsh3": "x",
+    "below_guidance": "/",
+    "meets_guidance": "",
+    "ample_margin": "",
+    "off_curve": ".",
+    "stopped": "",
+    "no_data": "\\",
+    "bad_data": "+",
+}
+
+STATE_LABELS: dict[str, str] = {
+    "below_npsh3": "below NPSH3",
+    "below_guidance": "below guidance",
+    "meets_guidance": "meets guidance",
+    "ample_margin": "ample margin",
+    "off_curve": "off the vendor curve",
+    "stopped": "stopped",
+    "no_data": "no data",
+    "bad_data": "bad data",
+}

@@ -1,0 +1,341 @@
+"""The pump register and the NPSH3 curves: tables (CSV), one row per pump or curve point.
+
+A column header may carry the unit of its plain numbers in brackets, ``tap_elevation [m]``; a
+cell may carry its own unit, ``3.5 ft``, which then wins. A number with no unit anywhere is an
+error: units are never guessed. Errors name the file, the line, the column and what would be
+valid. A bad row concerns only its pump: it is reported and the rest of the register is used.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .config import ConfigError
+from .curves import CurveError, Npsh3Curve
+from .units import UnitError, parse_quantity, parse_unit
+
+REQUIRED = (
+    "pump_id",
+    "fluid",
+    "application",
+    "suction_pressure_tag",
+    "suction_pressure_unit",
+    "suction_pressure_reference",
+    "temperature_tag",
+    "temperature_unit",
+    "flow_tag",
+    "flow_unit",
+    "tap_elevation",
+    "tap_bore",
+    "rated_speed",
+    "bep_flow",
+    "curve_id",
+)
+OPTIONAL = (
+    "service",
+    "area",
+    "speed_tag",
+    "speed_unit",
+    "run_tag",
+    "npsh3_exponent",
+    "impeller_eyes",
+    "stale_limit",
+    "suction_specific_speed",
+    "guidance_ratio",
+    "guidance_margin",
+)
+_HEADER = re.compile(r"^\s*([A-Za-z0-9_]+)\s*(?:\[(.*)\])?\s*$")
+
+
+@dataclass(frozen=True)
+class TagSpec:
+    """A historian tag of a pump: its name, unit as written, and quantity kind."""
+
+    tag: str
+    unit: str
+    kind: str
+    stale_limit: float | None = None  # [s]; None: the plant default
+
+
+@dataclass(frozen=True)
+class PumpSpec:
+    """One pump of the register, in SI units.
+
+    Attributes: tap_elevation [m], tap_bore [m], rated_speed [rpm], bep_flow [m³/s],
+    npsh3_exponent [-], impeller_eyes [-], guidance_margin [m].
+    """
+
+    pump_id: str
+    service: str
+    area: str
+    fluid: str
+    application: str
+    suction: TagSpec
+    gauge: bool
+    temperature: TagSpec
+    flow: TagSpec
+    speed: TagSpec | None
+    run: TagSpec | None
+    tap_elevation: float
+    tap_bore: float
+    rated_speed: float
+    bep_flow: float
+    curve_id: str
+    npsh3_exponent: float = 2.0
+    impeller_eyes: int = 1
+    suction_specific_speed: float | None = None
+    guidance_ratio: float | None = None
+    guidance_margin: float | None = None
+    line: int = 0
+
+    def tags(self) -> dict[str, TagSpec]:
+        """The pump's tags by role (suction, temperature, flow, speed, run)."""
+        roles = {"suction": self.suction, "temperature": self.temperature, "flow": self.flow}
+        if self.speed is not None:
+            roles["speed"] = self.speed
+        if self.run is not None:
+            roles["run"] = self.run
+        return roles
+
+
+@dataclass(frozen=True)
+class RowProblem:
+    """A register row or curve that could not be used, and why."""
+
+    pump_id: str
+    message: str
+
+
+def _read_table(path: Path) -> tuple[pd.DataFrame, dict[str, str | None]]:
+    try:
+        frame = pd.read_csv(path, dtype=str, keep_default_na=False, encoding="utf-8-sig")
+    except FileNotFoundError as exc:
+        raise ConfigError(f"{path}: file not found") from exc
+    except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError) as exc:
+        raise ConfigError(f"{path}: cannot be read as a CSV table ({exc})") from exc
+    units: dict[str, str | None] = {}
+    names = []
+    for col in frame.columns:
+        match = _HEADER.match(str(col))
+        if not match:
+            raise ConfigError(f"{path}: column header {col!r} is not 'name' or 'name [unit]'")
+        names.append(match.group(1))
+        units[match.group(1)] = (match.group(2) or "").strip() or None
+    frame.columns = names
+    frame = frame.apply(lambda s: s.str.strip())
+    return frame, units
+
+
+class _Row:
+    """Reads the cells of one register row, raising errors that name the column."""
+
+    def __init__(self, path: Path, line: int, row: pd.Series, units: dict[str, str | None]):
+        self.path, self.line, self.row, self.units = path, line, row, units
+
+    def fail(self, column: str, message: str):
+        pump = self.row.get("pump_id", "") or "?"
+        raise ConfigError(
+            f"{self.path} line {self.line} (pump {pump}), column '{column}': {message}"
+        )
+
+    def text(self, column: str, required: bool = True) -> str | None:
+        value = self.row.get(column, "")
+        if value == "" or value is None:
+            if required:
+                self.fail(column, "is empty; a value is required")
+            return None
+        return str(value)
+
+    def quantity(self, column: str, kind: str, required: bool = True) -> float | None:
+        value = self.text(column, required)
+        if value is None:
+            return None
+        try:
+            return parse_quantity(value, kind, self.units.get(column))
+        except UnitError as exc:
+            self.fail(column, str(exc))
+
+    def number(self, column: str, default: float | None, low: float, high: float):
+        value = self.text(column, required=False)
+        if value is None:
+            return default
+        try:
+            number = float(value)
+        except ValueError:
+            self.fail(column, f"{value!r} is not a number")
+        if not (low <= number <= high):
+            self.fail(column, f"{value} is outside the valid range {low} to {high}")
+        return number
+
+    def unit(self, column: str, kind: str, required: bool = True) -> str | None:
+        value = self.text(column, required)
+        if value is not None:
+            try:
+                parse_unit(value, kind)
+            except UnitError as exc:
+                self.fail(column, str(exc))
+        return value
+
+
+def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
+    r = _Row(path, line, row, units)
+    stale = r.quantity("stale_limit", "duration", required=False)
+    if stale is not None and stale <= 0:
+        r.fail("stale_limit", "must be a positive duration such as '15 min'")
+
+    def tag(role: str, kind: str, required: bool = True) -> TagSpec | None:
+        name = r.text(f"{role}_tag", required)
+        if name is None:
+            return None
+        unit = r.unit(f"{role}_unit", kind)
+        return TagSpec(name, unit, kind, stale)
+
+    reference = r.text("suction_pressure_reference")
+    if reference.lower() not in ("gauge", "absolute"):
+        r.fail("suction_pressure_reference", f"{reference!r} is not 'gauge' or 'absolute'")
+    run_name = r.text("run_tag", required=False)
+    bore = r.quantity("tap_bore", "length")
+    if bore <= 0:
+        r.fail("tap_bore", "must be a positive pipe bore")
+    rated = r.quantity("rated_speed", "speed")
+    if rated <= 0:
+        r.fail("rated_speed", "must be a positive speed")
+    bep = r.quantity("bep_flow", "flow")
+    if bep <= 0:
+        r.fail("bep_flow", "must be a positive flow")
+    eyes = r.number("impeller_eyes", 1, 1, 2)
+    if eyes != int(eyes):
+        r.fail("impeller_eyes", "must be 1 (single suction) or 2 (double suction)")
+    return PumpSpec(
+        pump_id=r.text("pump_id"),
+        service=r.text("service", required=False) or "",
+        area=r.text("area", required=False) or "",
+        fluid=r.text("fluid"),
+        application=r.text("application"),
+        suction=tag("suction_pressure", "pressure"),
+        gauge=reference.lower() == "gauge",
+        temperature=tag("temperature", "temperature"),
+        flow=tag("flow", "flow"),
+        speed=tag("speed", "speed", required=False),
+        run=TagSpec(run_name, "", "status", stale) if run_name else None,
+        tap_elevation=r.quantity("tap_elevation", "length"),
+        tap_bore=bore,
+        rated_speed=rated,
+        bep_flow=bep,
+        curve_id=r.text("curve_id"),
+        npsh3_exponent=r.number("npsh3_exponent", 2.0, 0.5, 3.0),
+        impeller_eyes=int(eyes),
+        suction_specific_speed=r.number("suction_specific_speed", None, 1.0, 1e5),
+        guidance_ratio=r.number("guidance_ratio", None, 1.0, 10.0),
+        guidance_margin=r.quantity("guidance_margin", "length", required=False),
+        line=line,
+    )
+
+
+def read_pump_register(
+    path: str | Path, default_stale: float = 300.0
+) -> tuple[dict[str, PumpSpec], list[RowProblem]]:
+    """Read the pump register (CSV).
+
+    Parameters
+    ----------
+    path : str or Path
+        The register file.
+    default_stale : float
+        Plant default stale limit [s] (kept for rows that give none).
+
+    Returns
+    -------
+    (pumps, problems)
+        Usable pumps by id, and one :class:`RowProblem` per row that could not be used.
+
+    Raises
+    ------
+    ConfigError
+        If the file cannot be read, or a required column is missing or unknown.
+    """
+    path = Path(path)
+    frame, units = _read_table(path)
+    missing = [c for c in REQUIRED if c not in frame.columns]
+    if missing:
+        raise ConfigError(f"{path}: missing required column(s) {', '.join(missing)}")
+    unknown = [c for c in frame.columns if c not in REQUIRED + OPTIONAL]
+    if unknown:
+        raise ConfigError(
+            f"{path}: unknown column(s) {', '.join(unknown)}; valid columns are "
+            f"{', '.join(REQUIRED + OPTIONAL)}"
+        )
+    pumps: dict[str, PumpSpec] = {}
+    problems: list[RowProblem] = []
+    for i, (_, row) in enumerate(frame.iterrows()):
+        line = i + 2  # the header is line 1
+        pid = row.get("pump_id", "") or f"(line {line})"
+        try:
+            spec = _pump_from_row(path, line, row, units, default_stale)
+        except ConfigError as exc:
+            problems.append(RowProblem(pid, str(exc)))
+            continue
+        if spec.pump_id in pumps:
+            problems.append(
+                RowProblem(
+                    pid,
+                    f"{path} line {line}, column 'pump_id': {pid!r} already used on line "
+                    f"{pumps[spec.pump_id].line}",
+                )
+            )
+            continue
+        pumps[spec.pump_id] = spec
+    return pumps, problems
+
+
+def read_curves(path: str | Path) -> tuple[dict[str, Npsh3Curve], dict[str, str]]:
+    """Read the NPSH3 curves (CSV: curve_id, flow, flow_unit, npsh3, npsh3_unit).
+
+    Units may instead be in the headers (``flow [m3/h]``) or in the cells (``120 gpm``).
+
+    Returns
+    -------
+    (curves, problems)
+        Usable curves by id [SI: m³/s and m], and a message per curve that could not be used.
+    """
+    path = Path(path)
+    frame, units = _read_table(path)
+    for col in ("curve_id", "flow", "npsh3"):
+        if col not in frame.columns:
+            raise ConfigError(f"{path}: missing required column {col!r}")
+    curves: dict[str, Npsh3Curve] = {}
+    problems: dict[str, str] = {}
+    flows: dict[str, list[float]] = {}
+    heads: dict[str, list[float]] = {}
+    for i, (_, row) in enumerate(frame.iterrows()):
+        line = i + 2
+        cid = row["curve_id"]
+        if not cid:
+            raise ConfigError(f"{path} line {line}, column 'curve_id': is empty")
+        try:
+            q = parse_quantity(row["flow"], "flow", row.get("flow_unit") or units.get("flow"))
+        except UnitError as exc:
+            problems.setdefault(cid, f"{path} line {line}, column 'flow': {exc}")
+            continue
+        try:
+            h = parse_quantity(
+                row["npsh3"], "length", row.get("npsh3_unit") or units.get("npsh3")
+            )
+        except UnitError as exc:
+            problems.setdefault(cid, f"{path} line {line}, column 'npsh3': {exc}")
+            continue
+        flows.setdefault(cid, []).append(q)
+        heads.setdefault(cid, []).append(h)
+    for cid in flows:
+        if cid in problems:
+            continue
+        try:
+            curves[cid] = Npsh3Curve(cid, np.array(flows[cid]), np.array(heads[cid]))
+        except CurveError as exc:
+            problems[cid] = f"{path}: {exc}"
+    return curves, problems

@@ -1,0 +1,324 @@
+"""The plant scan: every pump of a plant over one window, as tidy tables.
+
+This is the Python API the command line uses: ``screening.scan(config, start, end)`` returns a
+:class:`ScanResult` of pandas data frames.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from . import states
+from .calculator import PumpResult, Settings, calculate_pump, prepare_tag
+from .loader import ExportError, ExportIndex, TagQuality
+from .plant import Plant, load_plant, pump_suction_specific_speed
+from .properties import fluid_table
+from .units import UnitError, to_si
+
+
+class WindowError(ValueError):
+    """A screening window that cannot be used."""
+
+
+@dataclass
+class ScanResult:
+    """Tables of a plant scan (tidy; units in column names).
+
+    Attributes
+    ----------
+    hours : DataFrame
+        ``pump_id``, ``state``, ``hours``: one row per screened pump and state, zeros included.
+    summary : DataFrame
+        One row per screened pump: hours running, worst ratio, hours below guidance, coverage.
+    daily : DataFrame
+        ``pump_id``, ``date``, ``state``, ``hours``: hours per local day and state.
+    quality : DataFrame
+        One row per pump and tag: what the loader found (text values, bad quality, ...).
+    problems : DataFrame
+        ``pump_id``, ``stage``, ``message``: pumps that could not be screened, and why.
+    file_problems : DataFrame
+        ``file``, ``message``: export files that could not be read.
+    """
+
+    plant: Plant
+    start: pd.Timestamp
+    end: pd.Timestamp
+    hours: pd.DataFrame
+    summary: pd.DataFrame
+    daily: pd.DataFrame
+    quality: pd.DataFrame
+    problems: pd.DataFrame
+    file_problems: pd.DataFrame
+    series: dict[str, pd.DataFrame] = field(default_factory=dict)
+    elapsed_s: float = 0.0
+    samples: int = 0
+
+    @property
+    def window_hours(self) -> float:
+        """Length of the window [h]."""
+        return (self.end - self.start).total_seconds() / 3600.0
+
+
+def window_bounds(plant: Plant, start=None, end=None) -> tuple[pd.Timestamp, pd.Timestamp]:
+    """The window [start, end) as UTC timestamps; dates without offset are site-local.
+
+    Parameters
+    ----------
+    plant : Plant
+    start, end : str, date or Timestamp, optional
+        Window bounds; default to the plant file's ``[window]``.
+    """
+    start = start if start is not None else plant.settings.window.start
+    end = end if end is not None else plant.settings.window.end
+    if start is None or end is None:
+        raise WindowError("no window: give --from and --to, or [window] start and end")
+    out = []
+    for name, value in (("start", start), ("end", end)):
+        try:
+            ts = pd.Timestamp(value)
+        except (ValueError, TypeError) as exc:
+            raise WindowError(f"window {name} {value!r} is not a date such as 2026-10-01") from exc
+        if ts.tzinfo is None:
+            try:
+                ts = ts.tz_localize(plant.timezone, ambiguous="raise", nonexistent="raise")
+            except Exception as exc:
+                raise WindowError(
+                    f"window {name} {value} is not a single instant in {plant.timezone} "
+                    "(a clock change); give it with an offset"
+                ) from exc
+        out.append(ts.tz_convert("UTC"))
+    if out[1] <= out[0]:
+        raise WindowError(f"window end {end} is not after its start {start}")
+    return out[0], out[1]
+
+
+def _day_edges(start: pd.Timestamp, end: pd.Timestamp, tz: str) -> np.ndarray:
+    local_start = start.tz_convert(tz)
+    first = local_start.normalize()
+    days = pd.date_range(first, end.tz_convert(tz).normalize() + pd.Timedelta(days=1), freq="D")
+    edges = days.tz_convert("UTC").as_unit("ns").asi8
+    inner = edges[(edges > start.value) & (edges < end.value)]
+    return np.concatenate(([start.value], inner, [end.value])).astype(np.int64)
+
+
+def _settings(plant: Plant) -> Settings:
+    s = plant.settings
+    return Settings(
+        stale_limit=s.data.stale_limit,
+        frozen_after=s.data.frozen_after,
+        min_flow_fraction=s.running.min_flow_fraction,
+        min_speed_fraction=s.running.min_speed_fraction,
+        ample_ratio=s.policy.ample_ratio,
+        site_elevation=s.site.elevation,
+    )
+
+
+def _check_range(role: str, pump, table):
+    """Physically impossible values of a role (SI): flagged as bad data."""
+    if role == "temperature":
+        return lambda v: ~table.in_range(v)
+    if role == "suction":
+        if pump.gauge:
+            return lambda v: v < -110_000.0  # a gauge reading below full vacuum
+        return lambda v: v <= 0.0
+    if role == "speed":
+        return lambda v: v < 0.0
+    return None
+
+
+def scan(
+    config: str | Path | Plant,
+    start=None,
+    end=None,
+    pumps: list[str] | None = None,
+    keep_series: bool = False,
+) -> ScanResult:
+    """Screen every pump of a plant over a window.
+
+    Parameters
+    ----------
+    config : str, Path or Plant
+        The plant file, or a loaded :class:`Plant`.
+    start, end : str or Timestamp, optional
+        Window [start, end); dates without an offset are in the site time zone; default from
+        the plant file.
+    pumps : list of str, optional
+        Screen only these pump ids.
+    keep_series : bool
+        Keep each pump's time series (NPSHa, NPSH3, ratio, state) in ``ScanResult.series``.
+
+    Returns
+    -------
+    ScanResult
+    """
+    t0 = time.perf_counter()
+    plant = config if isinstance(config, Plant) else load_plant(config)
+    start_ts, end_ts = window_bounds(plant, start, end)
+    start_ns, end_ns = start_ts.value, end_ts.value
+    edges = _day_edges(start_ts, end_ts, plant.timezone)
+    settings = _settings(plant)
+    index = ExportIndex(plant.settings, plant.base)
+    problems: list[dict] = [
+        {"pump_id": pid, "stage": "config", "message": msg} for pid, msg in plant.problems.items()
+    ]
+    selected = list(plant.pumps) if pumps is None else pumps
+    unknown = [p for p in selected if p not in plant.pumps and p not in plant.problems]
+    for pid in unknown:
+        problems.append({"pump_id": pid, "stage": "config", "message": "not in the register"})
+    selected = [p for p in selected if p in plant.pumps]
+    if pumps is not None:
+        problems = [p for p in problems if p["pump_id"] in pumps]
+
+    barometer, baro_quality = _read_barometer(plant, index, settings)
+    results: list[PumpResult] = []
+    quality_rows: list[dict] = []
+    file_problems = dict(index.file_problems)
+    samples = 0
+    for pid in selected:
+        pump = plant.pumps[pid]
+        try:
+            result, tag_quality, n = _screen_pump(
+                plant, pump, index, barometer, settings, start_ns, end_ns, edges, keep_series,
+                file_problems,
+            )  # fmt: skip
+        except (ExportError, UnitError, ValueError) as exc:
+            problems.append({"pump_id": pid, "stage": "data", "message": str(exc)})
+            continue
+        samples += n
+        results.append(result)
+        for role, q in tag_quality.items():
+            quality_rows.append(_quality_row(pid, role, q))
+    if baro_quality is not None:
+        quality_rows.append(_quality_row("(site)", "barometer", baro_quality))
+    out = _tables(plant, results, start_ts, end_ts, edges, quality_rows, problems, file_problems)
+    out.series = {r.pump_id: r.series for r in results if r.series is not None}
+    out.samples = samples
+    out.elapsed_s = time.perf_counter() - t0
+    return out
+
+
+def _read_barometer(plant, index, settings):
+    site = plant.settings.site
+    if not site.barometer_tag:
+        return None, None
+    series, _ = index.read([site.barometer_tag])
+    s = series.get(site.barometer_tag)
+    if s is None:
+        return None, None
+    values = to_si(s.values, site.barometer_unit or "Pa", "pressure")
+    s.values = values
+    return s, s.quality
+
+
+def _screen_pump(plant, pump, index, barometer, settings, start_ns, end_ns, edges, keep, fp):
+    roles = pump.tags()
+    missing = [f"{spec.tag} ({role})" for role, spec in roles.items() if spec.tag not in
+               index.known_tags()]  # fmt: skip
+    if missing:
+        raise ExportError(f"tag(s) not found in any export file: {', '.join(missing)}")
+    raw, read_problems = index.read([spec.tag for spec in roles.values()])
+    fp.update(read_problems)
+    table = fluid_table(pump.fluid)
+    prepared = {}
+    n = 0
+    for role, spec in roles.items():
+        s = raw.get(spec.tag)
+        if s is None:
+            raise ExportError(
+                f"tag {spec.tag} ({role}) could not be read from "
+                f"{', '.join(map(str, index.files_for(spec.tag)))}"
+            )
+        try:
+            prepared[role] = prepare_tag(s, spec, settings, role, _check_range(role, pump, table))
+        except UnitError as exc:
+            raise ExportError(f"tag {spec.tag} ({role}): {exc}") from exc
+        n += int(np.searchsorted(s.times, end_ns) - np.searchsorted(s.times, start_ns))
+    result = calculate_pump(
+        pump, plant.curves[pump.curve_id], plant.guidance[pump.pump_id], table, prepared,
+        barometer if pump.gauge else None, settings, start_ns, end_ns, edges, keep,
+    )  # fmt: skip
+    quality = {role: prepared[role].quality for role in roles}
+    return result, quality, n
+
+
+def _quality_row(pid: str, role: str, q: TagQuality) -> dict:
+    return {
+        "pump_id": pid,
+        "role": role,
+        "tag": q.tag,
+        "samples": q.samples,
+        "text_values": q.text_values,
+        "bad_quality": q.bad_quality,
+        "not_finite": q.not_finite,
+        "frozen": q.frozen,
+        "out_of_range": q.out_of_range,
+        "bad_timestamps": q.bad_timestamps,
+        "duplicates": q.duplicates,
+        "out_of_order": q.out_of_order,
+        "words": "; ".join(f"{w} ({c})" for w, c in sorted(q.words.items())),
+        "first_problem": "; ".join(f"{k}: {v}" for k, v in q.first_problem.items()),
+    }
+
+
+def _tables(plant, results, start, end, edges, quality_rows, problems, file_problems):
+    names = list(states.STATES)
+    hours_rows, summary_rows, daily_frames = [], [], []
+    days = pd.to_datetime(edges[:-1], utc=True).tz_convert(plant.timezone).date
+    for r in results:
+        pump = plant.pumps[r.pump_id]
+        g = plant.guidance[r.pump_id]
+        for name, h in zip(names, r.hours, strict=True):
+            hours_rows.append({"pump_id": r.pump_id, "state": name, "hours": float(h)})
+        h = dict(zip(names, r.hours, strict=True))
+        running = sum(h[s] for s in states.RUNNING)
+        summary_rows.append(
+            {
+                "pump_id": r.pump_id,
+                "service": pump.service,
+                "area": pump.area,
+                "fluid": pump.fluid,
+                "window_hours": r.window_hours,
+                "running_hours": running,
+                "below_npsh3_hours": h["below_npsh3"],
+                "below_guidance_hours": h["below_npsh3"] + h["below_guidance"],
+                "off_curve_hours": h["off_curve"],
+                "no_data_hours": h["no_data"],
+                "bad_data_hours": h["bad_data"],
+                "coverage": 1.0 - (h["no_data"] + h["bad_data"]) / r.window_hours,
+                "worst_ratio": r.worst_ratio,
+                "worst_time": r.worst_time,
+                "guidance_ratio": g.ratio,
+                "guidance_margin_m": g.margin,
+                "guidance_source": g.source,
+                "suction_specific_speed_us": pump_suction_specific_speed(plant, r.pump_id),
+                "standard_atmosphere_hours": r.baro_fallback_hours,
+            }
+        )
+        d = pd.DataFrame(r.daily, columns=names)
+        d.insert(0, "date", days)
+        d = d.melt(id_vars="date", var_name="state", value_name="hours")
+        d.insert(0, "pump_id", r.pump_id)
+        daily_frames.append(d)
+    hours = pd.DataFrame(hours_rows, columns=["pump_id", "state", "hours"])
+    summary = pd.DataFrame(summary_rows)
+    if len(summary):
+        summary = summary.sort_values(
+            ["below_npsh3_hours", "below_guidance_hours", "pump_id"],
+            ascending=[False, False, True],
+        ).reset_index(drop=True)
+    daily = (
+        pd.concat(daily_frames, ignore_index=True)
+        if daily_frames
+        else pd.DataFrame(columns=["pump_id", "date", "state", "hours"])
+    )
+    quality = pd.DataFrame(quality_rows)
+    probs = pd.DataFrame(problems, columns=["pump_id", "stage", "message"])
+    files = pd.DataFrame(
+        [{"file": k, "message": v} for k, v in file_problems.items()], columns=["file", "message"]
+    )
+    return ScanResult(plant, start, end, hours, summary, daily, quality, probs, files)

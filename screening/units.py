@@ -1,0 +1,174 @@
+"""Units at the edges: every value read from a config or an export passes through here once.
+
+Inside pumpscreen every quantity is SI: pressure [Pa] (absolute unless named gauge),
+temperature [K], volumetric flow [m³/s], length and head [m], density [kg/m³], speed [rpm],
+duration [s]. Unit strings are parsed by `pint`, never guessed: a unit that pint cannot parse,
+or one of the wrong dimension, is an error that names what was expected.
+"""
+
+from __future__ import annotations
+
+import re
+from functools import lru_cache
+
+import numpy as np
+import pint
+
+#: The one unit registry of the program.
+ureg = pint.UnitRegistry()
+# US gallons per minute is the trade's flow unit in US customary plants.
+ureg.define("gpm = gallon / minute")
+ureg.define("gph = gallon / hour")
+
+#: The SI unit each kind of quantity is converted to.
+SI_UNITS: dict[str, str] = {
+    "pressure": "Pa",
+    "temperature": "K",
+    "flow": "m**3/s",
+    "length": "m",
+    "speed": "rpm",
+    "duration": "s",
+    "density": "kg/m**3",
+}
+
+#: Example units shown in error messages, per kind.
+EXAMPLES: dict[str, str] = {
+    "pressure": "kPa, bar, psi, hPa, MPa, inHg",
+    "temperature": "degC, degF, K",
+    "flow": "m3/h, L/s, gpm, m3/s",
+    "length": "m, mm, ft, in",
+    "speed": "rpm, 1/min, Hz",
+    "duration": "s, min, h",
+    "density": "kg/m3, lb/ft3",
+}
+
+_DIMENSIONS: dict[str, str] = {}
+_POWER = re.compile(r"(?<=[A-Za-z])([23])(?![0-9.])")
+
+
+class UnitError(ValueError):
+    """A unit string that pint cannot parse or that has the wrong dimension."""
+
+
+def _normalise(text: str) -> str:
+    text = text.strip().replace("³", "**3").replace("²", "**2").replace("°", "deg")
+    text = text.replace("degreesC", "degC").replace("degreesF", "degF")
+    # "m3/h" -> "m**3/h": pint does not read a bare trailing exponent.
+    return _POWER.sub(r"**\1", text)
+
+
+@lru_cache(maxsize=512)
+def parse_unit(text: str, kind: str) -> pint.Unit:
+    """Parse a unit string and check it is of the expected kind.
+
+    Parameters
+    ----------
+    text : str
+        Unit as written in a config or export, e.g. ``"psi"``, ``"m3/h"``, ``"degF"``.
+    kind : str
+        One of the keys of :data:`SI_UNITS`.
+
+    Returns
+    -------
+    pint.Unit
+
+    Raises
+    ------
+    UnitError
+        If the text is empty, unknown to pint, or not of the dimension of ``kind``.
+    """
+    if kind not in SI_UNITS:
+        raise ValueError(f"unknown quantity kind {kind!r}")
+    if text is None or not str(text).strip():
+        raise UnitError(f"no unit given for a {kind} (valid examples: {EXAMPLES[kind]})")
+    try:
+        unit = ureg.parse_units(_normalise(str(text)))
+    except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError, Exception) as exc:
+        raise UnitError(
+            f"unit {text!r} is not known (valid {kind} units: {EXAMPLES[kind]})"
+        ) from exc
+    target = ureg.parse_units(SI_UNITS[kind])
+    if unit.dimensionality != target.dimensionality:
+        raise UnitError(
+            f"unit {text!r} is not a {kind} unit (valid {kind} units: {EXAMPLES[kind]})"
+        )
+    return unit
+
+
+def to_si(values, unit: str, kind: str) -> np.ndarray:
+    """Convert values in ``unit`` to the SI unit of ``kind`` (see :data:`SI_UNITS`).
+
+    Parameters
+    ----------
+    values : array_like
+        Numbers in ``unit``.
+    unit : str
+        Unit string parsed by pint (offset units such as degC and degF are handled).
+    kind : str
+        Quantity kind: pressure [Pa], temperature [K], flow [m³/s], length [m], speed [rpm],
+        duration [s], density [kg/m³].
+
+    Returns
+    -------
+    numpy.ndarray of float64 in the SI unit of ``kind``.
+    """
+    src = parse_unit(unit, kind)
+    arr = np.asarray(values, dtype=np.float64)
+    target = ureg.parse_units(SI_UNITS[kind])
+    if src == target:
+        return arr.copy()
+    return ureg.Quantity(arr, src).to(target).magnitude
+
+
+def scalar_to_si(value: float, unit: str, kind: str) -> float:
+    """Convert one number in ``unit`` to the SI unit of ``kind`` [see :func:`to_si`]."""
+    return float(to_si(np.array([value]), unit, kind)[0])
+
+
+def si_to(values, unit: str, kind: str) -> np.ndarray:
+    """Convert SI values of ``kind`` to ``unit`` (for display at the output edge)."""
+    dst = parse_unit(unit, kind)
+    arr = np.asarray(values, dtype=np.float64)
+    return ureg.Quantity(arr, ureg.parse_units(SI_UNITS[kind])).to(dst).magnitude
+
+
+_QUANTITY = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+
+
+def parse_quantity(text: str, kind: str, default_unit: str | None) -> float:
+    """Parse a config value such as ``"3.5 ft"`` or ``"120"`` (with a default unit) to SI.
+
+    Parameters
+    ----------
+    text : str
+        A number, optionally followed by its unit.
+    kind : str
+        Quantity kind (see :data:`SI_UNITS`).
+    default_unit : str or None
+        Unit for a bare number (for example from a ``[m]`` column header); ``None`` means a
+        bare number is an error, since units are never guessed.
+
+    Returns
+    -------
+    float, in the SI unit of ``kind``.
+    """
+    if isinstance(text, int | float) and not isinstance(text, bool):
+        number, unit = float(text), ""
+    else:
+        match = _QUANTITY.match(str(text))
+        if not match:
+            raise UnitError(f"{text!r} is not a number with a unit (for example '3.5 ft')")
+        number, unit = float(match.group(1)), match.group(2)
+    if not unit:
+        if default_unit is None:
+            raise UnitError(
+                f"{text!r} has no unit; write it with the value (valid {kind} units: "
+                f"{EXAMPLES[kind]})"
+            )
+        unit = default_unit
+    return scalar_to_si(number, unit, kind)
+
+
+def parse_duration(text: str) -> float:
+    """Parse a duration such as ``"5 min"`` or ``"6 h"`` to seconds [s]."""
+    return parse_quantity(text, "duration", None)
