@@ -144,9 +144,10 @@ def calculate_pump(
     keep_series : bool
         Keep the per-piece series (NPSHa, NPSH3, ratio, state) in the result.
     """
+
     def stale_ns(spec: TagSpec | None) -> int:
-        limit = settings.stale_limit if spec is None or spec.stale_limit is None else (
-            spec.stale_limit
+        limit = (
+            settings.stale_limit if spec is None or spec.stale_limit is None else (spec.stale_limit)
         )
         return int(round(limit * 1e9))
 
@@ -206,9 +207,7 @@ def calculate_pump(
     p_v, rho = table.properties(temp)
     p_abs = npsh.absolute_pressure(held["suction"].value, baro, pump.gauge)
     flow = held["flow"].value
-    npsha = npsh.npsha_from_pressure(
-        p_abs, p_v, rho, flow, pump.tap_bore, pump.tap_elevation
-    )
+    npsha = npsh.npsha_from_pressure(p_abs, p_v, rho, flow, pump.tap_bore, pump.tap_elevation)
     speed = held["speed"].value if "speed" in held else None
     npsh3 = curve.at_speed(flow, speed, pump.rated_speed, pump.npsh3_exponent)
 

@@ -223,7 +223,9 @@ def read_plant_file(path: str | Path) -> tuple[PlantFile, Path]:
             msg = err["msg"].removeprefix("Value error, ")
             if err["type"] == "extra_forbidden":
                 msg = "unknown key (check its spelling; see the configuration reference)"
-            if err["type"] == "too_short" and any(line.startswith(f"{path}: [{where}") for line in lines):
+            if err["type"] == "too_short" and any(
+                line.startswith(f"{path}: [{where}") for line in lines
+            ):
                 continue  # the item's own error says more than "too few items"
             lines.append(f"{path}: [{where}] {msg}")
         raise ConfigError("\n".join(lines)) from None

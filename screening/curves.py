@@ -96,7 +96,7 @@ class Npsh3Curve:
         if speed is None:
             return self.at_reference_speed(flow)
         ratio = np.asarray(speed, dtype=np.float64) / reference_speed
-        with np.errstate(divide="ignore", invalid="ignore"):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             q_ref = np.asarray(flow, dtype=np.float64) / ratio
             return self.at_reference_speed(q_ref) * ratio**exponent
 

@@ -323,9 +323,7 @@ def read_curves(path: str | Path) -> tuple[dict[str, Npsh3Curve], dict[str, str]
             problems.setdefault(cid, f"{path} line {line}, column 'flow': {exc}")
             continue
         try:
-            h = parse_quantity(
-                row["npsh3"], "length", row.get("npsh3_unit") or units.get("npsh3")
-            )
+            h = parse_quantity(row["npsh3"], "length", row.get("npsh3_unit") or units.get("npsh3"))
         except UnitError as exc:
             problems.setdefault(cid, f"{path} line {line}, column 'npsh3': {exc}")
             continue

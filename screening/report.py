@@ -206,9 +206,7 @@ def _overview_html(result: ScanResult, meta: dict) -> str:
         version=meta["version"],
         written=meta["written_utc"],
         ranking=ranking,
-        legend=[
-            {"label": STATE_LABELS[s], "colour": STATE_COLOURS[s]} for s in states.STATES
-        ],
+        legend=[{"label": STATE_LABELS[s], "colour": STATE_COLOURS[s]} for s in states.STATES],
         hours_figure=_hours_figure(result),
         quality=result.quality.to_dict("records"),
         problems=result.problems.to_dict("records"),

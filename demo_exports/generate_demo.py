@@ -1,0 +1,812 @@
+"""Generate the bundled demo plant of pumpscreen: historian exports and configuration.
+
+Everything here is INVENTED. "Quillmere Demo Works" is a made-up utilities and tank-farm
+site (elevation 120 m, time zone Europe/Berlin) with 30 centrifugal pumps. The data cover
+October 2026 (local time) at one-minute resolution; clocks go back on 2026-10-25 at
+03:00 CEST -> 02:00 CET, so that month has 44 700 minutes.
+
+Run from the repository root:  .venv/bin/python demo_exports/generate_demo.py
+The output is deterministic (fixed random state). The script (re)writes
+  demo_exports/wide_csv/*.csv.gz      wide, naive LOCAL time ("timestamp"), text words in cells
+  demo_exports/wide_parquet/*.parquet wide, "time_utc" (tz-aware UTC), floats, NaN for gaps
+  demo_exports/long_parquet/*.parquet long tag/time/value/quality, recorded by exception
+  demo_exports/long_csv/*.csv.gz      long tag/time/value/quality, ISO time with local offset
+  demo_exports/weather/*.csv.gz       long tag/time/value (no quality), barometer in hPa, UTC "Z"
+  demo_exports/planted_events.csv     machine-readable list of the planted events
+  configs/demo_pumps.csv, configs/demo_npsh3_curves.csv
+
+Physics: suction pressures are set with CoolProp so that NPSH available
+    NPSHa = (p_abs - p_vapour(T)) / (rho g) + v^2 / (2 g) + z_tap
+stands at a chosen multiple of the vendor NPSH3 at best-efficiency flow (design ratio). NPSH3
+curves follow from a chosen suction specific speed; at speed n they scale as
+NPSH3(Q n_rated / n) (n / n_rated)^exponent. Gauge transmitters read p_abs minus the true
+barometric pressure. Sources are either "open" (a basin, tank or pressurised loop: head on top
+of the atmosphere) or "saturated" (deaerator, hot well, LPG vessel: head on top of the vapour
+pressure, so the suction pressure tracks p_vapour(T)).
+
+Planted process events (local time):
+  * RW-502 raw-water intake: suction strainer fouls from 2026-10-04; the strainer loss grows
+    with flow squared, taking the margin from ample to below guidance (about 2026-10-21 on) and
+    below NPSH3 at the daily flow peaks in the last days (about 2026-10-25 on). Stopped and
+    cleaned 2026-10-28 08:40-10:15 (RW-503 covers); sharp recovery afterwards.
+  * Hot spell 2026-10-12..16: cooling-water basin 8-12 K warmer, peaking in the afternoons.
+    CW-103 (auxiliary cooling water, drawing near its limit; no run tag) drops below guidance
+    in the afternoons; CW-101A/B and CW-102A/B see the same water but keep ample margin.
+  * DH-202 district-heating booster (variable speed): drive runs at 112-118 % of rated speed
+    2026-10-19 06:00 .. 2026-10-22 18:00 (NPSH3 grows with speed squared): below guidance.
+  * MT-801 methanol transfer throttled to ~15 % of BEP flow 2026-10-07 14:00 .. 10-10 11:00,
+    below the first curve point (25 %): "off curve".
+Planted data-quality events (see planted_events.csv and demo_exports/README.md for all):
+  transmitter dropouts (CW-101A flow, DH-201A temperature, BF-301B suction pressure), bad
+  quality stretches (BF-301A, LP-901A, MT-801), text words instead of numbers (CW-101B, CH-701A,
+  CH-702, RW-501, RW-503, MT-802, TL-811), a frozen suction transmitter (CW-102A,
+  2026-10-20 08:00 .. 10-22 07:30), a barometer dropout (2026-10-17 06:10 .. 10-18 20:40),
+  and duplicated / out-of-order rows in the toluene long CSV file.
+"""
+
+from __future__ import annotations
+
+import gzip
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
+from CoolProp.CoolProp import PropsSI
+
+RANDOM_SEED = 20261001
+ROOT = Path(__file__).resolve().parent.parent
+EXPORTS = ROOT / "demo_exports"
+CONFIGS = ROOT / "configs"
+SITE_TZ = "Europe/Berlin"
+G = 9.80665
+P_ATM_STANDARD = 101325.0 * (1.0 - 2.25577e-5 * 120.0) ** 5.25588  # Pa at 120 m
+BAROMETER_TAG = "SITE.BARO_PRESS"
+HEARTBEAT_MIN = 10  # by-exception recording writes at least every 10 min
+GOOD = "ok"
+BAD_QUALITY = ("suspect", "link-down", "held")
+TEXT_WORDS = ("not-avail", "xmtr-fault", "no-signal")
+
+TO_SI = {"m": 1.0, "mm": 1e-3, "ft": 0.3048, "in": 0.0254,
+         "m3/h": 1.0, "L/s": 3.6, "gpm": 0.227124707}  # lengths to m, flows to m3/h
+PA_PER = {"kPa": 1e3, "bar": 1e5, "psi": 6894.757293168, "hPa": 100.0}
+PRESSURE_NOISE_PA = {"kPa": 60.0, "bar": 100.0, "psi": 100.0}
+RESOLUTION = {"kPa": 0.01, "bar": 0.001, "psi": 0.01, "degC": 0.1, "degF": 0.1,
+              "m3/h": 0.1, "L/s": 0.01, "gpm": 1.0, "rpm": 1.0}
+PLANTED: list[dict] = []  # filled by the event functions, written to planted_events.csv
+
+
+@dataclass(frozen=True)
+class Pump:
+    pump_id: str
+    service: str
+    area: str
+    fluid: str
+    application: str
+    units: tuple[str, str, str, str]  # pressure unit, gauge/absolute, temperature, flow
+    rated_rpm: int
+    bep_flow: str  # register cell; plain number = m3/h, or a number with its own unit
+    suction_specific_speed: float  # US units; sets NPSH3 at BEP
+    tap_elevation: str  # register cell (m unless own unit)
+    tap_bore: str  # register cell (mm unless own unit)
+    source: str  # "open" or "saturated"
+    design_ratio: float  # NPSHa / NPSH3 at BEP flow, design temperature, nominal level
+    design_temp: float  # degC
+    friction: float  # suction-line loss at BEP flow, m
+    curve_id: str
+    event: str = ""
+    curve_shape: tuple[float, float] = (0.5, 2.0)  # NPSH3/NPSH3_bep = a + (1 - a) x^k
+    eyes: int = 1
+    run_tag: bool = True
+    speed_tag: bool = False
+    exponent: str = ""
+    stale_limit: str = ""
+    shared_temperature_tag: str = ""
+    fine_temperature: bool = False  # 0.01 K resolution (hot or saturated services)
+
+    def tag(self, what: str) -> str:
+        if what == "SUCT_TEMP" and self.shared_temperature_tag:
+            return self.shared_temperature_tag
+        return f"{self.pump_id.replace('-', '')}.{what}"
+
+
+def cell_si(cell: str, default_unit: str) -> float:
+    value, _, unit = cell.partition(" ")
+    return float(value) * TO_SI[unit or default_unit]
+
+
+SI_BAR_C_M3H = ("bar", "gauge", "degC", "m3/h")
+US_PSIG = ("psi", "gauge", "degF", "gpm")
+LONG = "15 min"
+PUMPS = [
+    Pump("CW-101A", "Main cooling water (duty/standby)", "cooling water", "Water", "power",
+         ("kPa", "gauge", "degC", "m3/h"), 990, "1800", 8500, "0.8", "600", "open", 2.6, 26,
+         0.6, "CWP-1800", "hot spell (ample margin); flow transmitter dropout", eyes=2,
+         shared_temperature_tag="CW.BASIN_TEMP"),
+    Pump("CW-101B", "Main cooling water (duty/standby)", "cooling water", "Water", "power",
+         ("kPa", "gauge", "degC", "m3/h"), 990, "1800", 8500, "0.8", "600", "open", 2.6, 26,
+         0.6, "CWP-1800", "hot spell (ample margin); text words", eyes=2,
+         shared_temperature_tag="CW.BASIN_TEMP"),
+    Pump("CW-102A", "Process cooling water (duty/standby)", "cooling water", "Water", "power",
+         ("kPa", "gauge", "degC", "m3/h"), 1480, "650", 9500, "0.5", "350", "open", 2.2, 26,
+         0.8, "CWP-650", "frozen suction transmitter", curve_shape=(0.45, 2.2)),
+    Pump("CW-102B", "Process cooling water (duty/standby)", "cooling water", "Water", "power",
+         ("kPa", "gauge", "degC", "m3/h"), 1480, "650", 9500, "0.5", "350", "open", 2.2, 26,
+         0.8, "CWP-650", curve_shape=(0.45, 2.2)),
+    Pump("CW-103", "Auxiliary cooling water (tower cell 3)", "cooling water", "Water", "power",
+         ("kPa", "gauge", "degC", "m3/h"), 1480, "320", 9000, "0.3", "250", "open", 1.55, 26,
+         1.2, "CWP-320", "hot spell: below guidance in afternoons", run_tag=False),
+    Pump("DH-201A", "District-heating supply circulation", "district heating", "Water",
+         "power", SI_BAR_C_M3H, 1485, "900", 9000, "0.6", "400", "open", 1.9, 118, 1.0,
+         "DHP-900", "temperature transmitter dropout", eyes=2, speed_tag=True,
+         fine_temperature=True),
+    Pump("DH-201B", "District-heating supply circulation", "district heating", "Water",
+         "power", SI_BAR_C_M3H, 1485, "900", 9000, "0.6", "400", "open", 1.9, 118, 1.0,
+         "DHP-900", eyes=2, speed_tag=True, fine_temperature=True),
+    Pump("DH-202", "District-heating booster (east branch)", "district heating", "Water",
+         "power", SI_BAR_C_M3H, 2950, "240", 10000, "0.4", "200", "open", 1.75, 116, 1.5,
+         "DHB-240", "drive running fast", speed_tag=True, curve_shape=(0.45, 2.2),
+         fine_temperature=True),
+    Pump("BF-301A", "Boiler feed water", "boiler house", "Water", "power",
+         ("bar", "absolute", "degC", "m3/h"), 2980, "160", 9000, "0.6", "150", "saturated",
+         2.3, 130, 1.5, "BFP-160", "bad-quality temperature", stale_limit=LONG,
+         fine_temperature=True),
+    Pump("BF-301B", "Boiler feed water", "boiler house", "Water", "power",
+         ("bar", "absolute", "degC", "m3/h"), 2980, "160", 9000, "0.6", "150", "saturated",
+         2.3, 130, 1.5, "BFP-160", "suction pressure dropout", stale_limit=LONG,
+         fine_temperature=True),
+    Pump("CD-401A", "Condensate extraction", "boiler house", "Water", "power",
+         ("kPa", "absolute", "degC", "m3/h"), 1480, "220", 12000, "2.0", "250", "saturated",
+         2.0, 42, 0.4, "CEP-220", curve_shape=(0.55, 2.0), fine_temperature=True),
+    Pump("CD-401B", "Condensate extraction", "boiler house", "Water", "power",
+         ("kPa", "absolute", "degC", "m3/h"), 1480, "220", 12000, "2.0", "250", "saturated",
+         2.0, 42, 0.4, "CEP-220", curve_shape=(0.55, 2.0), fine_temperature=True),
+    Pump("CH-701A", "Dilute caustic dosing (as water)", "dosing", "Water", "chemical",
+         ("bar", "gauge", "degC", "L/s"), 2900, "4.5 L/s", 5500, "0.2", "50", "open", 3.2, 20,
+         0.5, "DOS-4.5", "text words", curve_shape=(0.6, 2.0)),
+    Pump("CH-701B", "Dilute caustic dosing (as water)", "dosing", "Water", "chemical",
+         ("bar", "gauge", "degC", "L/s"), 2900, "4.5 L/s", 5500, "0.2", "50", "open", 3.2, 20,
+         0.5, "DOS-4.5", curve_shape=(0.6, 2.0)),
+    Pump("CH-702", "Corrosion-inhibitor dosing (as water)", "dosing", "Water", "chemical",
+         ("bar", "gauge", "degC", "L/s"), 2900, "1.2 L/s", 5000, "0.2", "25", "open", 3.5, 20,
+         0.3, "DOS-1.2", "text words", curve_shape=(0.6, 2.0), run_tag=False),
+    Pump("RW-501", "Raw-water intake", "raw water", "Water", "water", US_PSIG, 1485,
+         "2200 gpm", 9000, "1.5 ft", "12 in", "open", 2.4, 14, 0.6, "RWP-2200", "text words",
+         eyes=2),
+    Pump("RW-502", "Raw-water intake", "raw water", "Water", "water", US_PSIG, 1485,
+         "2200 gpm", 9000, "1.5 ft", "12 in", "open", 2.4, 14, 0.6, "RWP-2200",
+         "strainer fouling, cleaned 10-28", eyes=2),
+    Pump("RW-503", "Raw-water intake (standby)", "raw water", "Water", "water", US_PSIG, 1485,
+         "2200 gpm", 9000, "1.5 ft", "12 in", "open", 2.4, 14, 0.6, "RWP-2200", "text words",
+         eyes=2),
+    Pump("FW-601", "Fire-water jockey", "fire water", "Water", "building", US_PSIG, 2960,
+         "25 gpm", 5200, "1 ft", "2 in", "open", 6.0, 12, 0.2, "JKY-25"),
+    Pump("FW-602", "Fire-water main pump (electric)", "fire water", "Water", "building",
+         US_PSIG, 1480, "1500 gpm", 8000, "1 ft", "10 in", "open", 3.8, 12, 0.5, "FWP-1500",
+         eyes=2),
+    Pump("FW-603", "Fire-water main pump (diesel)", "fire water", "Water", "building", US_PSIG,
+         1480, "1500 gpm", 8000, "1 ft", "10 in", "open", 3.8, 12, 0.5, "FWP-1500", eyes=2,
+         speed_tag=True, exponent="1.5"),
+    Pump("BS-111", "Chilled water for control building", "building services", "Water",
+         "building", ("kPa", "gauge", "degC", "L/s"), 1450, "35 L/s", 7000, "0.3", "150",
+         "open", 6.5, 8, 0.5, "BSC-35", run_tag=False),
+    Pump("BS-112", "Heating water for control building", "building services", "Water",
+         "building", ("kPa", "gauge", "degC", "L/s"), 1450, "20 L/s", 7000, "0.3", "125",
+         "open", 5.0, 75, 0.5, "BSH-20", speed_tag=True, exponent="1.5"),
+    Pump("MT-801", "Methanol transfer to unit", "tank farm", "Methanol", "chemical",
+         SI_BAR_C_M3H, 2950, "60", 9500, "0.4", "100", "open", 2.5, 18, 0.8, "MTP-60",
+         "throttled to low flow; held quality", stale_limit=LONG),
+    Pump("MT-802", "Methanol road-tanker unloading", "tank farm", "Methanol", "chemical",
+         SI_BAR_C_M3H, 2950, "40", 8000, "0.3", "80", "open", 2.0, 18, 1.2, "MTU-40",
+         "text words", run_tag=False, stale_limit=LONG),
+    Pump("TL-811", "Toluene transfer", "tank farm", "Toluene", "chemical", US_PSIG, 2950,
+         "180 gpm", 8500, "1.2 ft", "3 in", "open", 2.8, 18, 0.8, "TLT-180",
+         "text words; duplicated and out-of-order rows", stale_limit=LONG),
+    Pump("TL-812", "Toluene recycle", "tank farm", "Toluene", "chemical", US_PSIG, 2950,
+         "400 gpm", 11500, "0.8 ft", "4 in", "open", 2.0, 46, 0.8, "TLR-400",
+         speed_tag=True, stale_limit=LONG),
+    Pump("LP-901A", "n-Butane loading", "LPG", "n-Butane", "petroleum", SI_BAR_C_M3H, 2950,
+         "80", 9000, "0.5", "100", "saturated", 2.0, 12, 0.8, "LPB-80",
+         "bad-quality suction pressure", stale_limit=LONG, fine_temperature=True),
+    Pump("LP-901B", "n-Butane loading", "LPG", "n-Butane", "petroleum", SI_BAR_C_M3H, 2950,
+         "80", 9000, "0.5", "100", "saturated", 2.0, 12, 0.8, "LPB-80", stale_limit=LONG,
+         fine_temperature=True),
+    Pump("LP-902", "Propane loading", "LPG", "Propane", "petroleum", US_PSIG, 2950, "300 gpm",
+         9000, "1.5 ft", "4 in", "saturated", 2.0, 12, 0.8, "LPP-300", run_tag=False,
+         stale_limit=LONG, fine_temperature=True),
+]
+BY_ID = {p.pump_id: p for p in PUMPS}
+
+
+# ----------------------------------------------------------------------------- time and noise
+@dataclass
+class Clock:
+    utc: pd.DatetimeIndex
+    local: pd.DatetimeIndex
+    hour: np.ndarray  # local hour of day (float)
+    month_fraction: np.ndarray  # 0 at the start of the month, 1 at the end
+    weekend: np.ndarray
+    n: int
+
+    @classmethod
+    def october(cls) -> Clock:
+        start = pd.Timestamp("2026-10-01", tz=SITE_TZ)
+        end = pd.Timestamp("2026-11-01", tz=SITE_TZ)
+        utc = pd.date_range(start.tz_convert("UTC"), end.tz_convert("UTC"), freq="min",
+                            inclusive="left")
+        local = utc.tz_convert(SITE_TZ)
+        hour = (local.hour + local.minute / 60.0).to_numpy(dtype=float)
+        fraction = np.arange(len(utc)) / len(utc)
+        weekend = (local.weekday >= 5).to_numpy()
+        return cls(utc, local, hour, fraction, weekend, len(utc))
+
+    def window(self, start: str, end: str) -> np.ndarray:
+        lo, hi = pd.Timestamp(start, tz=SITE_TZ), pd.Timestamp(end, tz=SITE_TZ)
+        return np.asarray((self.utc >= lo) & (self.utc < hi))
+
+    def daily(self, peak_hour: float) -> np.ndarray:
+        return np.cos(2 * np.pi * (self.hour - peak_hour) / 24.0)
+
+    def wander(self, rng: np.random.Generator, sd: float, knot_hours: float = 3.0) -> np.ndarray:
+        knots = np.arange(0, self.n + knot_hours * 60, knot_hours * 60)
+        return np.interp(np.arange(self.n), knots, rng.normal(0.0, sd, len(knots)))
+
+
+def planted(pump_id: str, event: str, tag: str, start: str, end: str, expect: str) -> None:
+    PLANTED.append({"pump_id": pump_id, "event": event, "tag": tag, "start_local": start,
+                    "end_local": end, "expectation": expect})
+
+
+@dataclass
+class State:
+    """Process truth of one pump, per minute (SI: load = Q / Q_bep, speed = n / n_rated)."""
+
+    run: np.ndarray
+    load: np.ndarray
+    temp: np.ndarray  # degC at the pump suction
+    speed: np.ndarray | float = 1.0
+    source_temp: np.ndarray | None = None  # vessel temperature (saturated sources)
+    level: np.ndarray | float = 0.0  # change of static head, m
+    extra_loss: np.ndarray | float = 0.0  # extra suction loss at BEP flow, m (scales with Q^2)
+
+
+def lag(x: np.ndarray, minutes: float) -> np.ndarray:
+    return pd.Series(x, dtype=float).ewm(alpha=1.0 / minutes, adjust=False).mean().to_numpy()
+
+
+def duty_pair(clock: Clock, changeovers: list[str]) -> tuple[np.ndarray, np.ndarray]:
+    """A runs first; at each changeover the incoming pump starts, the outgoing stops 3 min later."""
+    a, b = np.ones(clock.n, bool), np.zeros(clock.n, bool)
+    for k, when in enumerate(changeovers):
+        t = pd.Timestamp(when, tz=SITE_TZ)
+        incoming, outgoing = (b, a) if k % 2 == 0 else (a, b)
+        incoming[clock.utc >= t] = True
+        outgoing[clock.utc >= t + pd.Timedelta(minutes=3)] = False
+    return a, b
+
+
+def pair(clock: Clock, changeovers: list[str], load, temp, standby_cooling: float = 0.0,
+         **extra) -> tuple[State, State]:
+    states = []
+    runs = duty_pair(clock, changeovers)
+    both = runs[0] & runs[1]
+    for run in runs:
+        share = np.where(both, 0.55, 1.0) * load
+        t = temp - standby_cooling * lag((~run).astype(float), 120.0)
+        states.append(State(run, share, t, source_temp=temp, **extra))
+    return states[0], states[1]
+
+
+def batches(clock: Clock, windows: list[tuple[str, str]]) -> np.ndarray:
+    run = np.zeros(clock.n, bool)
+    for start, end in windows:
+        run |= clock.window(start, end)
+    return run
+
+
+def days(first: int = 1, last: int = 31, weekdays_only: bool = False) -> list[str]:
+    out = []
+    for d in range(first, last + 1):
+        day = pd.Timestamp(2026, 10, d)
+        if not (weekdays_only and day.weekday() >= 5):
+            out.append(day.strftime("%Y-%m-%d"))
+    return out
+
+
+# ----------------------------------------------------------------------------- process events
+def hot_spell(clock: Clock) -> np.ndarray:
+    """Extra cooling-water temperature (K): 8-12 K afternoon peaks 2026-10-12..16."""
+    knots = ["2026-10-11 12:00", "2026-10-12 15:30", "2026-10-13 15:30", "2026-10-14 15:30",
+             "2026-10-15 15:30", "2026-10-16 15:30", "2026-10-17 12:00"]
+    peaks = [0.0, 8.5, 10.5, 12.0, 11.0, 9.0, 0.0]
+    t = [pd.Timestamp(k, tz=SITE_TZ).value for k in knots]
+    amplitude = np.interp(clock.utc.asi8, t, peaks, left=0.0, right=0.0)
+    for pump_id in ("CW-103", "CW-101A", "CW-101B", "CW-102A", "CW-102B"):
+        expect = ("margin below guidance in the afternoons" if pump_id == "CW-103"
+                  else "warmer water, margin stays ample")
+        planted(pump_id, "hot spell", BY_ID[pump_id].tag("SUCT_TEMP"), knots[0], knots[-1],
+                expect)
+    return amplitude * (0.6 + 0.4 * clock.daily(15.5))
+
+
+def hot_spell_demand(state: State, extra_temp: np.ndarray) -> None:
+    """More heat to reject: CW-103 flow rises by up to 10 % with the water temperature."""
+    state.load = state.load + 0.10 * extra_temp / 12.0
+
+
+def strainer_fouling(state: State, clock: Clock) -> None:
+    """RW-502: strainer loss grows from 10-04 to 4.8 m at BEP flow; cleaned 10-28 08:40."""
+    start, cleaned = pd.Timestamp("2026-10-04", tz=SITE_TZ), "2026-10-28 08:40"
+    span = (pd.Timestamp(cleaned, tz=SITE_TZ) - start).value
+    progress = np.clip((clock.utc.asi8 - start.value) / span, 0.0, None)
+    state.extra_loss = np.where(progress <= 1.0, 4.8 * progress**1.6, 0.05)
+    state.run = state.run & ~clock.window(cleaned, "2026-10-28 10:15")
+    planted("RW-502", "strainer fouling", "RW502.SUCT_PRESS", "2026-10-04 00:00", cleaned,
+            "margin falls from ample to below guidance (~10-21) and below NPSH3 at peaks (~10-25)")
+    planted("RW-502", "strainer cleaned", "RW502.SUCT_PRESS", cleaned, "2026-10-28 10:15",
+            "pump stopped for cleaning, RW-503 covers; margin ample again after restart")
+
+
+def drive_running_fast(state: State, clock: Clock, rng: np.random.Generator) -> None:
+    """DH-202: speed 112-118 % of rated with flow rising in proportion."""
+    start, end = "2026-10-19 06:00", "2026-10-22 18:00"
+    fast = clock.window(start, end)
+    speed = np.clip(1.15 + 0.015 * clock.daily(14) + clock.wander(rng, 0.01), 1.12, 1.18)
+    state.load = np.where(fast, state.load * speed / state.speed, state.load)
+    state.speed = np.where(fast, speed, state.speed)
+    planted("DH-202", "drive running fast", "DH202.SPEED", start, end,
+            "speed 112-118 % of rated; NPSH3 up with speed squared; margin below guidance")
+
+
+def throttled_low_flow(state: State, clock: Clock, rng: np.random.Generator) -> None:
+    """MT-801: discharge throttled, flow ~15 % of BEP, below the first curve point (25 %)."""
+    start, end = "2026-10-07 14:00", "2026-10-10 11:00"
+    state.load = np.where(clock.window(start, end), 0.15 + clock.wander(rng, 0.004), state.load)
+    planted("MT-801", "throttled to low flow", "MT801.FLOW", start, end,
+            "flow ~15 % of BEP: off curve (below first NPSH3 point at 25 %)")
+
+
+# ----------------------------------------------------------------------------- plant operation
+def plant_operation(clock: Clock, rng: np.random.Generator) -> dict[str, State]:
+    ops: dict[str, State] = {}
+    mf, wander, daily = clock.month_fraction, clock.wander, clock.daily
+    hot = hot_spell(clock)
+    basin = 23.0 - 3.0 * mf + 1.5 * daily(16) + wander(rng, 0.4) + hot
+    ops["CW-101A"], ops["CW-101B"] = pair(
+        clock, ["2026-10-08 09:12", "2026-10-18 14:40", "2026-10-29 08:05"],
+        0.9 + 0.05 * daily(15) + wander(rng, 0.02), basin)
+    ops["CW-102A"], ops["CW-102B"] = pair(
+        clock, ["2026-10-13 11:30", "2026-10-17 16:00"],
+        0.85 + 0.06 * daily(14) + wander(rng, 0.02), basin + 0.3, standby_cooling=0.8)
+    cw103 = ~clock.window("2026-10-03 09:00", "2026-10-03 13:30")
+    ops["CW-103"] = State(cw103, 0.95 + 0.04 * daily(15) + wander(rng, 0.015), basin + 0.5)
+    hot_spell_demand(ops["CW-103"], hot)
+
+    cold = np.clip(0.25 + 0.5 * mf + 0.15 * daily(5) + wander(rng, 0.08, 6), 0.0, 1.0)
+    dh_load = 0.55 + 0.35 * cold + wander(rng, 0.02)
+    ops["DH-201A"], ops["DH-201B"] = pair(
+        clock, ["2026-10-11 07:30", "2026-10-24 07:15"], dh_load, 94.0 + 24.0 * cold,
+        standby_cooling=25.0, speed=0.45 + 0.5 * dh_load)
+    booster = 0.7 + 0.2 * cold + wander(rng, 0.02)
+    ops["DH-202"] = State(np.ones(clock.n, bool), booster, 92.0 + 24.0 * cold,
+                          speed=0.5 + 0.45 * booster)
+    drive_running_fast(ops["DH-202"], clock, rng)
+
+    plant = np.clip(0.8 + 0.15 * daily(13) - 0.1 * clock.weekend + wander(rng, 0.03), 0.55, 1.05)
+    deaerator = 112.0 + 33.0 * (plant - 0.55) / 0.5 + wander(rng, 0.3)
+    ops["BF-301A"], ops["BF-301B"] = pair(
+        clock, ["2026-10-14 10:00", "2026-10-27 09:30"], plant, deaerator, standby_cooling=15.0)
+    hotwell = 38.0 + 6.0 * (plant - 0.55) / 0.5 + 0.3 * hot + wander(rng, 0.3)
+    ops["CD-401A"], ops["CD-401B"] = pair(
+        clock, ["2026-10-16 08:00", "2026-10-26 13:20"], 0.95 * plant, hotwell,
+        standby_cooling=3.0)
+
+    dosing_temp = 19.0 - 3.0 * mf + 2.0 * daily(15) + wander(rng, 0.3)
+    ops["CH-701A"], ops["CH-701B"] = pair(
+        clock, ["2026-10-09 10:00", "2026-10-23 10:00"], 0.8 + wander(rng, 0.05), dosing_temp)
+    inhibitor = batches(clock, [(f"{d} {h:02d}:30", f"{d} {h + 2:02d}:30")
+                                for d in days() for h in (0, 8, 16)])
+    ops["CH-702"] = State(inhibitor, 0.85 + wander(rng, 0.03), dosing_temp + 0.4)
+
+    river = 13.5 - 2.5 * mf + 0.3 * daily(16) + wander(rng, 0.2, 6)
+    rw_load = 0.92 + 0.06 * daily(14) + wander(rng, 0.02)
+    rw501 = ~clock.window("2026-10-10 07:00", "2026-10-12 15:00")
+    rw503 = ~rw501 | clock.window("2026-10-28 08:30", "2026-10-28 10:25")
+    level = wander(rng, 0.15, 12)
+    ops["RW-501"] = State(rw501, rw_load, river, level=level)
+    ops["RW-502"] = State(np.ones(clock.n, bool), rw_load, river, level=level)
+    strainer_fouling(ops["RW-502"], clock)
+    ops["RW-503"] = State(rw503, rw_load, river, level=level)
+
+    reservoir = 12.0 - 1.5 * mf + wander(rng, 0.1, 12)
+    jockey = np.zeros(clock.n, bool)
+    t = int(rng.integers(60, 200))
+    while t < clock.n:
+        jockey[t:t + int(rng.integers(4, 9))] = True
+        t += int(rng.integers(150, 300))
+    ops["FW-601"] = State(jockey, 0.6 + wander(rng, 0.1, 6), reservoir)
+    tests = [d for d in days() if pd.Timestamp(d).weekday() == 2]
+    ops["FW-602"] = State(batches(clock, [(f"{d} 10:00", f"{d} 10:30") for d in tests]),
+                          1.0 + wander(rng, 0.01), reservoir)
+    ops["FW-603"] = State(batches(clock, [(f"{d} 10:45", f"{d} 11:15") for d in tests]),
+                          1.0 + wander(rng, 0.01), reservoir, speed=1.005 + wander(rng, 0.004))
+
+    office = batches(clock, [(f"{d} 06:00", f"{d} 19:00") for d in days(weekdays_only=True)])
+    ops["BS-111"] = State(office, 0.75 + 0.15 * daily(15) + wander(rng, 0.03),
+                          7.0 + 0.5 * daily(15) + wander(rng, 0.3))
+    heating = 0.6 + 0.3 * cold + wander(rng, 0.03)
+    ops["BS-112"] = State(np.ones(clock.n, bool), heating, 68.0 + 6.0 * cold + wander(rng, 0.5),
+                          speed=0.5 + 0.45 * heating)
+
+    tank = 15.0 - 3.0 * mf + 2.0 * daily(16) + wander(rng, 0.4)
+    ops["MT-801"] = State(~clock.window("2026-10-02 08:00", "2026-10-02 20:00"),
+                          0.85 + wander(rng, 0.04), tank, level=wander(rng, 0.4, 24))
+    throttled_low_flow(ops["MT-801"], clock, rng)
+    unloading = []
+    for d in days(weekdays_only=True):
+        for start in sorted(rng.choice(np.arange(8, 16), size=int(rng.integers(1, 3)), False)):
+            minute = int(rng.integers(0, 4)) * 15
+            unloading.append((f"{d} {start:02d}:{minute:02d}", f"{d} {start + 1:02d}:{minute:02d}"))
+    ops["MT-802"] = State(batches(clock, unloading), 0.9 + wander(rng, 0.03), tank + 1.0)
+    transfer = batches(clock, [(f"{d} 06:00", f"{d} 14:00") for d in days()
+                               if pd.Timestamp(d).weekday() != 6])
+    ops["TL-811"] = State(transfer, 0.9 + wander(rng, 0.03), tank + 0.5,
+                          level=wander(rng, 0.3, 24))
+    recycle = 0.8 + wander(rng, 0.04)
+    ops["TL-812"] = State(np.ones(clock.n, bool), recycle, 44.0 + wander(rng, 1.0),
+                          speed=0.55 + 0.45 * recycle)
+
+    ambient = 13.0 - 4.0 * mf + 2.0 * daily(15) + wander(rng, 0.5, 6)
+    sphere_level = 0.8 * np.cos(2 * np.pi * mf * 31 / 7) + wander(rng, 0.1, 12)
+    loading = [(f"{d} 07:00", f"{d} 10:30") for d in days(weekdays_only=True)]
+    loading += [(f"{d} 13:00", f"{d} 16:00") for d in days(weekdays_only=True)]
+    odd = [w for w in loading if int(w[0][8:10]) % 2 == 1]
+    even = [w for w in loading if int(w[0][8:10]) % 2 == 0]
+    for pump_id, windows in (("LP-901A", odd), ("LP-901B", even)):
+        ops[pump_id] = State(batches(clock, windows), 0.97 + wander(rng, 0.02), ambient,
+                             level=sphere_level)
+    ops["LP-902"] = State(batches(clock, [(f"{d} 09:00", f"{d} 12:00")
+                                          for d in days(weekdays_only=True)]),
+                          1.0 + wander(rng, 0.02), ambient - 1.0, level=wander(rng, 0.4, 24))
+    return ops
+
+
+# ----------------------------------------------------------------------------- curves and physics
+CURVE_FRACTIONS_SI = (0.25, 0.4, 0.55, 0.7, 0.85, 1.0, 1.15, 1.3)
+CURVE_FRACTIONS_US = (0.25, 0.5, 0.75, 1.0, 1.15, 1.3)
+GPM = TO_SI["gpm"]
+
+
+def curve_table(p: Pump) -> pd.DataFrame:
+    """Vendor NPSH3 curve at rated speed, rounded as a data sheet would print it."""
+    bep = cell_si(p.bep_flow, "m3/h")
+    npsh3_bep_ft = (p.rated_rpm * np.sqrt(bep / GPM / p.eyes) / p.suction_specific_speed) ** (4 / 3)
+    a, k = p.curve_shape
+    us = p.units[3] == "gpm"
+    rows = []
+    for x in CURVE_FRACTIONS_US if us else CURVE_FRACTIONS_SI:
+        head_ft = npsh3_bep_ft * (a + (1 - a) * x**k)
+        if us:
+            q = round(x * bep / GPM, 1 if bep / GPM < 100 else 0)
+            rows.append((p.curve_id, q, "gpm", round(head_ft, 1), "ft"))
+        else:
+            rows.append((p.curve_id, round(x * bep, 2 if bep < 20 else 1), "m3/h",
+                         round(head_ft * 0.3048, 2), "m"))
+    return pd.DataFrame(rows, columns=["curve_id", "flow", "flow_unit", "npsh3", "npsh3_unit"])
+
+
+def curve_si(p: Pump) -> tuple[np.ndarray, np.ndarray]:
+    """The rounded curve as (flow / BEP flow, NPSH3 in m)."""
+    t = curve_table(p)
+    flow = t["flow"].to_numpy() * np.where(t["flow_unit"] == "gpm", GPM, 1.0)
+    head = t["npsh3"].to_numpy() * np.where(t["npsh3_unit"] == "ft", 0.3048, 1.0)
+    return flow / cell_si(p.bep_flow, "m3/h"), head
+
+
+def fluid_tables(fluid: str, temps: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Saturated-liquid vapour pressure (Pa) and density (kg/m3) on a fine temperature grid."""
+    grid = np.arange(np.nanmin(temps) - 2.0, np.nanmax(temps) + 2.0, 0.02) + 273.15
+    return grid - 273.15, PropsSI("P", "T", grid, "Q", 0, fluid), PropsSI("D", "T", grid, "Q", 0, fluid)
+
+
+@dataclass
+class Truth:
+    run: np.ndarray
+    npsha: np.ndarray
+    npsh3: np.ndarray  # NaN where off curve or stopped
+    required: np.ndarray  # guidance: max(ratio * NPSH3, NPSH3 + margin)
+    suction_specific_speed: float
+
+
+POLICY = {  # application: [(min S, max S, ratio, margin m)] as in configs/demo_plant.toml
+    "petroleum": [(0, np.inf, 1.1, 1.0)],
+    "chemical": [(0, 11000, 1.1, 0.6), (11000, np.inf, 1.2, 1.0)],
+    "power": [(0, 7500, 1.1, 0.6), (7500, np.inf, 1.2, 1.0)],
+    "water": [(0, 7500, 1.1, 0.6), (7500, np.inf, 1.2, 1.0)],
+    "building": [(0, 7500, 1.0, 0.0), (7500, np.inf, 1.1, 0.6)],
+}
+
+
+def simulate(p: Pump, st: State, clock: Clock, baro: np.ndarray, rng: np.random.Generator):
+    """Return the process truth and the transmitter readings (register units) of one pump."""
+    source_temp = st.temp if st.source_temp is None else st.source_temp
+    grid, pv_grid, rho_grid = fluid_tables(p.fluid, np.r_[st.temp, source_temp, p.design_temp])
+    pv, rho = np.interp(st.temp, grid, pv_grid), np.interp(st.temp, grid, rho_grid)
+    pv_d, rho_d = np.interp(p.design_temp, grid, pv_grid), np.interp(p.design_temp, grid, rho_grid)
+    bep = cell_si(p.bep_flow, "m3/h")
+    z, bore = cell_si(p.tap_elevation, "m"), cell_si(p.tap_bore, "mm")
+    fractions, heads = curve_si(p)
+    npsh3_bep = float(np.interp(1.0, fractions, heads))
+    v_bep = bep / 3600 / (np.pi / 4 * bore**2)
+    base_design = pv_d if p.source == "saturated" else P_ATM_STANDARD
+    head = (p.design_ratio * npsh3_bep - v_bep**2 / (2 * G) - z + p.friction
+            - (base_design - pv_d) / (rho_d * G))  # static head above the base pressure, m
+    load = np.where(st.run, st.load, 0.0)
+    speed = np.where(st.run, st.speed, 0.0)
+    base = np.interp(source_temp, grid, pv_grid) if p.source == "saturated" else baro
+    p_abs = base + rho * G * (head + st.level - (p.friction + st.extra_loss) * load**2)
+    velocity = load * v_bep
+    npsha = (p_abs - pv) / (rho * G) + velocity**2 / (2 * G) + z
+    exponent = float(p.exponent or 2.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        at_rated = load / speed
+        npsh3 = np.interp(at_rated, fractions, heads) * speed**exponent
+    npsh3[~st.run | (at_rated < fractions[0]) | (at_rated > fractions[-1])] = np.nan
+    s_us = p.rated_rpm * np.sqrt(bep / GPM / p.eyes) / (npsh3_bep / 0.3048) ** 0.75
+    ratio, margin = next((r, m) for lo, hi, r, m in POLICY[p.application] if lo <= s_us < hi)
+    truth = Truth(st.run, npsha, npsh3, np.maximum(ratio * npsh3, npsh3 + margin), s_us)
+
+    p_unit, reference, t_unit, q_unit = p.units
+    noise_pa = PRESSURE_NOISE_PA[p_unit]
+    reading = p_abs + rng.normal(0, noise_pa, clock.n) - (baro if reference == "gauge" else 0.0)
+    temp = st.temp + rng.normal(0, 0.03, clock.n)
+    q_factor = 1.0 / TO_SI[q_unit]
+    flow = load * bep + np.where(st.run, rng.normal(0, 0.004 * bep, clock.n), 0.0)
+    if not p.run_tag or p.area == "cooling water":  # meters without low-flow cut-off
+        flow = np.where(st.run, flow, rng.normal(0, 0.004 * bep, clock.n))
+    readings = {
+        p.tag("SUCT_PRESS"): (reading / PA_PER[p_unit], RESOLUTION[p_unit],
+                              2.5 * noise_pa / PA_PER[p_unit]),
+        p.tag("SUCT_TEMP"): (temp * 1.8 + 32 if t_unit == "degF" else temp,
+                             0.01 if p.fine_temperature else RESOLUTION[t_unit], -1.0),
+        p.tag("FLOW"): (flow * q_factor, 0.1 if q_unit == "gpm" and bep / GPM < 100
+                        else RESOLUTION[q_unit], 0.01 * bep * q_factor),
+    }
+    if p.speed_tag:
+        rpm = speed * p.rated_rpm + np.where(st.run, rng.normal(0, 1.5, clock.n), 0.0)
+        readings[p.tag("SPEED")] = (rpm, 1.0, 4.0)
+    if p.run_tag:
+        readings[p.tag("RUN")] = (st.run.astype(float), 1.0, 0.5)
+    measured = {tag: np.round(v / res) * res + 0.0 for tag, (v, res, _) in readings.items()}
+    decimals = {tag: max(0, -int(np.floor(np.log10(res) + 1e-9)))
+                for tag, (_, res, _) in readings.items()}
+    deadbands = {tag: band for tag, (_, _, band) in readings.items()}
+    return truth, measured, decimals, deadbands
+
+
+def barometer(clock: Clock, rng: np.random.Generator) -> tuple[np.ndarray, pd.DataFrame]:
+    """True station pressure (Pa) and the 10-minute barometer records (hPa) with a dropout."""
+    weather = 800.0 * np.sin(2 * np.pi * clock.month_fraction * 31 / 5.3) + clock.wander(
+        rng, 450.0, 12)
+    true_pa = P_ATM_STANDARD + 150.0 + weather
+    every10 = np.arange(0, clock.n, 10)
+    hpa = np.round((true_pa[every10] + rng.normal(0, 5.0, every10.size)) / 100.0, 1) + 0.0
+    start, end = "2026-10-17 06:10", "2026-10-18 20:40"
+    keep = ~clock.window(start, end)[every10]
+    planted("(site)", "barometer dropout", BAROMETER_TAG, start, end,
+            "no barometer rows: the tool falls back to the standard atmosphere at 120 m")
+    records = pd.DataFrame({"tag": BAROMETER_TAG, "time": clock.utc[every10][keep],
+                            "value": hpa[keep], "quality": GOOD, "text": None})
+    return true_pa, records
+
+
+# ----------------------------------------------------------------------------- recording
+def by_exception(values: np.ndarray, deadband: float, every: int = 1) -> np.ndarray:
+    """Minutes a by-exception historian stores: on a change beyond the deadband or heartbeat."""
+    keep, last_value, last_minute = [], np.nan, -HEARTBEAT_MIN
+    for minute in range(0, values.size, every):
+        value = values[minute]
+        if (deadband < 0 or minute - last_minute >= HEARTBEAT_MIN
+                or abs(value - last_value) > deadband):
+            keep.append(minute)
+            last_value, last_minute = value, minute
+    return np.asarray(keep, dtype=int)
+
+
+def long_records(measured: dict, deadbands: dict, clock: Clock,
+                 rng: np.random.Generator) -> pd.DataFrame:
+    frames = []
+    for tag, values in measured.items():
+        temperature = tag.endswith("SUCT_TEMP")
+        minutes = by_exception(values, deadbands[tag], every=5 if temperature else 1)
+        jitter = pd.to_timedelta(rng.integers(0, 50, minutes.size), unit="s")
+        frames.append(pd.DataFrame({"tag": tag, "time": clock.utc[minutes] + jitter,
+                                    "value": values[minutes], "quality": GOOD, "text": None}))
+    return pd.concat(frames, ignore_index=True)
+
+
+# ----------------------------------------------------------------------------- data-quality events
+def in_window(times: pd.Series | pd.DatetimeIndex, start: str, end: str) -> np.ndarray:
+    lo, hi = pd.Timestamp(start, tz=SITE_TZ), pd.Timestamp(end, tz=SITE_TZ)
+    return np.asarray((times >= lo) & (times < hi))
+
+
+def pump_of(tag: str) -> str:
+    return next((p.pump_id for p in PUMPS if tag.startswith(p.tag("X")[:-1])), "(shared)")
+
+
+def transmitter_dropout(measured: dict, tag: str, clock: Clock, start: str, end: str) -> None:
+    measured[tag][clock.window(start, end)] = np.nan
+    planted(pump_of(tag), "transmitter dropout", tag, start, end, "empty cells: no data")
+
+
+def frozen_transmitter(measured: dict, tag: str, clock: Clock, start: str, end: str) -> None:
+    window = clock.window(start, end)
+    measured[tag][window] = measured[tag][np.argmax(window)]
+    planted(pump_of(tag), "frozen transmitter", tag, start, end,
+            "identical value while running: bad data after 'frozen_after' (6 h)")
+
+
+def text_stretch(texts: dict, tag: str, clock: Clock, start: str, end: str, word: str) -> None:
+    texts.setdefault(tag, []).append((clock.window(start, end), word))
+    planted(pump_of(tag), f"text '{word}'", tag, start, end, "word instead of a number")
+
+
+def text_scatter(texts: dict, tag: str, clock: Clock, rng: np.random.Generator, count: int,
+                 word: str, start: str = "2026-10-01", end: str = "2026-11-01") -> None:
+    mask = np.zeros(clock.n, bool)
+    mask[rng.choice(np.flatnonzero(clock.window(start, end)), count, replace=False)] = True
+    texts.setdefault(tag, []).append((mask, word))
+    planted(pump_of(tag), f"text '{word}' in {count} single cells", tag, start, end,
+            "word instead of a number")
+
+
+def long_dropout(records: pd.DataFrame, tag: str, start: str, end: str) -> pd.DataFrame:
+    planted(pump_of(tag), "transmitter dropout", tag, start, end, "no rows: no data")
+    return records[~((records["tag"] == tag) & in_window(records["time"], start, end))]
+
+
+def bad_quality(records: pd.DataFrame, tag: str, start: str, end: str, word: str,
+                rng: np.random.Generator) -> None:
+    """Mark a stretch with a bad quality word; the values are held or erratic."""
+    rows = (records["tag"] == tag) & in_window(records["time"], start, end)
+    if word == "suspect":
+        records.loc[rows, "value"] += np.round(rng.normal(0, 4.0, int(rows.sum())), 2)
+    else:
+        before = records.loc[(records["tag"] == tag) & ~rows
+                             & (records["time"] < pd.Timestamp(start, tz=SITE_TZ)), "value"]
+        records.loc[rows, "value"] = before.iloc[-1]
+    records.loc[rows, "quality"] = word
+    planted(pump_of(tag), f"quality '{word}'", tag, start, end, "bad quality: no data")
+
+
+def long_text(records: pd.DataFrame, tag: str, word: str, start: str, end: str,
+              rng: np.random.Generator | None = None, count: int = 0) -> None:
+    rows = np.flatnonzero((records["tag"] == tag) & in_window(records["time"], start, end))
+    if count:
+        rows = rng.choice(rows, count, replace=False)
+    records.loc[records.index[rows], ["text", "quality"]] = [word, "suspect"]
+    what = f"text '{word}'" + (f" in {count} single rows" if count else "")
+    planted(pump_of(tag), what, tag, start, end, "word instead of a number, quality 'suspect'")
+
+
+def duplicates_and_disorder(records: pd.DataFrame, rng: np.random.Generator) -> pd.DataFrame:
+    """Eight exact duplicate rows (10-09, 10-19) and six rows moved ~40 rows later (10-20)."""
+    records = records.reset_index(drop=True)
+    picks = [rng.choice(np.flatnonzero(in_window(records["time"], d, d + " 23:59")), 4, False)
+             for d in ("2026-10-09", "2026-10-19")]
+    order = np.sort(np.r_[np.arange(len(records)), np.concatenate(picks)])
+    first = int(np.flatnonzero(in_window(records["time"], "2026-10-20 12:00", "2026-10-21"))[0])
+    order = list(order)
+    at = order.index(first)
+    block = order[at:at + 6]
+    del order[at:at + 6]
+    order[at + 40:at + 40] = block
+    planted("TL-811/TL-812", "8 duplicated rows", "(toluene file)", "2026-10-09", "2026-10-20",
+            "exact duplicate rows: the loader must drop them")
+    planted("TL-811/TL-812", "6 rows out of order", "(toluene file)", "2026-10-20 12:00",
+            "2026-10-20 13:00", "rows written ~40 rows late: the loader must sort")
+    return records.iloc[order]
+
+
+# ----------------------------------------------------------------------------- writers
+def write_gzip(path: Path, text: str) -> None:
+    path.parent.mkdir(parents=True, exist_ok=True)
+    path.write_bytes(gzip.compress(text.encode(), compresslevel=9, mtime=0))
+
+
+def cells(values: np.ndarray, decimals: int) -> np.ndarray:
+    out = np.char.mod(f"%.{decimals}f", np.round(values, decimals) + 0.0).astype(object)
+    out[np.isnan(values)] = ""
+    return out
+
+
+def write_wide_csv(path: Path, clock: Clock, rows: np.ndarray, columns: dict, decimals: dict,
+                   texts: dict) -> None:
+    frame = {"timestamp": clock.local[rows].strftime("%Y-%m-%d %H:%M:%S")}
+    for tag, values in columns.items():
+        column = cells(values, decimals[tag])
+        for mask, word in texts.get(tag, []):
+            column[mask] = word
+        frame[tag] = column[rows]
+    write_gzip(path, pd.DataFrame(frame).to_csv(index=False, lineterminator="\n"))
+
+
+def utc_array(times) -> pa.Array:
+    naive = pd.DatetimeIndex(times).tz_convert("UTC").tz_localize(None)
+    return pa.array(naive.to_numpy().astype("datetime64[ms]"), pa.timestamp("ms", tz="UTC"))
+
+
+def write_parquet(path: Path, table: pa.Table) -> None:
+    path.parent.mkdir(parents=True, exist_ok=True)
+    pq.write_table(table, path, compression="zstd")
+
+
+def write_wide_parquet(path: Path, clock: Clock, columns: dict) -> None:
+    arrays = {"time_utc": utc_array(clock.utc)}
+    arrays.update({tag: pa.array(values, pa.float64()) for tag, values in columns.items()})
+    write_parquet(path, pa.table(arrays))
+
+
+def write_long_parquet(path: Path, records: pd.DataFrame) -> None:
+    records = records.sort_values(["tag", "time"], kind="stable")
+    write_parquet(path, pa.table({
+        "tag": pa.array(records["tag"].tolist(), pa.string()),
+        "time": utc_array(records["time"]),
+        "value": pa.array(records["value"].to_numpy(float), pa.float64()),
+        "quality": pa.array(records["quality"].tolist(), pa.string()),
+    }))
+
+
+def iso_times(times: pd.Series, utc: bool) -> np.ndarray:
+    index = pd.DatetimeIndex(times)
+    if utc:
+        return np.asarray(index.tz_convert("UTC").strftime("%Y-%m-%dT%H:%M:%SZ"), dtype=object)
+    local = index.tz_convert(SITE_TZ)
+    offset = local.tz_localize(None) - index.tz_convert("UTC").tz_localize(None)
+    suffix = np.where(offset == pd.Timedelta(hours=2), "+02:00", "+01:00")
+    return np.asarray(local.strftime("%Y-%m-%dT%H:%M:%S"), dtype=object) + suffix
+
+
+def write_long_csv(path: Path, records: pd.DataFrame, decimals: dict, utc: bool = False,
+                   quality: bool = True) -> None:
+    values = np.empty(len(records), dtype=object)
+    for tag, rows in records.groupby("tag", sort=False).indices.items():
+        values[rows] = cells(records["value"].to_numpy(float)[rows], decimals[tag])
+    words = records["text"].to_numpy(object)
+    values = np.where(pd.isna(words), values, words)
+    frame = pd.DataFrame({"tag": records["tag"].to_numpy(object),
+                          "time": iso_times(records["time"], utc), "value": values})
+    if quality:
+        frame["quality"] = records["quality"].to_numpy(object)
+    write_gzip(path, frame.to_csv(index=False, lineterminator="\n"))
+
+
+def register_row(p: Pump) -> dict:
+    p_unit, reference, t_unit, q_unit = p.units
+    return {
+        "pump_id": p.pump_id, "service": p.service, "area": p.area, "fluid": p.fluid,
+        "application": p.application, "suction_pressure_tag": p.tag("SUCT_PRESS"),
+        "suction_pressure_unit": p_unit, "suction_pressure_reference": reference,
+        "temperature_tag": p.tag("SUCT_TEMP"), "temperature_unit": t_unit,
+        "flow_tag": p.tag("FLOW"), "flow_unit": q_unit,
+        "speed_tag": p.tag("SPEED") if p.speed_tag else "",
+        "speed_unit": "rpm" if p.speed_tag else "",
+        "run_tag": p.tag("RUN") if p.run_tag else "",
+        "tap_elevation [m]": p.tap_elevation, "tap_bore [mm]": p.tap_bore,
+        "rated_speed [rpm]": p.rated_rpm, "bep_flow [m3/h]": p.bep_flow,
+        "curve_id": p.curve_id, "npsh3_exponent": p.exponent, "impeller_eyes": p.eyes,
+        "stale_limit": p.stale_limit,
+    }
+
+
+def write_configs() -> None:
+    CONFIGS.mkdir(exist_ok=True)
+    header = "# Invented demo plant (Quillmere Demo Works); written by demo_exports/generate_demo.py\n"
+    (CONFIGS / "demo_pumps.csv").write_text(
+        pd.DataFrame([register_row(p) for p in PUMPS]).to_csv(index=False, lineterminator="\n"))
+    curves = pd.concat([curve_table(p) for p in PUMPS]).drop_duplicates()
+    (CONFIGS / "demo_npsh3_curves.csv").write_text(curves.to_csv(index=False, lineterminator="\n"))
+    del header
