@@ -186,7 +186,7 @@ def calculate_pump(
         decide_until = np.minimum(decide_until, held[r].until)
     all_bad = decide_bad.copy()
     all_until = decide_until.copy()
-    for r, h in held.items():
+    for h in held.values():
         all_bad |= h.bad
         all_until = np.minimum(all_until, h.until)
 
