@@ -232,18 +232,25 @@ class Clock:
 
     @classmethod
     def october(cls) -> Clock:
-        start = pd.Timestamp("2026-10-01", tz=SITE_TZ)
-        end = pd.Timestamp("2026-11-01", tz=SITE_TZ)
+        start = local_time("2026-10-01")
+        end = local_time("2026-11-01")
         utc = pd.date_range(start.tz_convert("UTC"), end.tz_convert("UTC"), freq="min",
                             inclusive="left")
         local = utc.tz_convert(SITE_TZ)
         hour = (local.hour + local.minute / 60.0).to_numpy(dtype=float)
         fraction = np.arange(len(utc)) / len(utc)
-        weekend = (local.weekday >= 5).to_numpy()
+        weekend = np.asarray(local.day_of_week >= 5)
         return cls(utc, local, hour, fraction, weekend, len(utc))
 
+    @property
+    def seconds(self) -> np.ndarray:
+        return np.arange(self.n) * 60.0
+
+    def seconds_at(self, when: str) -> float:
+        return (local_time(when) - self.utc[0]).total_seconds()
+
     def window(self, start: str, end: str) -> np.ndarray:
-        lo, hi = pd.Timestamp(start, tz=SITE_TZ), pd.Timestamp(end, tz=SITE_TZ)
+        lo, hi = local_time(start), local_time(end)
         return np.asarray((self.utc >= lo) & (self.utc < hi))
 
     def daily(self, peak_hour: float) -> np.ndarray:
@@ -252,6 +259,11 @@ class Clock:
     def wander(self, rng: np.random.Generator, sd: float, knot_hours: float = 3.0) -> np.ndarray:
         knots = np.arange(0, self.n + knot_hours * 60, knot_hours * 60)
         return np.interp(np.arange(self.n), knots, rng.normal(0.0, sd, len(knots)))
+
+
+def local_time(text: str) -> pd.Timestamp:
+    """A local wall-clock time; inside the repeated hour of 2026-10-25 the first (CEST) one."""
+    return pd.Timestamp(text).tz_localize(SITE_TZ, ambiguous=True)
 
 
 def planted(pump_id: str, event: str, tag: str, start: str, end: str, expect: str) -> None:
@@ -280,7 +292,7 @@ def duty_pair(clock: Clock, changeovers: list[str]) -> tuple[np.ndarray, np.ndar
     """A runs first; at each changeover the incoming pump starts, the outgoing stops 3 min later."""
     a, b = np.ones(clock.n, bool), np.zeros(clock.n, bool)
     for k, when in enumerate(changeovers):
-        t = pd.Timestamp(when, tz=SITE_TZ)
+        t = local_time(when)
         incoming, outgoing = (b, a) if k % 2 == 0 else (a, b)
         incoming[clock.utc >= t] = True
         outgoing[clock.utc >= t + pd.Timedelta(minutes=3)] = False
@@ -321,8 +333,7 @@ def hot_spell(clock: Clock) -> np.ndarray:
     knots = ["2026-10-11 12:00", "2026-10-12 15:30", "2026-10-13 15:30", "2026-10-14 15:30",
              "2026-10-15 15:30", "2026-10-16 15:30", "2026-10-17 12:00"]
     peaks = [0.0, 8.5, 10.5, 12.0, 11.0, 9.0, 0.0]
-    t = [pd.Timestamp(k, tz=SITE_TZ).value for k in knots]
-    amplitude = np.interp(clock.utc.asi8, t, peaks, left=0.0, right=0.0)
+    amplitude = np.interp(clock.seconds, [clock.seconds_at(k) for k in knots], peaks)
     for pump_id in ("CW-103", "CW-101A", "CW-101B", "CW-102A", "CW-102B"):
         expect = ("margin below guidance in the afternoons" if pump_id == "CW-103"
                   else "warmer water, margin stays ample")
@@ -338,9 +349,8 @@ def hot_spell_demand(state: State, extra_temp: np.ndarray) -> None:
 
 def strainer_fouling(state: State, clock: Clock) -> None:
     """RW-502: strainer loss grows from 10-04 to 4.8 m at BEP flow; cleaned 10-28 08:40."""
-    start, cleaned = pd.Timestamp("2026-10-04", tz=SITE_TZ), "2026-10-28 08:40"
-    span = (pd.Timestamp(cleaned, tz=SITE_TZ) - start).value
-    progress = np.clip((clock.utc.asi8 - start.value) / span, 0.0, None)
+    start, cleaned = clock.seconds_at("2026-10-04"), "2026-10-28 08:40"
+    progress = np.clip((clock.seconds - start) / (clock.seconds_at(cleaned) - start), 0.0, None)
     state.extra_loss = np.where(progress <= 1.0, 4.8 * progress**1.6, 0.05)
     state.run = state.run & ~clock.window(cleaned, "2026-10-28 10:15")
     planted("RW-502", "strainer fouling", "RW502.SUCT_PRESS", "2026-10-04 00:00", cleaned,
@@ -446,7 +456,7 @@ def plant_operation(clock: Clock, rng: np.random.Generator) -> dict[str, State]:
     throttled_low_flow(ops["MT-801"], clock, rng)
     unloading = []
     for d in days(weekdays_only=True):
-        for start in sorted(rng.choice(np.arange(8, 16), size=int(rng.integers(1, 3)), False)):
+        for start in sorted(rng.choice(np.arange(8, 16), int(rng.integers(1, 3)), replace=False)):
             minute = int(rng.integers(0, 4)) * 15
             unloading.append((f"{d} {start:02d}:{minute:02d}", f"{d} {start + 1:02d}:{minute:02d}"))
     ops["MT-802"] = State(batches(clock, unloading), 0.9 + wander(rng, 0.03), tank + 1.0)
@@ -629,7 +639,7 @@ def long_records(measured: dict, deadbands: dict, clock: Clock,
 
 # ----------------------------------------------------------------------------- data-quality events
 def in_window(times: pd.Series | pd.DatetimeIndex, start: str, end: str) -> np.ndarray:
-    lo, hi = pd.Timestamp(start, tz=SITE_TZ), pd.Timestamp(end, tz=SITE_TZ)
+    lo, hi = local_time(start), local_time(end)
     return np.asarray((times >= lo) & (times < hi))
 
 
@@ -676,7 +686,7 @@ def bad_quality(records: pd.DataFrame, tag: str, start: str, end: str, word: str
         records.loc[rows, "value"] += np.round(rng.normal(0, 4.0, int(rows.sum())), 2)
     else:
         before = records.loc[(records["tag"] == tag) & ~rows
-                             & (records["time"] < pd.Timestamp(start, tz=SITE_TZ)), "value"]
+                             & (records["time"] < local_time(start)), "value"]
         records.loc[rows, "value"] = before.iloc[-1]
     records.loc[rows, "quality"] = word
     planted(pump_of(tag), f"quality '{word}'", tag, start, end, "bad quality: no data")
@@ -804,9 +814,123 @@ def register_row(p: Pump) -> dict:
 
 def write_configs() -> None:
     CONFIGS.mkdir(exist_ok=True)
-    header = "# Invented demo plant (Quillmere Demo Works); written by demo_exports/generate_demo.py\n"
     (CONFIGS / "demo_pumps.csv").write_text(
         pd.DataFrame([register_row(p) for p in PUMPS]).to_csv(index=False, lineterminator="\n"))
     curves = pd.concat([curve_table(p) for p in PUMPS]).drop_duplicates()
     (CONFIGS / "demo_npsh3_curves.csv").write_text(curves.to_csv(index=False, lineterminator="\n"))
-    del header
+
+
+# ----------------------------------------------------------------------------- summary
+def summary(truths: dict[str, Truth], clock: Clock) -> pd.DataFrame:
+    rows = []
+    for p in PUMPS:
+        t = truths[p.pump_id]
+        ratio = (t.npsha / t.npsh3)[t.run & ~np.isnan(t.npsh3)]
+        below_guidance = t.run & (t.npsha < t.required)
+        below_npsh3 = t.run & (t.npsha < t.npsh3)
+        first = [clock.local[np.argmax(m)].strftime("%m-%d %H:%M") if m.any() else ""
+                 for m in (below_guidance, below_npsh3)]
+        rows.append({
+            "pump": p.pump_id, "service": p.service, "fluid": p.fluid,
+            "S": round(t.suction_specific_speed), "run %": round(100 * t.run.mean(), 1),
+            "ratio p50": round(float(np.median(ratio)), 2) if ratio.size else np.nan,
+            "ratio min": round(float(ratio.min()), 2) if ratio.size else np.nan,
+            "off curve min": int((t.run & np.isnan(t.npsh3)).sum()),
+            "<guid min": int(below_guidance.sum()), "first <guid": first[0],
+            "<NPSH3 min": int(below_npsh3.sum()), "first <NPSH3": first[1],
+            "event": p.event,
+        })
+    return pd.DataFrame(rows)
+
+
+# ----------------------------------------------------------------------------- main
+WIDE_CSV = {"dosing": ["CH-701A", "CH-701B", "CH-702"],
+            "raw_and_fire_water": ["RW-501", "RW-502", "RW-503", "FW-601", "FW-602", "FW-603"]}
+WEEKLY_WIDE_CSV = {"cooling_water": ["CW-101A", "CW-101B", "CW-102A", "CW-102B", "CW-103"]}
+WIDE_PARQUET = {"district_heating": ["DH-201A", "DH-201B", "DH-202"],
+                "condensate": ["CD-401A", "CD-401B"], "building_services": ["BS-111", "BS-112"]}
+LONG_PARQUET = {"boiler_feed": ["BF-301A", "BF-301B"], "lpg": ["LP-901A", "LP-901B", "LP-902"]}
+LONG_CSV = {"methanol": ["MT-801", "MT-802"], "toluene": ["TL-811", "TL-812"]}
+
+
+def main() -> None:
+    rng = np.random.default_rng(RANDOM_SEED)
+    clock = Clock.october()
+    ops = plant_operation(clock, rng)
+    baro_pa, baro_records = barometer(clock, rng)
+    truths, measured, decimals, deadbands = {}, {}, {}, {}
+    for number, p in enumerate(PUMPS):
+        pump_rng = np.random.default_rng([RANDOM_SEED, number])
+        truth, readings, places, bands = simulate(p, ops[p.pump_id], clock, baro_pa, pump_rng)
+        truths[p.pump_id] = truth
+        measured.update(readings)
+        decimals.update(places)
+        deadbands.update(bands)
+
+    for folder in ("wide_csv", "wide_parquet", "long_parquet", "long_csv", "weather"):
+        for old in (EXPORTS / folder).glob("*"):
+            old.unlink()
+    texts: dict = {}
+    transmitter_dropout(measured, "CW101A.FLOW", clock, "2026-10-21 02:00", "2026-10-21 08:30")
+    transmitter_dropout(measured, "DH201A.SUCT_TEMP", clock, "2026-10-05 10:00", "2026-10-05 14:00")
+    frozen_transmitter(measured, "CW102A.SUCT_PRESS", clock, "2026-10-20 08:00", "2026-10-22 07:30")
+    text_scatter(texts, "CW101B.SUCT_PRESS", clock, rng, 12, "not-avail", "2026-10-12", "2026-10-18")
+    text_scatter(texts, "CH701A.SUCT_TEMP", clock, rng, 30, "not-avail")
+    text_stretch(texts, "CH702.SUCT_PRESS", clock, "2026-10-13 09:00", "2026-10-13 15:30", "xmtr-fault")
+    text_stretch(texts, "RW501.SUCT_TEMP", clock, "2026-10-20 22:00", "2026-10-21 01:00", "no-signal")
+    text_scatter(texts, "RW503.FLOW", clock, rng, 25, "not-avail")
+
+    def tags_of(pump_ids: list[str]) -> dict:
+        return {tag: measured[tag] for pid in pump_ids for tag in measured
+                if tag.startswith(BY_ID[pid].tag("X")[:-1]) or tag == BY_ID[pid].tag("SUCT_TEMP")}
+
+    everything = np.ones(clock.n, bool)
+    for name, pump_ids in WIDE_CSV.items():
+        write_wide_csv(EXPORTS / "wide_csv" / f"{name}_2026-10.csv.gz", clock, everything,
+                       tags_of(pump_ids), decimals, texts)
+    weeks = clock.local.isocalendar().week.to_numpy()
+    for name, pump_ids in WEEKLY_WIDE_CSV.items():
+        for week in np.unique(weeks):
+            write_wide_csv(EXPORTS / "wide_csv" / f"{name}_2026-W{week}.csv.gz", clock,
+                           weeks == week, tags_of(pump_ids), decimals, texts)
+    for name, pump_ids in WIDE_PARQUET.items():
+        write_wide_parquet(EXPORTS / "wide_parquet" / f"{name}_2026-10.parquet", clock,
+                           tags_of(pump_ids))
+
+    long = {name: long_records(tags_of(ids), deadbands, clock, rng)
+            for name, ids in {**LONG_PARQUET, **LONG_CSV}.items()}
+    long["boiler_feed"] = long_dropout(long["boiler_feed"], "BF301B.SUCT_PRESS",
+                                       "2026-10-22 09:00", "2026-10-22 16:30")
+    bad_quality(long["boiler_feed"], "BF301A.SUCT_TEMP", "2026-10-06 13:00", "2026-10-06 19:00",
+                "suspect", rng)
+    bad_quality(long["lpg"], "LP901A.SUCT_PRESS", "2026-10-23 06:30", "2026-10-23 11:00",
+                "link-down", rng)
+    bad_quality(long["methanol"], "MT801.FLOW", "2026-10-26 10:00", "2026-10-26 14:00", "held", rng)
+    long_text(long["methanol"], "MT802.SUCT_TEMP", "not-avail", "2026-10-01", "2026-11-01", rng, 15)
+    long_text(long["toluene"], "TL811.SUCT_PRESS", "xmtr-fault", "2026-10-15 07:00",
+              "2026-10-15 09:00")
+    write_long_parquet(EXPORTS / "long_parquet" / "boiler_feed_2026-10.parquet", long["boiler_feed"])
+    half = in_window(long["lpg"]["time"], "2026-10-01", "2026-10-16")
+    write_long_parquet(EXPORTS / "long_parquet" / "lpg_2026-10-01_to_15.parquet", long["lpg"][half])
+    write_long_parquet(EXPORTS / "long_parquet" / "lpg_2026-10-16_to_31.parquet", long["lpg"][~half])
+    for name in LONG_CSV:
+        records = long[name].sort_values(["time", "tag"], kind="stable")
+        if name == "toluene":
+            records = duplicates_and_disorder(records, rng)
+        write_long_csv(EXPORTS / "long_csv" / f"{name}_2026-10.csv.gz", records, decimals)
+    write_long_csv(EXPORTS / "weather" / "barometer_2026-10.csv.gz", baro_records,
+                   {BAROMETER_TAG: 1}, utc=True, quality=False)
+    write_configs()
+    events = pd.DataFrame(PLANTED).sort_values(["pump_id", "start_local"], kind="stable")
+    (EXPORTS / "planted_events.csv").write_text(events.to_csv(index=False, lineterminator="\n"))
+
+    table = summary(truths, clock)
+    with pd.option_context("display.width", 250, "display.max_columns", 30,
+                           "display.max_colwidth", 48):
+        print(table.to_string(index=False))
+    size = sum(f.stat().st_size for f in EXPORTS.rglob("*") if f.is_file())
+    print(f"\ndemo_exports/: {size / 1e6:.1f} MB")
+
+
+if __name__ == "__main__":
+    main()

@@ -153,10 +153,15 @@ def calculate_pump(
 
     # --- the grid: every sample time in the window, the window start and local midnights
     parts = [np.array([start_ns], dtype=np.int64), day_edges[:-1]]
+    seen: list[np.ndarray] = []
     for s in list(tags.values()) + [barometer]:
         if s is not None and len(s.times):
             lo, hi = np.searchsorted(s.times, [start_ns, end_ns])
-            parts.append(s.times[lo:hi])
+            piece = s.times[lo:hi]
+            # tags of one wide file share their times: add each distinct time axis once
+            if not any(len(x) == len(piece) and np.array_equal(x, piece) for x in seen):
+                seen.append(piece)
+    parts.extend(seen)
     grid = np.unique(np.concatenate(parts))
     grid = grid[(grid >= start_ns) & (grid < end_ns)]
     t_next = np.append(grid[1:], end_ns)

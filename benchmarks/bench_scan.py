@@ -1,0 +1,514 @@
+"""Benchmark of the plant scan on a synthetic plant: speed, peak memory, and two yardsticks.
+
+Run from the repository root::
+
+    .venv/bin/python benchmarks/bench_scan.py                 # 500 pumps, 30 days (full size)
+    .venv/bin/python benchmarks/bench_scan.py --pumps 20 --days 3   # quick run
+
+The data
+    An invented plant of ``--pumps`` centrifugal pumps sampled every minute for ``--days`` days
+    (500 x 30 x 1440 = 21.6 million pump-samples at full size), built once with a fixed random
+    state and cached in ``benchmarks/_data/`` (git-ignored). Each pump has a gauge suction
+    pressure (kPa or psi), a temperature (degC or degF), a flow (m3/h or gpm), a run status and,
+    on every 5th pump, a speed. Mostly water (cold, warm, and hot saturated service), some
+    methanol and toluene. Margins are set per pump and disturbed by daily swings, suction
+    pressure sags, flow excursions past the curve and hot-vessel transients, so that some pumps
+    dip below guidance and below NPSH3. A few gaps, missing samples and sentinel values are
+    sprinkled in. The exports are wide Parquet files (zstd), 50 pumps per file, with a UTC
+    ``timestamp`` column; the plant file, register and curves follow tests/plantmaker.py.
+
+The measures (each in its own subprocess, so that each peak resident memory, ``ru_maxrss``,
+is its own; all are warm-cache reads of files just written or read)
+    read    pyarrow.parquet.read_table of every file, all columns, to pandas, one file at a time.
+    scan    ``screening.scan(plant_toml, start, end)``. The calculation-only time is the sum of
+            the wall time spent inside ``calculate_pump`` during that same scan: the scan
+            module's ``calculate_pump``, ``prepare_tag``, ``_tables`` and the loader's
+            ``ExportIndex.read`` are wrapped by timers (a few microseconds per call, 500 calls).
+            numpy runs single-threaded here, so that time is one core's.
+    cli     ``pumpscreen scan`` as a child process, including writing the report folder.
+    naive   a Python loop over the first pump's samples calling CoolProp's PropsSI twice per
+            sample (vapour pressure and density) plus the NPSHa formula, timed on a slice
+            (``--naive-samples``, 20 000 by default) and scaled to the whole plant.
+
+Samples/s always means pump-samples (pumps x minutes) per second. Targets are printed as PASS
+or MISS; the process never fails on a miss.
+"""
+
+from __future__ import annotations
+
+import argparse
+import functools
+import importlib
+import json
+import resource
+import subprocess
+import sys
+import time
+from collections import defaultdict
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+DATA = Path(__file__).resolve().parent / "_data"
+FIXED_RANDOM_STATE = 20261001
+GENERATOR_VERSION = 1  # bump when the generator changes, so cached plants are rebuilt
+START = pd.Timestamp("2026-10-01T00:00:00Z")
+PUMPS_PER_FILE = 50
+G = 9.80665
+SITE_ELEVATION_M = 120.0
+P_ATM = 101_325.0 * (1 - 2.25577e-5 * SITE_ELEVATION_M) ** 5.25588  # standard atmosphere [Pa]
+M3H_PER_GPM = 0.2271247
+PA_PER_PSI = 6894.757
+
+# Curve id, BEP flow [m3/h], NPSH3 at BEP [m], rated speed [rpm], units of the CSV rows.
+CURVES = [
+    ("K030", 30, 2.4, 2960, "m3/h", "m"),
+    ("K060", 60, 3.0, 2960, "gpm", "ft"),
+    ("K100", 100, 3.6, 2960, "m3/h", "m"),
+    ("K160", 160, 3.2, 1480, "gpm", "ft"),
+    ("K250", 250, 3.8, 1480, "m3/h", "m"),
+    ("K400", 400, 4.5, 1480, "m3/h", "m"),
+    ("K700", 700, 5.4, 1480, "gpm", "ft"),
+]
+CURVE_POINTS = (0.25, 0.4, 0.6, 0.8, 1.0, 1.1, 1.2, 1.3)  # fractions of BEP flow
+
+PLANT_TOML = """[site]
+name = "Synthetic benchmark plant (invented)"
+elevation = "{elevation} m"
+timezone = "Europe/Berlin"
+
+[register]
+pumps = "pumps.csv"
+curves = "curves.csv"
+
+[data]
+stale_limit = "5 min"
+frozen_after = "6 h"
+good_quality = ["good"]
+
+[running]
+min_flow_fraction = 0.05
+min_speed_fraction = 0.2
+
+[window]
+start = "{start}"
+end = "{end}"
+
+[[exports]]
+files = "exports/*.parquet"
+layout = "wide"
+time_column = "timestamp"
+
+[policy]
+ample_ratio = 2.0
+[[policy.rules]]
+application = "water"
+max_suction_specific_speed = 7500
+ratio = 1.1
+margin = "0.6 m"
+[[policy.rules]]
+application = "water"
+min_suction_specific_speed = 7500
+ratio = 1.2
+margin = "1.0 m"
+[[policy.rules]]
+application = "hydrocarbon"
+ratio = 1.1
+margin = "1.0 m"
+"""
+
+
+# --- the synthetic plant -------------------------------------------------------------------
+def npsh3_shape(x):
+    """NPSH3 relative to its value at BEP, at flow fraction ``x`` of BEP (invented shape)."""
+    return 0.55 + 0.45 * np.asarray(x) ** 2.5
+
+
+@functools.cache
+def saturation(fluid: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Generator's own coarse table of T [K], ln p_v [ln Pa], rho [kg/m3] (CoolProp, 0.5 K)."""
+    from CoolProp.CoolProp import PropsSI
+
+    temps = np.arange(275.0, 470.0, 0.5)
+    p = np.array([PropsSI("P", "T", t, "Q", 0, fluid) for t in temps])
+    rho = np.array([PropsSI("D", "T", t, "Q", 0, fluid) for t in temps])
+    return temps, np.log(p), rho
+
+
+def register(n_pumps: int, rng: np.random.Generator) -> pd.DataFrame:
+    """The pump register: one row per pump, plus hidden columns (``_...``) for the generator."""
+    rows = []
+    for i in range(n_pumps):
+        pid = f"P{i + 1:03d}"
+        fluid = rng.choice(["Water", "Methanol", "Toluene"], p=[0.8, 0.1, 0.1])
+        cid, bep, _, rated, _, _ = CURVES[rng.integers(len(CURVES))]
+        kind = "subcooled"
+        if fluid == "Water":
+            temp_c, kind = [
+                (rng.uniform(8, 35), "subcooled"),
+                (rng.uniform(40, 85), "subcooled"),
+                (rng.uniform(105, 150), "saturated"),
+            ][rng.choice(3, p=[0.55, 0.3, 0.15])]
+        else:
+            temp_c = rng.uniform(15, 45) if fluid == "Methanol" else rng.uniform(25, 90)
+        low = rng.random() < 0.06
+        ratio = rng.uniform(0.9, 1.1) if low else 1.05 + rng.gamma(2.0, 0.45)
+        bore_mm = 5 * round(1000 * np.sqrt(4 * bep / 3600 / (np.pi * 2.0)) / 5)
+        speed_tag = i % 5 == 4
+        rows.append(
+            {
+                "pump_id": pid,
+                "service": f"{fluid.lower()} {kind} service {i % 7 + 1}",
+                "area": f"U{i // 100 + 1}",
+                "fluid": fluid,
+                "application": "water" if fluid == "Water" else "hydrocarbon",
+                "suction_pressure_tag": f"{pid}.PS",
+                "suction_pressure_unit": rng.choice(["kPa", "psi"]),
+                "suction_pressure_reference": "gauge",
+                "temperature_tag": f"{pid}.TT",
+                "temperature_unit": rng.choice(["degC", "degF"], p=[0.7, 0.3]),
+                "flow_tag": f"{pid}.FT",
+                "flow_unit": rng.choice(["m3/h", "gpm"], p=[0.6, 0.4]),
+                "speed_tag": f"{pid}.SPD" if speed_tag else "",
+                "speed_unit": "rpm" if speed_tag else "",
+                "run_tag": f"{pid}.RUN",
+                "tap_elevation [m]": round(rng.uniform(-0.5, 2.5), 1),
+                "tap_bore [mm]": bore_mm,
+                "rated_speed [rpm]": rated,
+                "bep_flow [m3/h]": bep,
+                "curve_id": cid,
+                "npsh3_exponent": "",
+                "impeller_eyes": "",
+                "stale_limit": "",
+                "_temp_k": temp_c + 273.15,
+                "_kind": kind,
+                "_ratio": ratio,
+                "_duty": rng.choice(["duty", "cycling", "standby"], p=[0.6, 0.3, 0.1]),
+            }
+        )
+    return pd.DataFrame(rows)
+
+
+def _slow(rng, n, every, scale):
+    """Smooth random variation: normal values every ``every`` minutes, linearly joined."""
+    nodes = rng.normal(0.0, scale, n // every + 2)
+    return np.interp(np.arange(n), np.arange(len(nodes)) * every, nodes)
+
+
+def _episodes(rng, n, count, min_len, max_len):
+    """Sum of ``count`` trapezoid-shaped episodes of height 1 at random times."""
+    out = np.zeros(n)
+    for _ in range(count):
+        length = int(rng.integers(min_len, max_len))
+        start = int(rng.integers(0, max(1, n - length)))
+        ramp = max(1, length // 4)
+        shape = np.minimum(1.0, np.minimum(np.arange(length) + 1, length - np.arange(length)) / ramp)
+        out[start : start + length] = np.maximum(out[start : start + length], shape[: n - start])
+    return out
+
+
+def _run_status(rng, n, duty):
+    on_mean, off_mean = {"duty": (20 * 1440, 360), "cycling": (1200, 480), "standby": (480, 7200)}[
+        duty
+    ]
+    out, pos, state = np.zeros(n), 0, duty != "standby"
+    while pos < n:
+        d = int(rng.exponential(on_mean if state else off_mean)) + 30
+        out[pos : pos + d] = float(state)
+        pos, state = pos + d, not state
+    return out
+
+
+def pump_columns(p: pd.Series, n: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
+    """The export columns of one pump (in its register units) over ``n`` minutes."""
+    cid, bep, npsh3_bep, rated, _, _ = next(c for c in CURVES if c[0] == p["curve_id"])
+    phase = 2 * np.pi * np.arange(n) / 1440.0
+    run = _run_status(rng, n, p["_duty"])
+    x = rng.uniform(0.55, 1.05) + 0.08 * np.sin(phase + rng.uniform(0, 6.3)) + _slow(rng, n, 60, 0.04)
+    if rng.random() < 0.2:  # pushed out along the curve now and then, sometimes off it
+        x = x + rng.uniform(0.2, 0.45) * _episodes(rng, n, rng.poisson(3), 60, 600)
+    x = np.clip(x + rng.normal(0, 0.01, n), 0.15, 1.6) * run
+    # temperature [K]; a hot saturated vessel's pump sees it about 10 min late
+    t_vessel = p["_temp_k"] + rng.uniform(0.5, 4) * np.sin(phase + rng.uniform(0, 6.3))
+    t_vessel += _slow(rng, n, 180, 0.8)
+    if p["_kind"] == "saturated":  # load drops: the vessel cools by a few kelvin in minutes
+        t_vessel -= rng.uniform(3, 8) * _episodes(rng, n, rng.poisson(4), 30, 180)
+    t_pump = np.concatenate([np.full(10, t_vessel[0]), t_vessel[:-10]])
+    temps, ln_pv, rho_tab = saturation(p["fluid"])
+    rho = np.interp(p["_temp_k"], temps, rho_tab)
+    # suction pressure [Pa abs]: the NPSHa aimed at, less friction growing with flow, less sags
+    target = p["_ratio"] * npsh3_bep
+    area = np.pi * (p["tap_bore [mm]"] / 1000) ** 2 / 4
+    vh_bep = (bep / 3600 / area) ** 2 / (2 * G)
+    h_fric = rng.uniform(0.2, 1.5)
+    head = target - p["tap_elevation [m]"] - vh_bep + h_fric - h_fric * x**2
+    head *= 1 + 0.03 * np.sin(phase + rng.uniform(0, 6.3)) + _slow(rng, n, 120, 0.02)
+    head -= rng.uniform(0.2, 0.6) * target * _episodes(rng, n, rng.poisson(3 * n / 43200), 20, 240)
+    if p["_kind"] == "saturated":
+        p_surface = np.exp(np.interp(t_vessel, temps, ln_pv))
+    else:
+        p_surface = np.exp(np.interp(p["_temp_k"], temps, ln_pv))
+    p_gauge = p_surface + rho * G * head - P_ATM + rng.normal(0, 150, n)
+    cols = {}
+    if p["suction_pressure_unit"] == "kPa":
+        cols["PS"] = np.round(p_gauge / 1000, 2)
+    else:
+        cols["PS"] = np.round(p_gauge / PA_PER_PSI, 3)
+    t_meas = t_pump + rng.normal(0, 0.05, n) - 273.15
+    cols["TT"] = np.round(t_meas if p["temperature_unit"] == "degC" else t_meas * 1.8 + 32, 2)
+    speed = np.clip(0.5 + 0.45 * x + rng.normal(0, 0.005, n), 0.6, 1.02) * run
+    flow = x * speed if p["speed_tag"] else x
+    flow_m3h = flow * bep
+    cols["FT"] = np.round(flow_m3h if p["flow_unit"] == "m3/h" else flow_m3h / M3H_PER_GPM, 2)
+    if p["speed_tag"]:
+        cols["SPD"] = np.round(speed * rated, 1)
+    cols["RUN"] = run
+    if rng.random() < 0.3:  # a historian outage of a few hours on all of the pump's tags
+        lo = int(rng.integers(0, n - 60))
+        for v in cols.values():
+            v[lo : lo + int(rng.integers(60, 480))] = np.nan
+    for v in cols.values():  # the odd lost sample, and a rare sentinel on temperature
+        v[rng.random(n) < 5e-4] = np.nan
+    cols["TT"][rng.random(n) < 1e-5] = -9999.0
+    return {f"{p['pump_id']}.{k}": v for k, v in cols.items()}
+
+
+def ensure_plant(pumps: int, days: int) -> Path:
+    """Build the plant folder once (cached); return the plant file's path."""
+    folder = DATA / f"plant_{pumps}p_{days}d"
+    toml = folder / "plant.toml"
+    marker = folder / "complete.json"
+    stamp = {"pumps": pumps, "days": days, "version": GENERATOR_VERSION}
+    if marker.exists() and json.loads(marker.read_text()) == stamp:
+        return toml
+    t0 = time.perf_counter()
+    print(f"building the synthetic plant in {folder} (once) ...", flush=True)
+    (folder / "exports").mkdir(parents=True, exist_ok=True)
+    for old in (folder / "exports").glob("*.parquet"):
+        old.unlink()
+    rng = np.random.default_rng(FIXED_RANDOM_STATE)
+    reg = register(pumps, rng)
+    reg[[c for c in reg.columns if not c.startswith("_")]].to_csv(folder / "pumps.csv", index=False)
+    lines = ["curve_id,flow,flow_unit,npsh3,npsh3_unit"]
+    for cid, bep, npsh3, _, qu, hu in CURVES:
+        for x in CURVE_POINTS:
+            q = x * bep / (M3H_PER_GPM if qu == "gpm" else 1.0)
+            h = float(npsh3_shape(x)) * npsh3 / (0.3048 if hu == "ft" else 1.0)
+            lines.append(f"{cid},{q:.1f},{qu},{h:.2f},{hu}")
+    (folder / "curves.csv").write_text("\n".join(lines) + "\n")
+    end = START + pd.Timedelta(days=days)
+    toml.write_text(
+        PLANT_TOML.format(elevation=SITE_ELEVATION_M, start=START.isoformat(), end=end.isoformat())
+    )
+    n = days * 1440
+    times = pa.array(pd.date_range(START, periods=n, freq="1min"), pa.timestamp("ms", tz="UTC"))
+    for k, lo in enumerate(range(0, pumps, PUMPS_PER_FILE)):
+        block = reg.iloc[lo : lo + PUMPS_PER_FILE]
+        data = {"timestamp": times}
+        for _, p in block.iterrows():
+            data.update(pump_columns(p, n, np.random.default_rng([FIXED_RANDOM_STATE, lo + _])))
+        pq.write_table(pa.table(data), folder / "exports" / f"part_{k + 1:03d}.parquet",
+                       compression="zstd")  # fmt: skip
+    marker.write_text(json.dumps(stamp))
+    print(f"  built in {time.perf_counter() - t0:.1f} s", flush=True)
+    return toml
+
+
+# --- the measures, each run in a worker subprocess -----------------------------------------
+def peak_mb() -> float:
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+
+
+def _timed(fn, key, totals):
+    @functools.wraps(fn)
+    def wrapper(*args, **kwargs):
+        t = time.perf_counter()
+        try:
+            return fn(*args, **kwargs)
+        finally:
+            totals[key] += time.perf_counter() - t
+
+    return wrapper
+
+
+def measure_scan(toml: Path, start, end) -> dict:
+    import screening
+    from screening import loader
+
+    scan_mod = importlib.import_module("screening.scan")  # the module, not the function
+    totals = defaultdict(float)
+    for name in ("calculate_pump", "prepare_tag", "_tables"):
+        setattr(scan_mod, name, _timed(getattr(scan_mod, name), name, totals))
+    loader.ExportIndex.read = _timed(loader.ExportIndex.read, "read", totals)
+    base = peak_mb()
+    t = time.perf_counter()
+    result = screening.scan(toml, start, end)
+    seconds = time.perf_counter() - t
+    return {"seconds": seconds, "peak_mb": peak_mb(), "import_mb": base, "parts": totals,
+            "tag_samples": result.samples, "screened": len(result.summary),
+            "not_screened": len(result.problems),
+            "hours": result.hours.groupby("state", sort=False)["hours"].sum().to_dict()}  # fmt: skip
+
+
+def measure_cli(toml: Path, start, end) -> dict:
+    exe = Path(sys.executable).with_name("pumpscreen")
+    out = toml.parent / "report"
+    cmd = [str(exe), "scan", str(toml), "--from", str(start), "--to", str(end), "--out", str(out)]
+    t = time.perf_counter()
+    proc = subprocess.run([*cmd, "--quiet"], capture_output=True, text=True)
+    seconds = time.perf_counter() - t
+    peak = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024.0
+    if proc.returncode not in (0, 3):
+        raise RuntimeError(f"pumpscreen exited {proc.returncode}: {proc.stderr[-2000:]}")
+    return {"seconds": seconds, "peak_mb": peak, "exit_code": proc.returncode}
+
+
+def measure_naive(toml: Path, start, end, samples: int) -> dict:
+    from CoolProp.CoolProp import PropsSI
+
+    from screening.units import to_si
+
+    reg = pd.read_csv(toml.parent / "pumps.csv", keep_default_na=False)
+    p = reg.iloc[0]
+    first = sorted((toml.parent / "exports").glob("*.parquet"))[0]
+    cols = [p["suction_pressure_tag"], p["temperature_tag"], p["flow_tag"]]
+    frame = pq.read_table(first, columns=cols).to_pandas().dropna().head(samples)
+    ps = to_si(frame[cols[0]].to_numpy(), p["suction_pressure_unit"], "pressure") + P_ATM
+    ts = to_si(frame[cols[1]].to_numpy(), p["temperature_unit"], "temperature")
+    qs = to_si(frame[cols[2]].to_numpy(), p["flow_unit"], "flow")
+    area = np.pi * (p["tap_bore [mm]"] / 1000) ** 2 / 4
+    z, fluid = float(p["tap_elevation [m]"]), p["fluid"]
+    out = np.empty(len(ts))
+    t = time.perf_counter()
+    for i in range(len(ts)):
+        try:
+            p_v = PropsSI("P", "T", ts[i], "Q", 0, fluid)
+            rho = PropsSI("D", "T", ts[i], "Q", 0, fluid)
+        except ValueError:  # a sentinel temperature outside the fluid's range
+            out[i] = np.nan
+            continue
+        v = qs[i] / area
+        out[i] = (ps[i] - p_v) / (rho * G) + v * v / (2 * G) + z
+    seconds = time.perf_counter() - t
+    return {"seconds": seconds, "samples": len(ts), "fluid": fluid, "peak_mb": peak_mb()}
+
+
+def measure_read(toml: Path, start, end) -> dict:
+    files = sorted((toml.parent / "exports").glob("*.parquet"))
+    t = time.perf_counter()
+    values = 0
+    for f in files:
+        frame = pq.read_table(f).to_pandas()
+        values += frame.size
+        del frame
+    seconds = time.perf_counter() - t
+    size = sum(f.stat().st_size for f in files) / 2**20
+    return {"seconds": seconds, "peak_mb": peak_mb(), "files": len(files), "values": values,
+            "file_mb": size}  # fmt: skip
+
+
+def run_worker(kind: str, args) -> dict | None:
+    """Run one measure in a fresh interpreter; return its JSON result (None if it failed)."""
+    cmd = [sys.executable, __file__, "--worker", kind, "--pumps", str(args.pumps),
+           "--days", str(args.days), "--naive-samples", str(args.naive_samples)]  # fmt: skip
+    print(f"measuring {kind} ...", flush=True)
+    proc = subprocess.run(cmd, capture_output=True, text=True)
+    lines = [ln for ln in proc.stdout.splitlines() if ln.startswith("RESULT ")]
+    if proc.returncode != 0 or not lines:
+        print(f"  {kind} failed (exit {proc.returncode}):\n{proc.stderr[-3000:]}", flush=True)
+        return None
+    return json.loads(lines[-1].removeprefix("RESULT "))
+
+
+# --- the report ----------------------------------------------------------------------------
+def report(args, samples: int, r: dict) -> None:
+    def row(name, seconds, peak=None, note=""):
+        rate = f"{samples / seconds:>14,.0f}" if seconds else f"{'-':>14}"
+        mb = f"{peak:>9,.0f}" if peak is not None else f"{'-':>9}"
+        print(f"{name:<44}{seconds:>10.2f}{rate}{mb}  {note}")
+
+    read, scan, cli, naive = (r.get(k) for k in ("read", "scan", "cli", "naive"))
+    print(f"\npumpscreen scan benchmark: {args.pumps} pumps x {args.days} days x 1440 min = "
+          f"{samples:,} pump-samples")  # fmt: skip
+    if read:
+        print(f"exports: {read['files']} wide Parquet files, {read['file_mb']:,.0f} MB on disk, "
+              f"{read['values']:,} values")  # fmt: skip
+    print(f"\n{'measure':<44}{'seconds':>10}{'samples/s':>14}{'peak MB':>9}")
+    print("-" * 77)
+    if read:
+        row("bare read (pyarrow, all columns, to pandas)", read["seconds"], read["peak_mb"])
+    if scan:
+        row("scan, Python API screening.scan()", scan["seconds"], scan["peak_mb"],
+            f"(after imports: {scan['import_mb']:,.0f} MB)")  # fmt: skip
+        parts = scan["parts"]
+        inside = sum(parts.values())
+        for key, label in (("read", "reading exports (ExportIndex.read)"),
+                           ("prepare_tag", "units, frozen, range (prepare_tag)"),
+                           ("calculate_pump", "calculation (calculate_pump), 1 core"),
+                           ("_tables", "result tables (_tables)")):  # fmt: skip
+            row(f"  of which {label}", parts.get(key, 0.0))
+        row("  of which the rest (config, index, fluids)", scan["seconds"] - inside)
+    if cli:
+        row("pumpscreen scan (command line + report)", cli["seconds"], cli["peak_mb"])
+    if naive:
+        per = naive["seconds"] / naive["samples"]
+        row("naive per-sample PropsSI loop (estimated)", per * samples, naive["peak_mb"],
+            f"(timed on {naive['samples']:,} {naive['fluid']} samples)")  # fmt: skip
+    if scan:
+        print(f"\nscreened {scan['screened']} pumps ({scan['not_screened']} not screened); "
+              f"{scan['tag_samples']:,} tag samples read")  # fmt: skip
+        total = sum(scan["hours"].values())
+        print("hours by state: " + ", ".join(
+            f"{k} {100 * v / total:.1f} %" for k, v in scan["hours"].items()))  # fmt: skip
+    print()
+    if scan and read:
+        print(f"scan / bare read:               {scan['seconds'] / read['seconds']:8.2f} x")
+    if scan and naive:
+        est = naive["seconds"] / naive["samples"] * samples
+        print(f"scan speed-up over naive:       {est / scan['seconds']:8.0f} x")
+        calc = scan["parts"].get("calculate_pump", 0.0)
+        print(f"calculation speed-up over naive:{est / calc:8.0f} x")
+    print("\ntargets")
+    checks = []
+    if scan:
+        calc = scan["parts"].get("calculate_pump", 0.0)
+        rate = samples / calc if calc else 0.0
+        checks.append((f"computation >= 10 M samples/s on one core ({rate / 1e6:.1f} M)",
+                       rate >= 10e6))  # fmt: skip
+        checks.append((f"peak memory of the scan < 1 GB ({scan['peak_mb']:,.0f} MB)",
+                       scan["peak_mb"] < 1024))  # fmt: skip
+    if scan and read:
+        ratio = scan["seconds"] / read["seconds"]
+        checks.append((f"whole scan <= 3 x bare read ({ratio:.2f} x)", ratio <= 3.0))
+    for text, ok in checks:
+        print(f"  {'PASS' if ok else 'MISS'}  {text}")
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--pumps", type=int, default=500)
+    parser.add_argument("--days", type=int, default=30)
+    parser.add_argument("--naive-samples", type=int, default=20_000)
+    parser.add_argument("--only", nargs="*", default=["read", "scan", "cli", "naive"],
+                        help="measures to run (read, scan, cli, naive)")  # fmt: skip
+    parser.add_argument("--worker", help=argparse.SUPPRESS)
+    args = parser.parse_args()
+    toml = ensure_plant(args.pumps, args.days)
+    start, end = START, START + pd.Timedelta(days=args.days)
+    if args.worker:
+        fn = {"scan": measure_scan, "cli": measure_cli, "read": measure_read}.get(args.worker)
+        if args.worker == "naive":
+            out = measure_naive(toml, start, end, args.naive_samples)
+        else:
+            out = fn(toml, start, end)
+        print("RESULT " + json.dumps(out, default=float))
+        return
+    results = {k: run_worker(k, args) for k in args.only}
+    report(args, args.pumps * args.days * 1440, {k: v for k, v in results.items() if v})
+
+
+if __name__ == "__main__":
+    main()
