@@ -308,8 +308,8 @@ def ensure_plant(pumps: int, days: int) -> Path:
     for k, lo in enumerate(range(0, pumps, PUMPS_PER_FILE)):
         block = reg.iloc[lo : lo + PUMPS_PER_FILE]
         data = {"timestamp": times}
-        for _, p in block.iterrows():
-            data.update(pump_columns(p, n, np.random.default_rng([FIXED_RANDOM_STATE, lo + _])))
+        for i, p in block.iterrows():
+            data.update(pump_columns(p, n, np.random.default_rng([FIXED_RANDOM_STATE, i])))
         pq.write_table(pa.table(data), folder / "exports" / f"part_{k + 1:03d}.parquet",
                        compression="zstd")  # fmt: skip
     marker.write_text(json.dumps(stamp))
@@ -428,7 +428,7 @@ def report(args, samples: int, r: dict) -> None:
     def row(name, seconds, peak=None, note=""):
         rate = f"{samples / seconds:>14,.0f}" if seconds else f"{'-':>14}"
         mb = f"{peak:>9,.0f}" if peak is not None else f"{'-':>9}"
-        print(f"{name:<44}{seconds:>10.2f}{rate}{mb}  {note}")
+        print(f"{name:<50}{seconds:>10.2f}{rate}{mb}  {note}")
 
     read, scan, cli, naive = (r.get(k) for k in ("read", "scan", "cli", "naive"))
     print(f"\npumpscreen scan benchmark: {args.pumps} pumps x {args.days} days x 1440 min = "
@@ -436,8 +436,8 @@ def report(args, samples: int, r: dict) -> None:
     if read:
         print(f"exports: {read['files']} wide Parquet files, {read['file_mb']:,.0f} MB on disk, "
               f"{read['values']:,} values")  # fmt: skip
-    print(f"\n{'measure':<44}{'seconds':>10}{'samples/s':>14}{'peak MB':>9}")
-    print("-" * 77)
+    print(f"\n{'measure':<50}{'seconds':>10}{'samples/s':>14}{'peak MB':>9}")
+    print("-" * 83)
     if read:
         row("bare read (pyarrow, all columns, to pandas)", read["seconds"], read["peak_mb"])
     if scan:

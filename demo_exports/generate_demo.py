@@ -136,17 +136,17 @@ PUMPS = [
          ("kPa", "gauge", "degC", "m3/h"), 1480, "650", 9500, "0.5", "350", "open", 2.2, 26,
          0.8, "CWP-650", curve_shape=(0.45, 2.2)),
     Pump("CW-103", "Auxiliary cooling water (tower cell 3)", "cooling water", "Water", "power",
-         ("kPa", "gauge", "degC", "m3/h"), 1480, "320", 9000, "0.3", "250", "open", 1.55, 26,
+         ("kPa", "gauge", "degC", "m3/h"), 1480, "320", 9000, "0.3", "250", "open", 1.42, 26,
          1.2, "CWP-320", "hot spell: below guidance in afternoons", run_tag=False),
     Pump("DH-201A", "District-heating supply circulation", "district heating", "Water",
-         "power", SI_BAR_C_M3H, 1485, "900", 9000, "0.6", "400", "open", 1.9, 118, 1.0,
+         "power", SI_BAR_C_M3H, 1485, "900", 9000, "0.6", "400", "open", 1.2, 116, 1.0,
          "DHP-900", "temperature transmitter dropout", eyes=2, speed_tag=True,
          fine_temperature=True),
     Pump("DH-201B", "District-heating supply circulation", "district heating", "Water",
-         "power", SI_BAR_C_M3H, 1485, "900", 9000, "0.6", "400", "open", 1.9, 118, 1.0,
+         "power", SI_BAR_C_M3H, 1485, "900", 9000, "0.6", "400", "open", 1.2, 116, 1.0,
          "DHP-900", eyes=2, speed_tag=True, fine_temperature=True),
     Pump("DH-202", "District-heating booster (east branch)", "district heating", "Water",
-         "power", SI_BAR_C_M3H, 2950, "240", 10000, "0.4", "200", "open", 1.75, 116, 1.5,
+         "power", SI_BAR_C_M3H, 2950, "240", 10000, "0.4", "200", "open", 1.2, 114, 1.5,
          "DHB-240", "drive running fast", speed_tag=True, curve_shape=(0.45, 2.2),
          fine_temperature=True),
     Pump("BF-301A", "Boiler feed water", "boiler house", "Water", "power",
@@ -182,7 +182,7 @@ PUMPS = [
          "2200 gpm", 9000, "1.5 ft", "12 in", "open", 2.4, 14, 0.6, "RWP-2200", "text words",
          eyes=2),
     Pump("FW-601", "Fire-water jockey", "fire water", "Water", "building", US_PSIG, 2960,
-         "25 gpm", 5200, "1 ft", "2 in", "open", 6.0, 12, 0.2, "JKY-25"),
+         "25 gpm", 5200, "1 ft", "2 in", "open", 5.0, 12, 0.2, "JKY-25"),
     Pump("FW-602", "Fire-water main pump (electric)", "fire water", "Water", "building",
          US_PSIG, 1480, "1500 gpm", 8000, "1 ft", "10 in", "open", 3.8, 12, 0.5, "FWP-1500",
          eyes=2),
@@ -191,10 +191,10 @@ PUMPS = [
          speed_tag=True, exponent="1.5"),
     Pump("BS-111", "Chilled water for control building", "building services", "Water",
          "building", ("kPa", "gauge", "degC", "L/s"), 1450, "35 L/s", 7000, "0.3", "150",
-         "open", 6.5, 8, 0.5, "BSC-35", run_tag=False),
+         "open", 4.5, 8, 0.5, "BSC-35", run_tag=False),
     Pump("BS-112", "Heating water for control building", "building services", "Water",
          "building", ("kPa", "gauge", "degC", "L/s"), 1450, "20 L/s", 7000, "0.3", "125",
-         "open", 5.0, 75, 0.5, "BSH-20", speed_tag=True, exponent="1.5"),
+         "open", 3.5, 75, 0.5, "BSH-20", speed_tag=True, exponent="1.5"),
     Pump("MT-801", "Methanol transfer to unit", "tank farm", "Methanol", "chemical",
          SI_BAR_C_M3H, 2950, "60", 9500, "0.4", "100", "open", 2.5, 18, 0.8, "MTP-60",
          "throttled to low flow; held quality", stale_limit=LONG),
@@ -348,10 +348,10 @@ def hot_spell_demand(state: State, extra_temp: np.ndarray) -> None:
 
 
 def strainer_fouling(state: State, clock: Clock) -> None:
-    """RW-502: strainer loss grows from 10-04 to 4.8 m at BEP flow; cleaned 10-28 08:40."""
+    """RW-502: strainer loss grows steadily from 10-04 to 5 m at BEP flow; cleaned 10-28 08:40."""
     start, cleaned = clock.seconds_at("2026-10-04"), "2026-10-28 08:40"
     progress = np.clip((clock.seconds - start) / (clock.seconds_at(cleaned) - start), 0.0, None)
-    state.extra_loss = np.where(progress <= 1.0, 4.8 * progress**1.6, 0.05)
+    state.extra_loss = np.where(progress <= 1.0, 5.0 * progress, 0.05)
     state.run = state.run & ~clock.window(cleaned, "2026-10-28 10:15")
     planted("RW-502", "strainer fouling", "RW502.SUCT_PRESS", "2026-10-04 00:00", cleaned,
             "margin falls from ample to below guidance (~10-21) and below NPSH3 at peaks (~10-25)")
@@ -397,10 +397,10 @@ def plant_operation(clock: Clock, rng: np.random.Generator) -> dict[str, State]:
     cold = np.clip(0.25 + 0.5 * mf + 0.15 * daily(5) + wander(rng, 0.08, 6), 0.0, 1.0)
     dh_load = 0.55 + 0.35 * cold + wander(rng, 0.02)
     ops["DH-201A"], ops["DH-201B"] = pair(
-        clock, ["2026-10-11 07:30", "2026-10-24 07:15"], dh_load, 94.0 + 24.0 * cold,
+        clock, ["2026-10-11 07:30", "2026-10-24 07:15"], dh_load, 100.0 + 16.0 * cold,
         standby_cooling=25.0, speed=0.45 + 0.5 * dh_load)
     booster = 0.7 + 0.2 * cold + wander(rng, 0.02)
-    ops["DH-202"] = State(np.ones(clock.n, bool), booster, 92.0 + 24.0 * cold,
+    ops["DH-202"] = State(np.ones(clock.n, bool), booster, 98.0 + 16.0 * cold,
                           speed=0.5 + 0.45 * booster)
     drive_running_fast(ops["DH-202"], clock, rng)
 

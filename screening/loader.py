@@ -72,6 +72,7 @@ class _FileInfo:
     source: ExportSource
     fmt: str
     tags: frozenset[str]
+    timestamp_typed: bool = False  # Parquet time column of a timestamp type (filterable)
 
 
 def _format_of(path: Path, source: ExportSource) -> str:
@@ -177,7 +178,14 @@ class ExportIndex:
                     )
                 frame = self._read_csv(path, source, [source.tag_column])
                 tags = frozenset(frame[source.tag_column].dropna().str.strip().unique())
-        return _FileInfo(path, source, fmt, tags)
+        typed = False
+        if fmt == "parquet":
+            try:
+                field_type = pq.read_schema(path).field(source.time_column).type
+                typed = pa.types.is_timestamp(field_type) and field_type.tz is not None
+            except (KeyError, pa.ArrowException, OSError):
+                typed = False
+        return _FileInfo(path, source, fmt, tags, typed)
 
     def known_tags(self) -> set[str]:
         """Every tag found in any readable export file."""
@@ -212,8 +220,19 @@ class ExportIndex:
                 self._time_cache.popitem(last=False)
         return cached
 
-    def read(self, tags: list[str]) -> tuple[dict[str, TagSeries], dict[str, str]]:
+    def read(
+        self, tags: list[str], span: tuple[int, int] | None = None
+    ) -> tuple[dict[str, TagSeries], dict[str, str]]:
         """Read ``tags`` from every file that holds them.
+
+        Parameters
+        ----------
+        tags : list of str
+            Tag names.
+        span : (int, int), optional
+            Keep only samples with ``span[0] <= time < span[1]`` [ns since epoch, UTC];
+            time-zone-aware Parquet files are filtered while reading. Samples outside the span
+            are not counted in the quality figures.
 
         Returns
         -------
@@ -232,9 +251,9 @@ class ExportIndex:
         for info, file_tags in files.values():
             try:
                 if info.source.layout == "wide":
-                    self._read_wide(info, file_tags, chunks, quality)
+                    self._read_wide(info, file_tags, chunks, quality, span)
                 else:
-                    self._read_long(info, file_tags, chunks, quality)
+                    self._read_long(info, file_tags, chunks, quality, span)
             except ExportError as exc:
                 problems[str(info.path)] = str(exc)
         series = {}
@@ -243,38 +262,49 @@ class ExportIndex:
                 series[tag] = _assemble(tag, chunks[tag], quality[tag])
         return series, problems
 
-    def _read_wide(self, info, tags, chunks, quality) -> None:
+    def _time_filter(self, info: _FileInfo, span) -> list:
+        if span is None or not info.timestamp_typed:
+            return []
+        col = info.source.time_column
+        lo = pa.scalar(span[0], type=pa.timestamp("ns", tz="UTC"))
+        hi = pa.scalar(span[1], type=pa.timestamp("ns", tz="UTC"))
+        return [(col, ">=", lo), (col, "<", hi)]
+
+    def _read_wide(self, info, tags, chunks, quality, span=None) -> None:
         src = info.source
         cols = [src.time_column, *tags]
         if info.fmt == "parquet":
             try:
-                frame = pq.read_table(info.path, columns=cols).to_pandas()
+                filters = self._time_filter(info, span) or None
+                frame = pq.read_table(info.path, columns=cols, filters=filters).to_pandas()
             except (pa.ArrowException, OSError) as exc:
                 raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
             first_row = 0
         else:
             frame = self._read_csv(info.path, src, cols)
             first_row = 2  # line numbers: the header is line 1
-        times, ok = self._wide_times(info, frame[src.time_column])
+        if info.fmt == "parquet" and span is not None and info.timestamp_typed:
+            times, ok = parse_times(frame[src.time_column], self.timezone)
+        else:
+            times, ok = self._wide_times(info, frame[src.time_column])
         rows = np.arange(len(frame)) + first_row
         for tag in tags:
             raw = frame[tag]
             present = raw.notna().to_numpy()
             _add_chunk(
                 tag, info, raw[present], times[present], ok[present], rows[present],
-                None, chunks, quality, self.good_quality,
+                None, chunks, quality, self.good_quality, span=span,
             )  # fmt: skip
 
-    def _read_long(self, info, tags, chunks, quality) -> None:
+    def _read_long(self, info, tags, chunks, quality, span=None) -> None:
         src = info.source
         cols = [src.tag_column, src.time_column, src.value_column]
         if src.quality_column:
             cols.append(src.quality_column)
         if info.fmt == "parquet":
             try:
-                table = pq.read_table(
-                    info.path, columns=cols, filters=[(src.tag_column, "in", list(tags))]
-                )
+                filters = [(src.tag_column, "in", list(tags)), *self._time_filter(info, span)]
+                table = pq.read_table(info.path, columns=cols, filters=filters)
             except (pa.ArrowException, OSError) as exc:
                 raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
             frame = table.to_pandas()
@@ -295,13 +325,21 @@ class ExportIndex:
             qual = frame[src.quality_column][sel] if src.quality_column else None
             _add_chunk(
                 tag, info, frame[src.value_column][sel], times[sel], ok[sel], rows[sel],
-                qual, chunks, quality, self.good_quality, label,
+                qual, chunks, quality, self.good_quality, label, span,
             )  # fmt: skip
 
 
-def _add_chunk(tag, info, raw, times, ok, rows, qual, chunks, quality, good, label="line"):
+def _add_chunk(
+    tag, info, raw, times, ok, rows, qual, chunks, quality, good, label="line", span=None
+):
     """Parse one file's values of one tag into numbers and bad flags; count the problems."""
     q: TagQuality = quality[tag]
+    if span is not None and len(raw):
+        inside = ~ok | ((times >= span[0]) & (times < span[1]))
+        if not inside.all():
+            raw, times, ok, rows = raw[inside], times[inside], ok[inside], rows[inside]
+            if qual is not None:
+                qual = qual[inside]
     if len(raw) == 0:
         return
     where = f"{info.path} {label} "

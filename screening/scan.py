@@ -174,7 +174,8 @@ def scan(
     if pumps is not None:
         problems = [p for p in problems if p["pump_id"] in pumps]
 
-    barometer, baro_quality = _read_barometer(plant, index, settings)
+    baro_span = (start_ns - int(settings.stale_limit * 1e9) - 1, end_ns)
+    barometer, baro_quality = _read_barometer(plant, index, settings, baro_span)
     results: list[PumpResult] = []
     quality_rows: list[dict] = []
     file_problems = dict(index.file_problems)
@@ -202,11 +203,11 @@ def scan(
     return out
 
 
-def _read_barometer(plant, index, settings):
+def _read_barometer(plant, index, settings, span):
     site = plant.settings.site
     if not site.barometer_tag:
         return None, None
-    series, _ = index.read([site.barometer_tag])
+    series, _ = index.read([site.barometer_tag], span)
     s = series.get(site.barometer_tag)
     if s is None:
         return None, None
@@ -221,7 +222,12 @@ def _screen_pump(plant, pump, index, barometer, settings, start_ns, end_ns, edge
                index.known_tags()]  # fmt: skip
     if missing:
         raise ExportError(f"tag(s) not found in any export file: {', '.join(missing)}")
-    raw, read_problems = index.read([spec.tag for spec in roles.values()])
+    longest = max(
+        [settings.stale_limit, settings.frozen_after or 0.0]
+        + [spec.stale_limit or 0.0 for spec in roles.values()]
+    )
+    span = (start_ns - int(longest * 1e9) - 1, end_ns)
+    raw, read_problems = index.read([spec.tag for spec in roles.values()], span)
     fp.update(read_problems)
     table = fluid_table(pump.fluid)
     prepared = {}
