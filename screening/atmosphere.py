@@ -46,7 +46,7 @@ def standard_pressure(elevation):
     P = P0 · (T0 / (T0 + L·H))^(g0'·M0 / (R*·L)), with H the geopotential altitude (eq. 18).
     """
     z = np.asarray(elevation, dtype=np.float64)
-    if np.any(z < -500.0) or np.any(z > TROPOPAUSE):
+    if np.any(~np.isfinite(z)) or np.any(z < -500.0) or np.any(z > TROPOPAUSE):
         raise ValueError(
             f"site elevation {elevation} m is outside the standard atmosphere's lowest layer "
             "(-500 m to 11000 m)"

@@ -43,7 +43,8 @@ EXAMPLES: dict[str, str] = {
 }
 
 _DIMENSIONS: dict[str, str] = {}
-_POWER = re.compile(r"(?<=[A-Za-z])([23])(?![0-9.])")
+# "m3/h" -> "m**3/h" for length units only (so that "mmH2O" stays a water column).
+_POWER = re.compile(r"(?<![A-Za-z])(m|cm|mm|dm|km|ft|in|yd|L|l)([23])(?![0-9A-Za-z.])")
 
 
 class UnitError(ValueError):
@@ -54,7 +55,7 @@ def _normalise(text: str) -> str:
     text = text.strip().replace("³", "**3").replace("²", "**2").replace("°", "deg")
     text = text.replace("degreesC", "degC").replace("degreesF", "degF")
     # "m3/h" -> "m**3/h": pint does not read a bare trailing exponent.
-    return _POWER.sub(r"**\1", text)
+    return _POWER.sub(r"\1**\2", text)
 
 
 @lru_cache(maxsize=512)
@@ -114,10 +115,24 @@ def to_si(values, unit: str, kind: str) -> np.ndarray:
     """
     src = parse_unit(unit, kind)
     arr = np.asarray(values, dtype=np.float64)
+    if kind == "speed":
+        return arr * _speed_factor(src)
     target = ureg.parse_units(SI_UNITS[kind])
     if src == target:
         return arr.copy()
     return ureg.Quantity(arr, src).to(target).magnitude
+
+
+def _speed_factor(unit: pint.Unit) -> float:
+    """Revolutions per minute per one ``unit``.
+
+    pint counts a revolution as 2π radians and keeps the radian as a base unit, so rpm and
+    rad/s carry an angle while 1/min and Hz do not. A rotational speed written without an angle
+    (1/min, Hz) counts revolutions: 1/min = 1 rpm, 1 Hz = 60 rpm.
+    """
+    factor, root = ureg.get_root_units(unit)
+    per_second = factor / (2.0 * np.pi) if "radian" in str(root) else factor
+    return float(per_second * 60.0)
 
 
 def scalar_to_si(value: float, unit: str, kind: str) -> float:
@@ -129,6 +144,8 @@ def si_to(values, unit: str, kind: str) -> np.ndarray:
     """Convert SI values of ``kind`` to ``unit`` (for display at the output edge)."""
     dst = parse_unit(unit, kind)
     arr = np.asarray(values, dtype=np.float64)
+    if kind == "speed":
+        return arr / _speed_factor(dst)
     return ureg.Quantity(arr, ureg.parse_units(SI_UNITS[kind])).to(dst).magnitude
 
 
