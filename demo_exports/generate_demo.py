@@ -24,16 +24,18 @@ barometric pressure. Sources are either "open" (a basin, tank or pressurised loo
 of the atmosphere) or "saturated" (deaerator, hot well, LPG vessel: head on top of the vapour
 pressure, so the suction pressure tracks p_vapour(T)).
 
-Planted process events (local time):
+Planted process events (local time; the summary printed at the end gives the generator's truth):
   * RW-502 raw-water intake: suction strainer fouls from 2026-10-04; the strainer loss grows
-    with flow squared, taking the margin from ample to below guidance (about 2026-10-21 on) and
-    below NPSH3 at the daily flow peaks in the last days (about 2026-10-25 on). Stopped and
-    cleaned 2026-10-28 08:40-10:15 (RW-503 covers); sharp recovery afterwards.
+    steadily with flow squared, taking NPSHa/NPSH3 from about 2.5 (ample) to below guidance at
+    the daily flow peaks from 2026-10-19 and below NPSH3 from 2026-10-25 on. Stopped and cleaned
+    2026-10-28 08:40-10:15 (RW-503 covers); back to about 2.4 after the restart.
   * Hot spell 2026-10-12..16: cooling-water basin 8-12 K warmer, peaking in the afternoons.
-    CW-103 (auxiliary cooling water, drawing near its limit; no run tag) drops below guidance
-    in the afternoons; CW-101A/B and CW-102A/B see the same water but keep ample margin.
+    CW-103 (auxiliary cooling water with a suction lift, drawing near its limit; no run tag)
+    falls below guidance in the afternoons of 2026-10-13..16; CW-101A/B and CW-102A/B see the
+    same warmer water but keep ample margin.
   * DH-202 district-heating booster (variable speed): drive runs at 112-118 % of rated speed
-    2026-10-19 06:00 .. 2026-10-22 18:00 (NPSH3 grows with speed squared): below guidance.
+    2026-10-19 06:00 .. 2026-10-22 18:00 (NPSH3 grows with speed squared, the suction loss
+    with flow squared): NPSHa/NPSH3 about 1.2-1.5, often below guidance, never below NPSH3.
   * MT-801 methanol transfer throttled to ~15 % of BEP flow 2026-10-07 14:00 .. 10-10 11:00,
     below the first curve point (25 %): "off curve".
 Planted data-quality events (see planted_events.csv and demo_exports/README.md for all):
@@ -42,12 +44,15 @@ Planted data-quality events (see planted_events.csv and demo_exports/README.md f
   CH-702, RW-501, RW-503, MT-802, TL-811), a frozen suction transmitter (CW-102A,
   2026-10-20 08:00 .. 10-22 07:30), a barometer dropout (2026-10-17 06:10 .. 10-18 20:40),
   and duplicated / out-of-order rows in the toluene long CSV file.
+Words: good quality "ok"; bad quality "suspect", "link-down", "held"; written instead of a number
+in CSV cells: "not-avail", "xmtr-fault", "no-signal". Every pump also has a discharge-pressure tag
+(*.DISCH_PRESS) that the register does not use, as real exports carry more tags than needed.
 """
 
 from __future__ import annotations
 
 import gzip
-from dataclasses import dataclass, field
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
@@ -56,7 +61,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 from CoolProp.CoolProp import PropsSI
 
-RANDOM_SEED = 20261001
+RANDOM_STATE = 20261001
 ROOT = Path(__file__).resolve().parent.parent
 EXPORTS = ROOT / "demo_exports"
 CONFIGS = ROOT / "configs"
@@ -96,7 +101,6 @@ class Pump:
     design_temp: float  # degC
     friction: float  # suction-line loss at BEP flow, m
     curve_id: str
-    event: str = ""
     curve_shape: tuple[float, float] = (0.5, 2.0)  # NPSH3/NPSH3_bep = a + (1 - a) x^k
     eyes: int = 1
     run_tag: bool = True
@@ -106,10 +110,14 @@ class Pump:
     shared_temperature_tag: str = ""
     fine_temperature: bool = False  # 0.01 K resolution (hot or saturated services)
 
+    @property
+    def stem(self) -> str:  # tag prefix: CW-101A -> CW101A
+        return self.pump_id.replace("-", "")
+
     def tag(self, what: str) -> str:
         if what == "SUCT_TEMP" and self.shared_temperature_tag:
             return self.shared_temperature_tag
-        return f"{self.pump_id.replace('-', '')}.{what}"
+        return f"{self.stem}.{what}"
 
 
 def cell_si(cell: str, default_unit: str) -> float:
@@ -117,102 +125,77 @@ def cell_si(cell: str, default_unit: str) -> float:
     return float(value) * TO_SI[unit or default_unit]
 
 
-SI_BAR_C_M3H = ("bar", "gauge", "degC", "m3/h")
+KPA_G = ("kPa", "gauge", "degC", "m3/h")
+BAR_G = ("bar", "gauge", "degC", "m3/h")
 US_PSIG = ("psi", "gauge", "degF", "gpm")
-LONG = "15 min"
+LONG = "15 min"  # stale limit for tags recorded by exception (heartbeat 10 min)
+
+
+def siblings(first: Pump, *pump_ids: str, **changes) -> list[Pump]:
+    """The first pump and identical ones (with optional changes) under other ids."""
+    return [first] + [replace(first, pump_id=pump_id, **changes) for pump_id in pump_ids]
+
+
+# positional: id, service, area, fluid, application, units, rated rpm, BEP flow, S, tap elevation,
+# tap bore, source, design ratio, design temperature (degC), suction loss at BEP (m), curve id
 PUMPS = [
-    Pump("CW-101A", "Main cooling water (duty/standby)", "cooling water", "Water", "power",
-         ("kPa", "gauge", "degC", "m3/h"), 990, "1800", 8500, "0.8", "600", "open", 2.6, 26,
-         0.6, "CWP-1800", "hot spell (ample margin); flow transmitter dropout", eyes=2,
-         shared_temperature_tag="CW.BASIN_TEMP"),
-    Pump("CW-101B", "Main cooling water (duty/standby)", "cooling water", "Water", "power",
-         ("kPa", "gauge", "degC", "m3/h"), 990, "1800", 8500, "0.8", "600", "open", 2.6, 26,
-         0.6, "CWP-1800", "hot spell (ample margin); text words", eyes=2,
-         shared_temperature_tag="CW.BASIN_TEMP"),
-    Pump("CW-102A", "Process cooling water (duty/standby)", "cooling water", "Water", "power",
-         ("kPa", "gauge", "degC", "m3/h"), 1480, "650", 9500, "0.5", "350", "open", 2.2, 26,
-         0.8, "CWP-650", "frozen suction transmitter", curve_shape=(0.45, 2.2)),
-    Pump("CW-102B", "Process cooling water (duty/standby)", "cooling water", "Water", "power",
-         ("kPa", "gauge", "degC", "m3/h"), 1480, "650", 9500, "0.5", "350", "open", 2.2, 26,
-         0.8, "CWP-650", curve_shape=(0.45, 2.2)),
+    *siblings(Pump("CW-101A", "Main cooling water (duty/standby)", "cooling water", "Water",
+                   "power", KPA_G, 990, "1800", 8500, "-0.4", "600", "open", 2.6, 26, 0.6,
+                   "CWP-1800", eyes=2, shared_temperature_tag="CW.BASIN_TEMP"), "CW-101B"),
+    *siblings(Pump("CW-102A", "Process cooling water (duty/standby)", "cooling water", "Water",
+                   "power", KPA_G, 1480, "650", 9500, "0.5", "350", "open", 2.2, 26, 0.8,
+                   "CWP-650", curve_shape=(0.45, 2.2)), "CW-102B"),
     Pump("CW-103", "Auxiliary cooling water (tower cell 3)", "cooling water", "Water", "power",
-         ("kPa", "gauge", "degC", "m3/h"), 1480, "320", 9000, "0.3", "250", "open", 1.42, 26,
-         1.2, "CWP-320", "hot spell: below guidance in afternoons", run_tag=False),
-    Pump("DH-201A", "District-heating supply circulation", "district heating", "Water",
-         "power", SI_BAR_C_M3H, 1485, "900", 9000, "0.6", "400", "open", 1.2, 116, 1.0,
-         "DHP-900", "temperature transmitter dropout", eyes=2, speed_tag=True,
-         fine_temperature=True),
-    Pump("DH-201B", "District-heating supply circulation", "district heating", "Water",
-         "power", SI_BAR_C_M3H, 1485, "900", 9000, "0.6", "400", "open", 1.2, 116, 1.0,
-         "DHP-900", eyes=2, speed_tag=True, fine_temperature=True),
+         KPA_G, 1480, "320", 9000, "0.3", "250", "open", 1.42, 26, 1.2, "CWP-320",
+         run_tag=False),
+    *siblings(Pump("DH-201A", "District-heating supply circulation", "district heating", "Water",
+                   "power", BAR_G, 1485, "900", 9000, "0.6", "400", "open", 1.2, 116, 1.0,
+                   "DHP-900", eyes=2, speed_tag=True, fine_temperature=True), "DH-201B"),
     Pump("DH-202", "District-heating booster (east branch)", "district heating", "Water",
-         "power", SI_BAR_C_M3H, 2950, "240", 10000, "0.4", "200", "open", 1.2, 114, 1.5,
-         "DHB-240", "drive running fast", speed_tag=True, curve_shape=(0.45, 2.2),
-         fine_temperature=True),
-    Pump("BF-301A", "Boiler feed water", "boiler house", "Water", "power",
-         ("bar", "absolute", "degC", "m3/h"), 2980, "160", 9000, "0.6", "150", "saturated",
-         2.3, 130, 1.5, "BFP-160", "bad-quality temperature", stale_limit=LONG,
-         fine_temperature=True),
-    Pump("BF-301B", "Boiler feed water", "boiler house", "Water", "power",
-         ("bar", "absolute", "degC", "m3/h"), 2980, "160", 9000, "0.6", "150", "saturated",
-         2.3, 130, 1.5, "BFP-160", "suction pressure dropout", stale_limit=LONG,
-         fine_temperature=True),
-    Pump("CD-401A", "Condensate extraction", "boiler house", "Water", "power",
-         ("kPa", "absolute", "degC", "m3/h"), 1480, "220", 12000, "2.0", "250", "saturated",
-         2.0, 42, 0.4, "CEP-220", curve_shape=(0.55, 2.0), fine_temperature=True),
-    Pump("CD-401B", "Condensate extraction", "boiler house", "Water", "power",
-         ("kPa", "absolute", "degC", "m3/h"), 1480, "220", 12000, "2.0", "250", "saturated",
-         2.0, 42, 0.4, "CEP-220", curve_shape=(0.55, 2.0), fine_temperature=True),
-    Pump("CH-701A", "Dilute caustic dosing (as water)", "dosing", "Water", "chemical",
-         ("bar", "gauge", "degC", "L/s"), 2900, "4.5 L/s", 5500, "0.2", "50", "open", 3.2, 20,
-         0.5, "DOS-4.5", "text words", curve_shape=(0.6, 2.0)),
-    Pump("CH-701B", "Dilute caustic dosing (as water)", "dosing", "Water", "chemical",
-         ("bar", "gauge", "degC", "L/s"), 2900, "4.5 L/s", 5500, "0.2", "50", "open", 3.2, 20,
-         0.5, "DOS-4.5", curve_shape=(0.6, 2.0)),
+         "power", BAR_G, 2950, "240", 10000, "0.4", "200", "open", 1.13, 114, 3.0, "DHB-240",
+         speed_tag=True, curve_shape=(0.45, 2.2), fine_temperature=True),
+    *siblings(Pump("BF-301A", "Boiler feed water", "boiler house", "Water", "power",
+                   ("bar", "absolute", "degC", "m3/h"), 2980, "160", 9000, "0.6", "150",
+                   "saturated", 2.3, 130, 1.5, "BFP-160", stale_limit=LONG,
+                   fine_temperature=True), "BF-301B"),
+    *siblings(Pump("CD-401A", "Condensate extraction", "boiler house", "Water", "power",
+                   ("kPa", "absolute", "degC", "m3/h"), 1480, "220", 12000, "2.0", "250",
+                   "saturated", 2.0, 42, 0.4, "CEP-220", curve_shape=(0.55, 2.0),
+                   fine_temperature=True), "CD-401B"),
+    *siblings(Pump("CH-701A", "Dilute caustic dosing (as water)", "dosing", "Water", "chemical",
+                   ("bar", "gauge", "degC", "L/s"), 2900, "4.5 L/s", 5500, "0.2", "50", "open",
+                   5.5, 20, 0.5, "DOS-4.5", curve_shape=(0.6, 2.0)), "CH-701B"),
     Pump("CH-702", "Corrosion-inhibitor dosing (as water)", "dosing", "Water", "chemical",
-         ("bar", "gauge", "degC", "L/s"), 2900, "1.2 L/s", 5000, "0.2", "25", "open", 3.5, 20,
-         0.3, "DOS-1.2", "text words", curve_shape=(0.6, 2.0), run_tag=False),
-    Pump("RW-501", "Raw-water intake", "raw water", "Water", "water", US_PSIG, 1485,
-         "2200 gpm", 9000, "1.5 ft", "12 in", "open", 2.4, 14, 0.6, "RWP-2200", "text words",
-         eyes=2),
-    Pump("RW-502", "Raw-water intake", "raw water", "Water", "water", US_PSIG, 1485,
-         "2200 gpm", 9000, "1.5 ft", "12 in", "open", 2.4, 14, 0.6, "RWP-2200",
-         "strainer fouling, cleaned 10-28", eyes=2),
-    Pump("RW-503", "Raw-water intake (standby)", "raw water", "Water", "water", US_PSIG, 1485,
-         "2200 gpm", 9000, "1.5 ft", "12 in", "open", 2.4, 14, 0.6, "RWP-2200", "text words",
-         eyes=2),
+         ("bar", "gauge", "degC", "L/s"), 2900, "1.2 L/s", 5000, "0.2", "25", "open", 6.5, 20,
+         0.3, "DOS-1.2", curve_shape=(0.6, 2.0), run_tag=False),
+    *siblings(Pump("RW-501", "Raw-water intake", "raw water", "Water", "water", US_PSIG, 1485,
+                   "2200 gpm", 9000, "1.5 ft", "12 in", "open", 2.4, 14, 0.6, "RWP-2200",
+                   eyes=2), "RW-502", "RW-503"),
     Pump("FW-601", "Fire-water jockey", "fire water", "Water", "building", US_PSIG, 2960,
-         "25 gpm", 5200, "1 ft", "2 in", "open", 5.0, 12, 0.2, "JKY-25"),
-    Pump("FW-602", "Fire-water main pump (electric)", "fire water", "Water", "building",
-         US_PSIG, 1480, "1500 gpm", 8000, "1 ft", "10 in", "open", 3.8, 12, 0.5, "FWP-1500",
-         eyes=2),
-    Pump("FW-603", "Fire-water main pump (diesel)", "fire water", "Water", "building", US_PSIG,
-         1480, "1500 gpm", 8000, "1 ft", "10 in", "open", 3.8, 12, 0.5, "FWP-1500", eyes=2,
-         speed_tag=True, exponent="1.5"),
+         "25 gpm", 5200, "1 ft", "2 in", "open", 8.2, 12, 0.2, "JKY-25"),
+    *siblings(Pump("FW-602", "Fire-water main pump (electric)", "fire water", "Water",
+                   "building", US_PSIG, 1480, "1500 gpm", 8000, "1 ft", "10 in", "open", 3.8, 12,
+                   0.5, "FWP-1500", eyes=2), "FW-603", speed_tag=True, exponent="1.5",
+              service="Fire-water main pump (diesel)"),
     Pump("BS-111", "Chilled water for control building", "building services", "Water",
-         "building", ("kPa", "gauge", "degC", "L/s"), 1450, "35 L/s", 7000, "0.3", "150",
-         "open", 4.5, 8, 0.5, "BSC-35", run_tag=False),
+         "building", ("kPa", "gauge", "degC", "L/s"), 1450, "35 L/s", 7000, "-0.2", "150",
+         "open", 8.0, 8, 0.5, "BSC-35", run_tag=False),
     Pump("BS-112", "Heating water for control building", "building services", "Water",
          "building", ("kPa", "gauge", "degC", "L/s"), 1450, "20 L/s", 7000, "0.3", "125",
-         "open", 3.5, 75, 0.5, "BSH-20", speed_tag=True, exponent="1.5"),
-    Pump("MT-801", "Methanol transfer to unit", "tank farm", "Methanol", "chemical",
-         SI_BAR_C_M3H, 2950, "60", 9500, "0.4", "100", "open", 2.5, 18, 0.8, "MTP-60",
-         "throttled to low flow; held quality", stale_limit=LONG),
-    Pump("MT-802", "Methanol road-tanker unloading", "tank farm", "Methanol", "chemical",
-         SI_BAR_C_M3H, 2950, "40", 8000, "0.3", "80", "open", 2.0, 18, 1.2, "MTU-40",
-         "text words", run_tag=False, stale_limit=LONG),
+         "open", 9.5, 75, 0.5, "BSH-20", speed_tag=True, exponent="1.5"),
+    Pump("MT-801", "Methanol transfer to unit", "tank farm", "Methanol", "chemical", BAR_G, 2950,
+         "60", 9500, "0.4", "100", "open", 2.5, 18, 0.8, "MTP-60", stale_limit=LONG),
+    Pump("MT-802", "Methanol road-tanker unloading", "tank farm", "Methanol", "chemical", BAR_G,
+         2950, "40", 8000, "0.3", "80", "open", 3.6, 18, 1.2, "MTU-40", run_tag=False,
+         stale_limit=LONG),
     Pump("TL-811", "Toluene transfer", "tank farm", "Toluene", "chemical", US_PSIG, 2950,
-         "180 gpm", 8500, "1.2 ft", "3 in", "open", 2.8, 18, 0.8, "TLT-180",
-         "text words; duplicated and out-of-order rows", stale_limit=LONG),
+         "180 gpm", 8500, "1.2 ft", "3 in", "open", 2.8, 18, 0.8, "TLT-180", stale_limit=LONG),
     Pump("TL-812", "Toluene recycle", "tank farm", "Toluene", "chemical", US_PSIG, 2950,
-         "400 gpm", 11500, "0.8 ft", "4 in", "open", 2.0, 46, 0.8, "TLR-400",
-         speed_tag=True, stale_limit=LONG),
-    Pump("LP-901A", "n-Butane loading", "LPG", "n-Butane", "petroleum", SI_BAR_C_M3H, 2950,
-         "80", 9000, "0.5", "100", "saturated", 2.0, 12, 0.8, "LPB-80",
-         "bad-quality suction pressure", stale_limit=LONG, fine_temperature=True),
-    Pump("LP-901B", "n-Butane loading", "LPG", "n-Butane", "petroleum", SI_BAR_C_M3H, 2950,
-         "80", 9000, "0.5", "100", "saturated", 2.0, 12, 0.8, "LPB-80", stale_limit=LONG,
-         fine_temperature=True),
+         "400 gpm", 11500, "0.8 ft", "4 in", "open", 2.0, 46, 0.8, "TLR-400", speed_tag=True,
+         stale_limit=LONG),
+    *siblings(Pump("LP-901A", "n-Butane loading", "LPG", "n-Butane", "petroleum", BAR_G, 2950,
+                   "80", 9000, "0.5", "100", "saturated", 2.0, 12, 0.8, "LPB-80",
+                   stale_limit=LONG, fine_temperature=True), "LP-901B"),
     Pump("LP-902", "Propane loading", "LPG", "Propane", "petroleum", US_PSIG, 2950, "300 gpm",
          9000, "1.5 ft", "4 in", "saturated", 2.0, 12, 0.8, "LPP-300", run_tag=False,
          stale_limit=LONG, fine_temperature=True),
@@ -354,7 +337,8 @@ def strainer_fouling(state: State, clock: Clock) -> None:
     state.extra_loss = np.where(progress <= 1.0, 5.0 * progress, 0.05)
     state.run = state.run & ~clock.window(cleaned, "2026-10-28 10:15")
     planted("RW-502", "strainer fouling", "RW502.SUCT_PRESS", "2026-10-04 00:00", cleaned,
-            "margin falls from ample to below guidance (~10-21) and below NPSH3 at peaks (~10-25)")
+            "margin from ample to below guidance (from ~10-19 at flow peaks), below NPSH3 "
+            "(from ~10-25)")
     planted("RW-502", "strainer cleaned", "RW502.SUCT_PRESS", cleaned, "2026-10-28 10:15",
             "pump stopped for cleaning, RW-503 covers; margin ample again after restart")
 
@@ -518,7 +502,8 @@ def curve_si(p: Pump) -> tuple[np.ndarray, np.ndarray]:
 def fluid_tables(fluid: str, temps: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Saturated-liquid vapour pressure (Pa) and density (kg/m3) on a fine temperature grid."""
     grid = np.arange(np.nanmin(temps) - 2.0, np.nanmax(temps) + 2.0, 0.02) + 273.15
-    return grid - 273.15, PropsSI("P", "T", grid, "Q", 0, fluid), PropsSI("D", "T", grid, "Q", 0, fluid)
+    pv, rho = (PropsSI(what, "T", grid, "Q", 0, fluid) for what in ("P", "D"))
+    return grid - 273.15, pv, rho
 
 
 @dataclass
@@ -530,6 +515,12 @@ class Truth:
     suction_specific_speed: float
 
 
+RATED_HEAD_M = {  # pump head at BEP: only for the discharge pressure tags, which the tool ignores
+    "CWP-1800": 28, "CWP-650": 42, "CWP-320": 35, "DHP-900": 65, "DHB-240": 48, "BFP-160": 1250,
+    "CEP-220": 150, "DOS-4.5": 45, "DOS-1.2": 55, "RWP-2200": 48, "JKY-25": 105, "FWP-1500": 95,
+    "BSC-35": 24, "BSH-20": 18, "MTP-60": 70, "MTU-40": 35, "TLT-180": 55, "TLR-400": 38,
+    "LPB-80": 140, "LPP-300": 120,
+}
 POLICY = {  # application: [(min S, max S, ratio, margin m)] as in configs/demo_plant.toml
     "petroleum": [(0, np.inf, 1.1, 1.0)],
     "chemical": [(0, 11000, 1.1, 0.6), (11000, np.inf, 1.2, 1.0)],
@@ -570,7 +561,10 @@ def simulate(p: Pump, st: State, clock: Clock, baro: np.ndarray, rng: np.random.
 
     p_unit, reference, t_unit, q_unit = p.units
     noise_pa = PRESSURE_NOISE_PA[p_unit]
-    reading = p_abs + rng.normal(0, noise_pa, clock.n) - (baro if reference == "gauge" else 0.0)
+    offset = baro if reference == "gauge" else 0.0
+    reading = p_abs + rng.normal(0, noise_pa, clock.n) - offset
+    pump_head = rho * G * RATED_HEAD_M[p.curve_id] * (1.2 * speed**2 - 0.2 * load**2)
+    discharge = p_abs + pump_head + rng.normal(0, 3 * noise_pa, clock.n) - offset
     temp = st.temp + rng.normal(0, 0.03, clock.n)
     q_factor = 1.0 / TO_SI[q_unit]
     flow = load * bep + np.where(st.run, rng.normal(0, 0.004 * bep, clock.n), 0.0)
@@ -578,7 +572,9 @@ def simulate(p: Pump, st: State, clock: Clock, baro: np.ndarray, rng: np.random.
         flow = np.where(st.run, flow, rng.normal(0, 0.004 * bep, clock.n))
     readings = {
         p.tag("SUCT_PRESS"): (reading / PA_PER[p_unit], RESOLUTION[p_unit],
-                              2.5 * noise_pa / PA_PER[p_unit]),
+                              1.5 * noise_pa / PA_PER[p_unit]),
+        p.tag("DISCH_PRESS"): (discharge / PA_PER[p_unit], RESOLUTION[p_unit],
+                               4.5 * noise_pa / PA_PER[p_unit]),
         p.tag("SUCT_TEMP"): (temp * 1.8 + 32 if t_unit == "degF" else temp,
                              0.01 if p.fine_temperature else RESOLUTION[t_unit], -1.0),
         p.tag("FLOW"): (flow * q_factor, 0.1 if q_unit == "gpm" and bep / GPM < 100
@@ -644,7 +640,7 @@ def in_window(times: pd.Series | pd.DatetimeIndex, start: str, end: str) -> np.n
 
 
 def pump_of(tag: str) -> str:
-    return next((p.pump_id for p in PUMPS if tag.startswith(p.tag("X")[:-1])), "(shared)")
+    return next((p.pump_id for p in PUMPS if tag.partition(".")[0] == p.stem), "(shared)")
 
 
 def transmitter_dropout(measured: dict, tag: str, clock: Clock, start: str, end: str) -> None:
@@ -660,12 +656,14 @@ def frozen_transmitter(measured: dict, tag: str, clock: Clock, start: str, end: 
 
 
 def text_stretch(texts: dict, tag: str, clock: Clock, start: str, end: str, word: str) -> None:
+    assert word in TEXT_WORDS
     texts.setdefault(tag, []).append((clock.window(start, end), word))
     planted(pump_of(tag), f"text '{word}'", tag, start, end, "word instead of a number")
 
 
 def text_scatter(texts: dict, tag: str, clock: Clock, rng: np.random.Generator, count: int,
                  word: str, start: str = "2026-10-01", end: str = "2026-11-01") -> None:
+    assert word in TEXT_WORDS
     mask = np.zeros(clock.n, bool)
     mask[rng.choice(np.flatnonzero(clock.window(start, end)), count, replace=False)] = True
     texts.setdefault(tag, []).append((mask, word))
@@ -681,6 +679,7 @@ def long_dropout(records: pd.DataFrame, tag: str, start: str, end: str) -> pd.Da
 def bad_quality(records: pd.DataFrame, tag: str, start: str, end: str, word: str,
                 rng: np.random.Generator) -> None:
     """Mark a stretch with a bad quality word; the values are held or erratic."""
+    assert word in BAD_QUALITY
     rows = (records["tag"] == tag) & in_window(records["time"], start, end)
     if word == "suspect":
         records.loc[rows, "value"] += np.round(rng.normal(0, 4.0, int(rows.sum())), 2)
@@ -694,6 +693,7 @@ def bad_quality(records: pd.DataFrame, tag: str, start: str, end: str, word: str
 
 def long_text(records: pd.DataFrame, tag: str, word: str, start: str, end: str,
               rng: np.random.Generator | None = None, count: int = 0) -> None:
+    assert word in TEXT_WORDS
     rows = np.flatnonzero((records["tag"] == tag) & in_window(records["time"], start, end))
     if count:
         rows = rng.choice(rows, count, replace=False)
@@ -703,7 +703,7 @@ def long_text(records: pd.DataFrame, tag: str, word: str, start: str, end: str,
 
 
 def duplicates_and_disorder(records: pd.DataFrame, rng: np.random.Generator) -> pd.DataFrame:
-    """Eight exact duplicate rows (10-09, 10-19) and six rows moved ~40 rows later (10-20)."""
+    """Four exact duplicate rows on each of 10-09 and 10-19; six rows of 10-20 written ~40 late."""
     records = records.reset_index(drop=True)
     picks = [rng.choice(np.flatnonzero(in_window(records["time"], d, d + " 23:59")), 4, False)
              for d in ("2026-10-09", "2026-10-19")]
@@ -714,11 +714,45 @@ def duplicates_and_disorder(records: pd.DataFrame, rng: np.random.Generator) -> 
     block = order[at:at + 6]
     del order[at:at + 6]
     order[at + 40:at + 40] = block
-    planted("TL-811/TL-812", "8 duplicated rows", "(toluene file)", "2026-10-09", "2026-10-20",
-            "exact duplicate rows: the loader must drop them")
+    for day in ("2026-10-09", "2026-10-19"):
+        planted("TL-811/TL-812", "4 duplicated rows", "(toluene file)", day, day + " 23:59",
+                "exact duplicate rows: the loader must drop them")
     planted("TL-811/TL-812", "6 rows out of order", "(toluene file)", "2026-10-20 12:00",
             "2026-10-20 13:00", "rows written ~40 rows late: the loader must sort")
     return records.iloc[order]
+
+
+def wide_data_faults(measured: dict, clock: Clock, rng: np.random.Generator) -> dict:
+    """Dropouts, a frozen transmitter and text words in the wide-layout data; returns the texts."""
+    texts: dict = {}
+    transmitter_dropout(measured, "CW101A.FLOW", clock, "2026-10-21 02:00", "2026-10-21 08:30")
+    transmitter_dropout(measured, "DH201A.SUCT_TEMP", clock, "2026-10-05 10:00",
+                        "2026-10-05 14:00")
+    frozen_transmitter(measured, "CW102A.SUCT_PRESS", clock, "2026-10-20 08:00",
+                       "2026-10-22 07:30")
+    text_scatter(texts, "CW101B.SUCT_PRESS", clock, rng, 12, "not-avail", "2026-10-12",
+                 "2026-10-18")
+    text_scatter(texts, "CH701A.SUCT_TEMP", clock, rng, 30, "not-avail")
+    text_stretch(texts, "CH702.SUCT_PRESS", clock, "2026-10-13 09:00", "2026-10-13 15:30",
+                 "xmtr-fault")
+    text_stretch(texts, "RW501.SUCT_TEMP", clock, "2026-10-20 22:00", "2026-10-21 01:00",
+                 "no-signal")
+    text_scatter(texts, "RW503.FLOW", clock, rng, 25, "not-avail")
+    return texts
+
+
+def long_data_faults(long: dict[str, pd.DataFrame], rng: np.random.Generator) -> None:
+    """Dropout, bad-quality stretches and text words in the long-layout records (in place)."""
+    long["boiler_feed"] = long_dropout(long["boiler_feed"], "BF301B.SUCT_PRESS",
+                                       "2026-10-22 09:00", "2026-10-22 16:30")
+    bad_quality(long["boiler_feed"], "BF301A.SUCT_TEMP", "2026-10-06 13:00", "2026-10-06 19:00",
+                "suspect", rng)
+    bad_quality(long["lpg"], "LP901A.SUCT_PRESS", "2026-10-23 06:30", "2026-10-23 11:00",
+                "link-down", rng)
+    bad_quality(long["methanol"], "MT801.FLOW", "2026-10-26 10:00", "2026-10-26 14:00", "held", rng)
+    long_text(long["methanol"], "MT802.SUCT_TEMP", "not-avail", "2026-10-01", "2026-11-01", rng, 15)
+    long_text(long["toluene"], "TL811.SUCT_PRESS", "xmtr-fault", "2026-10-15 07:00",
+              "2026-10-15 09:00")
 
 
 # ----------------------------------------------------------------------------- writers
@@ -838,7 +872,8 @@ def summary(truths: dict[str, Truth], clock: Clock) -> pd.DataFrame:
             "off curve min": int((t.run & np.isnan(t.npsh3)).sum()),
             "<guid min": int(below_guidance.sum()), "first <guid": first[0],
             "<NPSH3 min": int(below_npsh3.sum()), "first <NPSH3": first[1],
-            "event": p.event,
+            "events": "; ".join(dict.fromkeys(e["event"] for e in PLANTED
+                                              if p.pump_id in e["pump_id"])),
         })
     return pd.DataFrame(rows)
 
@@ -854,13 +889,13 @@ LONG_CSV = {"methanol": ["MT-801", "MT-802"], "toluene": ["TL-811", "TL-812"]}
 
 
 def main() -> None:
-    rng = np.random.default_rng(RANDOM_SEED)
+    rng = np.random.default_rng(RANDOM_STATE)
     clock = Clock.october()
     ops = plant_operation(clock, rng)
     baro_pa, baro_records = barometer(clock, rng)
     truths, measured, decimals, deadbands = {}, {}, {}, {}
     for number, p in enumerate(PUMPS):
-        pump_rng = np.random.default_rng([RANDOM_SEED, number])
+        pump_rng = np.random.default_rng([RANDOM_STATE, number])
         truth, readings, places, bands = simulate(p, ops[p.pump_id], clock, baro_pa, pump_rng)
         truths[p.pump_id] = truth
         measured.update(readings)
@@ -870,19 +905,11 @@ def main() -> None:
     for folder in ("wide_csv", "wide_parquet", "long_parquet", "long_csv", "weather"):
         for old in (EXPORTS / folder).glob("*"):
             old.unlink()
-    texts: dict = {}
-    transmitter_dropout(measured, "CW101A.FLOW", clock, "2026-10-21 02:00", "2026-10-21 08:30")
-    transmitter_dropout(measured, "DH201A.SUCT_TEMP", clock, "2026-10-05 10:00", "2026-10-05 14:00")
-    frozen_transmitter(measured, "CW102A.SUCT_PRESS", clock, "2026-10-20 08:00", "2026-10-22 07:30")
-    text_scatter(texts, "CW101B.SUCT_PRESS", clock, rng, 12, "not-avail", "2026-10-12", "2026-10-18")
-    text_scatter(texts, "CH701A.SUCT_TEMP", clock, rng, 30, "not-avail")
-    text_stretch(texts, "CH702.SUCT_PRESS", clock, "2026-10-13 09:00", "2026-10-13 15:30", "xmtr-fault")
-    text_stretch(texts, "RW501.SUCT_TEMP", clock, "2026-10-20 22:00", "2026-10-21 01:00", "no-signal")
-    text_scatter(texts, "RW503.FLOW", clock, rng, 25, "not-avail")
+    texts = wide_data_faults(measured, clock, rng)
 
     def tags_of(pump_ids: list[str]) -> dict:
         return {tag: measured[tag] for pid in pump_ids for tag in measured
-                if tag.startswith(BY_ID[pid].tag("X")[:-1]) or tag == BY_ID[pid].tag("SUCT_TEMP")}
+                if tag.partition(".")[0] == BY_ID[pid].stem or tag == BY_ID[pid].tag("SUCT_TEMP")}
 
     everything = np.ones(clock.n, bool)
     for name, pump_ids in WIDE_CSV.items():
@@ -899,20 +926,12 @@ def main() -> None:
 
     long = {name: long_records(tags_of(ids), deadbands, clock, rng)
             for name, ids in {**LONG_PARQUET, **LONG_CSV}.items()}
-    long["boiler_feed"] = long_dropout(long["boiler_feed"], "BF301B.SUCT_PRESS",
-                                       "2026-10-22 09:00", "2026-10-22 16:30")
-    bad_quality(long["boiler_feed"], "BF301A.SUCT_TEMP", "2026-10-06 13:00", "2026-10-06 19:00",
-                "suspect", rng)
-    bad_quality(long["lpg"], "LP901A.SUCT_PRESS", "2026-10-23 06:30", "2026-10-23 11:00",
-                "link-down", rng)
-    bad_quality(long["methanol"], "MT801.FLOW", "2026-10-26 10:00", "2026-10-26 14:00", "held", rng)
-    long_text(long["methanol"], "MT802.SUCT_TEMP", "not-avail", "2026-10-01", "2026-11-01", rng, 15)
-    long_text(long["toluene"], "TL811.SUCT_PRESS", "xmtr-fault", "2026-10-15 07:00",
-              "2026-10-15 09:00")
-    write_long_parquet(EXPORTS / "long_parquet" / "boiler_feed_2026-10.parquet", long["boiler_feed"])
+    long_data_faults(long, rng)
+    folder = EXPORTS / "long_parquet"
+    write_long_parquet(folder / "boiler_feed_2026-10.parquet", long["boiler_feed"])
     half = in_window(long["lpg"]["time"], "2026-10-01", "2026-10-16")
-    write_long_parquet(EXPORTS / "long_parquet" / "lpg_2026-10-01_to_15.parquet", long["lpg"][half])
-    write_long_parquet(EXPORTS / "long_parquet" / "lpg_2026-10-16_to_31.parquet", long["lpg"][~half])
+    write_long_parquet(folder / "lpg_2026-10-01_to_15.parquet", long["lpg"][half])
+    write_long_parquet(folder / "lpg_2026-10-16_to_31.parquet", long["lpg"][~half])
     for name in LONG_CSV:
         records = long[name].sort_values(["time", "tag"], kind="stable")
         if name == "toluene":

@@ -37,7 +37,7 @@ class Settings:
     """What the calculation needs besides the pump: SI units throughout.
 
     Attributes: stale_limit [s] (plant default), frozen_after [s] or None, min_flow_fraction
-    and min_speed_fraction [-], ample_ratio [-], site_elevation [m].
+    and min_speed_fraction [-], ample_ratio [-], site_elevation [m], barometer_stale_limit [s].
     """
 
     stale_limit: float
@@ -46,6 +46,7 @@ class Settings:
     min_speed_fraction: float
     ample_ratio: float
     site_elevation: float
+    barometer_stale_limit: float = 1800.0
 
 
 @dataclass
@@ -201,7 +202,7 @@ def calculate_pump(
     baro = np.full(len(grid), p_std)
     baro_used = np.zeros(len(grid), dtype=bool)
     if barometer is not None and len(barometer.times):
-        hb = _Held(barometer, grid, stale_ns(None))
+        hb = _Held(barometer, grid, int(round(settings.barometer_stale_limit * 1e9)))
         fresh = ~hb.bad & (hb.until > grid) & (hb.value >= BARO_RANGE[0])
         fresh &= hb.value <= BARO_RANGE[1]
         baro = np.where(fresh, hb.value, p_std)

@@ -47,8 +47,10 @@ class Site(_Strict):
     timezone: str
     barometer_tag: str | None = None
     barometer_unit: str | None = None
+    barometer_stale_limit: float = Field(1800.0, description="hold of a barometer sample [s]")
 
     _elev = field_validator("elevation", mode="before")(lambda v: _length(v))
+    _baro_stale = field_validator("barometer_stale_limit", mode="before")(lambda v: _duration(v))
 
     @field_validator("timezone")
     @classmethod

@@ -115,6 +115,7 @@ def _settings(plant: Plant) -> Settings:
         min_speed_fraction=s.running.min_speed_fraction,
         ample_ratio=s.policy.ample_ratio,
         site_elevation=s.site.elevation,
+        barometer_stale_limit=s.site.barometer_stale_limit,
     )
 
 
@@ -174,7 +175,7 @@ def scan(
     if pumps is not None:
         problems = [p for p in problems if p["pump_id"] in pumps]
 
-    baro_span = (start_ns - int(settings.stale_limit * 1e9) - 1, end_ns)
+    baro_span = (start_ns - int(settings.barometer_stale_limit * 1e9) - 1, end_ns)
     barometer, baro_quality = _read_barometer(plant, index, settings, baro_span)
     results: list[PumpResult] = []
     quality_rows: list[dict] = []

@@ -142,7 +142,7 @@ def test_water_boils_at_212_f_at_14_7_psia(water):
 @pytest.mark.parametrize("fluid", ["Water", "n-Butane", "Methanol", "Toluene", "Propane"])
 def test_table_error_against_direct_coolprop_is_below_1e6(fluid):
     table = fluid_table(fluid)
-    rng = np.random.default_rng(20240611)  # fixed seed: the same points on every run
+    rng = np.random.default_rng(20240611)  # fixed random state: the same points on every run
     temps = rng.uniform(table.t_min, table.t_max, 3000)
     # Also the two ends of the valid range, where the grid's last interval is shortened.
     temps = np.concatenate([temps, [table.t_min, table.t_max]])
