@@ -77,7 +77,7 @@ def _hours_figure(result: ScanResult) -> str:
         height=max(300, 22 * len(wide) + 120),
         margin={"l": 120, "r": 20, "t": 30, "b": 40},
         xaxis_title="hours in the window",
-        legend={"orientation": "h", "y": 1.02, "yanchor": "bottom"},
+        legend={"orientation": "h", "y": 1.02, "yanchor": "bottom", "traceorder": "normal"},
         plot_bgcolor="#ffffff",
     )
     return fig.to_html(full_html=False, include_plotlyjs=False, div_id="hours-by-state")
