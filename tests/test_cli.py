@@ -40,6 +40,7 @@ def test_scan_cli_matches_api(two_pumps, tmp_path):
     assert pq["hours"].sum() == pytest.approx(48.0)
     html = (out / "index.html").read_text()
     assert '<script src="plotly.min.js">' in html
+    assert '<div id="hours-by-state"' in html  # the figure is markup, not escaped text
     assert "screening aid, not a design or safety determination" in html
     assert (out / "plotly.min.js").stat().st_size > 1_000_000
     meta = json.loads((out / "run.json").read_text())
