@@ -11,6 +11,7 @@ until the very end, so the hours of all states add up to the window.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -69,7 +70,12 @@ def prepare_tag(
     """Convert a tag's raw values to SI, flag frozen and impossible samples (counted)."""
     if series is None:
         return None
-    q = series.quality
+    # a tag may serve several pumps (a shared basin temperature): count per pump
+    q = dataclasses.replace(
+        series.quality,
+        words=dict(series.quality.words),
+        first_problem=dict(series.quality.first_problem),
+    )
     if spec.kind == "status":
         values = series.values.copy()
     else:

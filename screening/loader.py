@@ -118,6 +118,7 @@ class ExportIndex:
         #: Files that could not be read at all: path -> message.
         self.file_problems: dict[str, str] = {}
         self._by_tag: dict[str, list[_FileInfo]] = {}
+        self._known: frozenset[str] | None = None
         self._time_cache: OrderedDict[Path, tuple[np.ndarray, np.ndarray]] = OrderedDict()
         for source in plant.exports:
             pattern = source.files
@@ -187,9 +188,11 @@ class ExportIndex:
                 typed = False
         return _FileInfo(path, source, fmt, tags, typed)
 
-    def known_tags(self) -> set[str]:
+    def known_tags(self) -> frozenset[str]:
         """Every tag found in any readable export file."""
-        return set(self._by_tag)
+        if self._known is None:
+            self._known = frozenset(self._by_tag)
+        return self._known
 
     def files_for(self, tag: str) -> list[Path]:
         """The files that hold ``tag``."""
@@ -257,8 +260,10 @@ class ExportIndex:
             except ExportError as exc:
                 problems[str(info.path)] = str(exc)
         series = {}
+        failed = set(problems)
         for tag in wanted:
-            if chunks[tag] or quality[tag].samples or quality[tag].bad_timestamps:
+            if chunks[tag] or any(str(f.path) not in failed for f in self._by_tag[tag]):
+                # a tag with no sample in the span is an empty series: no data, not an error
                 series[tag] = _assemble(tag, chunks[tag], quality[tag])
         return series, problems
 

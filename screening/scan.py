@@ -181,20 +181,33 @@ def scan(
     quality_rows: list[dict] = []
     file_problems = dict(index.file_problems)
     samples = 0
-    for pid in selected:
-        pump = plant.pumps[pid]
-        try:
-            result, tag_quality, n = _screen_pump(
-                plant, pump, index, barometer, settings, start_ns, end_ns, edges, keep_series,
-                file_problems,
-            )  # fmt: skip
-        except (ExportError, UnitError, ValueError) as exc:
-            problems.append({"pump_id": pid, "stage": "data", "message": str(exc)})
-            continue
-        samples += n
-        results.append(result)
-        for role, q in tag_quality.items():
-            quality_rows.append(_quality_row(pid, role, q))
+    # One look-back for the whole plant, so that what is read (and counted) never depends on
+    # which pumps share a batch: the longest hold or frozen allowance of any tag.
+    longest = max(
+        [settings.stale_limit, settings.frozen_after or 0.0]
+        + [t.stale_limit or 0.0 for p in selected for t in plant.pumps[p].tags().values()]
+    )
+    span = (start_ns - int(longest * 1e9) - 1, end_ns)
+    known = index.known_tags()
+    for batch in _batches(plant, index, selected):
+        tags = [t.tag for pid in batch for t in plant.pumps[pid].tags().values() if t.tag in known]
+        raw, read_problems = index.read(tags, span)
+        file_problems.update(read_problems)
+        for pid in batch:
+            pump = plant.pumps[pid]
+            try:
+                result, tag_quality, n = _screen_pump(
+                    plant, pump, index, raw, barometer, settings, start_ns, end_ns, edges,
+                    keep_series,
+                )  # fmt: skip
+            except (ExportError, UnitError, ValueError) as exc:
+                problems.append({"pump_id": pid, "stage": "data", "message": str(exc)})
+                continue
+            samples += n
+            results.append(result)
+            for role, q in tag_quality.items():
+                quality_rows.append(_quality_row(pid, role, q))
+        del raw
     if baro_quality is not None:
         quality_rows.append(_quality_row("(site)", "barometer", baro_quality))
     out = _tables(plant, results, start_ts, end_ts, edges, quality_rows, problems, file_problems)
@@ -217,19 +230,29 @@ def _read_barometer(plant, index, settings, span):
     return s, s.quality
 
 
-def _screen_pump(plant, pump, index, barometer, settings, start_ns, end_ns, edges, keep, fp):
+#: Pumps read together: the files they share are read once per batch. Memory grows with the
+#: batch, not with the plant.
+BATCH_PUMPS = 25
+
+
+def _batches(plant: Plant, index: ExportIndex, selected: list[str]) -> list[list[str]]:
+    """Pumps grouped by the files holding their tags, in batches of at most BATCH_PUMPS."""
+
+    def key(pid: str):
+        files = sorted({str(f) for t in plant.pumps[pid].tags().values()
+                        for f in index.files_for(t.tag)})  # fmt: skip
+        return (files, pid)
+
+    ordered = sorted(selected, key=key)
+    return [ordered[i : i + BATCH_PUMPS] for i in range(0, len(ordered), BATCH_PUMPS)]
+
+
+def _screen_pump(plant, pump, index, raw, barometer, settings, start_ns, end_ns, edges, keep):
     roles = pump.tags()
-    missing = [f"{spec.tag} ({role})" for role, spec in roles.items() if spec.tag not in
-               index.known_tags()]  # fmt: skip
+    known = index.known_tags()
+    missing = [f"{spec.tag} ({role})" for role, spec in roles.items() if spec.tag not in known]
     if missing:
         raise ExportError(f"tag(s) not found in any export file: {', '.join(missing)}")
-    longest = max(
-        [settings.stale_limit, settings.frozen_after or 0.0]
-        + [spec.stale_limit or 0.0 for spec in roles.values()]
-    )
-    span = (start_ns - int(longest * 1e9) - 1, end_ns)
-    raw, read_problems = index.read([spec.tag for spec in roles.values()], span)
-    fp.update(read_problems)
     table = fluid_table(pump.fluid)
     prepared = {}
     n = 0
