@@ -105,11 +105,17 @@ class _Held:
             self.until = np.full(len(grid), _NEVER, dtype=np.int64)
             return
         j = np.searchsorted(s.times, grid, side="right") - 1
-        has = j >= 0
-        jj = np.maximum(j, 0)
-        self.value = s.values[jj]
-        self.bad = s.bad[jj] & has
-        self.until = np.where(has, s.times[jj] + stale_ns, _NEVER)
+        # grid points before the tag's first sample form a prefix: no value there
+        k0 = int(np.searchsorted(grid, s.times[0], side="left"))
+        j[:k0] = 0
+        self.value = s.values[j]
+        self.bad = s.bad[j]
+        self.until = s.times[j]
+        self.until += stale_ns
+        if k0:
+            self.value[:k0] = np.nan
+            self.bad[:k0] = False
+            self.until[:k0] = _NEVER
 
 
 def calculate_pump(
@@ -240,7 +246,9 @@ def calculate_pump(
     fresh = np.clip(np.minimum(until, t_next) - grid, 0, None)
     stale = length - fresh
     n_days = len(day_edges) - 1
-    day = np.clip(np.searchsorted(day_edges, grid, side="right") - 1, 0, n_days - 1)
+    # every local midnight is a grid point: the day index is a run-length repeat
+    first = np.searchsorted(grid, day_edges[:-1], side="left")
+    day = np.repeat(np.arange(n_days), np.diff(np.append(first, len(grid))))
     n_states = len(states.STATES)
     daily = np.bincount(day * n_states + code, weights=fresh, minlength=n_days * n_states)
     gaps = np.flatnonzero(stale)

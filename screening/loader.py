@@ -73,6 +73,7 @@ class _FileInfo:
     fmt: str
     tags: frozenset[str]
     timestamp_typed: bool = False  # Parquet time column of a timestamp type (filterable)
+    time_range: tuple[int, int] | None = None  # [ns] from the Parquet statistics
 
 
 def _format_of(path: Path, source: ExportSource) -> str:
@@ -179,14 +180,16 @@ class ExportIndex:
                     )
                 frame = self._read_csv(path, source, [source.tag_column])
                 tags = frozenset(frame[source.tag_column].dropna().str.strip().unique())
-        typed = False
+        typed, time_range = False, None
         if fmt == "parquet":
             try:
                 field_type = pq.read_schema(path).field(source.time_column).type
                 typed = pa.types.is_timestamp(field_type) and field_type.tz is not None
+                if typed:
+                    time_range = _parquet_time_range(path, source.time_column)
             except (KeyError, pa.ArrowException, OSError):
                 typed = False
-        return _FileInfo(path, source, fmt, tags, typed)
+        return _FileInfo(path, source, fmt, tags, typed, time_range)
 
     def known_tags(self) -> frozenset[str]:
         """Every tag found in any readable export file."""
@@ -267,9 +270,16 @@ class ExportIndex:
                 series[tag] = _assemble(tag, chunks[tag], quality[tag])
         return series, problems
 
-    def _time_filter(self, info: _FileInfo, span) -> list:
+    def _time_filter(self, info: _FileInfo, span) -> list | None:
+        """Filters on the time column for a span; [] when none is needed, None to skip."""
         if span is None or not info.timestamp_typed:
             return []
+        if info.time_range is not None:
+            lo_t, hi_t = info.time_range
+            if lo_t >= span[0] and hi_t < span[1]:
+                return []  # the whole file is inside the span
+            if hi_t < span[0] or lo_t >= span[1]:
+                return None  # nothing of the file is inside
         col = info.source.time_column
         lo = pa.scalar(span[0], type=pa.timestamp("ns", tz="UTC"))
         hi = pa.scalar(span[1], type=pa.timestamp("ns", tz="UTC"))
@@ -279,11 +289,17 @@ class ExportIndex:
         src = info.source
         cols = [src.time_column, *tags]
         if info.fmt == "parquet":
+            filters = self._time_filter(info, span)
+            if filters is None:
+                return
             try:
-                filters = self._time_filter(info, span) or None
-                frame = pq.read_table(info.path, columns=cols, filters=filters).to_pandas()
+                table = pq.read_table(info.path, columns=cols, filters=filters or None)
             except (pa.ArrowException, OSError) as exc:
                 raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
+            if info.timestamp_typed:
+                self._wide_arrow(info, table, tags, chunks, quality, span)
+                return
+            frame = table.to_pandas()
             first_row = 0
         else:
             frame = self._read_csv(info.path, src, cols)
@@ -301,6 +317,25 @@ class ExportIndex:
                 None, chunks, quality, self.good_quality, span=span,
             )  # fmt: skip
 
+    def _wide_arrow(self, info, table: pa.Table, tags, chunks, quality, span) -> None:
+        """Fast path: a wide Parquet file with a time-zone-aware time column, no pandas."""
+        col = table.column(info.source.time_column).cast(pa.timestamp("ns", tz="UTC"))
+        times = col.to_numpy(zero_copy_only=False).view(np.int64)
+        ok = ~np.asarray(col.is_null().to_numpy(zero_copy_only=False), dtype=bool)
+        rows = np.arange(len(times))
+        for tag in tags:
+            column = table.column(tag)
+            if pa.types.is_floating(column.type) or pa.types.is_integer(column.type):
+                raw = column.to_numpy(zero_copy_only=False).astype(np.float64, copy=False)
+                present = ~np.isnan(raw)  # a null (or NaN) cell: not sampled at this instant
+            else:
+                raw = column.to_pandas()
+                present = raw.notna().to_numpy()
+            _add_chunk(
+                tag, info, raw[present], times[present], ok[present], rows[present],
+                None, chunks, quality, self.good_quality, "row", span,
+            )  # fmt: skip
+
     def _read_long(self, info, tags, chunks, quality, span=None) -> None:
         src = info.source
         cols = [src.tag_column, src.time_column, src.value_column]
@@ -308,7 +343,10 @@ class ExportIndex:
             cols.append(src.quality_column)
         if info.fmt == "parquet":
             try:
-                filters = [(src.tag_column, "in", list(tags)), *self._time_filter(info, span)]
+                time_filters = self._time_filter(info, span)
+                if time_filters is None:
+                    return
+                filters = [(src.tag_column, "in", list(tags)), *time_filters]
                 table = pq.read_table(info.path, columns=cols, filters=filters)
             except (pa.ArrowException, OSError) as exc:
                 raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
@@ -355,7 +393,10 @@ def _add_chunk(
     times, rows = times[ok], rows[ok]
     if qual is not None:
         qual = qual[ok]
-    if raw.dtype.kind == "f" or raw.dtype.kind in "iu":
+    if isinstance(raw, np.ndarray):
+        values = raw.astype(np.float64, copy=False)
+        is_text = np.zeros(len(values), dtype=bool)
+    elif raw.dtype.kind == "f" or raw.dtype.kind in "iu":
         values = raw.to_numpy(dtype=np.float64)
         is_text = np.zeros(len(values), dtype=bool)
     else:
@@ -389,9 +430,28 @@ def _add_chunk(
     chunks[tag].append((times, values, bad))
 
 
+def _parquet_time_range(path: Path, column: str) -> tuple[int, int] | None:
+    """First and last time [ns, UTC] of a Parquet file from its statistics, if it has them."""
+    meta = pq.ParquetFile(path).metadata
+    idx = meta.schema.to_arrow_schema().get_field_index(column)
+    lo = hi = None
+    for i in range(meta.num_row_groups):
+        stats = meta.row_group(i).column(idx).statistics
+        if stats is None or not stats.has_min_max:
+            return None
+        a, b = pd.Timestamp(stats.min), pd.Timestamp(stats.max)
+        if a.tzinfo is None:
+            a, b = a.tz_localize("UTC"), b.tz_localize("UTC")
+        lo = a.value if lo is None else min(lo, a.value)
+        hi = b.value if hi is None else max(hi, b.value)
+    return None if lo is None else (lo, hi)
+
+
 def _assemble(tag: str, parts: list[tuple], q: TagQuality) -> TagSeries:
     """Merge a tag's chunks: sort by time (stable) and keep the last of duplicate times."""
-    if parts:
+    if len(parts) == 1:
+        times, values, bad = parts[0]
+    elif parts:
         times = np.concatenate([p[0] for p in parts])
         values = np.concatenate([p[1] for p in parts])
         bad = np.concatenate([p[2] for p in parts])
@@ -399,10 +459,10 @@ def _assemble(tag: str, parts: list[tuple], q: TagQuality) -> TagSeries:
         times = np.zeros(0, np.int64)
         values = np.zeros(0)
         bad = np.zeros(0, bool)
-    if len(times) > 1 and np.any(np.diff(times) < 0):
-        order = np.argsort(times, kind="stable")
-        times, values, bad = times[order], values[order], bad[order]
-    if len(times) > 1:
+    if len(times) > 1 and not np.all(times[1:] > times[:-1]):
+        if np.any(times[1:] < times[:-1]):
+            order = np.argsort(times, kind="stable")
+            times, values, bad = times[order], values[order], bad[order]
         last = np.append(times[1:] != times[:-1], True)
         dup = int((~last).sum())
         if dup:

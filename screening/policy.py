@@ -14,6 +14,9 @@ import numpy as np
 from .config import Policy
 from .states import AMPLE_MARGIN, BELOW_GUIDANCE, BELOW_NPSH3, MEETS_GUIDANCE
 
+# margin_band counts the edges reached; the band codes must be that count
+assert (BELOW_NPSH3, BELOW_GUIDANCE, MEETS_GUIDANCE, AMPLE_MARGIN) == (0, 1, 2, 3)
+
 
 @dataclass(frozen=True)
 class Guidance:
@@ -89,8 +92,9 @@ def margin_band(npsha, npsh3, guidance: Guidance, ample_ratio: float) -> np.ndar
     npsh3 = np.asarray(npsh3, dtype=np.float64)
     guide = guidance.head(npsh3)
     ample = np.maximum(guide, ample_ratio * npsh3)
-    band = np.full(npsha.shape, MEETS_GUIDANCE, dtype=np.int8)
-    band[npsha >= ample] = AMPLE_MARGIN
-    band[npsha < guide] = BELOW_GUIDANCE
-    band[npsha < npsh3] = BELOW_NPSH3
+    # npsh3 <= guide <= ample, so the band code is the number of edges reached:
+    # 0 below NPSH3, 1 below guidance, 2 meets guidance, 3 ample
+    band = (npsha >= npsh3).view(np.int8)
+    band += npsha >= guide
+    band += npsha >= ample
     return band

@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 
 from . import states
+from ._allocator import keep_freed_memory
 from .calculator import PumpResult, Settings, calculate_pump, prepare_tag
 from .loader import ExportError, ExportIndex, TagQuality
 from .plant import Plant, load_plant, pump_suction_specific_speed
@@ -158,6 +159,7 @@ def scan(
     ScanResult
     """
     t0 = time.perf_counter()
+    keep_freed_memory()
     plant = config if isinstance(config, Plant) else load_plant(config)
     start_ts, end_ts = window_bounds(plant, start, end)
     start_ns, end_ns = start_ts.value, end_ts.value
@@ -297,7 +299,7 @@ def _quality_row(pid: str, role: str, q: TagQuality) -> dict:
 
 def _tables(plant, results, start, end, edges, quality_rows, problems, file_problems):
     names = list(states.STATES)
-    hours_rows, summary_rows, daily_frames = [], [], []
+    hours_rows, summary_rows = [], []
     days = pd.to_datetime(edges[:-1], utc=True).tz_convert(plant.timezone).date
     for r in results:
         pump = plant.pumps[r.pump_id]
@@ -329,11 +331,6 @@ def _tables(plant, results, start, end, edges, quality_rows, problems, file_prob
                 "standard_atmosphere_hours": r.baro_fallback_hours,
             }
         )
-        d = pd.DataFrame(r.daily, columns=names)
-        d.insert(0, "date", days)
-        d = d.melt(id_vars="date", var_name="state", value_name="hours")
-        d.insert(0, "pump_id", r.pump_id)
-        daily_frames.append(d)
     hours = pd.DataFrame(hours_rows, columns=["pump_id", "state", "hours"])
     summary = pd.DataFrame(summary_rows)
     if len(summary):
@@ -341,10 +338,16 @@ def _tables(plant, results, start, end, edges, quality_rows, problems, file_prob
             ["below_npsh3_hours", "below_guidance_hours", "pump_id"],
             ascending=[False, False, True],
         ).reset_index(drop=True)
-    daily = (
-        pd.concat(daily_frames, ignore_index=True)
-        if daily_frames
-        else pd.DataFrame(columns=["pump_id", "date", "state", "hours"])
+    n_days, n_states = len(days), len(names)
+    daily = pd.DataFrame(
+        {
+            "pump_id": np.repeat([r.pump_id for r in results], n_days * n_states),
+            "date": np.tile(np.repeat(days, n_states), len(results)),
+            "state": np.tile(names, n_days * len(results)),
+            "hours": (
+                np.concatenate([r.daily.ravel() for r in results]) if results else np.zeros(0)
+            ),
+        }
     )
     quality = pd.DataFrame(quality_rows)
     probs = pd.DataFrame(problems, columns=["pump_id", "stage", "message"])

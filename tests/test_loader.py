@@ -180,3 +180,52 @@ class TestClockChange:
         assert r.window_hours == pytest.approx(25.0)
         assert hours(r)["ample_margin"] == pytest.approx(25.0)
         assert hours(r)["no_data"] == pytest.approx(0.0)
+
+
+def test_sample_before_the_window_holds_into_it(tmp_path):
+    # last sample at 23:58 the day before stands until 00:03 with a 5 min stale limit
+    frame = steady_frame(start="2026-09-30 23:58", periods=2)  # 23:58 and 23:59
+    later = steady_frame(start="2026-10-01 00:10", periods=1430)
+    both = pd.concat([frame, later])
+    r = screening.scan(make_plant(tmp_path, wide={"a.csv": both}))
+    h = hours(r)
+    assert h["ample_margin"] == pytest.approx(4 * H + 1430 * H)  # 00:00-00:04, 00:10-24:00
+    assert h["no_data"] == pytest.approx(6 * H)
+    assert r.quality.set_index("role").loc["suction", "samples"] == 1432  # the look-back too
+
+
+def test_parquet_wide_with_naive_and_aware_times(tmp_path):
+    path = make_plant(tmp_path, wide={})
+    base = steady_frame()
+    naive = base.assign(timestamp=pd.to_datetime(base["timestamp"]))
+    naive.iloc[:720].to_parquet(tmp_path / "exports" / "a.parquet")
+    aware = naive.assign(timestamp=naive["timestamp"].dt.tz_localize("UTC"))
+    aware.iloc[720:].to_parquet(tmp_path / "exports" / "b.parquet")
+    (tmp_path / "plant.toml").write_text(
+        (tmp_path / "plant.toml").read_text().replace('"exports/*.csv"', '"exports/*.parquet"')
+    )
+    r = screening.scan(path)
+    assert hours(r)["ample_margin"] == pytest.approx(24.0)
+
+
+def test_long_parquet_filters_tags_and_reads_quality(tmp_path):
+    path = make_plant(tmp_path, wide={"a.csv": steady_frame().drop(columns=["P1.TT"])})
+    times = pd.date_range("2026-10-01", periods=1440, freq="1min", tz="UTC")
+    frame = pd.DataFrame(
+        {
+            "tag": ["P1.TT"] * 1440 + ["OTHER.TAG"] * 1440,
+            "time": list(times) * 2,
+            "value": 20.0,
+            "quality": ["ok"] * 1380 + ["stale-link"] * 60 + ["ok"] * 1440,
+        }
+    )
+    frame.to_parquet(tmp_path / "long" / "t.parquet")
+    text = (tmp_path / "plant.toml").read_text()
+    text += (
+        '\n[[exports]]\nfiles = "long/*.parquet"\nlayout = "long"\ntag_column = "tag"\n'
+        'time_column = "time"\nvalue_column = "value"\nquality_column = "quality"\n'
+    )
+    (tmp_path / "plant.toml").write_text(text)  # TOML appends a later [[exports]] block
+    r = screening.scan(path)
+    assert hours(r)["bad_data"] == pytest.approx(1.0)
+    assert hours(r)["ample_margin"] == pytest.approx(23.0)
