@@ -20,6 +20,7 @@ import pandas as pd
 from . import npsh, states
 from .atmosphere import standard_pressure
 from .curves import Npsh3Curve
+from .kernels import last_index
 from .loader import TagSeries
 from .policy import Guidance, margin_band
 from .properties import FluidTable
@@ -104,7 +105,7 @@ class _Held:
             self.bad = np.zeros(len(grid), dtype=bool)
             self.until = np.full(len(grid), _NEVER, dtype=np.int64)
             return
-        j = np.searchsorted(s.times, grid, side="right") - 1
+        j = last_index(s.times, grid)
         # grid points before the tag's first sample form a prefix: no value there
         k0 = int(np.searchsorted(grid, s.times[0], side="left"))
         j[:k0] = 0
