@@ -12,6 +12,7 @@ until the very end, so the hours of all states add up to the window.
 from __future__ import annotations
 
 import dataclasses
+import functools
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -20,7 +21,7 @@ import pandas as pd
 from . import npsh, states
 from .atmosphere import standard_pressure
 from .curves import Npsh3Curve
-from .kernels import last_index
+from .kernels import last_index, union_sorted
 from .loader import TagSeries
 from .policy import Guidance, margin_band
 from .properties import FluidTable
@@ -94,6 +95,11 @@ def prepare_tag(
             q.out_of_range = int(impossible.sum())
             bad |= impossible
     return TagSeries(series.tag, series.times, values, bad, q)
+
+
+@functools.lru_cache(maxsize=16)
+def _standard_pressure(elevation: float) -> float:
+    return standard_pressure(elevation)
 
 
 class _Held:
@@ -175,11 +181,10 @@ def calculate_pump(
             # tags of one wide file share their times: add each distinct time axis once
             if not any(len(x) == len(piece) and np.array_equal(x, piece) for x in seen):
                 seen.append(piece)
-    parts.extend(seen)
-    # The parts are sorted runs: a stable sort (timsort-like merge of runs) is far cheaper
-    # than np.unique's general method here; duplicates are then dropped by a neighbour test.
-    grid = np.sort(np.concatenate(parts), kind="stable")
-    grid = grid[np.concatenate(([True], grid[1:] != grid[:-1]))]
+    # every part is sorted: merge them one by one into the sorted unique grid
+    grid = np.unique(np.concatenate(parts))
+    for piece in seen:
+        grid = union_sorted(grid, np.ascontiguousarray(piece))
     t_next = np.append(grid[1:], end_ns)
     roles = {
         "suction": pump.suction,
@@ -213,7 +218,7 @@ def calculate_pump(
 
     # --- barometric pressure: the barometer where fresh and plausible, else the standard
     # atmosphere at the site elevation (U.S. Standard Atmosphere 1976)
-    p_std = standard_pressure(settings.site_elevation)
+    p_std = _standard_pressure(settings.site_elevation)
     baro = np.full(len(grid), p_std)
     baro_used = np.zeros(len(grid), dtype=bool)
     if barometer is not None and len(barometer.times):

@@ -15,6 +15,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.interpolate import PchipInterpolator
 
+from .kernels import pchip_eval
+
 #: U.S. customary conversion for the suction specific speed: gpm per m³/s and ft per m.
 GPM_PER_M3S = 1.0 / (3.785411784e-3 / 60.0)
 FT_PER_M = 1.0 / 0.3048
@@ -72,8 +74,9 @@ class Npsh3Curve:
     def at_reference_speed(self, flow) -> np.ndarray:
         """NPSH3 [m] at ``flow`` [m³/s] and the curve's reference speed; NaN off the curve."""
         q = np.asarray(flow, dtype=np.float64)
-        out = self._interp(q)
-        return np.where((q >= self.flow[0]) & (q <= self.flow[-1]), out, np.nan)
+        flat = np.ascontiguousarray(np.atleast_1d(q).ravel())
+        out = pchip_eval(self._interp.x, np.ascontiguousarray(self._interp.c), flat)
+        return out.reshape(q.shape)
 
     def at_speed(self, flow, speed, reference_speed: float, exponent: float = 2.0):
         """NPSH3 [m] at ``flow`` [m³/s] and running ``speed`` [rpm], by the affinity laws.

@@ -41,10 +41,102 @@ def _last_index_loop(times, grid):  # pragma: no cover - compiled
     return out
 
 
-if numba is not None:
+def union_sorted_numpy(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Sorted unique union of two sorted int64 arrays (numpy form)."""
+    grid = np.sort(np.concatenate((a, b)), kind="stable")
+    return grid[np.concatenate(([True], grid[1:] != grid[:-1]))] if len(grid) else grid
+
+
+def _union_sorted_loop(a, b):  # pragma: no cover - compiled
+    """Sorted unique union of two sorted int64 arrays in one merge pass."""
+    out = np.empty(a.shape[0] + b.shape[0], np.int64)
+    i = 0
+    j = 0
+    n = 0
+    while i < a.shape[0] or j < b.shape[0]:
+        if j >= b.shape[0] or (i < a.shape[0] and a[i] <= b[j]):
+            v = a[i]
+            i += 1
+        else:
+            v = b[j]
+            j += 1
+        if n == 0 or out[n - 1] != v:
+            out[n] = v
+            n += 1
+    return out[:n]
+
+
+def pchip_eval_numpy(x_nodes, coef, q):
+    """Evaluate a piecewise cubic (scipy PPoly layout: coef[4, k]) at ``q``; NaN outside."""
+    inside = (q >= x_nodes[0]) & (q <= x_nodes[-1])
+    qq = np.where(inside, q, x_nodes[0])
+    i = np.clip(np.searchsorted(x_nodes, qq, side="right") - 1, 0, len(x_nodes) - 2)
+    d = qq - x_nodes[i]
+    out = ((coef[0, i] * d + coef[1, i]) * d + coef[2, i]) * d + coef[3, i]
+    return np.where(inside, out, np.nan)
+
+
+def _pchip_eval_loop(x_nodes, coef, q):  # pragma: no cover - compiled
+    """Piecewise cubic at each ``q`` (intervals found by a short scan); NaN outside."""
+    n = q.shape[0]
+    k = x_nodes.shape[0] - 1
+    out = np.empty(n)
+    lo = x_nodes[0]
+    hi = x_nodes[k]
+    for m in range(n):
+        v = q[m]
+        if not (v >= lo and v <= hi):
+            out[m] = np.nan
+            continue
+        i = 0
+        while i < k - 1 and v >= x_nodes[i + 1]:
+            i += 1
+        d = v - x_nodes[i]
+        out[m] = ((coef[0, i] * d + coef[1, i]) * d + coef[2, i]) * d + coef[3, i]
+    return out
+
+
+def table_eval_numpy(t, t_min, t_max, step, ln_pv, rho):
+    """Linear interpolation of ln p_v and rho on a uniform grid; NaN outside (numpy form)."""
+    ok = (t >= t_min) & (t <= t_max)
+    pos = np.where(ok, (t - t_min) / step, 0.0)
+    idx = np.minimum(pos.astype(np.int64), len(rho) - 2)
+    frac = pos - idx
+    pv = np.exp(ln_pv[idx] + frac * (ln_pv[idx + 1] - ln_pv[idx]))
+    r = rho[idx] + frac * (rho[idx + 1] - rho[idx])
+    return np.where(ok, pv, np.nan), np.where(ok, r, np.nan)
+
+
+def _table_eval_loop(t, t_min, t_max, step, ln_pv, rho):  # pragma: no cover - compiled
+    """Linear interpolation of ln p_v and rho on a uniform grid; NaN outside."""
+    n = t.shape[0]
+    last = rho.shape[0] - 1
+    pv = np.empty(n)
+    r = np.empty(n)
+    for m in range(n):
+        v = t[m]
+        if not (v >= t_min and v <= t_max):
+            pv[m] = np.nan
+            r[m] = np.nan
+            continue
+        pos = (v - t_min) / step
+        i = min(int(pos), last - 1)
+        f = pos - i
+        pv[m] = np.exp(ln_pv[i] + f * (ln_pv[i + 1] - ln_pv[i]))
+        r[m] = rho[i] + f * (rho[i + 1] - rho[i])
+    return pv, r
+
+
+def _compile(func, fallback):
+    if numba is None:  # pragma: no cover
+        return fallback
     try:
-        last_index = numba.njit(cache=True, nogil=True)(_last_index_loop)
+        return numba.njit(cache=True, nogil=True)(func)
     except Exception:  # pragma: no cover - e.g. a read-only install without a cache folder
-        last_index = numba.njit(nogil=True)(_last_index_loop)
-else:  # pragma: no cover
-    last_index = last_index_numpy
+        return numba.njit(nogil=True)(func)
+
+
+last_index = _compile(_last_index_loop, last_index_numpy)
+union_sorted = _compile(_union_sorted_loop, union_sorted_numpy)
+pchip_eval = _compile(_pchip_eval_loop, pchip_eval_numpy)
+table_eval = _compile(_table_eval_loop, table_eval_numpy)

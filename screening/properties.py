@@ -26,6 +26,8 @@ import CoolProp
 import numpy as np
 from CoolProp.CoolProp import PropsSI
 
+from .kernels import table_eval
+
 #: Target relative interpolation error of p_v and rho at grid mid-points.
 TARGET_REL_ERROR = 1e-6
 #: Upper end of the valid range as a fraction of the critical temperature.
@@ -127,13 +129,10 @@ class FluidTable:
 
         Linear interpolation of ln p_v and rho on the grid; NaN outside the valid range.
         """
-        idx, frac, ok = self._locate(temperature)
-        lp = self.ln_pv[idx] + frac * (self.ln_pv[idx + 1] - self.ln_pv[idx])
-        rho = self.rho[idx] + frac * (self.rho[idx + 1] - self.rho[idx])
-        pv = np.exp(lp)
-        pv = np.where(ok, pv, np.nan)
-        rho = np.where(ok, rho, np.nan)
-        return pv, rho
+        t = np.ascontiguousarray(np.atleast_1d(np.asarray(temperature, dtype=np.float64)))
+        pv, rho = table_eval(t.ravel(), self.t_min, self.t_max, self.step, self.ln_pv, self.rho)
+        shape = np.shape(temperature)
+        return pv.reshape(shape), rho.reshape(shape)
 
     def vapour_pressure(self, temperature) -> np.ndarray:
         """Vapour pressure [Pa] at ``temperature`` [K]; NaN outside the valid range."""

@@ -26,3 +26,45 @@ def test_grid_points_equal_to_samples_take_that_sample():
     times = np.array([10, 20, 30], dtype=np.int64)
     grid = np.array([5, 10, 19, 20, 30, 99], dtype=np.int64)
     np.testing.assert_array_equal(last_index(times, grid), [-1, 0, 0, 1, 2, 2])
+
+
+@settings(max_examples=200, deadline=None)
+@given(a=sorted_unique, b=sorted_unique)
+def test_union_sorted_matches_numpy(a, b):
+    from screening.kernels import union_sorted, union_sorted_numpy
+
+    np.testing.assert_array_equal(union_sorted(a, b), union_sorted_numpy(a, b))
+    np.testing.assert_array_equal(union_sorted(a, b), np.union1d(a, b))
+
+
+@settings(max_examples=100, deadline=None)
+@given(
+    q=st.lists(st.one_of(st.floats(-1.0, 12.0), st.just(np.nan)), min_size=1, max_size=100),
+)
+def test_pchip_kernel_matches_scipy(q):
+    # scipy's PchipInterpolator is the reference implementation of the curve
+    from scipy.interpolate import PchipInterpolator
+
+    from screening.kernels import pchip_eval, pchip_eval_numpy
+
+    x = np.array([1.0, 2.0, 4.0, 7.0, 10.0])
+    y = np.array([2.0, 2.1, 2.6, 4.0, 7.5])
+    p = PchipInterpolator(x, y, extrapolate=False)
+    q = np.array(q)
+    expected = np.where((q >= 1.0) & (q <= 10.0), p(q), np.nan)
+    c = np.ascontiguousarray(p.c)
+    np.testing.assert_allclose(pchip_eval(x, c, q), expected, rtol=1e-13, equal_nan=True)
+    np.testing.assert_allclose(pchip_eval_numpy(x, c, q), expected, rtol=1e-13, equal_nan=True)
+
+
+def test_table_kernel_matches_numpy_form():
+    from screening.kernels import table_eval, table_eval_numpy
+
+    rng = np.random.default_rng(7)  # fixed random state
+    ln_pv = np.log(np.linspace(600.0, 9e4, 101))
+    rho = np.linspace(1000.0, 950.0, 101)
+    t = np.concatenate([rng.uniform(270.0, 380.0, 1000), [273.0, 373.0, np.nan]])
+    a = table_eval(t, 273.0, 373.0, 1.0, ln_pv, rho)
+    b = table_eval_numpy(t, 273.0, 373.0, 1.0, ln_pv, rho)
+    for x, y in zip(a, b, strict=True):
+        np.testing.assert_allclose(x, y, rtol=1e-14, equal_nan=True)
