@@ -21,7 +21,7 @@ import pandas as pd
 from . import npsh, states
 from .atmosphere import standard_pressure
 from .curves import Npsh3Curve
-from .kernels import last_index, union_sorted
+from .kernels import hold, union_sorted
 from .loader import TagSeries
 from .policy import Guidance, margin_band
 from .properties import FluidTable
@@ -111,18 +111,9 @@ class _Held:
             self.bad = np.zeros(len(grid), dtype=bool)
             self.until = np.full(len(grid), _NEVER, dtype=np.int64)
             return
-        j = last_index(s.times, grid)
-        # grid points before the tag's first sample form a prefix: no value there
-        k0 = int(np.searchsorted(grid, s.times[0], side="left"))
-        j[:k0] = 0
-        self.value = s.values[j]
-        self.bad = s.bad[j]
-        self.until = s.times[j]
-        self.until += stale_ns
-        if k0:
-            self.value[:k0] = np.nan
-            self.bad[:k0] = False
-            self.until[:k0] = _NEVER
+        self.value, self.bad, self.until = hold(
+            s.times, s.values, s.bad, grid, np.int64(stale_ns), np.int64(_NEVER)
+        )
 
 
 def calculate_pump(

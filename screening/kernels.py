@@ -41,6 +41,46 @@ def _last_index_loop(times, grid):  # pragma: no cover - compiled
     return out
 
 
+def hold_numpy(times, values, bad, grid, stale_ns, never):
+    """Each tag's last sample at each grid point: (value, bad, fresh-until) (numpy form).
+
+    Before the first sample the value is NaN, not bad, and fresh until ``never``.
+    """
+    if len(times) == 0:
+        n = len(grid)
+        return np.full(n, np.nan), np.zeros(n, bool), np.full(n, never, np.int64)
+    j = np.searchsorted(times, grid, side="right") - 1
+    has = j >= 0
+    jj = np.maximum(j, 0)
+    value = np.where(has, values[jj], np.nan)
+    flag = bad[jj] & has
+    until = np.where(has, times[jj] + stale_ns, never)
+    return value, flag, until
+
+
+def _hold_loop(times, values, bad, grid, stale_ns, never):  # pragma: no cover - compiled
+    """Each tag's last sample at each grid point: (value, bad, fresh-until), one merge pass."""
+    n = grid.shape[0]
+    m = times.shape[0]
+    value = np.empty(n)
+    flag = np.empty(n, np.bool_)
+    until = np.empty(n, np.int64)
+    k = -1
+    for i in range(n):
+        g = grid[i]
+        while k + 1 < m and times[k + 1] <= g:
+            k += 1
+        if k < 0:
+            value[i] = np.nan
+            flag[i] = False
+            until[i] = never
+        else:
+            value[i] = values[k]
+            flag[i] = bad[k]
+            until[i] = times[k] + stale_ns
+    return value, flag, until
+
+
 def union_sorted_numpy(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Sorted unique union of two sorted int64 arrays (numpy form)."""
     grid = np.sort(np.concatenate((a, b)), kind="stable")
@@ -137,6 +177,25 @@ def _compile(func, fallback):
 
 
 last_index = _compile(_last_index_loop, last_index_numpy)
+hold = _compile(_hold_loop, hold_numpy)
 union_sorted = _compile(_union_sorted_loop, union_sorted_numpy)
 pchip_eval = _compile(_pchip_eval_loop, pchip_eval_numpy)
 table_eval = _compile(_table_eval_loop, table_eval_numpy)
+
+
+def _warm_up() -> None:
+    """Load (or compile, on the first run after install) every kernel once, at import.
+
+    The fixed cost (a fraction of a second from numba's cache) is paid with the other imports,
+    not inside the first pump's calculation.
+    """
+    t = np.array([0, 1], dtype=np.int64)
+    last_index(t, t)
+    hold(t, np.zeros(2), np.zeros(2, dtype=np.bool_), t, 1, -1)
+    union_sorted(t, t)
+    x = np.array([0.0, 1.0])
+    pchip_eval(x, np.zeros((4, 1)), x)
+    table_eval(x, 0.0, 1.0, 1.0, x, x)
+
+
+_warm_up()

@@ -68,3 +68,20 @@ def test_table_kernel_matches_numpy_form():
     b = table_eval_numpy(t, 273.0, 373.0, 1.0, ln_pv, rho)
     for x, y in zip(a, b, strict=True):
         np.testing.assert_allclose(x, y, rtol=1e-14, equal_nan=True)
+
+
+@settings(max_examples=200, deadline=None)
+@given(times=sorted_unique, grid=sorted_any, stale=st.integers(0, 10**9))
+def test_hold_matches_numpy(times, grid, stale):
+    from screening.kernels import hold, hold_numpy
+
+    rng = np.random.default_rng(len(times))  # fixed random state per case
+    values = rng.normal(size=len(times))
+    bad = rng.random(len(times)) < 0.3
+    never = np.int64(-(2**60))
+    for a, b in zip(
+        hold(times, values, bad, grid, np.int64(stale), never),
+        hold_numpy(times, values, bad, grid, stale, never),
+        strict=True,
+    ):
+        np.testing.assert_array_equal(a, b)
