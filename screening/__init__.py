@@ -12,6 +12,7 @@ Python API (the command line uses the same functions)::
 from .check import check
 from .config import ConfigError
 from .plant import Plant, load_plant
+from .regions import REGIONS
 from .report import write_report
 from .scan import ScanResult, WindowError, scan
 from .states import BANDS, STATES
@@ -19,6 +20,7 @@ from .states import BANDS, STATES
 __version__ = "0.1.0"
 __all__ = [
     "BANDS",
+    "REGIONS",
     "STATES",
     "ConfigError",
     "Plant",

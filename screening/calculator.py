@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from . import npsh, states
+from . import npsh, regions, states
 from .atmosphere import standard_pressure
 from .curves import Npsh3Curve
 from .kernels import hold, union_sorted
@@ -26,6 +26,7 @@ from .loader import TagSeries
 from .policy import Guidance, margin_band
 from .properties import FluidTable
 from .quality import frozen_samples
+from .regions import operating_region, region_edges
 from .register import PumpSpec, TagSpec
 from .units import to_si
 
@@ -40,7 +41,8 @@ class Settings:
     """What the calculation needs besides the pump: SI units throughout.
 
     Attributes: stale_limit [s] (plant default), frozen_after [s] or None, min_flow_fraction
-    and min_speed_fraction [-], ample_ratio [-], site_elevation [m], barometer_stale_limit [s].
+    and min_speed_fraction [-], ample_ratio [-], site_elevation [m], barometer_stale_limit [s],
+    speed_scaling_range [-] (speed ratios inside which NPSH3 scaling is trusted).
     """
 
     stale_limit: float
@@ -50,6 +52,7 @@ class Settings:
     ample_ratio: float
     site_elevation: float
     barometer_stale_limit: float = 1800.0
+    speed_scaling_range: tuple[float, float] = (0.8, 1.2)
 
 
 @dataclass
@@ -63,6 +66,9 @@ class PumpResult:
     worst_ratio: float = np.nan
     worst_time: pd.Timestamp | None = None
     baro_fallback_hours: float = 0.0
+    region_hours: np.ndarray | None = None  # [h] per region code
+    region_daily: np.ndarray | None = None  # [h] per day and region code
+    speed_outside_hours: float = 0.0  # running hours outside the speed scaling range
     series: pd.DataFrame | None = field(default=None, repr=False)
 
 
@@ -95,6 +101,24 @@ def prepare_tag(
             q.out_of_range = int(impossible.sum())
             bad |= impossible
     return TagSeries(series.tag, series.times, values, bad, q)
+
+
+def _weigh(code, until, grid, t_next, day, n_days: int, n_states: int):
+    """Hours per day and state [h] and the fresh part of each piece [ns].
+
+    The fresh part of each piece (until its needed tags go stale) has the piece's state; the
+    rest of it has no data (code 6 in both kinds of state). Sums are exact: integer
+    nanoseconds below 2^53 per bin.
+    """
+    fresh = np.clip(np.minimum(until, t_next) - grid, 0, None)
+    stale = (t_next - grid) - fresh
+    daily = np.bincount(day * n_states + code, weights=fresh, minlength=n_days * n_states)
+    gaps = np.flatnonzero(stale)
+    if len(gaps):
+        daily += np.bincount(
+            day[gaps] * n_states + states.NO_DATA, weights=stale[gaps], minlength=n_days * n_states
+        )
+    return daily.reshape(n_days, n_states) / NS_PER_HOUR, fresh
 
 
 @functools.lru_cache(maxsize=16)
@@ -238,28 +262,46 @@ def calculate_pump(
     code[decide_bad] = states.BAD_DATA
     until = np.where(running & ~decide_bad, all_until, decide_until)
 
+    # --- operating region: needs only the run decision, flow and speed
+    ratio_n = np.ones(len(grid)) if speed is None else speed / pump.rated_speed
+    edges = region_edges(
+        pump.bep_flow, ratio_n, pump.preferred_low, pump.preferred_high,
+        pump.min_stable_flow, pump.thermal_min_flow,
+        pump.allowable_max_flow if pump.allowable_max_flow is not None else curve.flow_max,
+    )  # fmt: skip
+    with np.errstate(invalid="ignore"):
+        rcode = operating_region(flow, edges)
+    r_bad = decide_bad.copy()
+    r_until = decide_until.copy()
+    for r in ("flow", "speed"):
+        if r in held:
+            r_bad |= held[r].bad
+            r_until = np.minimum(r_until, held[r].until)
+    rcode[r_bad] = regions.BAD_DATA
+    rcode[~running] = regions.STOPPED
+    rcode[decide_bad] = regions.BAD_DATA
+    r_until = np.where(running & ~decide_bad, r_until, decide_until)
+
     # --- time weighting: the fresh part of each piece has the state, the rest has no data
-    length = t_next - grid
-    fresh = np.clip(np.minimum(until, t_next) - grid, 0, None)
-    stale = length - fresh
     n_days = len(day_edges) - 1
     # every local midnight is a grid point: the day index is a run-length repeat
     first = np.searchsorted(grid, day_edges[:-1], side="left")
     day = np.repeat(np.arange(n_days), np.diff(np.append(first, len(grid))))
-    n_states = len(states.STATES)
-    daily = np.bincount(day * n_states + code, weights=fresh, minlength=n_days * n_states)
-    gaps = np.flatnonzero(stale)
-    if len(gaps):
-        daily += np.bincount(
-            day[gaps] * n_states + states.NO_DATA, weights=stale[gaps], minlength=n_days * n_states
-        )
-    daily = daily.reshape(n_days, n_states) / NS_PER_HOUR
+    daily, fresh = _weigh(code, until, grid, t_next, day, n_days, len(states.STATES))
+    r_daily, r_fresh = _weigh(rcode, r_until, grid, t_next, day, n_days, len(regions.REGIONS))
     hours = daily.sum(axis=0)
     window_hours = (end_ns - start_ns) / NS_PER_HOUR
 
     ratio = npsha / npsh3
     banded = (code <= states.AMPLE_MARGIN) & (fresh > 0)
     result = PumpResult(pump.pump_id, hours, daily, window_hours)
+    result.region_daily = r_daily
+    result.region_hours = r_daily.sum(axis=0)
+    if speed is not None:
+        lo, hi = settings.speed_scaling_range
+        with np.errstate(invalid="ignore"):
+            outside = (code <= states.AMPLE_MARGIN) & ((ratio_n < lo) | (ratio_n > hi))
+        result.speed_outside_hours = float(fresh[outside].sum() / NS_PER_HOUR)
     if banded.any():
         i = int(np.argmin(np.where(banded, ratio, np.inf)))
         result.worst_ratio = float(ratio[i])
@@ -273,6 +315,8 @@ def calculate_pump(
                 "time": pd.to_datetime(grid, utc=True),
                 "hours": fresh / NS_PER_HOUR,
                 "state": pd.Categorical.from_codes(code, categories=list(states.STATES)),
+                "region": pd.Categorical.from_codes(rcode, categories=list(regions.REGIONS)),
+                "region_hours": r_fresh / NS_PER_HOUR,
                 "npsha_m": np.where(running, npsha, np.nan),
                 "npsh3_m": np.where(running, npsh3, np.nan),
                 "ratio": np.where(running, ratio, np.nan),

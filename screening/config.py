@@ -102,10 +102,15 @@ class DataRules(_Strict):
 
 
 class Running(_Strict):
-    """When no run-status tag exists: running above these fractions of BEP flow and speed."""
+    """Running detection without a run tag (fractions of BEP flow and rated speed) and the
+    speed range inside which NPSH3 is scaled without a warning."""
 
     min_flow_fraction: float = Field(0.05, ge=0, le=1)
     min_speed_fraction: float = Field(0.2, ge=0, le=1)
+    #: Speed ratios n/n_rated inside which the affinity scaling of NPSH3 is trusted; running
+    #: hours outside are counted and shown (ISO 9906 converts test results only within about
+    #: 80-120 % of the test speed, from memory).
+    speed_scaling_range: tuple[float, float] = (0.8, 1.2)
 
 
 class Window(_Strict):

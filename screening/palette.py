@@ -40,3 +40,36 @@ STATE_LABELS: dict[str, str] = {
     "no_data": "no data",
     "bad_data": "bad data",
 }
+
+#: Operating regions: the preferred region in the healthy blue, low and high flow in light and
+#: mid amber, the two ends of the envelope in dark brown with distinct patterns.
+REGION_COLOURS: dict[str, str] = {
+    "below_min_flow": "#5c2a00",
+    "low_flow": "#c7761c",
+    "preferred_region": "#2d5f8f",
+    "high_flow": "#e6b872",
+    "beyond_allowable": "#7a3d0a",
+    "stopped": STATE_COLOURS["stopped"],
+    "no_data": STATE_COLOURS["no_data"],
+    "bad_data": STATE_COLOURS["bad_data"],
+}
+REGION_PATTERNS: dict[str, str] = {
+    "below_min_flow": "x",
+    "low_flow": "/",
+    "preferred_region": "",
+    "high_flow": "\\",
+    "beyond_allowable": "-",
+    "stopped": "",
+    "no_data": "\\",
+    "bad_data": "+",
+}
+REGION_LABELS: dict[str, str] = {
+    "below_min_flow": "below minimum flow",
+    "low_flow": "low flow",
+    "preferred_region": "preferred region",
+    "high_flow": "high flow",
+    "beyond_allowable": "beyond allowable",
+    "stopped": "stopped",
+    "no_data": "no data",
+    "bad_data": "bad data",
+}

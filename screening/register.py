@@ -48,6 +48,11 @@ OPTIONAL = (
     "suction_specific_speed",
     "guidance_ratio",
     "guidance_margin",
+    "min_stable_flow",
+    "thermal_min_flow",
+    "preferred_low",
+    "preferred_high",
+    "allowable_max_flow",
 )
 _HEADER = re.compile(r"^\s*([A-Za-z0-9_]+)\s*(?:\[(.*)\])?\s*$")
 
@@ -67,7 +72,9 @@ class PumpSpec:
     """One pump of the register, in SI units.
 
     Attributes: tap_elevation [m], tap_bore [m], rated_speed [rpm], bep_flow [m³/s],
-    npsh3_exponent [-], impeller_eyes [-], guidance_margin [m].
+    npsh3_exponent [-], impeller_eyes [-], guidance_margin [m], min_stable_flow,
+    thermal_min_flow and allowable_max_flow [m³/s] at rated speed, preferred_low and
+    preferred_high [-] as fractions of BEP flow.
     """
 
     pump_id: str
@@ -91,6 +98,11 @@ class PumpSpec:
     suction_specific_speed: float | None = None
     guidance_ratio: float | None = None
     guidance_margin: float | None = None
+    min_stable_flow: float | None = None
+    thermal_min_flow: float | None = None
+    preferred_low: float = 0.70
+    preferred_high: float = 1.20
+    allowable_max_flow: float | None = None
     line: int = 0
 
     def tags(self) -> dict[str, TagSpec]:
@@ -208,6 +220,8 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
     bep = r.quantity("bep_flow", "flow")
     if bep <= 0:
         r.fail("bep_flow", "must be a positive flow")
+    por_low = r.number("preferred_low", 0.70, 0.1, 1.0)
+    por_high = r.number("preferred_high", 1.20, 1.0, 2.0)
     eyes = r.number("impeller_eyes", 1, 1, 2)
     if eyes != int(eyes):
         r.fail("impeller_eyes", "must be 1 (single suction) or 2 (double suction)")
@@ -233,6 +247,11 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         suction_specific_speed=r.number("suction_specific_speed", None, 1.0, 1e5),
         guidance_ratio=r.number("guidance_ratio", None, 1.0, 10.0),
         guidance_margin=r.quantity("guidance_margin", "length", required=False),
+        min_stable_flow=r.quantity("min_stable_flow", "flow", required=False),
+        thermal_min_flow=r.quantity("thermal_min_flow", "flow", required=False),
+        preferred_low=por_low,
+        preferred_high=por_high,
+        allowable_max_flow=r.quantity("allowable_max_flow", "flow", required=False),
         line=line,
     )
 

@@ -20,9 +20,16 @@ import plotly.graph_objects as go
 from jinja2 import Environment, PackageLoader, select_autoescape
 from plotly.offline import get_plotlyjs
 
-from . import states
+from . import regions, states
 from .cautions import CAUTIONS
-from .palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
+from .palette import (
+    REGION_COLOURS,
+    REGION_LABELS,
+    REGION_PATTERNS,
+    STATE_COLOURS,
+    STATE_LABELS,
+    STATE_PATTERNS,
+)
 from .scan import ScanResult
 
 _ENV = Environment(
@@ -52,25 +59,34 @@ def _write_table(frame: pd.DataFrame, folder: Path, name: str) -> None:
     text.to_csv(folder / f"{name}.csv", index=False)
 
 
-def _hours_figure(result: ScanResult) -> str:
+def _hours_figure(result: ScanResult, kind: str = "margin") -> str:
+    if kind == "margin":
+        names, colours, patterns, labels = (
+            states.STATES, STATE_COLOURS, STATE_PATTERNS, STATE_LABELS
+        )  # fmt: skip
+    else:
+        names, colours, patterns, labels = (
+            regions.REGIONS, REGION_COLOURS, REGION_PATTERNS, REGION_LABELS
+        )  # fmt: skip
     order = list(result.summary["pump_id"]) if len(result.summary) else []
-    wide = result.hours.pivot(index="pump_id", columns="state", values="hours")
+    table = result.hours[result.hours["kind"] == kind]
+    wide = table.pivot(index="pump_id", columns="state", values="hours")
     wide = wide.reindex(index=order[::-1])
     fig = go.Figure()
-    for state in states.STATES:
+    for state in names:
         if state not in wide.columns:
             continue
         fig.add_bar(
             y=wide.index,
             x=wide[state],
-            name=STATE_LABELS[state],
+            name=labels[state],
             orientation="h",
             marker={
-                "color": STATE_COLOURS[state],
+                "color": colours[state],
                 "line": {"color": "#555", "width": 0.5},
-                "pattern": {"shape": STATE_PATTERNS[state], "fgcolor": "#ffffff"},
+                "pattern": {"shape": patterns[state], "fgcolor": "#ffffff"},
             },
-            hovertemplate="%{y}: %{x:.1f} h " + STATE_LABELS[state] + "<extra></extra>",
+            hovertemplate="%{y}: %{x:.1f} h " + labels[state] + "<extra></extra>",
         )
     fig.update_layout(
         barmode="stack",
@@ -80,7 +96,7 @@ def _hours_figure(result: ScanResult) -> str:
         legend={"orientation": "h", "y": 1.02, "yanchor": "bottom", "traceorder": "normal"},
         plot_bgcolor="#ffffff",
     )
-    return fig.to_html(full_html=False, include_plotlyjs=False, div_id="hours-by-state")
+    return fig.to_html(full_html=False, include_plotlyjs=False, div_id=f"hours-by-{kind}")
 
 
 def _input_files(result: ScanResult) -> list[dict]:
@@ -207,12 +223,15 @@ def _overview_html(result: ScanResult, meta: dict) -> str:
         written=meta["written_utc"],
         ranking=ranking,
         legend=[{"label": STATE_LABELS[s], "colour": STATE_COLOURS[s]} for s in states.STATES],
-        hours_figure=_hours_figure(result),
+        hours_figure=_hours_figure(result, "margin"),
+        region_figure=_hours_figure(result, "region"),
         quality=result.quality.to_dict("records"),
         problems=result.problems.to_dict("records"),
         file_problems=result.file_problems.to_dict("records"),
         barometer=baro,
         ample_ratio=result.plant.settings.policy.ample_ratio,
         coolprop_version=CoolProp.__version__,
+        por_low=0.70,
+        por_high=1.20,
         cautions=CAUTIONS,
     )

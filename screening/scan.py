@@ -13,13 +13,17 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from . import states
+from . import regions, states
 from ._allocator import keep_freed_memory
 from .calculator import PumpResult, Settings, calculate_pump, prepare_tag
 from .loader import ExportError, ExportIndex, TagQuality
 from .plant import Plant, load_plant, pump_suction_specific_speed
 from .properties import fluid_table
 from .units import UnitError, to_si
+
+#: Suction specific speed: U.S. units (rpm, gpm, ft) per metric units (rpm, m³/s, m);
+#: 1 gpm^0.5 / ft^0.75 = (6.309e-5 m³/s)^0.5 / (0.3048 m)^0.75, so S_US = 51.64 · S_metric.
+US_PER_METRIC_S = (1 / 6.30901964e-5) ** 0.5 / (1 / 0.3048) ** 0.75
 
 
 class WindowError(ValueError):
@@ -117,6 +121,7 @@ def _settings(plant: Plant) -> Settings:
         ample_ratio=s.policy.ample_ratio,
         site_elevation=s.site.elevation,
         barometer_stale_limit=s.site.barometer_stale_limit,
+        speed_scaling_range=tuple(s.running.speed_scaling_range),
     )
 
 
@@ -297,6 +302,19 @@ def _quality_row(pid: str, role: str, q: TagQuality) -> dict:
     }
 
 
+def _daily(results, days, kind: str, names: list[str], get) -> pd.DataFrame:
+    n_days, n_states = len(days), len(names)
+    return pd.DataFrame(
+        {
+            "pump_id": np.repeat([r.pump_id for r in results], n_days * n_states),
+            "kind": kind,
+            "date": np.tile(np.repeat(days, n_states), len(results)),
+            "state": np.tile(names, n_days * len(results)),
+            "hours": np.concatenate([get(r).ravel() for r in results]) if results else [],
+        }
+    )
+
+
 def _tables(plant, results, start, end, edges, quality_rows, problems, file_problems):
     names = list(states.STATES)
     hours_rows, summary_rows = [], []
@@ -305,8 +323,16 @@ def _tables(plant, results, start, end, edges, quality_rows, problems, file_prob
         pump = plant.pumps[r.pump_id]
         g = plant.guidance[r.pump_id]
         for name, h in zip(names, r.hours, strict=True):
-            hours_rows.append({"pump_id": r.pump_id, "state": name, "hours": float(h)})
+            hours_rows.append(
+                {"pump_id": r.pump_id, "kind": "margin", "state": name, "hours": float(h)}
+            )
+        for name, h in zip(regions.REGIONS, r.region_hours, strict=True):
+            hours_rows.append(
+                {"pump_id": r.pump_id, "kind": "region", "state": name, "hours": float(h)}
+            )
         h = dict(zip(names, r.hours, strict=True))
+        rh = dict(zip(regions.REGIONS, r.region_hours, strict=True))
+        s_us = pump_suction_specific_speed(plant, r.pump_id)
         running = sum(h[s] for s in states.RUNNING)
         summary_rows.append(
             {
@@ -327,27 +353,30 @@ def _tables(plant, results, start, end, edges, quality_rows, problems, file_prob
                 "guidance_ratio": g.ratio,
                 "guidance_margin_m": g.margin,
                 "guidance_source": g.source,
-                "suction_specific_speed_us": pump_suction_specific_speed(plant, r.pump_id),
+                "suction_specific_speed_us": s_us,
+                "suction_specific_speed_metric": s_us / US_PER_METRIC_S,
+                "preferred_region_hours": rh["preferred_region"],
+                "outside_preferred_hours": sum(rh[x] for x in regions.RUNNING_REGIONS)
+                - rh["preferred_region"],
+                "below_min_flow_hours": rh["below_min_flow"],
+                "beyond_allowable_hours": rh["beyond_allowable"],
+                "speed_outside_scaling_hours": r.speed_outside_hours,
                 "standard_atmosphere_hours": r.baro_fallback_hours,
             }
         )
-    hours = pd.DataFrame(hours_rows, columns=["pump_id", "state", "hours"])
+    hours = pd.DataFrame(hours_rows, columns=["pump_id", "kind", "state", "hours"])
     summary = pd.DataFrame(summary_rows)
     if len(summary):
         summary = summary.sort_values(
             ["below_npsh3_hours", "below_guidance_hours", "pump_id"],
             ascending=[False, False, True],
         ).reset_index(drop=True)
-    n_days, n_states = len(days), len(names)
-    daily = pd.DataFrame(
-        {
-            "pump_id": np.repeat([r.pump_id for r in results], n_days * n_states),
-            "date": np.tile(np.repeat(days, n_states), len(results)),
-            "state": np.tile(names, n_days * len(results)),
-            "hours": (
-                np.concatenate([r.daily.ravel() for r in results]) if results else np.zeros(0)
-            ),
-        }
+    daily = pd.concat(
+        [
+            _daily(results, days, "margin", names, lambda r: r.daily),
+            _daily(results, days, "region", list(regions.REGIONS), lambda r: r.region_daily),
+        ],
+        ignore_index=True,
     )
     quality = pd.DataFrame(quality_rows)
     probs = pd.DataFrame(problems, columns=["pump_id", "stage", "message"])

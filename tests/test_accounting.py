@@ -36,6 +36,10 @@ PUMP = PumpSpec(
 CURVE = Npsh3Curve("C", np.array([0.005, 0.02, 0.03]), np.array([2.0, 3.0, 4.5]))
 
 
+def per_day_h(edges):
+    return np.diff(edges) / NS_PER_HOUR
+
+
 @st.composite
 def tag_series(draw, name: str, low: float, high: float):
     n = draw(st.integers(0, 60))
@@ -75,6 +79,9 @@ def test_hours_add_up_to_the_window(ps, tt, ft, sp, run, stale_min, window_min, 
     window_h = (end.value - start.value) / NS_PER_HOUR
     assert result.hours.sum() == pytest.approx(window_h, rel=1e-12, abs=1e-12)
     assert np.all(result.hours >= 0)
+    # the operating regions are a second kind of state with the same accounting
+    assert result.region_hours.sum() == pytest.approx(window_h, rel=1e-12, abs=1e-12)
+    np.testing.assert_allclose(result.region_daily.sum(axis=1), per_day_h(edges), rtol=1e-12)
     per_day = np.diff(edges) / NS_PER_HOUR
     np.testing.assert_allclose(result.daily.sum(axis=1), per_day, rtol=1e-12, atol=1e-12)
 
@@ -101,6 +108,7 @@ def test_identity_holds_through_the_loader(tmp_path_factory, data):
     path = make_plant(folder, wide={}, long={"a.csv": "\n".join(lines)}, rows=[pump_row("P1")])
     r = screening.scan(path, "2026-10-01", "2026-10-03")
     if r.problems.empty:
-        assert r.hours["hours"].sum() == pytest.approx(48.0, rel=1e-12)
+        by_kind = r.hours.groupby("kind")["hours"].sum()
+        assert by_kind.to_numpy() == pytest.approx([48.0, 48.0], rel=1e-12)
     else:  # a tag absent from every file: the pump is listed as not screened, with the reason
         assert "not found" in r.problems["message"].iloc[0]

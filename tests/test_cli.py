@@ -30,17 +30,19 @@ def test_scan_cli_matches_api(two_pumps, tmp_path):
     assert str(out / "index.html") in res.output.replace("\n", "")
     api = screening.scan(two_pumps)
     table = pd.read_csv(out / "hours.csv")
-    assert list(table.columns) == ["pump_id", "state", "hours"]
-    assert len(table) == 2 * len(screening.STATES)  # zeros included
-    merged = table.merge(api.hours, on=["pump_id", "state"], suffixes=("_cli", "_api"))
+    assert list(table.columns) == ["pump_id", "kind", "state", "hours"]
+    # margin states and operating regions, zeros included
+    assert len(table) == 2 * (len(screening.STATES) + len(screening.REGIONS))
+    merged = table.merge(api.hours, on=["pump_id", "kind", "state"], suffixes=("_cli", "_api"))
     pd.testing.assert_series_equal(
         merged["hours_cli"], merged["hours_api"], check_names=False, rtol=1e-12
     )
     pq = pd.read_parquet(out / "hours.parquet")
-    assert pq["hours"].sum() == pytest.approx(48.0)
+    assert pq.groupby("kind")["hours"].sum().to_numpy() == pytest.approx([48.0, 48.0])
     html = (out / "index.html").read_text()
     assert '<script src="plotly.min.js">' in html
-    assert '<div id="hours-by-state"' in html  # the figure is markup, not escaped text
+    assert '<div id="hours-by-margin"' in html  # the figure is markup, not escaped text
+    assert '<div id="hours-by-region"' in html
     assert "screening aid, not a design or safety determination" in html
     assert (out / "plotly.min.js").stat().st_size > 1_000_000
     meta = json.loads((out / "run.json").read_text())

@@ -37,7 +37,8 @@ def _summary(out: Path) -> pd.DataFrame:
 def test_every_pump_screened_and_every_hour_counted(demo_report):
     hours = pd.read_csv(demo_report / "hours.csv")
     assert hours["pump_id"].nunique() == 30
-    per_pump = hours.groupby("pump_id")["hours"].sum()
+    per_pump = hours.groupby(["pump_id", "kind"])["hours"].sum()
+    assert len(per_pump) == 60  # each kind of state adds up on its own
     assert per_pump.to_numpy() == pytest.approx(WINDOW_H, rel=1e-12)
     assert pd.read_csv(demo_report / "not_screened.csv").empty
 
@@ -78,6 +79,6 @@ def test_planted_data_faults_are_counted(demo_report):
 def test_cli_and_api_agree_on_demo(demo_report):
     api = screening.scan(CONFIG)
     cli = pd.read_parquet(demo_report / "hours.parquet")
-    merged = cli.merge(api.hours, on=["pump_id", "state"], suffixes=("_cli", "_api"))
-    assert len(merged) == 30 * len(screening.STATES)
+    merged = cli.merge(api.hours, on=["pump_id", "kind", "state"], suffixes=("_cli", "_api"))
+    assert len(merged) == 30 * (len(screening.STATES) + len(screening.REGIONS))
     assert merged["hours_cli"].to_numpy() == pytest.approx(merged["hours_api"].to_numpy())

@@ -19,8 +19,9 @@ from screening.timestamps import parse_times
 H = 1 / 60  # one minute in hours
 
 
-def hours(result, pid="P1"):
-    return result.hours[result.hours.pump_id == pid].set_index("state")["hours"]
+def hours(result, pid="P1", kind="margin"):
+    h = result.hours
+    return h[(h.pump_id == pid) & (h.kind == kind)].set_index("state")["hours"]
 
 
 def test_text_values_are_bad_data_counted_not_dropped(tmp_path):
