@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from . import npsh, regions, states
+from . import npsh, regions, states, suction
 from .atmosphere import standard_pressure
 from .curves import Npsh3Curve
 from .kernels import hold, union_sorted
@@ -101,6 +101,33 @@ def prepare_tag(
             q.out_of_range = int(impossible.sum())
             bad |= impossible
     return TagSeries(series.tag, series.times, values, bad, q)
+
+
+def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str):
+    """Surface pressure [Pa] and NPSHa [m] of a vessel-fed pump (see screening.suction)."""
+    if pump.vessel_surface == "open":
+        p_surface = suction.surface_pressure_open(baro)
+    elif pump.vessel_surface == "saturated":
+        p_surface = suction.SATURATED
+    else:
+        p_surface = suction.surface_pressure_from_tag(
+            held["vessel_pressure"].value, baro, pump.vessel_gauge
+        )
+    line = pump.suction_line
+    if line is None:
+        loss = np.zeros(len(flow))
+    elif line.k is not None:
+        loss = suction.loss_from_coefficient(flow, line.k)
+    else:
+        mu = suction.viscosity_table(fluid).viscosity(temp)
+        loss = suction.loss_darcy_weisbach(
+            flow, rho, mu, line.length, line.bore, line.roughness, line.fittings_k
+        )
+    npsha = suction.npsha_from_vessel(
+        p_surface, p_v, rho, held["level"].value, pump.level_zero_elevation, loss
+    )
+    p_abs = p_v if pump.vessel_surface == "saturated" else p_surface
+    return np.broadcast_to(np.asarray(p_abs, dtype=np.float64), npsha.shape), npsha
 
 
 def _weigh(code, until, grid, t_next, day, n_days: int, n_states: int):
@@ -207,6 +234,8 @@ def calculate_pump(
         "flow": pump.flow,
         "speed": pump.speed,
         "run": pump.run,
+        "level": pump.level,
+        "vessel_pressure": pump.vessel_pressure,
     }
     held = {r: _Held(tags.get(r), grid, stale_ns(spec)) for r, spec in roles.items() if spec}
 
@@ -246,9 +275,12 @@ def calculate_pump(
     # --- NPSHa and NPSH3 (pure functions of SI arrays)
     temp = held["temperature"].value
     p_v, rho = table.properties(temp)
-    p_abs = npsh.absolute_pressure(held["suction"].value, baro, pump.gauge)
     flow = held["flow"].value
-    npsha = npsh.npsha_from_pressure(p_abs, p_v, rho, flow, pump.tap_bore, pump.tap_elevation)
+    if pump.source == "transmitter":
+        p_abs = npsh.absolute_pressure(held["suction"].value, baro, pump.gauge)
+        npsha = npsh.npsha_from_pressure(p_abs, p_v, rho, flow, pump.tap_bore, pump.tap_elevation)
+    else:
+        p_abs, npsha = _vessel_npsha(pump, held, baro, p_v, rho, flow, temp, table.fluid)
     speed = held["speed"].value if "speed" in held else None
     npsh3 = curve.at_speed(flow, speed, pump.rated_speed, pump.npsh3_exponent)
 
@@ -306,7 +338,7 @@ def calculate_pump(
         i = int(np.argmin(np.where(banded, ratio, np.inf)))
         result.worst_ratio = float(ratio[i])
         result.worst_time = pd.Timestamp(int(grid[i]), tz="UTC")
-    if pump.gauge:
+    if pump.needs_barometer:
         counted = running & ~all_bad & (code != states.STOPPED)
         result.baro_fallback_hours = float(fresh[counted & ~baro_used].sum() / NS_PER_HOUR)
     if keep_series:

@@ -23,20 +23,34 @@ REQUIRED = (
     "pump_id",
     "fluid",
     "application",
-    "suction_pressure_tag",
-    "suction_pressure_unit",
-    "suction_pressure_reference",
     "temperature_tag",
     "temperature_unit",
     "flow_tag",
     "flow_unit",
-    "tap_elevation",
-    "tap_bore",
     "rated_speed",
     "bep_flow",
     "curve_id",
 )
 OPTIONAL = (
+    "suction_source",
+    "suction_pressure_tag",
+    "suction_pressure_unit",
+    "suction_pressure_reference",
+    "tap_elevation",
+    "tap_bore",
+    "level_tag",
+    "level_unit",
+    "level_zero_elevation",
+    "vessel_surface",
+    "vessel_pressure_tag",
+    "vessel_pressure_unit",
+    "vessel_pressure_reference",
+    "line_loss_head",
+    "line_loss_flow",
+    "line_length",
+    "line_bore",
+    "line_roughness",
+    "line_fittings_k",
     "service",
     "area",
     "speed_tag",
@@ -68,6 +82,22 @@ class TagSpec:
 
 
 @dataclass(frozen=True)
+class SuctionLine:
+    """The suction line from the vessel to the pump, for the friction loss at each flow.
+
+    Either a loss coefficient ``k`` [s²/m⁵] (head = k·Q², from a design point) or the line
+    itself: ``length`` [m], ``bore`` [m], ``roughness`` [m], ``fittings_k`` [-] for
+    Darcy-Weisbach (see :mod:`screening.suction`).
+    """
+
+    k: float | None = None
+    length: float | None = None
+    bore: float | None = None
+    roughness: float | None = None
+    fittings_k: float = 0.0
+
+
+@dataclass(frozen=True)
 class PumpSpec:
     """One pump of the register, in SI units.
 
@@ -82,7 +112,7 @@ class PumpSpec:
     area: str
     fluid: str
     application: str
-    suction: TagSpec
+    suction: TagSpec | None
     gauge: bool
     temperature: TagSpec
     flow: TagSpec
@@ -103,11 +133,33 @@ class PumpSpec:
     preferred_low: float = 0.70
     preferred_high: float = 1.20
     allowable_max_flow: float | None = None
+    source: str = "transmitter"
+    level: TagSpec | None = None
+    level_zero_elevation: float = 0.0
+    vessel_surface: str | None = None
+    vessel_pressure: TagSpec | None = None
+    vessel_gauge: bool = False
+    suction_line: SuctionLine | None = None
     line: int = 0
+
+    @property
+    def needs_barometer(self) -> bool:
+        """True when the barometric pressure enters NPSHa (gauge readings, open vessels)."""
+        if self.source == "transmitter":
+            return self.gauge
+        if self.vessel_surface == "open":
+            return True
+        return self.vessel_surface == "pressure" and self.vessel_gauge
 
     def tags(self) -> dict[str, TagSpec]:
         """The pump's tags by role (suction, temperature, flow, speed, run)."""
-        roles = {"suction": self.suction, "temperature": self.temperature, "flow": self.flow}
+        roles = {"temperature": self.temperature, "flow": self.flow}
+        if self.suction is not None:
+            roles["suction"] = self.suction
+        if self.level is not None:
+            roles["level"] = self.level
+        if self.vessel_pressure is not None:
+            roles["vessel_pressure"] = self.vessel_pressure
         if self.speed is not None:
             roles["speed"] = self.speed
         if self.run is not None:
@@ -207,13 +259,27 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         unit = r.unit(f"{role}_unit", kind)
         return TagSpec(name, unit, kind, stale)
 
-    reference = r.text("suction_pressure_reference")
-    if reference.lower() not in ("gauge", "absolute"):
-        r.fail("suction_pressure_reference", f"{reference!r} is not 'gauge' or 'absolute'")
+    def reference(column: str) -> bool:
+        value = r.text(column)
+        if value.lower() not in ("gauge", "absolute"):
+            r.fail(column, f"{value!r} is not 'gauge' or 'absolute'")
+        return value.lower() == "gauge"
+
+    source = (r.text("suction_source", required=False) or "transmitter").lower()
+    if source not in ("transmitter", "vessel"):
+        r.fail("suction_source", f"{source!r} is not 'transmitter' or 'vessel'")
+    vessel: dict = {}
+    suction_tag, gauge, tap_elevation, bore = None, False, 0.0, 1.0
+    if source == "transmitter":
+        suction_tag = tag("suction_pressure", "pressure")
+        gauge = reference("suction_pressure_reference")
+        tap_elevation = r.quantity("tap_elevation", "length")
+        bore = r.quantity("tap_bore", "length")
+        if bore <= 0:
+            r.fail("tap_bore", "must be a positive pipe bore")
+    else:
+        vessel = _vessel_fields(r, tag, reference)
     run_name = r.text("run_tag", required=False)
-    bore = r.quantity("tap_bore", "length")
-    if bore <= 0:
-        r.fail("tap_bore", "must be a positive pipe bore")
     rated = r.quantity("rated_speed", "speed")
     if rated <= 0:
         r.fail("rated_speed", "must be a positive speed")
@@ -231,13 +297,13 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         area=r.text("area", required=False) or "",
         fluid=r.text("fluid"),
         application=r.text("application"),
-        suction=tag("suction_pressure", "pressure"),
-        gauge=reference.lower() == "gauge",
+        suction=suction_tag,
+        gauge=gauge,
         temperature=tag("temperature", "temperature"),
         flow=tag("flow", "flow"),
         speed=tag("speed", "speed", required=False),
         run=TagSpec(run_name, "", "status", stale) if run_name else None,
-        tap_elevation=r.quantity("tap_elevation", "length"),
+        tap_elevation=tap_elevation,
         tap_bore=bore,
         rated_speed=rated,
         bep_flow=bep,
@@ -252,8 +318,45 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         preferred_low=por_low,
         preferred_high=por_high,
         allowable_max_flow=r.quantity("allowable_max_flow", "flow", required=False),
+        source=source,
         line=line,
+        **vessel,
     )
+
+
+def _vessel_fields(r: _Row, tag, reference) -> dict:
+    """The register fields of a vessel-fed pump (level, surface pressure, suction line)."""
+    surface = (r.text("vessel_surface") or "").lower()
+    if surface not in ("open", "saturated", "pressure"):
+        r.fail("vessel_surface", f"{surface!r} is not 'open', 'saturated' or 'pressure'")
+    out = {
+        "level": tag("level", "length"),
+        "level_zero_elevation": r.quantity("level_zero_elevation", "length"),
+        "vessel_surface": surface,
+    }
+    if surface == "pressure":
+        out["vessel_pressure"] = tag("vessel_pressure", "pressure")
+        out["vessel_gauge"] = reference("vessel_pressure_reference")
+    head = r.quantity("line_loss_head", "length", required=False)
+    length = r.quantity("line_length", "length", required=False)
+    if head is not None and length is not None:
+        r.fail("line_loss_head", "give either line_loss_head/line_loss_flow or the line, not both")
+    if head is not None:
+        q = r.quantity("line_loss_flow", "flow")
+        if head < 0 or q <= 0:
+            r.fail("line_loss_flow", "needs a loss >= 0 at a flow > 0 (k = head / flow²)")
+        out["suction_line"] = SuctionLine(k=head / q**2)
+    elif length is not None:
+        bore = r.quantity("line_bore", "length")
+        rough = r.quantity("line_roughness", "length")
+        fittings = r.number("line_fittings_k", 0.0, 0.0, 1000.0)
+        if length < 0 or bore <= 0 or rough < 0 or rough / bore > 0.05:
+            r.fail(
+                "line_length",
+                "the line needs length >= 0, bore > 0 and 0 <= roughness/bore <= 0.05",
+            )
+        out["suction_line"] = SuctionLine(None, length, bore, rough, fittings)
+    return out
 
 
 def read_pump_register(

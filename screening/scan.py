@@ -133,6 +133,10 @@ def _check_range(role: str, pump, table):
         if pump.gauge:
             return lambda v: v < -110_000.0  # a gauge reading below full vacuum
         return lambda v: v <= 0.0
+    if role == "vessel_pressure":
+        if pump.vessel_gauge:
+            return lambda v: v < -110_000.0
+        return lambda v: v <= 0.0
     if role == "speed":
         return lambda v: v < 0.0
     return None
@@ -277,7 +281,7 @@ def _screen_pump(plant, pump, index, raw, barometer, settings, start_ns, end_ns,
         n += int(np.searchsorted(s.times, end_ns) - np.searchsorted(s.times, start_ns))
     result = calculate_pump(
         pump, plant.curves[pump.curve_id], plant.guidance[pump.pump_id], table, prepared,
-        barometer if pump.gauge else None, settings, start_ns, end_ns, edges, keep,
+        barometer if pump.needs_barometer else None, settings, start_ns, end_ns, edges, keep,
     )  # fmt: skip
     quality = {role: prepared[role].quality for role in roles}
     return result, quality, n
