@@ -78,7 +78,7 @@ def _check_pump(pump: PumpSpec, curves, curve_problems, settings: PlantFile) -> 
         raise ConfigError(
             f"curve_id {pump.curve_id!r} is not in the curve table (curves there: {known})"
         )
-    fluid_table(pump.fluid)  # raises FluidError for an unknown fluid
+    fluid_table(pump.fluid, pump.vapour_pressure)  # raises FluidError for an unknown fluid
     s = pump.suction_specific_speed
     if s is None:
         curve = curves[pump.curve_id]

@@ -32,6 +32,7 @@ REQUIRED = (
     "curve_id",
 )
 OPTIONAL = (
+    "vapour_pressure",
     "suction_source",
     "suction_pressure_tag",
     "suction_pressure_unit",
@@ -133,6 +134,7 @@ class PumpSpec:
     preferred_low: float = 0.70
     preferred_high: float = 1.20
     allowable_max_flow: float | None = None
+    vapour_pressure: str | None = None
     source: str = "transmitter"
     level: TagSpec | None = None
     level_zero_elevation: float = 0.0
@@ -318,6 +320,7 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         preferred_low=por_low,
         preferred_high=por_high,
         allowable_max_flow=r.quantity("allowable_max_flow", "flow", required=False),
+        vapour_pressure=r.text("vapour_pressure", required=False),
         source=source,
         line=line,
         **vessel,

@@ -264,7 +264,7 @@ def _screen_pump(plant, pump, index, raw, barometer, settings, start_ns, end_ns,
     missing = [f"{spec.tag} ({role})" for role, spec in roles.items() if spec.tag not in known]
     if missing:
         raise ExportError(f"tag(s) not found in any export file: {', '.join(missing)}")
-    table = fluid_table(pump.fluid)
+    table = fluid_table(pump.fluid, pump.vapour_pressure)
     prepared = {}
     n = 0
     for role, spec in roles.items():
@@ -344,6 +344,9 @@ def _tables(plant, results, start, end, edges, quality_rows, problems, file_prob
                 "service": pump.service,
                 "area": pump.area,
                 "fluid": pump.fluid,
+                "vapour_pressure_model": fluid_table(
+                    pump.fluid, pump.vapour_pressure
+                ).vapour_pressure_model,
                 "window_hours": r.window_hours,
                 "running_hours": running,
                 "below_npsh3_hours": h["below_npsh3"],
