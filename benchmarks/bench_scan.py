@@ -354,6 +354,13 @@ def _timed(fn, key, totals):
     return wrapper
 
 
+def _margin_hours(hours: pd.DataFrame) -> dict:
+    """Hours per margin state (the operating regions are a second kind with their own sum)."""
+    if "kind" in hours.columns:
+        hours = hours[hours["kind"] == "margin"]
+    return hours.groupby("state", sort=False)["hours"].sum().to_dict()
+
+
 def measure_scan(toml: Path, start, end) -> dict:
     import screening
     from screening import loader
@@ -376,7 +383,7 @@ def measure_scan(toml: Path, start, end) -> dict:
         "tag_samples": result.samples,
         "screened": len(result.summary),
         "not_screened": len(result.problems),
-        "hours": result.hours.groupby("state", sort=False)["hours"].sum().to_dict(),
+        "hours": _margin_hours(result.hours),
     }
 
 
