@@ -222,12 +222,13 @@ RE_GRID = np.concatenate(
 @pytest.mark.parametrize("ed", [0.0, 1e-6, 1e-5, 1e-4, 1e-3, 1e-2, 0.05])
 def test_friction_factor_matches_fluids(ed):
     # fluids.friction.friction_factor: 64/Re below Re 2040, Clamond's (2009) exact solution of
-    # Colebrook (1939) above. Both are exact to machine precision (we measured 2.6e-15 on
-    # 20 000 random points); rtol 1e-12 leaves room for rounding in the logarithms and fails
-    # any approximate formula (Haaland alone is off by up to 2 %).
+    # Colebrook (1939) above. Ours is that same function tabulated per roughness at 2000
+    # Reynolds numbers per decade and interpolated in log-log: measured error below 2e-8.
+    # rtol 1e-7 bounds the table and still fails any approximate formula (Haaland alone is
+    # off by up to 2 %).
     ours = darcy_friction_factor(RE_GRID, ed)
     ref = np.array([friction_factor(re, ed) for re in RE_GRID])
-    np.testing.assert_allclose(ours, ref, rtol=1e-12)
+    np.testing.assert_allclose(ours, ref, rtol=1e-7)
 
 
 def test_laminar_is_64_over_re():
@@ -269,17 +270,17 @@ def fluids_head(q, rho, mu, length, bore, roughness, fittings_k):
     [(998.2, 1.0016e-3), (880.0, 0.2)],  # water at 20 °C; a heavy oil (laminar at low flow)
 )
 def test_darcy_weisbach_matches_fluids(rho, mu):
-    # rtol 1e-12: the same equations evaluated by two programs, friction factors exact to
-    # machine precision (test above); only rounding differs.
+    # rtol 1e-7: the same equations evaluated by two programs; the friction factor's table
+    # error (test above) is the only difference.
     ours = loss_darcy_weisbach(FLOWS, rho, mu, **LINE)
     ref = np.array([fluids_head(q, rho, mu, **LINE) for q in FLOWS])
-    np.testing.assert_allclose(ours, ref, rtol=1e-12)
+    np.testing.assert_allclose(ours, ref, rtol=1e-7)
 
 
 def test_straight_pipe_matches_fluids_one_phase_dp():
     # fluids.friction.one_phase_dP(m, rho, mu, D, roughness, L): the pressure drop of a
     # straight pipe from the mass flow, turned into head by fluids.core.head_from_P. rtol
-    # 1e-12 as above. Water at 60 °C from our tables (any consistent inputs would do).
+    # 1e-7 as above. Water at 60 °C from our tables (any consistent inputs would do).
     _, rho = fluid_table("Water").properties(333.15)
     rho = float(rho)
     mu = float(liquid_viscosity("Water", 333.15))
@@ -289,7 +290,7 @@ def test_straight_pipe_matches_fluids_one_phase_dp():
                     rho)
         for q in FLOWS
     ]  # fmt: skip
-    np.testing.assert_allclose(ours, ref, rtol=1e-12)
+    np.testing.assert_allclose(ours, ref, rtol=1e-7)
 
 
 def test_darcy_weisbach_zero_negative_and_missing_flow():
