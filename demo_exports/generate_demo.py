@@ -1,13 +1,14 @@
 """Generate the bundled demo plant of pumpscreen: historian exports and configuration.
 
 Everything here is INVENTED. "Quillmere Demo Works" is a made-up utilities and tank-farm
-site (elevation 120 m, time zone Europe/Berlin) with 30 centrifugal pumps. The data cover
+site (elevation 120 m, time zone Europe/Berlin) with 34 centrifugal pumps. The data cover
 October 2026 (local time) at one-minute resolution; clocks go back on 2026-10-25 at
 03:00 CEST -> 02:00 CET, so that month has 44 700 minutes.
 
 Run from the repository root:  .venv/bin/python demo_exports/generate_demo.py
 The output is deterministic (fixed random state). The script (re)writes
   demo_exports/wide_csv/*.csv.gz      wide, naive LOCAL time ("timestamp"), text words in cells
+                                      (vessels_2026-10.csv.gz: the four vessel-fed pumps)
   demo_exports/wide_parquet/*.parquet wide, "time_utc" (tz-aware UTC), floats, NaN for gaps
   demo_exports/long_parquet/*.parquet long tag/time/value/quality, recorded by exception
   demo_exports/long_csv/*.csv.gz      long tag/time/value/quality, ISO time with local offset
@@ -23,6 +24,12 @@ NPSH3(Q n_rated / n) (n / n_rated)^exponent. Gauge transmitters read p_abs minus
 barometric pressure. Sources are either "open" (a basin, tank or pressurised loop: head on top
 of the atmosphere) or "saturated" (deaerator, hot well, LPG vessel: head on top of the vapour
 pressure, so the suction pressure tracks p_vapour(T)).
+Vessel-fed pumps (BF-311, CD-412, RW-504, DM-151) have no suction transmitter: the register
+gives a level tag, the level's zero above the NPSH datum, the surface (open, saturated or a
+vessel pressure tag) and the suction line, and
+    NPSHa = (p_surface - p_vapour(T)) / (rho g) + level + zero elevation - h_f(Q)
+(no velocity head), with h_f = k Q^2 from a design point or Darcy-Weisbach with Colebrook.
+They draw from their own random stream, so the 30 transmitter pumps keep their numbers.
 
 Planted process events (local time; the summary printed at the end gives the generator's truth):
   * RW-502 raw-water intake: suction strainer fouls from 2026-10-04; the strainer loss grows
@@ -38,6 +45,17 @@ Planted process events (local time; the summary printed at the end gives the gen
     with flow squared): NPSHa/NPSH3 about 1.2-1.5, often below guidance, never below NPSH3.
   * MT-801 methanol transfer throttled to ~15 % of BEP flow 2026-10-07 14:00 .. 10-10 11:00,
     below the first curve point (25 %): "off curve".
+  * BF-311 deaerator-fed boiler feed booster: three load rejections (2026-10-06 14:22, 10-15
+    03:47, 10-27 19:05): the deaerator pressure falls 28-30 % within minutes while the water in
+    the suction line stays hot for minutes; NPSHa/NPSH3 dips from ~6 to below guidance for
+    ~2 min each time, and below NPSH3 for ~2 min on 10-27.
+  * CD-412 condensate extraction from a saturated hotwell: level drawn down from ~1450 to
+    ~550 mm on 2026-10-21 10:40 .. 16:30; below guidance for about 4.5 h, never below NPSH3.
+  * RW-504 tidal-jetty intake (open, Darcy-Weisbach line): two tides a day; low water (river
+    1.4 m down) 2026-10-08 18:00 .. 10-11 08:00; below guidance around the low tides of 10-09
+    and 10-10, never below NPSH3 and never a suction lift.
+  * DM-151 variable-speed demineralised-water pump (open tank): ~30 % of BEP flow every night
+    22:00-05:30 at ~93 % speed, below its minimum stable flow (35 % of BEP at rated speed).
 Planted data-quality events (see planted_events.csv and demo_exports/README.md for all):
   transmitter dropouts (CW-101A flow, DH-201A temperature, BF-301B suction pressure), bad
   quality stretches (BF-301A, LP-901A, MT-801), text words instead of numbers (CW-101B, CH-701A,
@@ -79,8 +97,25 @@ TO_SI = {"m": 1.0, "mm": 1e-3, "ft": 0.3048, "in": 0.0254,
 PA_PER = {"kPa": 1e3, "bar": 1e5, "psi": 6894.757293168, "hPa": 100.0}
 PRESSURE_NOISE_PA = {"kPa": 60.0, "bar": 100.0, "psi": 100.0}
 RESOLUTION = {"kPa": 0.01, "bar": 0.001, "psi": 0.01, "degC": 0.1, "degF": 0.1,
-              "m3/h": 0.1, "L/s": 0.01, "gpm": 1.0, "rpm": 1.0}
+              "m3/h": 0.1, "L/s": 0.01, "gpm": 1.0, "rpm": 1.0, "m": 0.001, "mm": 1.0,
+              "ft": 0.01}
 PLANTED: list[dict] = []  # filled by the event functions, written to planted_events.csv
+
+
+@dataclass(frozen=True)
+class Vessel:
+    """The suction vessel of a vessel-fed pump (no suction pressure transmitter).
+
+    NPSHa = (p_surface - p_v(T)) / (rho g) + level + zero elevation - suction-line loss(Q).
+    """
+
+    name: str  # tag prefix of the vessel: <name>.LEVEL, and <name>.PRESS for "pressure"
+    surface: str  # "open" (barometric), "saturated" (p_v of the liquid) or "pressure" (tag)
+    level_unit: str  # m, mm or ft
+    zero_elevation: str  # register cell: level zero above the NPSH datum (m unless own unit)
+    pressure_unit: str = ""  # vessel pressure tag, gauge ("pressure" surface only)
+    loss_point: tuple[str, str] = ("", "")  # line_loss_head, line_loss_flow (register cells)
+    line: tuple[str, str, str, str] = ("", "", "", "")  # length, bore, roughness, fittings K
 
 
 @dataclass(frozen=True)
@@ -109,6 +144,10 @@ class Pump:
     stale_limit: str = ""
     shared_temperature_tag: str = ""
     fine_temperature: bool = False  # 0.01 K resolution (hot or saturated services)
+    vessel: Vessel | None = None  # vessel-fed: level (and vessel pressure) instead of a suction tag
+    min_stable_flow: str = ""  # register cells (m3/h unless own unit), empty: not given
+    thermal_min_flow: str = ""
+    allowable_max_flow: str = ""
 
     @property
     def stem(self) -> str:  # tag prefix: CW-101A -> CW101A
@@ -117,7 +156,20 @@ class Pump:
     def tag(self, what: str) -> str:
         if what == "SUCT_TEMP" and self.shared_temperature_tag:
             return self.shared_temperature_tag
+        if what == "LEVEL" and self.vessel:
+            return f"{self.vessel.name}.LEVEL"
+        if what == "VESSEL_PRESS" and self.vessel:
+            return f"{self.vessel.name}.PRESS"
         return f"{self.stem}.{what}"
+
+    def own_tags(self) -> set[str]:
+        """Tags of the pump that do not start with its stem (shared or vessel tags)."""
+        tags = {self.tag("SUCT_TEMP")}
+        if self.vessel:
+            tags.add(self.tag("LEVEL"))
+            if self.vessel.surface == "pressure":
+                tags.add(self.tag("VESSEL_PRESS"))
+        return tags
 
 
 def cell_si(cell: str, default_unit: str) -> float:
@@ -134,6 +186,17 @@ LONG = "15 min"  # stale limit for tags recorded by exception (heartbeat 10 min)
 def siblings(first: Pump, *pump_ids: str, **changes) -> list[Pump]:
     """The first pump and identical ones (with optional changes) under other ids."""
     return [first] + [replace(first, pump_id=pump_id, **changes) for pump_id in pump_ids]
+
+
+def vessel_pump(pump_id: str, service: str, area: str, fluid: str, application: str,
+                units: tuple[str, str, str, str], rated_rpm: int, bep_flow: str, s: float,
+                curve_id: str, vessel: Vessel, **changes) -> Pump:
+    """A pump fed from a vessel: no suction transmitter, so no tap (register cells empty).
+
+    ``units`` as for the other pumps; its pressure unit is that of the discharge tag only.
+    """
+    return Pump(pump_id, service, area, fluid, application, units, rated_rpm, bep_flow, s, "", "",
+                "vessel", np.nan, np.nan, 0.0, curve_id, vessel=vessel, **changes)
 
 
 # positional: id, service, area, fluid, application, units, rated rpm, BEP flow, S, tap elevation,
@@ -199,6 +262,28 @@ PUMPS = [
     Pump("LP-902", "Propane loading", "LPG", "Propane", "petroleum", US_PSIG, 2950, "300 gpm",
          9000, "1.5 ft", "4 in", "saturated", 2.0, 12, 0.8, "LPP-300", run_tag=False,
          stale_limit=LONG, fine_temperature=True),
+    # vessel-fed pumps, last so that the random streams of the pumps above stay as they were;
+    # positional: id, service, area, fluid, application, units (the pressure unit is the
+    # discharge tag's), rated rpm, BEP flow, S, curve id, vessel (name, surface, level unit,
+    # level zero above the NPSH datum, vessel pressure unit, suction-line loss)
+    vessel_pump("BF-311", "Boiler feed booster (deaerator DA-310)", "boiler house", "Water",
+                "power", BAR_G, 1490, "420", 9500, "BFB-420",
+                Vessel("DA310", "pressure", "m", "18.0", "bar", loss_point=("1.2", "420")),
+                fine_temperature=True, min_stable_flow="105", thermal_min_flow="90"),
+    vessel_pump("CD-412", "Condensate extraction (turbine 2 hotwell)", "boiler house", "Water",
+                "power", BAR_G, 980, "180", 13000, "CEV-180",
+                Vessel("HW410", "saturated", "mm", "1.1", loss_point=("0.35", "180")),
+                curve_shape=(0.55, 2.0), fine_temperature=True, min_stable_flow="45",
+                thermal_min_flow="20"),
+    vessel_pump("RW-504", "Raw-water intake, tidal jetty (vertical can pump)", "raw water",
+                "Water", "water", US_PSIG, 1180, "8000 gpm", 8600, "RWV-8000",
+                Vessel("JETTY", "open", "ft", "-6.5 ft",
+                       line=("150 ft", "24 in", "0.02 in", "3.2")),
+                allowable_max_flow="9600 gpm"),
+    vessel_pump("DM-151", "Demineralised water forwarding (variable speed)", "water treatment",
+                "Water", "water", BAR_G, 2950, "60", 8500, "DMF-60",
+                Vessel("TK151", "open", "m", "1.5", loss_point=("0.6", "60")), speed_tag=True,
+                min_stable_flow="21", thermal_min_flow="12"),
 ]
 BY_ID = {p.pump_id: p for p in PUMPS}
 
@@ -263,8 +348,9 @@ class State:
     temp: np.ndarray  # degC at the pump suction
     speed: np.ndarray | float = 1.0
     source_temp: np.ndarray | None = None  # vessel temperature (saturated sources)
-    level: np.ndarray | float = 0.0  # change of static head, m
+    level: np.ndarray | float = 0.0  # change of static head, m (vessel pumps: the level, m)
     extra_loss: np.ndarray | float = 0.0  # extra suction loss at BEP flow, m (scales with Q^2)
+    surface_pressure: np.ndarray | None = None  # Pa absolute, vessels with a pressure tag
 
 
 def lag(x: np.ndarray, minutes: float) -> np.ndarray:
@@ -467,6 +553,98 @@ def plant_operation(clock: Clock, rng: np.random.Generator) -> dict[str, State]:
     return ops
 
 
+# ----------------------------------------------------------------------------- vessel-fed pumps
+VESSEL_STREAM = 1000  # the vessel pumps draw from their own random stream, not the main one
+LOAD_REJECTIONS = (  # local time, fall of the deaerator pressure (absolute), outcome
+    ("2026-10-06 14:22", 0.28, "below guidance for ~2 min"),
+    ("2026-10-15 03:47", 0.29, "below guidance for ~2 min"),
+    ("2026-10-27 19:05", 0.30, "below guidance and below NPSH3 for ~2 min"))
+
+
+def saturation_temperature(p_abs: np.ndarray) -> np.ndarray:
+    """Saturation temperature of water (degC) at the absolute pressure p_abs (Pa)."""
+    grid = np.arange(90.0, 200.0, 0.01) + 273.15
+    return np.interp(p_abs, PropsSI("P", "T", grid, "Q", 0, "Water"), grid) - 273.15
+
+
+def load_rejections(clock: Clock) -> np.ndarray:
+    """Fraction by which the deaerator pressure has fallen: within ~5 min, back over ~1 h."""
+    dip = np.zeros(clock.n)
+    for when, depth, outcome in LOAD_REJECTIONS:
+        t = (clock.seconds - clock.seconds_at(when)) / 60.0  # minutes since the rejection
+        shape = (1.0 - np.exp(-np.clip(t, 0.0, None) / 2.0)) * np.exp(
+            -np.clip(t - 5.0, 0.0, None) / 18.0)
+        dip = np.maximum(dip, np.where(t >= 0, depth * shape, 0.0))
+        end = (local_time(when) + pd.Timedelta(minutes=60)).strftime("%Y-%m-%d %H:%M")
+        planted("BF-311", "load rejection: deaerator pressure transient", "DA310.PRESS", when,
+                end, f"deaerator pressure falls {100 * depth:.0f} % (absolute) within ~5 min while "
+                "the suction temperature lags (3 min dead time, 4.5 min lag): NPSHa/NPSH3 "
+                f"from ~6 to {outcome}")
+    return dip
+
+
+def hotwell_drawdown(clock: Clock) -> np.ndarray:
+    """CD-412: hotwell level drawn down (spill valve stuck open), m below normal."""
+    knots = ["2026-10-21 10:40", "2026-10-21 11:30", "2026-10-21 15:20", "2026-10-21 16:30"]
+    planted("CD-412", "hotwell level drawn down", "HW410.LEVEL", knots[0], knots[-1],
+            "level ~1450 -> ~550 mm: margin below guidance for about 4.5 h, never below NPSH3")
+    return np.interp(clock.seconds, [clock.seconds_at(k) for k in knots], [0.0, 0.92, 0.85, 0.0])
+
+
+def low_water(clock: Clock) -> np.ndarray:
+    """RW-504: river low-water period (dry spell), m below the usual tide levels."""
+    knots = ["2026-10-08 18:00", "2026-10-09 06:00", "2026-10-10 20:00", "2026-10-11 08:00"]
+    planted("RW-504", "low water", "JETTY.LEVEL", knots[0], knots[-1],
+            "river 1.4 m below its usual level: margin below guidance around the low tides, "
+            "never below NPSH3, no suction lift")
+    return np.interp(clock.seconds, [clock.seconds_at(k) for k in knots], [0.0, 1.4, 1.4, 0.0])
+
+
+def vessel_operation(clock: Clock, ops: dict[str, State]) -> dict[str, State]:
+    """Operation of the vessel-fed pumps (own random stream; the river temperature is shared)."""
+    rng = np.random.default_rng([RANDOM_STATE, VESSEL_STREAM])
+    wander, daily, n = clock.wander, clock.daily, clock.n
+    always = np.ones(n, bool)
+    out: dict[str, State] = {}
+
+    # unit 2: deaerator DA-310 held at ~5.7-6.2 bar g; on a load rejection the pressure falls,
+    # the stored water flashes and the water in the suction line stays hot for minutes
+    unit2 = np.clip(0.86 + 0.08 * daily(13) - 0.06 * clock.weekend + wander(rng, 0.03), 0.6, 1.0)
+    dip = load_rejections(clock)
+    p_deaerator = (P_ATM_STANDARD + 1e5 * (5.2 + 0.9 * unit2 + wander(rng, 0.02)))
+    p_deaerator = p_deaerator * (1.0 - dip)
+    saturated = saturation_temperature(p_deaerator)
+    delayed = np.r_[np.full(3, saturated[0]), saturated[:-3]]  # 3 min dead time
+    out["BF-311"] = State(always, 0.95 * unit2 * (1.0 - 1.6 * dip), lag(delayed, 4.5) - 0.4,
+                          level=1.6 + wander(rng, 0.05) + 0.4 * dip, surface_pressure=p_deaerator)
+
+    # unit 2 condenser hotwell: saturated, level held at ~1450 mm
+    hotwell = 36.0 + 6.0 * (unit2 - 0.6) / 0.4 + wander(rng, 0.3)
+    level = 1.45 + wander(rng, 0.03, 2) - hotwell_drawdown(clock)
+    out["CD-412"] = State(always, 0.95 * unit2 * (1.0 - 0.8 * dip), hotwell, level=level)
+
+    # tidal jetty: two tides a day (12.42 h and 12 h constituents: springs and neaps)
+    hours = clock.seconds / 3600.0 - clock.seconds_at("2026-10-09 12:00") / 3600.0
+    tide = 0.9 * np.cos(2 * np.pi * hours / 12.42) + 0.25 * np.cos(2 * np.pi * hours / 12.0)
+    jetty = 4.82 + tide + wander(rng, 0.05, 6) - low_water(clock)  # m above the gauge zero
+    load = np.clip(0.98 + 0.02 * daily(14) + wander(rng, 0.01), 0.9, 1.04)
+    out["RW-504"] = State(always, load, ops["RW-501"].temp + 0.3, level=jetty)
+
+    # demineralised water forwarding: constant discharge pressure, so the speed stays up when
+    # the demand falls to ~30 % of BEP flow at night (22:00-05:30), below the minimum flow
+    night = lag(((clock.hour >= 22.0) | (clock.hour < 5.5)).astype(float), 15.0)
+    load = ((0.92 + 0.05 * daily(14) + wander(rng, 0.02)) * (1.0 - night)
+            + (0.30 + wander(rng, 0.006)) * night)
+    speed = 0.985 - 0.055 * night + wander(rng, 0.004)
+    tank = 4.0 + 1.3 * np.sin(2 * np.pi * clock.seconds / (27 * 3600.0)) + wander(rng, 0.1, 6)
+    out["DM-151"] = State(always, load, 18.0 + 1.0 * daily(15) + wander(rng, 0.2), speed=speed,
+                          level=tank)
+    planted("DM-151", "low flow at night", "DM151.FLOW", "2026-10-01 00:00", "2026-11-01 00:00",
+            "~30 % of BEP flow 22:00-05:30 every night at ~93 % speed, below the minimum stable "
+            "flow (35 % of BEP at rated speed, scaled with speed): hours below minimum flow")
+    return out
+
+
 # ----------------------------------------------------------------------------- curves and physics
 CURVE_FRACTIONS_SI = (0.25, 0.4, 0.55, 0.7, 0.85, 1.0, 1.15, 1.3)
 CURVE_FRACTIONS_US = (0.25, 0.5, 0.75, 1.0, 1.15, 1.3)
@@ -513,13 +691,14 @@ class Truth:
     npsh3: np.ndarray  # NaN where off curve or stopped
     required: np.ndarray  # guidance: max(ratio * NPSH3, NPSH3 + margin)
     suction_specific_speed: float
+    below_min: np.ndarray  # running below the minimum flow (register min_stable/thermal_min)
 
 
 RATED_HEAD_M = {  # pump head at BEP: only for the discharge pressure tags, which the tool ignores
     "CWP-1800": 28, "CWP-650": 42, "CWP-320": 35, "DHP-900": 65, "DHB-240": 48, "BFP-160": 1250,
     "CEP-220": 150, "DOS-4.5": 45, "DOS-1.2": 55, "RWP-2200": 48, "JKY-25": 105, "FWP-1500": 95,
     "BSC-35": 24, "BSH-20": 18, "MTP-60": 70, "MTU-40": 35, "TLT-180": 55, "TLR-400": 38,
-    "LPB-80": 140, "LPP-300": 120,
+    "LPB-80": 140, "LPP-300": 120, "BFB-420": 180, "CEV-180": 160, "RWV-8000": 35, "DMF-60": 60,
 }
 POLICY = {  # application: [(min S, max S, ratio, margin m)] as in configs/demo_plant.toml
     "petroleum": [(0, np.inf, 1.1, 1.0)],
@@ -530,8 +709,37 @@ POLICY = {  # application: [(min S, max S, ratio, margin m)] as in configs/demo_
 }
 
 
+def npsh3_and_guidance(p: Pump, st: State, load: np.ndarray, speed: np.ndarray):
+    """NPSH3 at the running point (NaN off curve or stopped), the guidance and S (US units)."""
+    fractions, heads = curve_si(p)
+    npsh3_bep = float(np.interp(1.0, fractions, heads))
+    exponent = float(p.exponent or 2.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        at_rated = load / speed
+        npsh3 = np.interp(at_rated, fractions, heads) * speed**exponent
+    npsh3[~st.run | (at_rated < fractions[0]) | (at_rated > fractions[-1])] = np.nan
+    bep = cell_si(p.bep_flow, "m3/h")
+    s_us = p.rated_rpm * np.sqrt(bep / GPM / p.eyes) / (npsh3_bep / 0.3048) ** 0.75
+    ratio, margin = next((r, m) for lo, hi, r, m in POLICY[p.application] if lo <= s_us < hi)
+    return npsh3, np.maximum(ratio * npsh3, npsh3 + margin), s_us
+
+
+def below_min_flow(p: Pump, st: State, load: np.ndarray, speed: np.ndarray) -> np.ndarray:
+    """Running below the minimum flow: the larger of the minimum stable flow (scaled with
+    speed) and the thermal minimum flow."""
+    bep = cell_si(p.bep_flow, "m3/h")
+    q_min = np.zeros(len(load))
+    if p.min_stable_flow:
+        q_min = np.maximum(q_min, cell_si(p.min_stable_flow, "m3/h") * speed)
+    if p.thermal_min_flow:
+        q_min = np.maximum(q_min, cell_si(p.thermal_min_flow, "m3/h"))
+    return st.run & (load * bep < q_min)
+
+
 def simulate(p: Pump, st: State, clock: Clock, baro: np.ndarray, rng: np.random.Generator):
     """Return the process truth and the transmitter readings (register units) of one pump."""
+    if p.vessel:
+        return simulate_vessel(p, st, clock, baro, rng)
     source_temp = st.temp if st.source_temp is None else st.source_temp
     grid, pv_grid, rho_grid = fluid_tables(p.fluid, np.r_[st.temp, source_temp, p.design_temp])
     pv, rho = np.interp(st.temp, grid, pv_grid), np.interp(st.temp, grid, rho_grid)
@@ -550,15 +758,15 @@ def simulate(p: Pump, st: State, clock: Clock, baro: np.ndarray, rng: np.random.
     p_abs = base + rho * G * (head + st.level - (p.friction + st.extra_loss) * load**2)
     velocity = load * v_bep
     npsha = (p_abs - pv) / (rho * G) + velocity**2 / (2 * G) + z
-    exponent = float(p.exponent or 2.0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        at_rated = load / speed
-        npsh3 = np.interp(at_rated, fractions, heads) * speed**exponent
-    npsh3[~st.run | (at_rated < fractions[0]) | (at_rated > fractions[-1])] = np.nan
-    s_us = p.rated_rpm * np.sqrt(bep / GPM / p.eyes) / (npsh3_bep / 0.3048) ** 0.75
-    ratio, margin = next((r, m) for lo, hi, r, m in POLICY[p.application] if lo <= s_us < hi)
-    truth = Truth(st.run, npsha, npsh3, np.maximum(ratio * npsh3, npsh3 + margin), s_us)
+    npsh3, required, s_us = npsh3_and_guidance(p, st, load, speed)
+    truth = Truth(st.run, npsha, npsh3, required, s_us, below_min_flow(p, st, load, speed))
+    return (truth, *recorded(transmitters(p, st, clock, rng, p_abs, rho, load, speed, baro)))
 
+
+def transmitters(p: Pump, st: State, clock: Clock, rng: np.random.Generator, p_abs: np.ndarray,
+                 rho: np.ndarray, load: np.ndarray, speed: np.ndarray, baro: np.ndarray) -> dict:
+    """Readings in register units by tag: (values, resolution, deadband of by-exception)."""
+    bep = cell_si(p.bep_flow, "m3/h")
     p_unit, reference, t_unit, q_unit = p.units
     noise_pa = PRESSURE_NOISE_PA[p_unit]
     offset = baro if reference == "gauge" else 0.0
@@ -585,11 +793,67 @@ def simulate(p: Pump, st: State, clock: Clock, baro: np.ndarray, rng: np.random.
         readings[p.tag("SPEED")] = (rpm, 1.0, 4.0)
     if p.run_tag:
         readings[p.tag("RUN")] = (st.run.astype(float), 1.0, 0.5)
+    return readings
+
+
+def recorded(readings: dict) -> tuple[dict, dict, dict]:
+    """Values rounded to the transmitters' resolution, their decimals and deadbands by tag."""
     measured = {tag: np.round(v / res) * res + 0.0 for tag, (v, res, _) in readings.items()}
     decimals = {tag: max(0, -int(np.floor(np.log10(res) + 1e-9)))
                 for tag, (_, res, _) in readings.items()}
     deadbands = {tag: band for tag, (_, _, band) in readings.items()}
-    return truth, measured, decimals, deadbands
+    return measured, decimals, deadbands
+
+
+def line_loss(v: Vessel, flow: np.ndarray, rho: np.ndarray, mu: np.ndarray) -> np.ndarray:
+    """Suction-line loss (m) at the flow (m3/s): k Q^2 from the design point, or Darcy-Weisbach
+    with the Colebrook friction factor (plain fixed-point iteration)."""
+    if v.loss_point[0]:
+        q_design = cell_si(v.loss_point[1], "m3/h") / 3600.0
+        return cell_si(v.loss_point[0], "m") / q_design**2 * flow**2
+    length, bore = cell_si(v.line[0], "m"), cell_si(v.line[1], "mm")
+    relative = cell_si(v.line[2], "mm") / bore
+    speed = flow / (np.pi / 4 * bore**2)
+    reynolds = np.maximum(rho * speed * bore / mu, 1.0)
+    f = np.full(len(flow), 0.02)
+    for _ in range(60):
+        f = (-2.0 * np.log10(relative / 3.7 + 2.51 / (reynolds * np.sqrt(f)))) ** -2
+    return (f * length / bore + float(v.line[3])) * speed**2 / (2 * G)
+
+
+def simulate_vessel(p: Pump, st: State, clock: Clock, baro: np.ndarray,
+                    rng: np.random.Generator):
+    """Truth and readings of a vessel-fed pump:
+    NPSHa = (p_surface - p_v) / (rho g) + level + zero elevation - line loss."""
+    v = p.vessel
+    grid, pv_grid, rho_grid = fluid_tables(p.fluid, st.temp)
+    pv, rho = np.interp(st.temp, grid, pv_grid), np.interp(st.temp, grid, rho_grid)
+    mu = np.interp(st.temp, grid, PropsSI("V", "T", grid + 273.15, "Q", 0, p.fluid))
+    bep = cell_si(p.bep_flow, "m3/h")
+    load = np.where(st.run, st.load, 0.0)
+    speed = np.where(st.run, st.speed, 0.0)
+    if v.surface == "saturated":
+        pressure_head = np.zeros(clock.n)  # the surface is at the vapour pressure
+        p_surface = pv
+    else:
+        p_surface = baro if v.surface == "open" else st.surface_pressure
+        pressure_head = (p_surface - pv) / (rho * G)
+    loss = line_loss(v, load * bep / 3600.0, rho, mu)
+    npsha = pressure_head + st.level + cell_si(v.zero_elevation, "m") - loss
+    npsh3, required, s_us = npsh3_and_guidance(p, st, load, speed)
+    truth = Truth(st.run, npsha, npsh3, required, s_us, below_min_flow(p, st, load, speed))
+    p_suction = pv + rho * G * npsha  # absolute, at the pump (velocity head neglected)
+    readings = transmitters(p, st, clock, rng, p_suction, rho, load, speed, baro)
+    del readings[p.tag("SUCT_PRESS")]  # vessel-fed: no suction pressure transmitter
+    unit = v.level_unit
+    level = (st.level + rng.normal(0, 0.004, clock.n)) / TO_SI[unit]
+    readings[p.tag("LEVEL")] = (level, RESOLUTION[unit], 0.01 / TO_SI[unit])
+    if v.surface == "pressure":
+        gauge = p_surface + rng.normal(0, 100.0, clock.n) - baro
+        readings[p.tag("VESSEL_PRESS")] = (gauge / PA_PER[v.pressure_unit],
+                                           RESOLUTION[v.pressure_unit],
+                                           150.0 / PA_PER[v.pressure_unit])
+    return (truth, *recorded(readings))
 
 
 def barometer(clock: Clock, rng: np.random.Generator) -> tuple[np.ndarray, pd.DataFrame]:
@@ -830,10 +1094,13 @@ def write_long_csv(path: Path, records: pd.DataFrame, decimals: dict, utc: bool 
 
 def register_row(p: Pump) -> dict:
     p_unit, reference, t_unit, q_unit = p.units
+    v = p.vessel
     return {
         "pump_id": p.pump_id, "service": p.service, "area": p.area, "fluid": p.fluid,
-        "application": p.application, "suction_pressure_tag": p.tag("SUCT_PRESS"),
-        "suction_pressure_unit": p_unit, "suction_pressure_reference": reference,
+        "application": p.application,
+        "suction_pressure_tag": "" if v else p.tag("SUCT_PRESS"),
+        "suction_pressure_unit": "" if v else p_unit,
+        "suction_pressure_reference": "" if v else reference,
         "temperature_tag": p.tag("SUCT_TEMP"), "temperature_unit": t_unit,
         "flow_tag": p.tag("FLOW"), "flow_unit": q_unit,
         "speed_tag": p.tag("SPEED") if p.speed_tag else "",
@@ -843,6 +1110,22 @@ def register_row(p: Pump) -> dict:
         "rated_speed [rpm]": p.rated_rpm, "bep_flow [m3/h]": p.bep_flow,
         "curve_id": p.curve_id, "npsh3_exponent": p.exponent, "impeller_eyes": p.eyes,
         "stale_limit": p.stale_limit,
+        # vessel-fed pumps (empty: the suction pressure transmitter above)
+        "suction_source": "vessel" if v else "",
+        "level_tag": p.tag("LEVEL") if v else "", "level_unit": v.level_unit if v else "",
+        "level_zero_elevation [m]": v.zero_elevation if v else "",
+        "vessel_surface": v.surface if v else "",
+        "vessel_pressure_tag": p.tag("VESSEL_PRESS") if v and v.pressure_unit else "",
+        "vessel_pressure_unit": v.pressure_unit if v else "",
+        "vessel_pressure_reference": "gauge" if v and v.pressure_unit else "",
+        "line_loss_head [m]": v.loss_point[0] if v else "",
+        "line_loss_flow [m3/h]": v.loss_point[1] if v else "",
+        "line_length [m]": v.line[0] if v else "", "line_bore [mm]": v.line[1] if v else "",
+        "line_roughness [mm]": v.line[2] if v else "", "line_fittings_k": v.line[3] if v else "",
+        # operating region (empty: no minimum flow, POR 70-120 % of BEP, AOR to the curve's end)
+        "min_stable_flow [m3/h]": p.min_stable_flow, "thermal_min_flow [m3/h]": p.thermal_min_flow,
+        "preferred_low": "", "preferred_high": "",
+        "allowable_max_flow [m3/h]": p.allowable_max_flow,
     }
 
 
@@ -872,6 +1155,7 @@ def summary(truths: dict[str, Truth], clock: Clock) -> pd.DataFrame:
             "off curve min": int((t.run & np.isnan(t.npsh3)).sum()),
             "<guid min": int(below_guidance.sum()), "first <guid": first[0],
             "<NPSH3 min": int(below_npsh3.sum()), "first <NPSH3": first[1],
+            "<min flow min": int(t.below_min.sum()),
             "events": "; ".join(dict.fromkeys(e["event"] for e in PLANTED
                                               if p.pump_id in e["pump_id"])),
         })
@@ -880,7 +1164,8 @@ def summary(truths: dict[str, Truth], clock: Clock) -> pd.DataFrame:
 
 # ----------------------------------------------------------------------------- main
 WIDE_CSV = {"dosing": ["CH-701A", "CH-701B", "CH-702"],
-            "raw_and_fire_water": ["RW-501", "RW-502", "RW-503", "FW-601", "FW-602", "FW-603"]}
+            "raw_and_fire_water": ["RW-501", "RW-502", "RW-503", "FW-601", "FW-602", "FW-603"],
+            "vessels": ["BF-311", "CD-412", "RW-504", "DM-151"]}
 WEEKLY_WIDE_CSV = {"cooling_water": ["CW-101A", "CW-101B", "CW-102A", "CW-102B", "CW-103"]}
 WIDE_PARQUET = {"district_heating": ["DH-201A", "DH-201B", "DH-202"],
                 "condensate": ["CD-401A", "CD-401B"], "building_services": ["BS-111", "BS-112"]}
@@ -892,6 +1177,7 @@ def main() -> None:
     rng = np.random.default_rng(RANDOM_STATE)
     clock = Clock.october()
     ops = plant_operation(clock, rng)
+    ops.update(vessel_operation(clock, ops))
     baro_pa, baro_records = barometer(clock, rng)
     truths, measured, decimals, deadbands = {}, {}, {}, {}
     for number, p in enumerate(PUMPS):
@@ -909,7 +1195,7 @@ def main() -> None:
 
     def tags_of(pump_ids: list[str]) -> dict:
         return {tag: measured[tag] for pid in pump_ids for tag in measured
-                if tag.partition(".")[0] == BY_ID[pid].stem or tag == BY_ID[pid].tag("SUCT_TEMP")}
+                if tag.partition(".")[0] == BY_ID[pid].stem or tag in BY_ID[pid].own_tags()}
 
     everything = np.ones(clock.n, bool)
     for name, pump_ids in WIDE_CSV.items():

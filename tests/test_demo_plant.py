@@ -36,9 +36,9 @@ def _summary(out: Path) -> pd.DataFrame:
 
 def test_every_pump_screened_and_every_hour_counted(demo_report):
     hours = pd.read_csv(demo_report / "hours.csv")
-    assert hours["pump_id"].nunique() == 30
+    assert hours["pump_id"].nunique() == 34
     per_pump = hours.groupby(["pump_id", "kind"])["hours"].sum()
-    assert len(per_pump) == 60  # each kind of state adds up on its own
+    assert len(per_pump) == 68  # each kind of state adds up on its own
     assert per_pump.to_numpy() == pytest.approx(WINDOW_H, rel=1e-12)
     assert pd.read_csv(demo_report / "not_screened.csv").empty
 
@@ -54,8 +54,15 @@ def test_planted_process_events_are_revealed(demo_report):
         assert s.loc[pid, "below_npsh3_hours"] == 0
     # throttled methanol pump: about 69 h below the curve's first point
     assert s.loc["MT-801", "off_curve_hours"] == pytest.approx(69.0, abs=1.0)
+    # vessel-fed pumps: a deaerator pressure transient (brief dips below NPSH3), a hotwell
+    # drawn down (below guidance on 10-21), an intake at low water, a pump run below its
+    # minimum stable flow every night
+    assert s.loc["BF-311", "below_npsh3_hours"] > 0
+    assert s.loc["CD-412", "below_guidance_hours"] == pytest.approx(4.75, abs=0.5)
+    assert s.loc["RW-504", "below_guidance_hours"] > 10
+    assert s.loc["DM-151", "below_min_flow_hours"] > 150
     # pumps without a planted event stay above guidance
-    quiet = s.drop(index=["RW-502", "CW-103", "DH-202"])
+    quiet = s.drop(index=["RW-502", "CW-103", "DH-202", "BF-311", "CD-412", "RW-504"])
     assert (quiet["below_guidance_hours"] == 0).all()
 
 
@@ -80,5 +87,5 @@ def test_cli_and_api_agree_on_demo(demo_report):
     api = screening.scan(CONFIG)
     cli = pd.read_parquet(demo_report / "hours.parquet")
     merged = cli.merge(api.hours, on=["pump_id", "kind", "state"], suffixes=("_cli", "_api"))
-    assert len(merged) == 30 * (len(screening.STATES) + len(screening.REGIONS))
+    assert len(merged) == 34 * (len(screening.STATES) + len(screening.REGIONS))
     assert merged["hours_cli"].to_numpy() == pytest.approx(merged["hours_api"].to_numpy())
