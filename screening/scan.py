@@ -356,7 +356,9 @@ def _tables(plant, results, start, end, edges, quality_rows, problems, file_prob
                 "bad_data_hours": h["bad_data"],
                 "coverage": 1.0 - (h["no_data"] + h["bad_data"]) / r.window_hours,
                 "worst_ratio": r.worst_ratio,
-                "worst_time": r.worst_time,
+                "worst_time": (
+                    r.worst_time.tz_convert(plant.timezone) if r.worst_time is not None else None
+                ),
                 "guidance_ratio": g.ratio,
                 "guidance_margin_m": g.margin,
                 "guidance_source": g.source,
