@@ -1,7 +1,7 @@
 """Generate the bundled demo plant of pumpscreen: historian exports and configuration.
 
 Everything here is INVENTED. "Quillmere Demo Works" is a made-up utilities and tank-farm
-site (elevation 120 m, time zone Europe/Berlin) with 34 centrifugal pumps. The data cover
+site (elevation 120 m, time zone Europe/Berlin) with 36 centrifugal pumps. The data cover
 October 2026 (local time) at one-minute resolution; clocks go back on 2026-10-25 at
 03:00 CEST -> 02:00 CET, so that month has 44 700 minutes.
 
@@ -10,6 +10,7 @@ The output is deterministic (fixed random state). The script (re)writes
   demo_exports/wide_csv/*.csv.gz      wide, naive LOCAL time ("timestamp"), text words in cells
                                       (vessels_2026-10.csv.gz: the four vessel-fed pumps)
   demo_exports/wide_parquet/*.parquet wide, "time_utc" (tz-aware UTC), floats, NaN for gaps
+                                      (refrigeration_2026-10.parquet: GL-121 and RT-951)
   demo_exports/long_parquet/*.parquet long tag/time/value/quality, recorded by exception
   demo_exports/long_csv/*.csv.gz      long tag/time/value/quality, ISO time with local offset
   demo_exports/weather/*.csv.gz       long tag/time/value (no quality), barometer in hPa, UTC "Z"
@@ -30,6 +31,12 @@ vessel pressure tag) and the suction line, and
     NPSHa = (p_surface - p_vapour(T)) / (rho g) + level + zero elevation - h_f(Q)
 (no velocity head), with h_f = k Q^2 from a design point or Darcy-Weisbach with Colebrook.
 They draw from their own random stream, so the 30 transmitter pumps keep their numbers.
+The refrigeration plant (GL-121, RT-951) has a stream of its own too. GL-121 pumps a CoolProp
+incompressible solution, INCOMP::MEG-30% (ethylene glycol 30 % by mass), for which CoolProp
+gives no vapour pressure: the register's vapour_pressure column says "water" (water's vapour
+pressure, the conservative bound) and the density is the solution's at 101325 Pa, as the tool
+takes them; its temperatures stay at or above +3 degC (the water table starts at 0.01 degC).
+RT-951 pumps R407C, a CoolProp pseudo-pure blend whose quality-0 state is the bubble point.
 
 Planted process events (local time; the summary printed at the end gives the generator's truth):
   * RW-502 raw-water intake: suction strainer fouls from 2026-10-04; the strainer loss grows
@@ -56,6 +63,11 @@ Planted process events (local time; the summary printed at the end gives the gen
     and 10-10, never below NPSH3 and never a suction lift.
   * DM-151 variable-speed demineralised-water pump (open tank): ~30 % of BEP flow every night
     22:00-05:30 at ~93 % speed, below its minimum stable flow (35 % of BEP at rated speed).
+  * RT-951 R407C transfer from receiver RV-950 (bubble point, bar a transmitter): on
+    2026-10-20 13:20 .. 15:20 the receiver pressure is pulled down (its saturation temperature
+    5.5 K, about 1.4 bar, in 2 h) while the liquid at the pump cools ~25 min behind; NPSHa/NPSH3
+    falls from ~2.2 to ~1.15, below guidance for ~1.4 h, never below NPSH3; recovered by 16:20.
+    GL-121 (glycol loop) has no event: its margin stays ample.
 Planted data-quality events (see planted_events.csv and demo_exports/README.md for all):
   transmitter dropouts (CW-101A flow, DH-201A temperature, BF-301B suction pressure), bad
   quality stretches (BF-301A, LP-901A, MT-801), text words instead of numbers (CW-101B, CH-701A,
@@ -148,6 +160,7 @@ class Pump:
     min_stable_flow: str = ""  # register cells (m3/h unless own unit), empty: not given
     thermal_min_flow: str = ""
     allowable_max_flow: str = ""
+    vapour_pressure: str = ""  # register cell: "water" or "raoult", incompressible liquids only
 
     @property
     def stem(self) -> str:  # tag prefix: CW-101A -> CW101A
@@ -284,6 +297,15 @@ PUMPS = [
                 "Water", "water", BAR_G, 2950, "60", 8500, "DMF-60",
                 Vessel("TK151", "open", "m", "1.5", loss_point=("0.6", "60")), speed_tag=True,
                 min_stable_flow="21", thermal_min_flow="12"),
+    # refrigeration plant, last again so that every pump above keeps its random stream: a
+    # glycol loop (CoolProp incompressible solution, water's vapour pressure as the bound) and
+    # a refrigerant transfer pump drawing from a receiver at the bubble point
+    Pump("GL-121", "Glycol loop circulation (chiller / heat recovery)", "refrigeration",
+         "INCOMP::MEG-30%", "building", KPA_G, 1450, "150", 8000, "0.3", "200", "open", 6.0,
+         8, 0.6, "GLC-150", speed_tag=True, vapour_pressure="water"),
+    Pump("RT-951", "Refrigerant transfer from receiver RV-950", "refrigeration", "R407C",
+         "chemical", ("bar", "absolute", "degC", "m3/h"), 2900, "40", 8500, "0.4", "100",
+         "saturated", 2.0, 16, 0.5, "RTP-40", fine_temperature=True),
 ]
 BY_ID = {p.pump_id: p for p in PUMPS}
 
@@ -645,6 +667,49 @@ def vessel_operation(clock: Clock, ops: dict[str, State]) -> dict[str, State]:
     return out
 
 
+# ----------------------------------------------------------------------------- refrigeration plant
+REFRIGERATION_STREAM = 2000  # own random stream again: the pumps above keep their numbers
+RECEIVER_PULL_DOWN = ("2026-10-20 13:20", "2026-10-20 15:20", "2026-10-20 16:20")
+PULL_DOWN_K = 5.5  # fall of the receiver's saturation temperature over the pull-down, K
+LIQUID_LAG_MIN = 25.0  # the liquid in the receiver and suction line cools by flashing, lagging
+
+
+def receiver_pull_down(clock: Clock) -> np.ndarray:
+    """RT-951: receiver pressure pulled down (equalising valve to the compressor suction left
+    open); the fall of the receiver's saturation temperature, K (positive = colder)."""
+    start, closed, recovered = RECEIVER_PULL_DOWN
+    planted("RT-951", "receiver pressure pulled down", "RT951.SUCT_PRESS", start, recovered,
+            f"receiver saturation temperature pulled down {PULL_DOWN_K:.1f} K (about 1.4 bar) over "
+            "2 h while the liquid at the pump cools ~25 min behind: margin below guidance for "
+            "about 1.5 h in the afternoon, never below NPSH3; back to ~2 after the valve is shut")
+    knots = [clock.seconds_at(k) for k in RECEIVER_PULL_DOWN]
+    return np.interp(clock.seconds, knots, [0.0, PULL_DOWN_K, 0.0])
+
+
+def refrigeration_operation(clock: Clock) -> dict[str, State]:
+    """Operation of the refrigeration plant's pumps (own random stream)."""
+    rng = np.random.default_rng([RANDOM_STATE, REFRIGERATION_STREAM])
+    wander, daily, mf = clock.wander, clock.daily, clock.month_fraction
+    out: dict[str, State] = {}
+
+    # glycol loop (ethylene glycol 30 % by mass), pressurised by an expansion vessel; the pump
+    # sits on the warm return, 4-12 degC, cooler as the month goes on; never below +3 degC
+    loop = np.clip(0.72 + 0.12 * daily(14) - 0.06 * clock.weekend + wander(rng, 0.02),
+                   0.5, 0.95)
+    glycol = np.clip(10.5 - 3.5 * mf + 1.2 * daily(15) + wander(rng, 0.3), 3.0, None)
+    out["GL-121"] = State(np.ones(clock.n, bool), loop, glycol, speed=0.5 + 0.5 * loop)
+
+    # refrigerant transfer from receiver RV-950 (liquid at its bubble point in the plant room,
+    # 14-20 degC), weekdays 07:00-17:00; static head over the bubble pressure
+    transfers = batches(clock, [(f"{d} 07:00", f"{d} 17:00") for d in days(weekdays_only=True)])
+    receiver = 17.5 - 2.5 * mf + 1.0 * daily(16) + wander(rng, 0.25)
+    pull_down = receiver_pull_down(clock)
+    out["RT-951"] = State(transfers, 0.9 + wander(rng, 0.02), receiver - lag(pull_down,
+                          LIQUID_LAG_MIN), source_temp=receiver - pull_down,
+                          level=wander(rng, 0.05, 12))
+    return out
+
+
 # ----------------------------------------------------------------------------- curves and physics
 CURVE_FRACTIONS_SI = (0.25, 0.4, 0.55, 0.7, 0.85, 1.0, 1.15, 1.3)
 CURVE_FRACTIONS_US = (0.25, 0.5, 0.75, 1.0, 1.15, 1.3)
@@ -677,8 +742,22 @@ def curve_si(p: Pump) -> tuple[np.ndarray, np.ndarray]:
     return flow / cell_si(p.bep_flow, "m3/h"), head
 
 
-def fluid_tables(fluid: str, temps: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Saturated-liquid vapour pressure (Pa) and density (kg/m3) on a fine temperature grid."""
+def fluid_tables(fluid: str, temps: np.ndarray, vapour_pressure: str = ""
+                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Saturated-liquid vapour pressure (Pa) and density (kg/m3) on a fine temperature grid.
+
+    A pure fluid: quality 0; a pseudo-pure blend (R407C): its bubble point. A CoolProp
+    incompressible solution (INCOMP::...) has no vapour pressure in CoolProp: with
+    ``vapour_pressure = "water"`` water's (the conservative bound the tool uses, whose table starts
+    at the triple point), and the density of the solution at 101325 Pa, as the tool takes it.
+    """
+    if fluid.startswith("INCOMP::"):
+        assert vapour_pressure == "water", "the demo's incompressible liquids use water's p_v"
+        lo = max(np.nanmin(temps) - 2.0, 0.02)
+        grid = np.arange(lo, np.nanmax(temps) + 2.0, 0.02) + 273.15
+        pv = PropsSI("P", "T", grid, "Q", 0, "Water")
+        rho = PropsSI("D", "T", grid, "P", np.full(grid.size, 101325.0), fluid)
+        return grid - 273.15, pv, rho
     grid = np.arange(np.nanmin(temps) - 2.0, np.nanmax(temps) + 2.0, 0.02) + 273.15
     pv, rho = (PropsSI(what, "T", grid, "Q", 0, fluid) for what in ("P", "D"))
     return grid - 273.15, pv, rho
@@ -699,6 +778,7 @@ RATED_HEAD_M = {  # pump head at BEP: only for the discharge pressure tags, whic
     "CEP-220": 150, "DOS-4.5": 45, "DOS-1.2": 55, "RWP-2200": 48, "JKY-25": 105, "FWP-1500": 95,
     "BSC-35": 24, "BSH-20": 18, "MTP-60": 70, "MTU-40": 35, "TLT-180": 55, "TLR-400": 38,
     "LPB-80": 140, "LPP-300": 120, "BFB-420": 180, "CEV-180": 160, "RWV-8000": 35, "DMF-60": 60,
+    "GLC-150": 32, "RTP-40": 60,
 }
 POLICY = {  # application: [(min S, max S, ratio, margin m)] as in configs/demo_plant.toml
     "petroleum": [(0, np.inf, 1.1, 1.0)],
@@ -741,7 +821,8 @@ def simulate(p: Pump, st: State, clock: Clock, baro: np.ndarray, rng: np.random.
     if p.vessel:
         return simulate_vessel(p, st, clock, baro, rng)
     source_temp = st.temp if st.source_temp is None else st.source_temp
-    grid, pv_grid, rho_grid = fluid_tables(p.fluid, np.r_[st.temp, source_temp, p.design_temp])
+    grid, pv_grid, rho_grid = fluid_tables(p.fluid, np.r_[st.temp, source_temp, p.design_temp],
+                                           p.vapour_pressure)
     pv, rho = np.interp(st.temp, grid, pv_grid), np.interp(st.temp, grid, rho_grid)
     pv_d, rho_d = np.interp(p.design_temp, grid, pv_grid), np.interp(p.design_temp, grid, rho_grid)
     bep = cell_si(p.bep_flow, "m3/h")
@@ -1126,6 +1207,8 @@ def register_row(p: Pump) -> dict:
         "min_stable_flow [m3/h]": p.min_stable_flow, "thermal_min_flow [m3/h]": p.thermal_min_flow,
         "preferred_low": "", "preferred_high": "",
         "allowable_max_flow [m3/h]": p.allowable_max_flow,
+        # incompressible liquids only (empty: CoolProp's own vapour pressure)
+        "vapour_pressure": p.vapour_pressure,
     }
 
 
@@ -1168,7 +1251,8 @@ WIDE_CSV = {"dosing": ["CH-701A", "CH-701B", "CH-702"],
             "vessels": ["BF-311", "CD-412", "RW-504", "DM-151"]}
 WEEKLY_WIDE_CSV = {"cooling_water": ["CW-101A", "CW-101B", "CW-102A", "CW-102B", "CW-103"]}
 WIDE_PARQUET = {"district_heating": ["DH-201A", "DH-201B", "DH-202"],
-                "condensate": ["CD-401A", "CD-401B"], "building_services": ["BS-111", "BS-112"]}
+                "condensate": ["CD-401A", "CD-401B"], "building_services": ["BS-111", "BS-112"],
+                "refrigeration": ["GL-121", "RT-951"]}
 LONG_PARQUET = {"boiler_feed": ["BF-301A", "BF-301B"], "lpg": ["LP-901A", "LP-901B", "LP-902"]}
 LONG_CSV = {"methanol": ["MT-801", "MT-802"], "toluene": ["TL-811", "TL-812"]}
 
@@ -1178,6 +1262,7 @@ def main() -> None:
     clock = Clock.october()
     ops = plant_operation(clock, rng)
     ops.update(vessel_operation(clock, ops))
+    ops.update(refrigeration_operation(clock))
     baro_pa, baro_records = barometer(clock, rng)
     truths, measured, decimals, deadbands = {}, {}, {}, {}
     for number, p in enumerate(PUMPS):

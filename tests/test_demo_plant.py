@@ -36,9 +36,9 @@ def _summary(out: Path) -> pd.DataFrame:
 
 def test_every_pump_screened_and_every_hour_counted(demo_report):
     hours = pd.read_csv(demo_report / "hours.csv")
-    assert hours["pump_id"].nunique() == 34
+    assert hours["pump_id"].nunique() == 36
     per_pump = hours.groupby(["pump_id", "kind"])["hours"].sum()
-    assert len(per_pump) == 68  # each kind of state adds up on its own
+    assert len(per_pump) == 72  # each kind of state adds up on its own
     assert per_pump.to_numpy() == pytest.approx(WINDOW_H, rel=1e-12)
     assert pd.read_csv(demo_report / "not_screened.csv").empty
 
@@ -61,8 +61,12 @@ def test_planted_process_events_are_revealed(demo_report):
     assert s.loc["CD-412", "below_guidance_hours"] == pytest.approx(4.75, abs=0.5)
     assert s.loc["RW-504", "below_guidance_hours"] > 10
     assert s.loc["DM-151", "below_min_flow_hours"] > 150
+    # a refrigerant (R407C, bubble point) receiver pulled down one afternoon; a glycol loop
+    # screened on water's vapour pressure, as its register row chooses
+    assert 0.5 < s.loc["RT-951", "below_guidance_hours"] < 3
+    assert s.loc["GL-121", "vapour_pressure_model"].startswith("water vapour pressure")
     # pumps without a planted event stay above guidance
-    quiet = s.drop(index=["RW-502", "CW-103", "DH-202", "BF-311", "CD-412", "RW-504"])
+    quiet = s.drop(index=["RW-502", "CW-103", "DH-202", "BF-311", "CD-412", "RW-504", "RT-951"])
     assert (quiet["below_guidance_hours"] == 0).all()
 
 
@@ -87,5 +91,5 @@ def test_cli_and_api_agree_on_demo(demo_report):
     api = screening.scan(CONFIG)
     cli = pd.read_parquet(demo_report / "hours.parquet")
     merged = cli.merge(api.hours, on=["pump_id", "kind", "state"], suffixes=("_cli", "_api"))
-    assert len(merged) == 34 * (len(screening.STATES) + len(screening.REGIONS))
+    assert len(merged) == 36 * (len(screening.STATES) + len(screening.REGIONS))
     assert merged["hours_cli"].to_numpy() == pytest.approx(merged["hours_api"].to_numpy())
