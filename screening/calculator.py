@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from . import npsh, regions, states, suction
+from . import npsh, plotdata, regions, states, suction
 from .atmosphere import standard_pressure
 from .curves import Npsh3Curve
 from .kernels import hold, union_sorted
@@ -69,6 +69,8 @@ class PumpResult:
     region_hours: np.ndarray | None = None  # [h] per region code
     region_daily: np.ndarray | None = None  # [h] per day and region code
     speed_outside_hours: float = 0.0  # running hours outside the speed scaling range
+    plot: pd.DataFrame | None = field(default=None, repr=False)  # min/max per time bucket
+    points: dict | None = field(default=None, repr=False)  # operating-point histogram
     series: pd.DataFrame | None = field(default=None, repr=False)
 
 
@@ -179,6 +181,7 @@ def calculate_pump(
     end_ns: int,
     day_edges: np.ndarray,
     keep_series: bool = False,
+    plot_buckets: int = 0,
 ) -> PumpResult:
     """Screen one pump over the window [start_ns, end_ns).
 
@@ -205,6 +208,9 @@ def calculate_pump(
         Local midnights [ns] from the window start to its end, both included.
     keep_series : bool
         Keep the per-piece series (NPSHa, NPSH3, ratio, state) in the result.
+    plot_buckets : int
+        When positive, keep the report's plot data: minimum and maximum per time bucket and
+        the operating-point histogram (see :mod:`screening.plotdata`).
     """
 
     def stale_ns(spec: TagSpec | None) -> int:
@@ -341,6 +347,30 @@ def calculate_pump(
     if pump.needs_barometer:
         counted = running & ~all_bad & (code != states.STOPPED)
         result.baro_fallback_hours = float(fresh[counted & ~baro_used].sum() / NS_PER_HOUR)
+    if plot_buckets:
+        guide = guidance.head(npsh3)
+        on = running & ~all_bad
+        series = {
+            "npsha_m": np.where(on, npsha, np.nan),
+            "npsh3_m": np.where(on, npsh3, np.nan),
+            "guidance_m": np.where(on, guide, np.nan),
+            "ratio": np.where(on, ratio, np.nan),
+            "temperature_k": np.where(held["temperature"].bad, np.nan, temp),
+            "flow_m3_s": np.where(held["flow"].bad, np.nan, flow),
+        }
+        if pump.source == "transmitter":
+            series["suction_pressure_abs_pa"] = np.where(held["suction"].bad, np.nan, p_abs)
+        else:
+            series["level_m"] = np.where(held["level"].bad, np.nan, held["level"].value)
+        if speed is not None:
+            series["speed_rpm"] = np.where(held["speed"].bad, np.nan, speed)
+        result.plot = plotdata.min_max_buckets(grid, fresh, series, start_ns, end_ns, plot_buckets)
+        banded = code <= states.AMPLE_MARGIN
+        result.points = plotdata.operating_points(
+            np.where(banded, flow, np.nan), np.where(banded, npsha, np.nan),
+            fresh / NS_PER_HOUR, curve.flow_max * (1 if speed is None else np.nanmax(
+                np.append(ratio_n[banded], 1.0))),
+        )  # fmt: skip
     if keep_series:
         result.series = pd.DataFrame(
             {

@@ -15,12 +15,13 @@ from datetime import UTC, datetime
 from pathlib import Path
 
 import CoolProp
+import numpy as np
 import pandas as pd
 import plotly.graph_objects as go
 from jinja2 import Environment, PackageLoader, select_autoescape
 from plotly.offline import get_plotlyjs
 
-from . import regions, states
+from . import pump_pages, regions, states
 from .cautions import CAUTIONS
 from .palette import (
     REGION_COLOURS,
@@ -30,6 +31,7 @@ from .palette import (
     STATE_LABELS,
     STATE_PATTERNS,
 )
+from .pump_pages import DISPLAY_UNITS, page_names
 from .scan import ScanResult
 
 _ENV = Environment(
@@ -127,7 +129,12 @@ def _export_paths(result: ScanResult):
         yield from glob.glob(pattern, recursive=True)
 
 
-def write_report(result: ScanResult, out: str | Path) -> Path:
+def write_report(
+    result: ScanResult,
+    out: str | Path,
+    units: str = "si",
+    compare_to: str | Path | None = None,
+) -> Path:
     """Write the report folder of a scan.
 
     Parameters
@@ -136,6 +143,11 @@ def write_report(result: ScanResult, out: str | Path) -> Path:
         From :func:`screening.scan`.
     out : str or Path
         The report folder; replaced whole when the new report is complete.
+    units : str
+        Display units of the HTML pages: ``"si"`` or ``"us"`` (US customary); the tables
+        beside them stay SI with units in the column names.
+    compare_to : str or Path, optional
+        A previous report folder: pumps that got worse or better are marked, by how many hours.
 
     Returns
     -------
@@ -144,6 +156,9 @@ def write_report(result: ScanResult, out: str | Path) -> Path:
     from . import __version__
 
     out = Path(out)
+    if units not in DISPLAY_UNITS:
+        raise ValueError(f"display units {units!r} are not 'si' or 'us'")
+    changes = _changes(result, Path(compare_to)) if compare_to is not None else None
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", dir=out.parent))
     try:
@@ -177,7 +192,14 @@ def write_report(result: ScanResult, out: str | Path) -> Path:
             "inputs": _input_files(result),
         }
         (tmp / "run.json").write_text(json.dumps(meta, indent=2), encoding="utf-8")
-        (tmp / "index.html").write_text(_overview_html(result, meta), encoding="utf-8")
+        if changes is not None:
+            _write_table(changes, tmp, "changes")
+        _write_workbook(tmp / "summary.xlsx", result, changes)
+        pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
+        _write_pump_pages(result, tmp, pages, DISPLAY_UNITS[units])
+        (tmp / "index.html").write_text(
+            _overview_html(result, meta, pages, changes), encoding="utf-8"
+        )
         if out.exists():
             old = out.with_name(f".{out.name}.old")
             if old.exists():
@@ -193,7 +215,114 @@ def write_report(result: ScanResult, out: str | Path) -> Path:
     return out
 
 
-def _overview_html(result: ScanResult, meta: dict) -> str:
+def _changes(result: ScanResult, previous: Path) -> pd.DataFrame:
+    """Hours below NPSH3 and below guidance now against a previous report's summary."""
+    path = previous / "summary.parquet"
+    if not path.exists():
+        raise FileNotFoundError(f"{previous}: no summary.parquet (is it a pumpscreen report?)")
+    before = pd.read_parquet(path)
+    cols = ["below_npsh3_hours", "below_guidance_hours", "outside_preferred_hours"]
+    cols = [c for c in cols if c in before.columns]
+    now = result.summary.set_index("pump_id")[cols]
+    old = before.set_index("pump_id")[cols]
+    joined = now.add_suffix("_now").join(old.add_suffix("_before"), how="outer")
+    out = pd.DataFrame(index=joined.index)
+    for c in cols:
+        out[f"{c}_before"] = joined[f"{c}_before"]
+        out[f"{c}_now"] = joined[f"{c}_now"]
+        out[f"{c}_change"] = joined[f"{c}_now"] - joined[f"{c}_before"]
+    change = out["below_guidance_hours_change"]
+    out["verdict"] = np.select(
+        [joined["below_guidance_hours_before"].isna(), joined["below_guidance_hours_now"].isna(),
+         change > 0.5, change < -0.5],
+        ["new", "not in this report", "worse", "better"], default="unchanged",
+    )  # fmt: skip
+    return out.reset_index().rename(columns={"index": "pump_id"})
+
+
+def _write_workbook(path: Path, result: ScanResult, changes) -> None:
+    """One spreadsheet gathering the summary tables (formula-like text neutralised)."""
+    sheets = {
+        "summary": result.summary,
+        "hours": result.hours,
+        "data_quality": result.quality,
+        "not_screened": result.problems,
+    }
+    if changes is not None:
+        sheets["changes"] = changes
+    with pd.ExcelWriter(path, engine="openpyxl") as xl:
+        for name, frame in sheets.items():
+            f = frame.copy()
+            for col in f.columns:
+                if isinstance(f[col].dtype, pd.DatetimeTZDtype):
+                    f[col] = f[col].astype("string")
+                elif f[col].dtype == object or pd.api.types.is_string_dtype(f[col]):
+                    f[col] = f[col].map(_safe_cell)
+            f.to_excel(xl, sheet_name=name, index=False)
+
+
+def _write_pump_pages(result: ScanResult, folder: Path, pages: dict, units) -> None:
+    plant = result.plant
+    tz = plant.timezone
+    (folder / "pumps").mkdir()
+    template = _ENV.get_template("pump.html")
+    a, b = result.start.tz_convert(tz), result.end.tz_convert(tz)
+    window = f"{a:%Y-%m-%d %H:%M} to {b:%Y-%m-%d %H:%M}"
+    ample = plant.settings.policy.ample_ratio
+    for pid, name in pages.items():
+        pump = plant.pumps[pid]
+        g = plant.guidance[pid]
+        plot = result.plots.get(pid)
+        h = result.hours[result.hours.pump_id == pid]
+        head = ["kind", "hours per state (each kind adds up to the window)"]
+        rows = []
+        for kind, names in (("margin", states.STATES), ("region", regions.REGIONS)):
+            part = h[h.kind == kind].set_index("state")["hours"]
+            rows.append([kind] + [f"{n}: {part.get(n, 0.0):.1f} h" for n in names])
+        figs = {"fig_npsh": "", "fig_ratio": "", "fig_process": "", "fig_points": ""}
+        if plot is not None and len(plot):
+            figs["fig_npsh"] = _fig(pump_pages.npsh_figure(plot, units, tz), "npsh")
+            figs["fig_ratio"] = _fig(pump_pages.ratio_figure(plot, tz, g.ratio, ample), "ratio")
+            figs["fig_process"] = _fig(pump_pages.process_figure(plot, units, tz), "process")
+        if pid in result.points:
+            fig = pump_pages.points_figure(
+                result.points[pid], plant.curves[pump.curve_id], pump, units
+            )
+            figs["fig_points"] = _fig(fig, "points")
+        daily = result.daily[(result.daily.pump_id == pid) & (result.daily.kind == "margin")]
+        figs["fig_calendar"] = _fig(pump_pages.calendar_figure(daily), "calendar")
+        from .properties import fluid_table
+
+        model = fluid_table(pump.fluid, pump.vapour_pressure).vapour_pressure_model
+        html = template.render(
+            pump=pump,
+            plant_name=plant.name,
+            window=window,
+            units_label=units.name,
+            hours_head=head,
+            hours_rows=rows,
+            downsample_note=(
+                f"Downsampled for the browser: the window is cut into "
+                f"{len(plot) if plot is not None else 0} time buckets and each keeps the minimum "
+                "and the maximum of every series, so short dips stay visible. Full-resolution "
+                "hours are in the tables beside this page."
+            ),
+            guidance_ratio=f"{g.ratio:.2f}",
+            guidance_margin=f"{float(units.convert(g.margin, 'length')):.2f} "
+            f"{units.label('length')}",
+            ample_ratio=f"{ample:.2f}",
+            register=pump_pages.register_rows(pump, g, model, units),
+            cautions=CAUTIONS,
+            **figs,
+        )
+        pump_pages.write_pump_page(folder / "pumps" / name, html)
+
+
+def _fig(fig, div_id: str) -> str:
+    return fig.to_html(full_html=False, include_plotlyjs=False, div_id=div_id)
+
+
+def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> str:
     tz = result.plant.timezone
     site = result.plant.settings.site
     ranking = []
@@ -201,6 +330,18 @@ def _overview_html(result: ScanResult, meta: dict) -> str:
         d = row._asdict()
         d["worst_ratio_text"] = "—" if pd.isna(row.worst_ratio) else f"{row.worst_ratio:.2f}"
         d["guidance_text"] = f"{row.guidance_ratio:.2f} or {row.guidance_margin_m:.2f} m"
+        d["page"] = f"pumps/{pages[row.pump_id]}" if pages and row.pump_id in pages else None
+        d["change"] = ""
+        if changes is not None:
+            c = changes.set_index("pump_id")
+            if row.pump_id in c.index:
+                v = c.loc[row.pump_id]
+                delta = v["below_guidance_hours_change"]
+                d["change"] = (
+                    v["verdict"]
+                    if v["verdict"] in ("new", "unchanged")
+                    else f"{v['verdict']} ({delta:+.1f} h)"
+                )
         ranking.append(d)
     if site.barometer_tag:
         baro = (
@@ -234,4 +375,6 @@ def _overview_html(result: ScanResult, meta: dict) -> str:
         por_low=0.70,
         por_high=1.20,
         cautions=CAUTIONS,
+        compared=changes is not None,
+        inputs=meta["inputs"],
     )

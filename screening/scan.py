@@ -18,6 +18,7 @@ from ._allocator import keep_freed_memory
 from .calculator import PumpResult, Settings, calculate_pump, prepare_tag
 from .loader import ExportError, ExportIndex, TagQuality
 from .plant import Plant, load_plant, pump_suction_specific_speed
+from .plotdata import DEFAULT_BUCKETS
 from .properties import fluid_table
 from .units import UnitError, to_si
 
@@ -60,6 +61,8 @@ class ScanResult:
     problems: pd.DataFrame
     file_problems: pd.DataFrame
     series: dict[str, pd.DataFrame] = field(default_factory=dict)
+    plots: dict[str, pd.DataFrame] = field(default_factory=dict)
+    points: dict[str, dict] = field(default_factory=dict)
     elapsed_s: float = 0.0
     samples: int = 0
 
@@ -148,6 +151,7 @@ def scan(
     end=None,
     pumps: list[str] | None = None,
     keep_series: bool = False,
+    plot_buckets: int = DEFAULT_BUCKETS,
 ) -> ScanResult:
     """Screen every pump of a plant over a window.
 
@@ -162,6 +166,9 @@ def scan(
         Screen only these pump ids.
     keep_series : bool
         Keep each pump's time series (NPSHa, NPSH3, ratio, state) in ``ScanResult.series``.
+    plot_buckets : int
+        Time buckets of the report's plot data (minimum and maximum per bucket) kept per pump
+        in ``ScanResult.plots``; 0 keeps none.
 
     Returns
     -------
@@ -209,7 +216,7 @@ def scan(
             try:
                 result, tag_quality, n = _screen_pump(
                     plant, pump, index, raw, barometer, settings, start_ns, end_ns, edges,
-                    keep_series,
+                    keep_series, plot_buckets,
                 )  # fmt: skip
             except (ExportError, UnitError, ValueError) as exc:
                 problems.append({"pump_id": pid, "stage": "data", "message": str(exc)})
@@ -223,6 +230,8 @@ def scan(
         quality_rows.append(_quality_row("(site)", "barometer", baro_quality))
     out = _tables(plant, results, start_ts, end_ts, edges, quality_rows, problems, file_problems)
     out.series = {r.pump_id: r.series for r in results if r.series is not None}
+    out.plots = {r.pump_id: r.plot for r in results if r.plot is not None}
+    out.points = {r.pump_id: r.points for r in results if r.points is not None}
     out.samples = samples
     out.elapsed_s = time.perf_counter() - t0
     return out
@@ -258,7 +267,9 @@ def _batches(plant: Plant, index: ExportIndex, selected: list[str]) -> list[list
     return [ordered[i : i + BATCH_PUMPS] for i in range(0, len(ordered), BATCH_PUMPS)]
 
 
-def _screen_pump(plant, pump, index, raw, barometer, settings, start_ns, end_ns, edges, keep):
+def _screen_pump(
+    plant, pump, index, raw, barometer, settings, start_ns, end_ns, edges, keep, buckets
+):
     roles = pump.tags()
     known = index.known_tags()
     missing = [f"{spec.tag} ({role})" for role, spec in roles.items() if spec.tag not in known]
@@ -282,6 +293,7 @@ def _screen_pump(plant, pump, index, raw, barometer, settings, start_ns, end_ns,
     result = calculate_pump(
         pump, plant.curves[pump.curve_id], plant.guidance[pump.pump_id], table, prepared,
         barometer if pump.needs_barometer else None, settings, start_ns, end_ns, edges, keep,
+        buckets,
     )  # fmt: skip
     quality = {role: prepared[role].quality for role in roles}
     return result, quality, n

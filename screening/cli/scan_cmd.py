@@ -29,6 +29,10 @@ def scan_command(
         None, "--out", help="Report folder (default: reports/<plant file>_<start>_<end>)."
     ),
     pump: list[str] = typer.Option(None, "--pump", help="Screen only this pump (repeatable)."),
+    units: str = typer.Option("si", "--units", help="Display units of the HTML: si or us."),
+    compare_to: Path = typer.Option(
+        None, "--compare-to", help="A previous report folder: mark pumps that got worse or better."
+    ),
     quiet: bool = QUIET_OPTION,
     debug: bool = DEBUG_OPTION,
 ) -> None:
@@ -39,7 +43,7 @@ def scan_command(
         a = result.start.tz_convert(tz).strftime("%Y%m%d")
         b = result.end.tz_convert(tz).strftime("%Y%m%d")
         out = Path("reports") / f"{config.stem}_{a}_{b}"
-    folder = write_report(result, out)
+    folder = write_report(result, out, units=units.lower(), compare_to=compare_to)
     n_ok, n_bad = len(result.summary), len(result.problems)
     if not quiet:
         rate = result.samples / result.elapsed_s if result.elapsed_s else 0.0

@@ -1,0 +1,83 @@
+"""The report folder: pump pages, safe file names, workbook, comparison, downsampling."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+from plantmaker import make_plant, pump_row, steady_frame
+from typer.testing import CliRunner
+
+import screening
+from screening.cli.main import app
+from screening.plotdata import min_max_buckets
+from screening.pump_pages import page_names
+
+runner = CliRunner()
+
+
+def test_min_max_buckets_keep_a_short_dip():
+    # one-minute pieces for a day, a single-minute dip to 0.5: a mean per bucket would hide it
+    grid = np.arange(1440, dtype=np.int64) * 60 * 10**9
+    ratio = np.full(1440, 2.0)
+    ratio[777] = 0.5
+    out = min_max_buckets(
+        grid, np.full(1440, 60 * 10**9), {"ratio": ratio}, 0, 1440 * 60 * 10**9, 48
+    )
+    assert len(out) == 48
+    assert out["ratio_min"].min() == 0.5
+    assert out["ratio_max"].max() == 2.0
+
+
+def test_page_names_stay_inside_the_folder():
+    names = page_names(["../../etc/passwd", "P/1", "p/1", "<script>"])
+    assert all("/" not in n and not n.startswith(".") for n in names.values())
+    assert len(set(n.lower() for n in names.values())) == 4  # unique, even on a Windows share
+
+
+def _plant(tmp_path, pressure):
+    frame = steady_frame("P1", pressure_kpa=pressure).merge(
+        steady_frame("P2", pressure_kpa=100.0), on="timestamp"
+    )
+    return make_plant(tmp_path, wide={"a.csv": frame}, rows=[pump_row("P1"), pump_row("P2")])
+
+
+def test_pump_pages_workbook_and_comparison(tmp_path):
+    before = tmp_path / "september"
+    res = runner.invoke(app, ["scan", str(_plant(tmp_path / "a", 100.0)), "--out", str(before)])
+    assert res.exit_code == 0, res.output
+    after = tmp_path / "october"
+    # P1's suction now under vacuum: below guidance all day
+    path = _plant(tmp_path / "b", -95.0)
+    res = runner.invoke(
+        app, ["scan", str(path), "--out", str(after), "--compare-to", str(before), "--units", "us"]
+    )
+    assert res.exit_code == 0, res.output
+    changes = pd.read_csv(after / "changes.csv").set_index("pump_id")
+    assert changes.loc["P1", "verdict"] == "worse"
+    assert changes.loc["P1", "below_guidance_hours_change"] == pytest.approx(24.0)
+    assert changes.loc["P2", "verdict"] == "unchanged"
+    html = (after / "index.html").read_text()
+    assert "worse (+24.0 h)" in html
+    assert 'href="pumps/P1.html"' in html
+    page = (after / "pumps" / "P1.html").read_text()
+    assert '<script src="../plotly.min.js">' in page
+    assert "head [ft]" in page  # US customary display units
+    assert "screening aid, not a design or safety determination" in page
+    book = pd.read_excel(after / "summary.xlsx", sheet_name=None)
+    assert {"summary", "hours", "data_quality", "not_screened", "changes"} <= set(book)
+
+
+def test_formula_like_text_is_neutralised(tmp_path):
+    rows = [pump_row("P1", service="=SUM(1+2)")]
+    path = make_plant(tmp_path, wide={"a.csv": steady_frame("P1")}, rows=rows)
+    out = tmp_path / "r"
+    screening.write_report(screening.scan(path), out)
+    assert pd.read_csv(out / "summary.csv")["service"].iloc[0].startswith("'=")
+    book = pd.read_excel(out / "summary.xlsx", sheet_name="summary")
+    assert book["service"].iloc[0].startswith("'=")
+
+
+def test_unknown_display_units(tmp_path):
+    with pytest.raises(ValueError, match="display units 'metric' are not 'si' or 'us'"):
+        screening.write_report(screening.scan(_plant(tmp_path, 100.0)), tmp_path / "r", "metric")
