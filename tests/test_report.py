@@ -81,3 +81,16 @@ def test_formula_like_text_is_neutralised(tmp_path):
 def test_unknown_display_units(tmp_path):
     with pytest.raises(ValueError, match="display units 'metric' are not 'si' or 'us'"):
         screening.write_report(screening.scan(_plant(tmp_path, 100.0)), tmp_path / "r", "metric")
+
+
+def test_operating_points_match_numpy_histogram():
+    from screening.plotdata import operating_points
+
+    rng = np.random.default_rng(3)  # fixed random state
+    flow = rng.uniform(0.0, 0.03, 5000)
+    npsha = rng.uniform(0.0, 12.0, 5000)
+    w = rng.uniform(0.0, 1.0, 5000)
+    got = operating_points(flow, npsha, w, 0.03, bins=20)
+    ref, _, _ = np.histogram2d(flow, npsha, bins=[got["flow_edges"], got["npsha_edges"]], weights=w)
+    np.testing.assert_allclose(got["hours"], ref, rtol=1e-12, atol=1e-12)
+    assert got["hours"].sum() == pytest.approx(w.sum())
