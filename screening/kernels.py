@@ -167,6 +167,37 @@ def _table_eval_loop(t, t_min, t_max, step, ln_pv, rho):  # pragma: no cover - c
     return pv, r
 
 
+def bucket_min_max_numpy(values, starts):
+    """Minimum and maximum (NaN-ignoring) of each row of ``values`` per run beginning at
+    ``starts`` (numpy form)."""
+    with np.errstate(invalid="ignore"):
+        return np.fmin.reduceat(values, starts, axis=1), np.fmax.reduceat(values, starts, axis=1)
+
+
+def _bucket_min_max_loop(values, starts):  # pragma: no cover - compiled
+    """Minimum and maximum (NaN-ignoring) of each row of ``values`` per run; one pass."""
+    k, n = values.shape
+    m = starts.shape[0]
+    lo = np.full((k, m), np.nan)
+    hi = np.full((k, m), np.nan)
+    for b in range(m):
+        a = starts[b]
+        e = starts[b + 1] if b + 1 < m else n
+        for r in range(k):
+            mn = np.nan
+            mx = np.nan
+            for i in range(a, e):
+                v = values[r, i]
+                if v == v:
+                    if not (mn <= v):
+                        mn = v
+                    if not (mx >= v):
+                        mx = v
+            lo[r, b] = mn
+            hi[r, b] = mx
+    return lo, hi
+
+
 def _compile(func, fallback):
     if numba is None:  # pragma: no cover
         return fallback
@@ -181,6 +212,7 @@ hold = _compile(_hold_loop, hold_numpy)
 union_sorted = _compile(_union_sorted_loop, union_sorted_numpy)
 pchip_eval = _compile(_pchip_eval_loop, pchip_eval_numpy)
 table_eval = _compile(_table_eval_loop, table_eval_numpy)
+bucket_min_max = _compile(_bucket_min_max_loop, bucket_min_max_numpy)
 
 
 def _warm_up() -> None:
@@ -196,6 +228,7 @@ def _warm_up() -> None:
     x = np.array([0.0, 1.0])
     pchip_eval(x, np.zeros((4, 1)), x)
     table_eval(x, 0.0, 1.0, 1.0, x, x)
+    bucket_min_max(np.zeros((1, 2)), t)
 
 
 _warm_up()

@@ -11,6 +11,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from .kernels import bucket_min_max
+
 #: Buckets per window for the time plots (each keeps a minimum and a maximum).
 DEFAULT_BUCKETS = 1500
 
@@ -51,11 +53,12 @@ def min_max_buckets(
     b = (g - start_ns) // width
     starts = np.flatnonzero(np.concatenate(([True], b[1:] != b[:-1])))
     out = {"time": pd.to_datetime(start_ns + b[starts] * width, utc=True)}
-    for name, values in series.items():
-        v = np.asarray(values, dtype=np.float64)[keep]
-        with np.errstate(invalid="ignore"):
-            out[f"{name}_min"] = np.fmin.reduceat(v, starts)
-            out[f"{name}_max"] = np.fmax.reduceat(v, starts)
+    names = list(series)
+    stacked = np.stack([np.asarray(series[k], dtype=np.float64)[keep] for k in names])
+    lo, hi = bucket_min_max(stacked, starts.astype(np.int64))
+    for i, name in enumerate(names):
+        out[f"{name}_min"] = lo[i]
+        out[f"{name}_max"] = hi[i]
     return pd.DataFrame(out)
 
 

@@ -18,7 +18,6 @@ from ._allocator import keep_freed_memory
 from .calculator import PumpResult, Settings, calculate_pump, prepare_tag
 from .loader import ExportError, ExportIndex, TagQuality
 from .plant import Plant, load_plant, pump_suction_specific_speed
-from .plotdata import DEFAULT_BUCKETS
 from .properties import fluid_table
 from .units import UnitError, to_si
 
@@ -151,7 +150,7 @@ def scan(
     end=None,
     pumps: list[str] | None = None,
     keep_series: bool = False,
-    plot_buckets: int = DEFAULT_BUCKETS,
+    plot_buckets: int = 0,
 ) -> ScanResult:
     """Screen every pump of a plant over a window.
 
@@ -168,7 +167,8 @@ def scan(
         Keep each pump's time series (NPSHa, NPSH3, ratio, state) in ``ScanResult.series``.
     plot_buckets : int
         Time buckets of the report's plot data (minimum and maximum per bucket) kept per pump
-        in ``ScanResult.plots``; 0 keeps none.
+        in ``ScanResult.plots``; 0 (the default) keeps none. The command line asks for
+        :data:`screening.plotdata.DEFAULT_BUCKETS` to draw the pump pages.
 
     Returns
     -------

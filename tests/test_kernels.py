@@ -85,3 +85,17 @@ def test_hold_matches_numpy(times, grid, stale):
         strict=True,
     ):
         np.testing.assert_array_equal(a, b)
+
+
+def test_bucket_min_max_matches_numpy():
+    from screening.kernels import bucket_min_max, bucket_min_max_numpy
+
+    rng = np.random.default_rng(5)  # fixed random state
+    values = rng.normal(size=(3, 500))
+    values[rng.random((3, 500)) < 0.2] = np.nan
+    values[:, 100:140] = np.nan  # a whole bucket without values
+    starts = np.array([0, 7, 100, 140, 141, 300], dtype=np.int64)
+    for a, b in zip(
+        bucket_min_max(values, starts), bucket_min_max_numpy(values, starts), strict=True
+    ):
+        np.testing.assert_array_equal(a, b)

@@ -6,6 +6,7 @@ from pathlib import Path
 
 import typer
 
+from ..plotdata import DEFAULT_BUCKETS
 from ..report import write_report
 from ..scan import scan
 from .common import (
@@ -37,7 +38,7 @@ def scan_command(
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Screen every pump over a window: hours in each NPSH margin band, with every hour counted."""
-    result = scan(config, start, end, pumps=pump or None)
+    result = scan(config, start, end, pumps=pump or None, plot_buckets=DEFAULT_BUCKETS)
     if out is None:
         tz = result.plant.timezone
         a = result.start.tz_convert(tz).strftime("%Y%m%d")
