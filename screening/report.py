@@ -194,6 +194,16 @@ def write_report(
         (tmp / "run.json").write_text(json.dumps(meta, indent=2), encoding="utf-8")
         if changes is not None:
             _write_table(changes, tmp, "changes")
+        if result.plots:
+            # the numbers behind the pump pages' plots, tidy, beside them
+            buckets = pd.concat(
+                [p.assign(pump_id=pid) for pid, p in result.plots.items()], ignore_index=True
+            )
+            buckets["time"] = buckets["time"].dt.tz_convert(result.plant.timezone)
+            buckets = buckets[["pump_id"] + [c for c in buckets.columns if c != "pump_id"]]
+            buckets["time"] = buckets["time"].astype("string")
+            _write_table(buckets, tmp, "plot_buckets")
+            _write_table(_points_table(result.points), tmp, "operating_points")
         _write_workbook(tmp / "summary.xlsx", result, changes)
         pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
         _write_pump_pages(result, tmp, pages, DISPLAY_UNITS[units])
@@ -316,6 +326,27 @@ def _write_pump_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
             **figs,
         )
         pump_pages.write_pump_page(folder / "pumps" / name, html)
+
+
+def _points_table(points: dict) -> pd.DataFrame:
+    """Operating-point histograms as a tidy table: one row per non-empty cell."""
+    frames = []
+    for pid, p in points.items():
+        fi, hi = np.nonzero(p["hours"])
+        fe, he = p["flow_edges"], p["npsha_edges"]
+        frames.append(
+            pd.DataFrame(
+                {
+                    "pump_id": pid,
+                    "flow_low_m3_s": fe[fi],
+                    "flow_high_m3_s": fe[fi + 1],
+                    "npsha_low_m": he[hi],
+                    "npsha_high_m": he[hi + 1],
+                    "hours": p["hours"][fi, hi],
+                }
+            )
+        )
+    return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
 
 
 def _fig(fig, div_id: str) -> str:

@@ -64,6 +64,11 @@ def test_pump_pages_workbook_and_comparison(tmp_path):
     assert '<script src="../plotly.min.js">' in page
     assert "head [ft]" in page  # US customary display units
     assert "screening aid, not a design or safety determination" in page
+    # the numbers behind the plots are in tables beside the pages
+    buckets = pd.read_parquet(after / "plot_buckets.parquet")
+    assert set(buckets["pump_id"]) == {"P1", "P2"} and "npsha_m_min" in buckets
+    points = pd.read_csv(after / "operating_points.csv")
+    assert points.groupby("pump_id")["hours"].sum().to_numpy() == pytest.approx([24.0, 24.0])
     book = pd.read_excel(after / "summary.xlsx", sheet_name=None)
     assert {"summary", "hours", "data_quality", "not_screened", "changes"} <= set(book)
 
