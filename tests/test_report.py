@@ -99,3 +99,24 @@ def test_operating_points_match_numpy_histogram():
     ref, _, _ = np.histogram2d(flow, npsha, bins=[got["flow_edges"], got["npsha_edges"]], weights=w)
     np.testing.assert_allclose(got["hours"], ref, rtol=1e-12, atol=1e-12)
     assert got["hours"].sum() == pytest.approx(w.sum())
+
+
+def test_pages_say_when_the_scan_kept_no_plot_data(tmp_path):
+    out = tmp_path / "r"
+    screening.write_report(screening.scan(_plant(tmp_path, 100.0)), out)  # API default: none
+    assert "No time plots" in (out / "pumps" / "P1.html").read_text()
+    screening.write_report(screening.scan(_plant(tmp_path, 100.0), plot_buckets=100), out)
+    page = (out / "pumps" / "P1.html").read_text()
+    assert "No time plots" not in page and 'id="npsh"' in page
+
+
+def test_markup_in_register_text_is_shown_as_text(tmp_path):
+    bad = "<script>alert(1)</script>"
+    rows = [pump_row("P1", service=bad)]
+    path = make_plant(tmp_path, wide={"a.csv": steady_frame("P1")}, rows=rows)
+    out = tmp_path / "r"
+    screening.write_report(screening.scan(path, plot_buckets=100), out)
+    for page in (out / "index.html", out / "pumps" / "P1.html"):
+        html = page.read_text()
+        assert bad not in html
+        assert "&lt;script&gt;alert(1)&lt;/script&gt;" in html
