@@ -11,6 +11,7 @@ Python API (the command line uses the same functions)::
 
 from .check import check
 from .config import ConfigError
+from .onset import investigate, write_onset_report
 from .plant import Plant, load_plant
 from .regions import REGIONS
 from .report import write_report
@@ -27,6 +28,8 @@ __all__ = [
     "ScanResult",
     "WindowError",
     "check",
+    "investigate",
+    "write_onset_report",
     "load_plant",
     "scan",
     "write_report",

@@ -5,6 +5,7 @@ from __future__ import annotations
 import typer
 
 from .check_cmd import check_command
+from .onset_cmd import onset_command
 from .scan_cmd import scan_command
 
 app = typer.Typer(
@@ -16,6 +17,7 @@ app = typer.Typer(
 )
 app.command("scan")(scan_command)
 app.command("check")(check_command)
+app.command("onset")(onset_command)
 
 if __name__ == "__main__":  # pragma: no cover
     app()

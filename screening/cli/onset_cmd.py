@@ -1,0 +1,32 @@
+"""``pumpscreen onset``: when did a pump's margin trouble begin."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from ..onset import investigate, write_onset_report
+from .common import DEBUG_OPTION, EXIT_OK, friendly_errors
+
+
+@friendly_errors
+def onset_command(
+    config: Path = typer.Argument(..., help="The plant file (TOML)."),
+    pump: str = typer.Argument(..., help="The pump id."),
+    start: str = typer.Option(..., "--from", help="Window start (a year is normal)."),
+    end: str = typer.Option(..., "--to", help="Window end (exclusive)."),
+    failed_on: str = typer.Option(None, "--failed-on", help="Date the pump failed."),
+    baseline: str = typer.Option(
+        None, "--baseline", help="Baseline period FROM..TO (default: the first three weeks)."
+    ),
+    out: Path = typer.Option(None, "--out", help="Report folder (default reports/onset_<pump>)."),
+    debug: bool = DEBUG_OPTION,
+) -> None:
+    """Find when a pump's suction margin began to shrink, in which episodes, driven by what."""
+    result = investigate(config, pump, start, end, failed_on=failed_on, baseline=baseline)
+    out = out or Path("reports") / f"onset_{''.join(c if c.isalnum() else '_' for c in pump)}"
+    page = write_onset_report(result, out)
+    typer.echo(result.finding)
+    typer.echo(str(page.resolve()))
+    raise typer.Exit(EXIT_OK)

@@ -1,0 +1,109 @@
+"""The onset page: timeline of daily band hours with the onset and failure marked, cumulative
+exposure, episodes, drivers over time, and the plain-language finding."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pandas as pd
+import plotly.graph_objects as go
+from jinja2 import Environment, PackageLoader, select_autoescape
+from plotly.offline import get_plotlyjs
+
+from .cautions import CAUTIONS
+from .drivers import DRIVERS
+from .palette import STATE_COLOURS
+
+_ENV = Environment(loader=PackageLoader("screening", "templates"),
+                   autoescape=select_autoescape(["html"]))  # fmt: skip
+DRIVER_COLOURS = {
+    "suction_pressure": "#2d5f8f",
+    "temperature": "#c7761c",
+    "flow": "#5c2a00",
+    "speed": "#7d7d7d",
+}
+
+
+def _html(fig: go.Figure, div_id: str) -> str:
+    return fig.to_html(full_html=False, include_plotlyjs=False, div_id=div_id)
+
+
+def _mark(fig, when, label, dash):
+    if when is not None:
+        x = pd.Timestamp(when).strftime("%Y-%m-%d")
+        fig.add_vline(x=x, line={"dash": dash, "color": "#1d1d1d"})
+        fig.add_annotation(x=x, yref="paper", y=1.02, text=label, showarrow=False)
+
+
+def write_onset_page(result, out: Path, failed_on=None) -> Path:
+    """Write ``onset.html`` (and plotly.min.js) into ``out``; return the page's path."""
+    h = result.hours
+    x = h["date"].dt.strftime("%Y-%m-%d")
+    timeline = go.Figure()
+    timeline.add_bar(
+        x=x,
+        y=h["below_npsh3_h"],
+        name="below NPSH3",
+        marker={"color": STATE_COLOURS["below_npsh3"], "pattern": {"shape": "x"}},
+    )
+    timeline.add_bar(
+        x=x,
+        y=h["below_guidance_h"] - h["below_npsh3_h"],
+        name="below guidance",
+        marker={"color": STATE_COLOURS["below_guidance"], "pattern": {"shape": "/"}},
+    )
+    timeline.update_layout(barmode="stack", height=320, yaxis_title=f"hours per {result.period}",
+                           margin={"l": 60, "r": 20, "t": 30, "b": 40})  # fmt: skip
+    _mark(timeline, result.onset.get("onset"), "onset (margin)", "dash")
+    _mark(timeline, result.onset_exposure.get("onset"), "onset (exposure)", "dot")
+    cumul = go.Figure()
+    for col, name, colour in (
+        ("cum_below_npsh3_h", "below NPSH3", "below_npsh3"),
+        ("cum_below_guidance_h", "below guidance", "below_guidance"),
+    ):
+        if col in h:
+            cumul.add_scatter(
+                x=x,
+                y=h[col],
+                name=name,
+                mode="lines",
+                line={"color": STATE_COLOURS[colour], "width": 2},
+            )
+    cumul.update_layout(height=300, yaxis_title="cumulative hours",
+                        margin={"l": 60, "r": 20, "t": 30, "b": 40})  # fmt: skip
+    drivers = go.Figure()
+    d = result.drivers
+    if len(d):
+        dx = pd.to_datetime(d["date"]).dt.strftime("%Y-%m-%d")
+        for k in DRIVERS:
+            drivers.add_scatter(
+                x=dx,
+                y=d[f"{k}_m"],
+                name=k.replace("_", " "),
+                mode="lines",
+                line={"color": DRIVER_COLOURS[k]},
+            )
+        drivers.add_scatter(
+            x=dx,
+            y=d["change_m"],
+            name="total change",
+            mode="lines",
+            line={"color": "#1d1d1d", "dash": "dash"},
+        )
+    drivers.update_layout(height=320, yaxis_title="margin change against baseline [m]",
+                          margin={"l": 60, "r": 20, "t": 30, "b": 40})  # fmt: skip
+    eps = result.episodes.copy()
+    html = _ENV.get_template("onset.html").render(
+        r=result,
+        fig_timeline=_html(timeline, "timeline"),
+        fig_cumulative=_html(cumul, "cumulative"),
+        fig_drivers=_html(drivers, "drivers") if len(d) else "",
+        episodes=eps.to_dict("records"),
+        episode_columns=list(eps.columns),
+        before=None if result.before_failure is None else result.before_failure.to_dict("records"),
+        cautions=CAUTIONS,
+    )
+    (out / "plotly.min.js").write_text(get_plotlyjs(), encoding="utf-8")
+    page = out / "onset.html"
+    page.write_text(html, encoding="utf-8")
+    return page

@@ -1,0 +1,79 @@
+"""Onset investigation on invented data with a planted onset of known date and cause.
+
+The change-point method itself is checked against a brute-force least-squares split in
+tests/test_episodes.py; here the whole chain (scan, residual, episodes, drivers) must put the
+onset near the planted day and blame the planted input.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+from plantmaker import make_plant, pump_row
+from typer.testing import CliRunner
+
+import screening
+from screening.cli.main import app
+
+
+def _history(tmp_path, cause: str):
+    rng = np.random.default_rng(11)  # fixed random state
+    times = pd.date_range("2026-01-01", "2026-04-01", freq="10min", inclusive="left")
+    n = len(times)
+    day = (times - times[0]).days.to_numpy()
+    pressure = -40.0 + rng.normal(0, 0.8, n)  # kPa g: a suction under slight vacuum
+    temp = 20.0 + 2.0 * np.sin(2 * np.pi * np.arange(n) / 144) + rng.normal(0, 0.2, n)
+    flow = 90.0 + rng.normal(0, 2.0, n)
+    if cause == "pressure":
+        pressure[day >= 40] -= 25.0  # planted: suction pressure down 25 kPa from day 40
+    else:
+        temp[day >= 50] += 55.0  # planted: liquid 55 K warmer from day 50
+    frame = pd.DataFrame(
+        {
+            "timestamp": times.strftime("%Y-%m-%d %H:%M:%S"),
+            "P1.PS": pressure.round(3),
+            "P1.TT": temp.round(3),
+            "P1.FT": flow.round(2),
+            "P1.RUN": 1,
+        }
+    )
+    return make_plant(
+        tmp_path, wide={"a.csv": frame}, rows=[pump_row("P1", stale_limit="15 min")],
+        start="2026-01-01", end="2026-04-01",
+    )  # fmt: skip
+
+
+PLANTED = [("pressure", 40, "suction_pressure"), ("temperature", 50, "temperature")]
+
+
+@pytest.mark.parametrize(("cause", "day", "driver"), PLANTED)
+def test_planted_onset_found_and_blamed(tmp_path, cause, day, driver):
+    path = _history(tmp_path, cause)
+    r = screening.investigate(path, "P1", "2026-01-01", "2026-04-01")
+    planted = pd.Timestamp("2026-01-01") + pd.Timedelta(days=day)
+    assert r.onset["onset"] is not None
+    assert abs((pd.Timestamp(r.onset["onset"]) - planted).days) <= 3
+    late = r.drivers.tail(20)
+    shares = {k: late[f"{k}_m"].mean() for k in ("suction_pressure", "temperature", "flow")}
+    assert min(shares, key=shares.get) == driver
+    assert len(r.episodes) >= 1
+    assert r.episodes["start"].min() >= planted.tz_localize("UTC") - pd.Timedelta(days=1)
+
+
+def test_onset_command_writes_page_and_tables(tmp_path):
+    path = _history(tmp_path, "pressure")
+    out = tmp_path / "onset"
+    res = CliRunner().invoke(app, ["onset", str(path), "P1", "--from", "2026-01-01",
+                                   "--to", "2026-04-01", "--failed-on", "2026-03-20",
+                                   "--out", str(out)])  # fmt: skip
+    assert res.exit_code == 0, res.output
+    assert "fell from about 2026-02-" in res.output
+    for name in ("onset_hours", "episodes", "drivers", "before_failure"):
+        assert (out / f"{name}.csv").exists() and (out / f"{name}.parquet").exists()
+    html = (out / "onset.html").read_text()
+    assert "screening aid, not a design or safety determination" in html
+    before = pd.read_csv(out / "before_failure.csv").set_index("span_days")
+    # from day 40 (2026-02-10) on, the pump is below guidance nearly all the time: the 30 days
+    # before the failure are almost all exposure
+    assert before.loc[30, "below_guidance_h"] > 0.9 * 30 * 24
