@@ -40,6 +40,7 @@ class OnsetResult:
     finding: str
     baseline: tuple[pd.Timestamp, pd.Timestamp]
     notes: list[str] = field(default_factory=list)
+    failed_on: pd.Timestamp | None = None
 
 
 def _baseline(plant: Plant, start, end, baseline) -> tuple[pd.Timestamp, pd.Timestamp]:
@@ -156,6 +157,7 @@ def investigate(
         weighted = shares[cols].mul(w, axis=0).assign(date=shares["date"], hours=w)
         grouped = weighted.groupby("date").sum()
         drivers = grouped[cols].div(grouped["hours"].replace(0, np.nan), axis=0).reset_index()
+        eps = _episode_drivers(eps, shares)
     else:
         notes.append("margin drivers are computed for transmitter pumps only")
 
@@ -181,7 +183,27 @@ def investigate(
     return OnsetResult(
         pump_id, result.start, result.end, period, table, eps, drivers, onset, onset_exposure,
         before, finding, (base_a, base_b), notes,
+        pd.Timestamp(failed_on) if failed_on is not None else None,
     )  # fmt: skip
+
+
+def _episode_drivers(eps: pd.DataFrame, shares: pd.DataFrame) -> pd.DataFrame:
+    """Add each driver's time-weighted mean margin change [m] inside every episode."""
+    if eps.empty:
+        for k in DRIVERS:
+            eps[f"{k}_m"] = pd.Series(dtype=float)
+        return eps
+    t = shares["time"]
+    out = eps.copy()
+    for k in DRIVERS:
+        values = []
+        for e in eps.itertuples(index=False):
+            inside = ((t >= e.start) & (t < e.end)).to_numpy()
+            w = shares["hours"].to_numpy()[inside]
+            v = shares[f"{k}_m"].to_numpy()[inside]
+            values.append(float(np.sum(w * v) / np.sum(w)) if w.sum() > 0 else np.nan)
+        out[f"{k}_m"] = values
+    return out
 
 
 def _finding(pump_id, onset, onset_exposure, drivers, eps, before) -> str:

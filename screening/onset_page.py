@@ -56,6 +56,7 @@ def write_onset_page(result, out: Path, failed_on=None) -> Path:
                            margin={"l": 60, "r": 20, "t": 30, "b": 40})  # fmt: skip
     _mark(timeline, result.onset.get("onset"), "onset (margin)", "dash")
     _mark(timeline, result.onset_exposure.get("onset"), "onset (exposure)", "dot")
+    _mark(timeline, result.failed_on, "failure", "solid")
     cumul = go.Figure()
     for col, name, colour in (
         ("cum_below_npsh3_h", "below NPSH3", "below_npsh3"),

@@ -59,6 +59,9 @@ def test_planted_onset_found_and_blamed(tmp_path, cause, day, driver):
     assert min(shares, key=shares.get) == driver
     assert len(r.episodes) >= 1
     assert r.episodes["start"].min() >= planted.tz_localize("UTC") - pd.Timedelta(days=1)
+    # per episode too, the planted input carries the loss
+    per = r.episodes[[f"{k}_m" for k in ("suction_pressure", "temperature", "flow")]].mean()
+    assert per.idxmin() == f"{driver}_m"
 
 
 def test_onset_command_writes_page_and_tables(tmp_path):
@@ -72,6 +75,7 @@ def test_onset_command_writes_page_and_tables(tmp_path):
     for name in ("onset_hours", "episodes", "drivers", "before_failure"):
         assert (out / f"{name}.csv").exists() and (out / f"{name}.parquet").exists()
     html = (out / "onset.html").read_text()
+    assert '"text":"failure"' in html.replace(" ", "")  # the failure date is marked
     assert "screening aid, not a design or safety determination" in html
     before = pd.read_csv(out / "before_failure.csv").set_index("span_days")
     # from day 40 (2026-02-10) on, the pump is below guidance nearly all the time: the 30 days

@@ -21,10 +21,22 @@ def onset_command(
         None, "--baseline", help="Baseline period FROM..TO (default: the first three weeks)."
     ),
     out: Path = typer.Option(None, "--out", help="Report folder (default reports/onset_<pump>)."),
+    enter_below: float = typer.Option(
+        1.0, "--enter-below", help="Episode starts below this fraction of the guidance."
+    ),
+    leave_above: float = typer.Option(
+        1.05, "--leave-above", help="Episode ends above this fraction of the guidance."
+    ),
+    min_hours: float = typer.Option(0.5, "--min-hours", help="Shortest episode kept [h]."),
+    bridge_hours: float = typer.Option(1.0, "--bridge-hours", help="Gaps bridged [h]."),
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Find when a pump's suction margin began to shrink, in which episodes, driven by what."""
-    result = investigate(config, pump, start, end, failed_on=failed_on, baseline=baseline)
+    result = investigate(
+        config, pump, start, end, failed_on=failed_on, baseline=baseline,
+        enter_below=enter_below, leave_above=leave_above, min_duration_h=min_hours,
+        bridge_gap_h=bridge_hours,
+    )  # fmt: skip
     out = out or Path("reports") / f"onset_{''.join(c if c.isalnum() else '_' for c in pump)}"
     page = write_onset_report(result, out)
     typer.echo(result.finding)
