@@ -81,3 +81,17 @@ def test_onset_command_writes_page_and_tables(tmp_path):
     # from day 40 (2026-02-10) on, the pump is below guidance nearly all the time: the 30 days
     # before the failure are almost all exposure
     assert before.loc[30, "below_guidance_h"] > 0.9 * 30 * 24
+
+
+def test_year_long_demo_history_weekly(tmp_path):
+    """The invented year-long history extract (demo_exports/README.md): HX-702's cooling water
+    runs 12 K warmer from 2026-04-10; a year's window is summarised per week."""
+    from pathlib import Path
+
+    config = Path(__file__).resolve().parents[1] / "configs" / "demo_history.toml"
+    r = screening.investigate(config, "HX-702", "2025-11-01", "2026-11-01")
+    assert r.period == "week"
+    assert abs((pd.Timestamp(r.onset["onset"]) - pd.Timestamp("2026-04-10")).days) <= 3
+    assert "mostly from temperature" in r.finding
+    weeks = r.hours["date"]
+    assert (weeks.diff().dropna() == pd.Timedelta(days=7)).all()
