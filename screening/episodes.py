@@ -455,3 +455,49 @@ def estimate_onset(
         confidence=float(np.mean(offset <= tolerance_days)),
     )
     return result
+
+
+def estimate_ramp_onset(dates: Any, values: Any, min_days: int = 5) -> dict:
+    """Start of a gradual decline (or rise): the best broken-stick fit of a daily series.
+
+    Model y = a + b·max(0, t − k) for every admissible day k, fitted by least squares
+    (a continuous piecewise-linear "hinge", the segmented regression of Muggeo, Statistics in
+    Medicine 22 (2003) 3055-3071, solved here by exhaustive search over k). A slow drift such
+    as a fouling strainer is a ramp, which a change in the mean places too late.
+
+    Parameters
+    ----------
+    dates : array-like of dates
+        One calendar day per value, strictly increasing.
+    values : array-like of float
+        The daily series (NaN days are left out).
+    min_days : int
+        Fewest days before the hinge.
+
+    Returns
+    -------
+    dict with ``onset`` (the hinge day or None), ``slope`` [value per day] after it, ``sse``
+    of the hinge fit and ``sse_step`` of the best single mean shift, for comparison.
+    """
+    days = _day_index(dates)
+    y = np.asarray(values, dtype=np.float64)
+    ok = np.isfinite(y)
+    days, y = days[ok], y[ok]
+    n = len(y)
+    out: dict = {"onset": None, "slope": np.nan, "sse": np.nan, "sse_step": np.nan}
+    if n < 2 * min_days + 2:
+        return out
+    t = ((days - days[0]) / pd.Timedelta(days=1)).to_numpy(dtype=np.float64)
+    best = (np.inf, None, np.nan)
+    for k in range(min_days, n - min_days):
+        x = np.maximum(0.0, t - t[k])
+        design = np.column_stack([np.ones(n), x])
+        coef, *_ = np.linalg.lstsq(design, y, rcond=None)
+        sse = float(np.sum((y - design @ coef) ** 2))
+        if sse < best[0]:
+            best = (sse, k, float(coef[1]))
+    sse, k, slope = best
+    step_k = _single_split(y, min_days)
+    sse_step = _sse(y[:step_k]) + _sse(y[step_k:])
+    out.update(onset=days[k], slope=slope, sse=sse, sse_step=sse_step)
+    return out

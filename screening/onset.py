@@ -41,6 +41,7 @@ class OnsetResult:
     baseline: tuple[pd.Timestamp, pd.Timestamp]
     notes: list[str] = field(default_factory=list)
     failed_on: pd.Timestamp | None = None
+    ramp: dict = field(default_factory=dict)
 
 
 def _baseline(plant: Plant, start, end, baseline) -> tuple[pd.Timestamp, pd.Timestamp]:
@@ -175,15 +176,26 @@ def investigate(
         pd.to_datetime(daily_resid.index).tz_localize(None), daily_resid.to_numpy()
     )
     onset_exposure = ep.estimate_onset(exposure.index, exposure.to_numpy())
+    # a slow drift (a fouling strainer) is a ramp: where a hinge fits the margin better than a
+    # step, the decline's start is the onset (see episodes.estimate_ramp_onset)
+    ramp = ep.estimate_ramp_onset(
+        pd.to_datetime(daily_resid.index).tz_localize(None), daily_resid.to_numpy()
+    )
+    ramp["chosen"] = bool(
+        onset.get("onset") is not None
+        and ramp.get("onset") is not None
+        and ramp["slope"] < 0
+        and ramp["sse"] < ramp["sse_step"]
+    )
 
     before = None
     if failed_on is not None:
         before = ep.exposure_before(daily, pd.Timestamp(failed_on))
-    finding = _finding(pump_id, onset, onset_exposure, drivers, eps, before)
+    finding = _finding(pump_id, onset, onset_exposure, drivers, eps, before, ramp)
     return OnsetResult(
         pump_id, result.start, result.end, period, table, eps, drivers, onset, onset_exposure,
         before, finding, (base_a, base_b), notes,
-        pd.Timestamp(failed_on) if failed_on is not None else None,
+        pd.Timestamp(failed_on) if failed_on is not None else None, ramp,
     )  # fmt: skip
 
 
@@ -206,15 +218,21 @@ def _episode_drivers(eps: pd.DataFrame, shares: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
-def _finding(pump_id, onset, onset_exposure, drivers, eps, before) -> str:
+def _finding(pump_id, onset, onset_exposure, drivers, eps, before, ramp=None) -> str:
     when = onset.get("onset") or onset_exposure.get("onset")
-    if when is None:
+    if ramp and ramp.get("chosen"):
+        text = (
+            f"{pump_id}: the suction margin began to decline gradually from about "
+            f"{pd.Timestamp(ramp['onset']):%Y-%m-%d} ({ramp['slope']:+.3f} m per day)"
+        )
+    elif when is None:
         text = f"{pump_id}: no lasting change in suction margin found in the window"
     else:
         text = f"{pump_id}: the suction margin fell from about {pd.Timestamp(when):%Y-%m-%d}"
         lo, hi = onset.get("interval", (None, None)) if onset.get("onset") else (None, None)
         if lo is not None:
             text += f" (between {pd.Timestamp(lo):%Y-%m-%d} and {pd.Timestamp(hi):%Y-%m-%d})"
+    if when is not None or (ramp and ramp.get("chosen")):
         if len(drivers):
             late = drivers.tail(max(1, len(drivers) // 4))
             shares = {k: float(late[f"{k}_m"].mean()) for k in DRIVERS}
@@ -223,7 +241,7 @@ def _finding(pump_id, onset, onset_exposure, drivers, eps, before) -> str:
                 text += f", mostly from {worst.replace('_', ' ')} ({shares[worst]:+.2f} m)"
     text += f"; {len(eps)} episode(s) below the guidance"
     if before is not None and len(before):
-        # the shortest span the data cover (NaN where a span reaches outside the window)
+        # the longest span the data cover (NaN where a span reaches outside the window)
         covered = before.dropna(subset=["below_guidance_h"])
         if len(covered):
             row = covered.iloc[-1]

@@ -294,3 +294,27 @@ def test_estimate_onset_rejects_bad_input_and_short_series():
     short = estimate_onset(DAYS[:8], np.arange(8.0))
     assert short["onset"] is None
     assert short["reason"].startswith("too few days with data (8; need at least 10)")
+
+
+def test_ramp_onset_found_where_the_drift_begins():
+    # invented daily series: flat, then a steady decline from day 150 of 365 (fixed random
+    # state); a change in the mean would land in the middle of the decline
+    from screening.episodes import estimate_onset, estimate_ramp_onset
+
+    rng = np.random.default_rng(21)
+    days = pd.date_range("2026-01-01", periods=365, freq="D")
+    t = np.arange(365.0)
+    y = 5.0 - 0.03 * np.maximum(0.0, t - 150) + rng.normal(0, 0.15, 365)
+    ramp = estimate_ramp_onset(days, y)
+    assert abs((ramp["onset"] - days[150]).days) <= 7
+    assert ramp["slope"] == pytest.approx(-0.03, rel=0.1)
+    assert ramp["sse"] < ramp["sse_step"]  # the hinge explains a drift better than a step
+    step = estimate_onset(days, y)
+    assert (pd.Timestamp(step["onset"]) - days[150]).days > 30  # why the hinge is needed
+    # brute-force check of the hinge search: no other day fits better (least squares)
+    sses = []
+    for k in range(5, 360):
+        x = np.column_stack([np.ones(365), np.maximum(0.0, t - t[k])])
+        coef, *_ = np.linalg.lstsq(x, y, rcond=None)
+        sses.append(float(np.sum((y - x @ coef) ** 2)))
+    assert min(sses) == pytest.approx(ramp["sse"], rel=1e-12)

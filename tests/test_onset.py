@@ -95,3 +95,16 @@ def test_year_long_demo_history_weekly(tmp_path):
     assert "mostly from temperature" in r.finding
     weeks = r.hours["date"]
     assert (weeks.diff().dropna() == pd.Timedelta(days=7)).all()
+
+
+def test_year_long_demo_history_slow_fouling():
+    """HX-701's strainer fouls from 2026-06-15 until the pump fails on 2026-09-20 (invented
+    history): a ramp, whose start the broken-stick fit finds, not a step."""
+    from pathlib import Path
+
+    config = Path(__file__).resolve().parents[1] / "configs" / "demo_history.toml"
+    r = screening.investigate(config, "HX-701", "2025-11-01", "2026-11-01", failed_on="2026-09-20")
+    assert r.ramp["chosen"]
+    # the loss grows slowly at first (it follows the strainer's blockage), so allow two weeks
+    assert abs((pd.Timestamp(r.ramp["onset"]) - pd.Timestamp("2026-06-15")).days) <= 14
+    assert "decline gradually" in r.finding and "suction pressure" in r.finding
