@@ -18,29 +18,6 @@ except ImportError:  # pragma: no cover
     numba = None
 
 
-def last_index_numpy(times: np.ndarray, grid: np.ndarray) -> np.ndarray:
-    """Index of the last of ``times`` at or before each of ``grid`` (-1 if none); both sorted."""
-    return np.searchsorted(times, grid, side="right") - 1
-
-
-def _last_index_loop(times, grid):  # pragma: no cover - compiled
-    """Index of the last of ``times`` at or before each point of ``grid`` (-1 if none).
-
-    ``times`` [ns]: sorted, unique sample times; ``grid`` [ns]: sorted timeline points.
-    One merge pass: O(len(times) + len(grid)).
-    """
-    n = grid.shape[0]
-    m = times.shape[0]
-    out = np.empty(n, np.int64)
-    k = -1
-    for i in range(n):
-        g = grid[i]
-        while k + 1 < m and times[k + 1] <= g:
-            k += 1
-        out[i] = k
-    return out
-
-
 def hold_numpy(times, values, bad, grid, stale_ns, never):
     """Each tag's last sample at each grid point: (value, bad, fresh-until) (numpy form).
 
@@ -207,7 +184,6 @@ def _compile(func, fallback):
         return numba.njit(nogil=True)(func)
 
 
-last_index = _compile(_last_index_loop, last_index_numpy)
 hold = _compile(_hold_loop, hold_numpy)
 union_sorted = _compile(_union_sorted_loop, union_sorted_numpy)
 pchip_eval = _compile(_pchip_eval_loop, pchip_eval_numpy)
@@ -222,7 +198,6 @@ def _warm_up() -> None:
     not inside the first pump's calculation.
     """
     t = np.array([0, 1], dtype=np.int64)
-    last_index(t, t)
     hold(t, np.zeros(2), np.zeros(2, dtype=np.bool_), t, 1, -1)
     union_sorted(t, t)
     x = np.array([0.0, 1.0])

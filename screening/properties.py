@@ -282,15 +282,6 @@ class FluidTable:
     density_model: str = "CoolProp saturated liquid"
     vapour_pressure_choice: str | None = None
 
-    def _locate(self, temperature):
-        t = np.asarray(temperature, dtype=np.float64)
-        pos = (t - self.t_min) / self.step
-        ok = (t >= self.t_min) & (t <= self.t_max)
-        pos = np.where(ok, pos, 0.0)
-        idx = np.minimum(pos.astype(np.int64), len(self.rho) - 2)
-        frac = pos - idx
-        return idx, frac, ok
-
     def in_range(self, temperature) -> np.ndarray:
         """True where the temperature [K] lies in the table's valid range."""
         t = np.asarray(temperature, dtype=np.float64)

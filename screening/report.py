@@ -31,6 +31,7 @@ from .palette import (
     STATE_LABELS,
     STATE_PATTERNS,
 )
+from .properties import fluid_table
 from .pump_pages import DISPLAY_UNITS, page_names
 from .scan import ScanResult
 
@@ -106,7 +107,7 @@ def _input_files(result: ScanResult) -> list[dict]:
     paths = [result.plant.path]
     reg = result.plant.settings.register_files
     paths += [result.plant.base / reg.pumps, result.plant.base / reg.curves]
-    index_paths = sorted({str(p) for p in _export_paths(result)})
+    index_paths = sorted(result.export_files)
     for p in [str(x) for x in paths] + index_paths:
         path = Path(p)
         try:
@@ -117,16 +118,6 @@ def _input_files(result: ScanResult) -> list[dict]:
             {"path": str(path), "bytes": len(data), "sha256": hashlib.sha256(data).hexdigest()}
         )
     return files
-
-
-def _export_paths(result: ScanResult):
-    import glob
-
-    for source in result.plant.settings.exports:
-        pattern = source.files
-        if not Path(pattern).is_absolute():
-            pattern = str(result.plant.base / pattern)
-        yield from glob.glob(pattern, recursive=True)
 
 
 def write_report(
@@ -301,8 +292,6 @@ def _write_pump_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
             figs["fig_points"] = _fig(fig, "points")
         daily = result.daily[(result.daily.pump_id == pid) & (result.daily.kind == "margin")]
         figs["fig_calendar"] = _fig(pump_pages.calendar_figure(daily), "calendar")
-        from .properties import fluid_table
-
         model = fluid_table(pump.fluid, pump.vapour_pressure).vapour_pressure_model
         html = template.render(
             pump=pump,

@@ -61,6 +61,8 @@ class ScanResult:
     file_problems: pd.DataFrame
     series: dict[str, pd.DataFrame] = field(default_factory=dict)
     plots: dict[str, pd.DataFrame] = field(default_factory=dict)
+    #: Every export file the plant file's globs matched (read or not), for the audit trail.
+    export_files: list[str] = field(default_factory=list)
     points: dict[str, dict] = field(default_factory=dict)
     elapsed_s: float = 0.0
     samples: int = 0
@@ -232,6 +234,9 @@ def scan(
     out.series = {r.pump_id: r.series for r in results if r.series is not None}
     out.plots = {r.pump_id: r.plot for r in results if r.plot is not None}
     out.points = {r.pump_id: r.points for r in results if r.points is not None}
+    out.export_files = [str(f.path) for f in index.files] + [
+        p for p in index.file_problems if Path(p).is_file()
+    ]
     out.samples = samples
     out.elapsed_s = time.perf_counter() - t0
     return out
