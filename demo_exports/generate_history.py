@@ -16,8 +16,9 @@ Planted onsets:
           pressure loss that grows steadily from then on); the pump fails on 2026-09-20 and
           stays stopped (run 0) afterwards. Below guidance more and more often from August.
   HX-702  jacket cooling-water circulation: its cooling-water supply runs 12 K warmer from
-          2026-04-10 on (a step: a new upstream heat load); below guidance on warm afternoons
-          after that.
+          2026-04-10 on (a step: a new upstream heat load); its margin is about 1.8 m lower
+          after that but stays above guidance except for two short hot spells (2026-07-04
+          and 2026-10-09, a few hours each).
 
 Physics (simple water correlations, standard atmosphere at 120 m, no barometer):
     NPSHa = (p_abs - p_vapour(T)) / (rho g) + v^2 / (2 g) + z_tap

@@ -115,16 +115,7 @@ def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str):
         p_surface = suction.surface_pressure_from_tag(
             held["vessel_pressure"].value, baro, pump.vessel_gauge
         )
-    line = pump.suction_line
-    if line is None:
-        loss = np.zeros(len(flow))
-    elif line.k is not None:
-        loss = suction.loss_from_coefficient(flow, line.k)
-    else:
-        mu = suction.viscosity_table(fluid).viscosity(temp)
-        loss = suction.loss_darcy_weisbach(
-            flow, rho, mu, line.length, line.bore, line.roughness, line.fittings_k
-        )
+    loss = suction.line_loss(pump.suction_line, flow, rho, temp, fluid)
     npsha = suction.npsha_from_vessel(
         p_surface, p_v, rho, held["level"].value, pump.level_zero_elevation, loss
     )
@@ -382,10 +373,14 @@ def calculate_pump(
                 "npsha_m": np.where(running, npsha, np.nan),
                 "npsh3_m": np.where(running, npsh3, np.nan),
                 "ratio": np.where(running, ratio, np.nan),
-                "suction_pressure_abs_pa": p_abs,
+                "suction_pressure_abs_pa": p_abs if pump.source == "transmitter" else np.nan,
                 "temperature_k": temp,
                 "flow_m3_s": flow,
                 "speed_rpm": speed if speed is not None else np.nan,
             }
         )
+        if pump.source != "transmitter":
+            # surface pressure (p_v for a saturated vessel) and level of a vessel-fed pump
+            result.series["surface_pressure_abs_pa"] = p_abs
+            result.series["level_m"] = held["level"].value
     return result

@@ -12,7 +12,14 @@ import zoneinfo
 from pathlib import Path
 from typing import Literal
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    ValidationError,
+    field_validator,
+    model_validator,
+)
 
 from .units import UnitError, parse_duration, parse_quantity, parse_unit
 
@@ -120,6 +127,31 @@ class Window(_Strict):
     end: str | None = None
 
 
+class Onset(_Strict):
+    """Settings of the onset investigation (``pumpscreen onset``); the command line overrides.
+
+    Episodes below the guidance start where NPSHa falls below ``enter_below`` times the
+    guidance head and end where it rises above ``leave_above`` times it (hysteresis); stretches
+    with less than ``min_hours`` below are dropped and gaps shorter than ``bridge_hours``
+    bridged. The baseline is the first ``baseline_days`` of the window (at most a quarter).
+    """
+
+    enter_below: float = Field(1.0, gt=0, description="[-] of the guidance head")
+    leave_above: float = Field(1.05, gt=0, description="[-] of the guidance head")
+    min_hours: float = Field(0.5, ge=0, description="[h]")
+    bridge_hours: float = Field(1.0, ge=0, description="[h]")
+    baseline_days: float = Field(21.0, gt=0, description="[days]")
+
+    @model_validator(mode="after")
+    def _hysteresis(self) -> Onset:
+        if not self.leave_above > self.enter_below:
+            raise ValueError(
+                f"leave_above ({self.leave_above}) must be greater than enter_below "
+                f"({self.enter_below})"
+            )
+        return self
+
+
 class ExportSource(_Strict):
     """One family of historian export files and how they are laid out."""
 
@@ -178,6 +210,7 @@ class PlantFile(_Strict):
     data: DataRules = DataRules()
     running: Running = Running()
     window: Window = Window()
+    onset: Onset = Onset()
     exports: tuple[ExportSource, ...] = Field(min_length=1)
     policy: Policy
 

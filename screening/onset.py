@@ -16,11 +16,13 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from . import changepoint as cp
 from . import episodes as ep
-from .drivers import DRIVERS, driver_shares
+from .drivers import driver_shares, drivers_for
 from .plant import Plant, load_plant
 from .properties import fluid_table
 from .scan import scan, window_bounds
+from .states import BANDS
 
 
 @dataclass
@@ -42,11 +44,12 @@ class OnsetResult:
     notes: list[str] = field(default_factory=list)
     failed_on: pd.Timestamp | None = None
     ramp: dict = field(default_factory=dict)
+    timezone: str = "UTC"  # the site's, for display
 
 
 def _baseline(plant: Plant, start, end, baseline) -> tuple[pd.Timestamp, pd.Timestamp]:
     if baseline is None:
-        span = min(pd.Timedelta(days=21), (end - start) / 4)
+        span = min(pd.Timedelta(days=plant.settings.onset.baseline_days), (end - start) / 4)
         return start, start + span
     a, b = baseline.split("..") if isinstance(baseline, str) else baseline
     return window_bounds(plant, a, b)
@@ -76,10 +79,10 @@ def investigate(
     end,
     failed_on=None,
     baseline=None,
-    enter_below: float = 1.0,
-    leave_above: float = 1.05,
-    min_duration_h: float = 0.5,
-    bridge_gap_h: float = 1.0,
+    enter_below: float | None = None,
+    leave_above: float | None = None,
+    min_duration_h: float | None = None,
+    bridge_gap_h: float | None = None,
 ) -> OnsetResult:
     """Investigate when a pump's margin trouble began.
 
@@ -93,13 +96,22 @@ def investigate(
     failed_on : str or Timestamp, optional
         Failure date: exposure in the 30, 90 and 180 days before it, and a year earlier.
     baseline : str "FROM..TO" or (from, to), optional
-        Baseline period; default the first three weeks (at most a quarter of the window).
-    enter_below, leave_above : float
+        Baseline period; default the first ``[onset] baseline_days`` of the window (21, at
+        most a quarter of the window).
+    enter_below, leave_above : float, optional
         Episode hysteresis on NPSHa / guidance head [-]: enter below, leave above.
-    min_duration_h, bridge_gap_h : float
+    min_duration_h, bridge_gap_h : float, optional
         Shortest episode kept [h]; gaps shorter than this are bridged [h].
+
+    Episode settings left as None come from the plant file's ``[onset]`` table (see
+    :class:`screening.config.Onset` for the defaults).
     """
     plant = config if isinstance(config, Plant) else load_plant(config)
+    rules = plant.settings.onset
+    enter_below = rules.enter_below if enter_below is None else enter_below
+    leave_above = rules.leave_above if leave_above is None else leave_above
+    min_duration_h = rules.min_hours if min_duration_h is None else min_duration_h
+    bridge_gap_h = rules.bridge_hours if bridge_gap_h is None else bridge_gap_h
     if pump_id not in plant.pumps:
         raise ValueError(
             f"pump {pump_id!r} cannot be investigated: "
@@ -115,6 +127,12 @@ def investigate(
     base_a, base_b = _baseline(plant, result.start, result.end, baseline)
     times = series["time"]
     base = ((times >= base_a) & (times < base_b)).to_numpy()
+    known = series["state"].isin(BANDS).to_numpy() & (series["hours"].to_numpy() > 0)
+    if not (base & known).any():
+        raise ValueError(
+            f"pump {pump_id}: the baseline {base_a} to {base_b} (UTC) has no running sample with "
+            "a known margin; choose a baseline when the pump ran (--baseline FROM..TO)"
+        )
 
     # hours per day or week
     d = result.daily[(result.daily.kind == "margin")]
@@ -146,21 +164,23 @@ def investigate(
         bridge_gap_h,
     )  # fmt: skip
 
-    # drivers over time (transmitter pumps)
+    # drivers over time: one input at a time put back at its baseline value
     notes: list[str] = []
-    drivers = pd.DataFrame()
-    if pump.source == "transmitter":
-        shares = driver_shares(series, pump, curve, fluid_table(pump.fluid, pump.vapour_pressure),
-                               base)  # fmt: skip
-        shares["date"] = shares["time"].dt.tz_convert(plant.timezone).dt.floor("D")
-        w = shares["hours"]
-        cols = ["change_m"] + [f"{k}_m" for k in DRIVERS] + ["interaction_m"]
-        weighted = shares[cols].mul(w, axis=0).assign(date=shares["date"], hours=w)
-        grouped = weighted.groupby("date").sum()
-        drivers = grouped[cols].div(grouped["hours"].replace(0, np.nan), axis=0).reset_index()
-        eps = _episode_drivers(eps, shares)
-    else:
-        notes.append("margin drivers are computed for transmitter pumps only")
+    base_hours = float(series["hours"].to_numpy()[base & known].sum())
+    if base_hours < 7 * 24:
+        notes.append(
+            f"the baseline holds only {base_hours:.0f} running hours with a known margin; "
+            "its medians and the flow-normalised fit rest on little data"
+        )
+    names = drivers_for(pump)
+    shares = driver_shares(series, pump, curve, fluid_table(pump.fluid, pump.vapour_pressure), base)
+    shares["date"] = shares["time"].dt.tz_convert(plant.timezone).dt.floor("D")
+    w = shares["hours"]
+    cols = ["change_m"] + [f"{k}_m" for k in names] + ["interaction_m"]
+    weighted = shares[cols].mul(w, axis=0).assign(date=shares["date"], hours=w)
+    grouped = weighted.groupby("date").sum()
+    drivers = grouped[cols].div(grouped["hours"].replace(0, np.nan), axis=0).reset_index()
+    eps = _episode_drivers(eps, shares, names)
 
     # onset: change point in the flow-normalised suction condition and in the exposure rate
     resid = _residual(series, base)
@@ -172,20 +192,17 @@ def investigate(
         cut = pd.Timestamp(failed_on).tz_localize(None).normalize()
         daily_resid = daily_resid[daily_resid.index.tz_localize(None) < cut]
         exposure = exposure[exposure.index < cut]
-    onset = ep.estimate_onset(
+    onset = cp.estimate_onset(
         pd.to_datetime(daily_resid.index).tz_localize(None), daily_resid.to_numpy()
     )
-    onset_exposure = ep.estimate_onset(exposure.index, exposure.to_numpy())
+    onset_exposure = cp.estimate_onset(exposure.index, exposure.to_numpy())
     # a slow drift (a fouling strainer) is a ramp: where a hinge fits the margin better than a
-    # step, the decline's start is the onset (see episodes.estimate_ramp_onset)
-    ramp = ep.estimate_ramp_onset(
+    # step, the decline's start is the onset (see changepoint.estimate_ramp_onset)
+    ramp = cp.estimate_ramp_onset(
         pd.to_datetime(daily_resid.index).tz_localize(None), daily_resid.to_numpy()
     )
     ramp["chosen"] = bool(
-        onset.get("onset") is not None
-        and ramp.get("onset") is not None
-        and ramp["slope"] < 0
-        and ramp["sse"] < ramp["sse_step"]
+        ramp["onset"] is not None and ramp["slope"] < 0 and ramp["sse"] < ramp["sse_step"]
     )
 
     before = None
@@ -195,26 +212,23 @@ def investigate(
     return OnsetResult(
         pump_id, result.start, result.end, period, table, eps, drivers, onset, onset_exposure,
         before, finding, (base_a, base_b), notes,
-        pd.Timestamp(failed_on) if failed_on is not None else None, ramp,
+        pd.Timestamp(failed_on) if failed_on is not None else None, ramp, plant.timezone,
     )  # fmt: skip
 
 
-def _episode_drivers(eps: pd.DataFrame, shares: pd.DataFrame) -> pd.DataFrame:
+def _episode_drivers(eps: pd.DataFrame, shares: pd.DataFrame, names) -> pd.DataFrame:
     """Add each driver's time-weighted mean margin change [m] inside every episode."""
-    if eps.empty:
-        for k in DRIVERS:
-            eps[f"{k}_m"] = pd.Series(dtype=float)
-        return eps
-    t = shares["time"]
     out = eps.copy()
-    for k in DRIVERS:
+    t = shares["time"]
+    w_all = shares["hours"].to_numpy()
+    for k in names:
         values = []
         for e in eps.itertuples(index=False):
             inside = ((t >= e.start) & (t < e.end)).to_numpy()
-            w = shares["hours"].to_numpy()[inside]
+            w = w_all[inside]
             v = shares[f"{k}_m"].to_numpy()[inside]
             values.append(float(np.sum(w * v) / np.sum(w)) if w.sum() > 0 else np.nan)
-        out[f"{k}_m"] = values
+        out[f"{k}_m"] = pd.Series(values, index=out.index, dtype=float)
     return out
 
 
@@ -223,8 +237,12 @@ def _finding(pump_id, onset, onset_exposure, drivers, eps, before, ramp=None) ->
     if ramp and ramp.get("chosen"):
         text = (
             f"{pump_id}: the suction margin began to decline gradually from about "
-            f"{pd.Timestamp(ramp['onset']):%Y-%m-%d} ({ramp['slope']:+.3f} m per day)"
+            f"{pd.Timestamp(ramp['onset']):%Y-%m-%d}"
         )
+        if ramp.get("interval"):
+            lo, hi = ramp["interval"]
+            text += f" (between {pd.Timestamp(lo):%Y-%m-%d} and {pd.Timestamp(hi):%Y-%m-%d})"
+        text += f", by {-ramp['slope']:.3f} m a day"
     elif when is None:
         text = f"{pump_id}: no lasting change in suction margin found in the window"
     else:
@@ -235,7 +253,9 @@ def _finding(pump_id, onset, onset_exposure, drivers, eps, before, ramp=None) ->
     if when is not None or (ramp and ramp.get("chosen")):
         if len(drivers):
             late = drivers.tail(max(1, len(drivers) // 4))
-            shares = {k: float(late[f"{k}_m"].mean()) for k in DRIVERS}
+            names = [c[:-2] for c in drivers.columns if c not in ("date", "change_m",
+                                                                  "interaction_m")]  # fmt: skip
+            shares = {k: float(late[f"{k}_m"].mean()) for k in names}
             worst = min(shares, key=shares.get)
             if shares[worst] < 0:
                 text += f", mostly from {worst.replace('_', ' ')} ({shares[worst]:+.2f} m)"

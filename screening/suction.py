@@ -156,6 +156,38 @@ def npsha_from_vessel(
 # --- suction line friction loss -------------------------------------------------------------
 
 
+def line_loss(
+    line, flow: ArrayLike, density: ArrayLike, temperature: ArrayLike, fluid: str
+) -> np.ndarray:
+    """Friction loss [m] of a pump's suction line (a ``register.SuctionLine``) at each sample.
+
+    No line: zero. A coefficient: :func:`loss_from_coefficient`. The line itself:
+    :func:`loss_darcy_weisbach` with the liquid viscosity from :func:`viscosity_table`.
+
+    Parameters
+    ----------
+    line : SuctionLine or None
+        ``k`` [s²/m⁵], or ``length``, ``bore``, ``roughness`` [m] and ``fittings_k`` [-].
+    flow : array_like
+        Volumetric flow [m³/s].
+    density : array_like
+        Liquid density [kg/m³].
+    temperature : array_like
+        Liquid temperature [K] (for the viscosity).
+    fluid : str
+        CoolProp fluid string.
+    """
+    flow = np.asarray(flow, dtype=np.float64)
+    if line is None:
+        return np.zeros(flow.shape)
+    if line.k is not None:
+        return loss_from_coefficient(flow, line.k)
+    mu = viscosity_table(fluid).viscosity(temperature)
+    return loss_darcy_weisbach(
+        flow, density, mu, line.length, line.bore, line.roughness, line.fittings_k
+    )
+
+
 def loss_from_coefficient(flow: ArrayLike, k: float) -> np.ndarray:
     """Suction line friction loss [m] from a fitted coefficient: h_f = k·Q².
 

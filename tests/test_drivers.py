@@ -54,3 +54,39 @@ def test_a_warmer_liquid_is_blamed_on_temperature(tmp_path):
     assert late["temperature_m"] == pytest.approx(expected, abs=2e-3)
     assert late["suction_pressure_m"] == pytest.approx(0.0, abs=1e-12)
     assert np.isfinite(shares["interaction_m"]).all()
+
+
+def test_a_lower_vessel_level_is_blamed_on_level(tmp_path):
+    # Open tank at sea level (no barometer: the standard atmosphere, constant), 68 °F water:
+    # the level falls from 10 ft to 6 ft at noon. NPSHa of a vessel moves one for one with
+    # the level (ANSI/HI 1.3 definition: static head), so the level's share is exactly -4 ft.
+    from test_vessel_scan import FT, vessel_plant
+
+    from screening.drivers import drivers_for
+
+    level = np.where(np.arange(1440) < 720, 10.0, 6.0)
+    path = vessel_plant(tmp_path, level)
+    plant = screening.load_plant(path)
+    pump = plant.pumps["P1"]
+    assert drivers_for(pump) == ("surface_pressure", "level", "temperature", "flow")
+    series = screening.scan(plant, keep_series=True).series["P1"]
+    base = (series["time"] < series["time"].iloc[0] + np.timedelta64(12, "h")).to_numpy()
+    shares = driver_shares(series, pump, plant.curves[pump.curve_id], fluid_table("Water"), base)
+    late = shares.iloc[-1]
+    assert late["level_m"] == pytest.approx(-4 * FT, rel=1e-12)
+    for k in ("surface_pressure_m", "temperature_m", "flow_m", "interaction_m"):
+        assert late[k] == pytest.approx(0.0, abs=1e-9)
+    # the drivers recompute the margin exactly as the calculator did
+    running = series[series["state"].isin(screening.STATES[:4]) & (series["hours"] > 0)]
+    np.testing.assert_allclose(
+        shares["margin_m"], running["npsha_m"] - running["npsh3_m"], rtol=1e-12
+    )
+
+
+def test_a_saturated_vessel_has_no_pressure_driver(tmp_path):
+    from test_vessel_scan import vessel_plant
+
+    from screening.drivers import drivers_for
+
+    plant = screening.load_plant(vessel_plant(tmp_path, 10.0, surface="saturated"))
+    assert drivers_for(plant.pumps["P1"]) == ("level", "temperature", "flow")

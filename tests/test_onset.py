@@ -108,3 +108,23 @@ def test_year_long_demo_history_slow_fouling():
     # the loss grows slowly at first (it follows the strainer's blockage), so allow two weeks
     assert abs((pd.Timestamp(r.ramp["onset"]) - pd.Timestamp("2026-06-15")).days) <= 14
     assert "decline gradually" in r.finding and "suction pressure" in r.finding
+
+
+def test_episode_settings_from_the_plant_file_and_overridden(tmp_path):
+    path = _history(tmp_path, "pressure")
+    text = path.read_text()
+    path.write_text(text.replace("[running]", "[onset]\nmin_hours = 100000.0\n\n[running]"))
+    r = screening.investigate(path, "P1", "2026-01-01", "2026-04-01")
+    assert r.episodes.empty  # no episode has 100 000 h of exposure in a quarter
+    again = screening.investigate(path, "P1", "2026-01-01", "2026-04-01", min_duration_h=0.5)
+    assert len(again.episodes) >= 1  # the argument (the command line's option) wins
+    path.write_text(text.replace("[running]", "[onset]\nleave_above = 0.9\n\n[running]"))
+    with pytest.raises(screening.ConfigError, match=r"\[onset\] leave_above \(0.9\) must be"):
+        screening.investigate(path, "P1", "2026-01-01", "2026-04-01")
+
+
+def test_a_baseline_without_running_samples_is_a_clear_error(tmp_path):
+    path = _history(tmp_path, "pressure")
+    with pytest.raises(ValueError, match="has no running sample with a known margin; choose"):
+        screening.investigate(path, "P1", "2026-01-01", "2026-04-01",
+                              baseline="2025-06-01..2025-07-01")  # fmt: skip

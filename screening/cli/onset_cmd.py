@@ -22,13 +22,21 @@ def onset_command(
     ),
     out: Path = typer.Option(None, "--out", help="Report folder (default reports/onset_<pump>)."),
     enter_below: float = typer.Option(
-        1.0, "--enter-below", help="Episode starts below this fraction of the guidance."
+        None,
+        "--enter-below",
+        help="Episode starts below this fraction of the guidance (plant file [onset]; 1.0).",
     ),
     leave_above: float = typer.Option(
-        1.05, "--leave-above", help="Episode ends above this fraction of the guidance."
+        None,
+        "--leave-above",
+        help="Episode ends above this fraction of the guidance (plant file [onset]; 1.05).",
     ),
-    min_hours: float = typer.Option(0.5, "--min-hours", help="Shortest episode kept [h]."),
-    bridge_hours: float = typer.Option(1.0, "--bridge-hours", help="Gaps bridged [h]."),
+    min_hours: float = typer.Option(
+        None, "--min-hours", help="Shortest episode kept [h] (plant file [onset]; 0.5)."
+    ),
+    bridge_hours: float = typer.Option(
+        None, "--bridge-hours", help="Gaps bridged [h] (plant file [onset]; 1.0)."
+    ),
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Find when a pump's suction margin began to shrink, in which episodes, driven by what."""

@@ -1,0 +1,399 @@
+"""Onset dates from daily series: a change in the mean (a step) or the start of a decline (a ramp).
+
+Pure functions of a daily series (dates and values; days without a value are left out). Both
+estimators give a point date, a test of whether there is a change at all, and a
+moving-block bootstrap interval with a confidence score, so a date is never reported without
+its uncertainty:
+
+* :func:`estimate_onset`: the best single split of the series into two constant means, found
+  with the ``ruptures`` library (least squares);
+* :func:`estimate_ramp_onset`: the best broken-stick fit, flat then a straight decline (or
+  rise); a slow drift such as a fouling strainer is a ramp, which a change in the mean places
+  too late.
+
+Uncertainty (both): the residuals around the fitted model are resampled in blocks of
+consecutive days (moving-block bootstrap, H. R. Künsch (1989), "The jackknife and the bootstrap
+for general stationary observations", Ann. Statist. 17:1217-1241), added back to the fitted
+model and refitted. Blocks keep the day-to-day correlation of plant data (weather, campaigns,
+a ramp that is not quite straight), which resampling single days would break, giving intervals
+far too narrow. The block length defaults to the cube root of the number of days (the order
+of magnitude of Hall, Horowitz & Jing (1995), Biometrika 82:561-574).
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import ruptures
+from ruptures.base import BaseCost
+
+ONSET_METHOD = (
+    "ruptures.Binseg, L2 cost, one change point (exact best single split); BIC-type test; "
+    "moving-block bootstrap interval"
+)
+RAMP_METHOD = (
+    "broken-stick least squares (exhaustive search of the hinge day); BIC-type test; "
+    "moving-block bootstrap interval"
+)
+
+
+def _day_index(values: Any) -> pd.DatetimeIndex:
+    """Calendar days (naive, midnight) from dates, strings or Timestamps; tz is dropped."""
+    idx = pd.DatetimeIndex(pd.to_datetime(values))
+    if idx.tz is not None:
+        idx = idx.tz_localize(None)
+    return idx.normalize()
+
+
+def _whole(name: str, value: Any, least: int) -> None:
+    if isinstance(value, bool) or not isinstance(value, int | np.integer) or value < least:
+        raise ValueError(f"{name} must be a whole number >= {least}, got {value!r}")
+
+
+def _nonnegative(name: str, value: Any) -> None:
+    if not (isinstance(value, int | float) and math.isfinite(value) and value >= 0):
+        raise ValueError(f"{name} must be a finite number >= 0, got {value!r}")
+
+
+def _prepare(dates: Any, values: Any, args: dict[str, Any]) -> tuple[pd.DatetimeIndex, np.ndarray]:
+    """Check the common arguments; return the days and values with NaN days left out."""
+    days = _day_index(dates)
+    y = np.asarray(values, dtype=np.float64).ravel()
+    if len(days) != len(y):
+        raise ValueError(
+            f"dates and values must have the same length, got {len(days)} and {len(y)}"
+        )
+    if len(days) > 1 and not np.all(np.diff(days.asi8) > 0):
+        raise ValueError("dates must be strictly increasing (one value per day)")
+    _whole("n_bootstrap", args["n_bootstrap"], 1)
+    _whole("min_days", args["min_days"], 1)
+    if args["block_days"] is not None:
+        _whole("block_days", args["block_days"], 1)
+    _nonnegative("tolerance_days", args["tolerance_days"])
+    if args["penalty"] is not None:
+        _nonnegative("penalty", args["penalty"])
+    keep = np.isfinite(y)
+    return days[keep], y[keep]
+
+
+def block_bootstrap_indices(
+    n: int, block: int, n_bootstrap: int, rng: np.random.Generator
+) -> np.ndarray:
+    """Indices of ``n_bootstrap`` moving-block resamples of a series of length ``n``.
+
+    Each resample strings together blocks of ``block`` consecutive indices [days] whose starts
+    are drawn uniformly from 0 .. n - block, cut to length n (Künsch 1989).
+
+    Returns
+    -------
+    numpy.ndarray of int, shape (n_bootstrap, n)
+    """
+    block = max(1, min(int(block), n))
+    n_blocks = -(-n // block)
+    starts = rng.integers(0, n - block + 1, size=(n_bootstrap, n_blocks))
+    idx = (starts[:, :, None] + np.arange(block)[None, None, :]).reshape(n_bootstrap, -1)
+    return idx[:, :n]
+
+
+def _interval(days: pd.DatetimeIndex, k: int, boot_k: np.ndarray, tolerance_days: float):
+    """5th-95th percentile of the refitted dates and the share within the tolerance."""
+    lo = int(np.percentile(boot_k, 5, method="lower"))
+    hi = int(np.percentile(boot_k, 95, method="higher"))
+    offset = np.abs((days[boot_k] - days[k]) / pd.Timedelta(days=1))  # [days]
+    return (days[lo], days[hi]), float(np.mean(offset <= tolerance_days))
+
+
+# -------------------------------------------------------------------------- change in the mean
+
+
+class _L2Cost(BaseCost):
+    """L2 cost (squared deviation from the segment mean) in O(1) per segment from running sums.
+
+    Gives the same numbers as ruptures' own ``CostL2`` (which recomputes a variance for every
+    segment), only faster; the series is centred first to keep the running sums small.
+    """
+
+    model = "l2_running_sums"
+    min_size = 1
+
+    def fit(self, signal: np.ndarray) -> _L2Cost:
+        y = np.asarray(signal, dtype=np.float64).ravel()
+        y = y - y.mean()
+        self.signal = y.reshape(-1, 1)
+        self._s1 = np.concatenate(([0.0], np.cumsum(y)))
+        self._s2 = np.concatenate(([0.0], np.cumsum(y * y)))
+        return self
+
+    def error(self, start: int, end: int) -> float:
+        s1 = self._s1[end] - self._s1[start]
+        return float(max(self._s2[end] - self._s2[start] - s1 * s1 / (end - start), 0.0))
+
+
+def _single_split(y: np.ndarray, min_size: int) -> int:
+    """Index k of the best single split y[:k] | y[k:] under the L2 cost, with ruptures.
+
+    Binary segmentation (Scott & Knott 1974, Biometrics 30:507-512) stopped after one change
+    point scans every admissible split, so it returns the exact least-squares split. ruptures:
+    C. Truong, L. Oudre, N. Vayatis (2020), "Selective review of offline change point detection
+    methods", Signal Processing 167:107299.
+    """
+    algo = ruptures.Binseg(custom_cost=_L2Cost(), min_size=min_size, jump=1).fit(y)
+    return int(algo.predict(n_bkps=1)[0])
+
+
+def _sse(y: np.ndarray) -> float:
+    return float(np.sum((y - y.mean()) ** 2))
+
+
+def _bic(n: int, sse0: float, sse1: float) -> float:
+    """n·ln(SSE0/SSE1): twice the log-likelihood ratio for Gaussian noise of unknown variance."""
+    return math.inf if sse1 == 0.0 else float(n * math.log(sse0 / sse1))
+
+
+def estimate_onset(
+    dates: Any,
+    values: Any,
+    penalty: float | None = None,
+    n_bootstrap: int = 200,
+    random_state: int = 0,
+    min_days: int = 5,
+    tolerance_days: int = 3,
+    block_days: int | None = None,
+) -> dict[str, Any]:
+    """Date of a single change in the mean of a daily series, with a bootstrap interval.
+
+    The series is, for example, the daily hours below guidance, or the daily median of a
+    flow-normalised margin residual. Days with a NaN value are left out.
+
+    Method
+    ------
+    1. Change point: the split of the series into two segments, each at least ``min_days``
+       long, that minimises the summed squared deviation from the segment means (L2 cost),
+       found with ``ruptures.Binseg`` and ``n_bkps=1`` (see :func:`_single_split` for the
+       references). The onset is the first day of the second segment.
+    2. Is there a change at all: a BIC-type test for Gaussian noise with unknown common
+       variance (Schwarz 1978, Ann. Statist. 6:461-464). With SSE0 the squared error of one
+       mean and SSE1 that of the best two-segment fit, the statistic n·ln(SSE0/SSE1) is twice
+       the log-likelihood ratio; the change is accepted only if it exceeds ``penalty``, by
+       default 2·ln(n): one ln(n) for the extra mean and one for the change location. A
+       constant series has no change. On 365 days of pure Gaussian noise this default
+       reports a change about 4 % of the time (200 noise series with fixed random states: 8
+       false alarms); raise ``penalty`` to be stricter.
+    3. Uncertainty: moving-block bootstrap of the residuals around the two-segment fit (see
+       the module docstring); each resampled series is refitted as in step 1. The interval is
+       the 5th-95th percentile of the refitted onset dates (taken as observed dates: lower and
+       higher order statistics); the confidence is the share of refits within
+       ``tolerance_days`` calendar days of the estimate.
+
+    Parameters
+    ----------
+    dates : array-like of dates
+        One calendar day per value, strictly increasing.
+    values : array-like of float
+        The daily series [any unit]; NaN for missing days.
+    penalty : float or None
+        Threshold for n·ln(SSE0/SSE1) [-]; None for the BIC default 2·ln(n).
+    n_bootstrap : int
+        Number of bootstrap refits (>= 1).
+    random_state : int
+        Fixed random state of the bootstrap, so a result can be reproduced.
+    min_days : int
+        Shortest segment [days of data], >= 1.
+    tolerance_days : int
+        Half-width of the confidence window [days].
+    block_days : int or None
+        Bootstrap block length [days of data]; None for round(n^(1/3)).
+
+    Returns
+    -------
+    dict
+        ``onset`` (Timestamp or None), ``reason`` (None, or why there is no onset),
+        ``mean_before``, ``mean_after`` (segment means [unit of values] or None),
+        ``interval`` ((low, high) Timestamps or None), ``confidence`` ([-] or None),
+        ``statistic`` and ``penalty`` (of step 2), ``n_days`` (days used), ``block_days``
+        and ``method``.
+    """
+    days, y = _prepare(dates, values, locals())
+    n = len(y)
+    pen = float(2.0 * math.log(n)) if penalty is None and n > 1 else penalty
+    block = block_days or max(1, round(n ** (1 / 3)))
+    result: dict[str, Any] = {
+        "onset": None,
+        "reason": None,
+        "mean_before": None,
+        "mean_after": None,
+        "interval": None,
+        "confidence": None,
+        "statistic": None,
+        "penalty": pen,
+        "n_days": n,
+        "block_days": block,
+        "method": ONSET_METHOD,
+    }
+    if n < 2 * min_days:
+        result["reason"] = f"too few days with data ({n}; need at least {2 * min_days})"
+        return result
+    sse0 = _sse(y)
+    if sse0 == 0.0:
+        result["statistic"] = 0.0
+        result["reason"] = "the series is constant"
+        return result
+    k = _single_split(y, min_days)
+    stat = _bic(n, sse0, _sse(y[:k]) + _sse(y[k:]))
+    result["statistic"] = stat
+    if not stat > pen:
+        result["reason"] = (
+            f"no change in the mean: two segments do not beat one by the BIC-type criterion "
+            f"(n*ln(SSE0/SSE1) = {stat:.2f} <= penalty {pen:.2f})"
+        )
+        return result
+
+    mean_before, mean_after = float(y[:k].mean()), float(y[k:].mean())
+    fitted = np.where(np.arange(n) < k, mean_before, mean_after)
+    resid = y - fitted
+    idx = block_bootstrap_indices(n, block, n_bootstrap, np.random.default_rng(random_state))
+    boot_k = np.array([_single_split(fitted + resid[i], min_days) for i in idx], dtype=np.int64)
+    interval, confidence = _interval(days, k, boot_k, tolerance_days)
+    result.update(
+        onset=days[k],
+        mean_before=mean_before,
+        mean_after=mean_after,
+        interval=interval,
+        confidence=confidence,
+    )
+    return result
+
+
+# ---------------------------------------------------------------------- start of a decline
+
+
+def _hinge_fits(t: np.ndarray, ys: np.ndarray, ks: np.ndarray):
+    """Least-squares broken-stick fits y = a + b·max(0, t − t_k) for every hinge k at once.
+
+    For a fixed hinge the model is a straight line in x = max(0, t − t_k), whose least-squares
+    slope is Sxy/Sxx and squared error Syy − Sxy²/Sxx (simple linear regression). ``ys`` has
+    shape (m, n): m series fitted together. Returns SSE, slope and intercept, each (m, K).
+    """
+    x = np.maximum(0.0, t[:, None] - t[ks][None, :])  # (n, K)
+    xbar = x.mean(axis=0)
+    xc = x - xbar
+    sxx = np.einsum("ij,ij->j", xc, xc)
+    yc = ys - ys.mean(axis=1, keepdims=True)
+    sxy = yc @ xc  # (m, K)
+    syy = np.einsum("ij,ij->i", yc, yc)[:, None]
+    slope = sxy / sxx
+    sse = np.maximum(syy - sxy * slope, 0.0)
+    intercept = ys.mean(axis=1, keepdims=True) - slope * xbar
+    return sse, slope, intercept
+
+
+def estimate_ramp_onset(
+    dates: Any,
+    values: Any,
+    penalty: float | None = None,
+    n_bootstrap: int = 200,
+    random_state: int = 0,
+    min_days: int = 5,
+    tolerance_days: int = 7,
+    block_days: int | None = None,
+) -> dict[str, Any]:
+    """Start of a gradual decline (or rise): the best broken-stick fit of a daily series.
+
+    Method
+    ------
+    1. Model y = a + b·max(0, t − t_k) with t in days: flat, then a straight line from the
+       hinge day t_k on (a continuous piecewise-linear "hinge", the segmented regression of
+       V. M. R. Muggeo (2003), Statistics in Medicine 22:3055-3071), solved exactly by
+       least squares at every admissible hinge (at least ``min_days`` days of data on each
+       side) and keeping the best.
+    2. Is there a ramp at all: the BIC-type test of :func:`estimate_onset` with the hinge fit
+       in place of the two means (two extra parameters, slope and hinge: penalty 2·ln(n)).
+    3. Uncertainty: moving-block bootstrap of the residuals around the hinge fit, refitted as
+       in step 1; interval and confidence as in :func:`estimate_onset`. A ramp's start is
+       less sharp than a step, hence the wider default tolerance.
+
+    Parameters
+    ----------
+    dates : array-like of dates
+        One calendar day per value, strictly increasing.
+    values : array-like of float
+        The daily series [any unit]; NaN days are left out.
+    penalty : float or None
+        Threshold for n·ln(SSE0/SSE_hinge) [-]; None for 2·ln(n).
+    n_bootstrap : int
+        Number of bootstrap refits (>= 1).
+    random_state : int
+        Fixed random state of the bootstrap.
+    min_days : int
+        Fewest days of data on each side of the hinge.
+    tolerance_days : int
+        Half-width of the confidence window [days].
+    block_days : int or None
+        Bootstrap block length [days of data]; None for round(n^(1/3)).
+
+    Returns
+    -------
+    dict
+        ``onset`` (the hinge day, or None with a ``reason``), ``slope`` [unit of values per
+        day] after it, ``intercept`` (the level before it), ``sse`` of the hinge fit and
+        ``sse_step`` of the best single mean shift (for comparison), ``interval``,
+        ``confidence``, ``statistic``, ``penalty``, ``n_days``, ``block_days`` and ``method``.
+    """
+    days, y = _prepare(dates, values, locals())
+    n = len(y)
+    pen = float(2.0 * math.log(n)) if penalty is None and n > 1 else penalty
+    block = block_days or max(1, round(n ** (1 / 3)))
+    out: dict[str, Any] = {
+        "onset": None,
+        "reason": None,
+        "slope": math.nan,
+        "intercept": math.nan,
+        "sse": math.nan,
+        "sse_step": math.nan,
+        "interval": None,
+        "confidence": None,
+        "statistic": None,
+        "penalty": pen,
+        "n_days": n,
+        "block_days": block,
+        "method": RAMP_METHOD,
+    }
+    if n < 2 * min_days + 2:
+        out["reason"] = f"too few days with data ({n}; need at least {2 * min_days + 2})"
+        return out
+    sse0 = _sse(y)
+    if sse0 == 0.0:
+        out["statistic"] = 0.0
+        out["reason"] = "the series is constant"
+        return out
+    t = ((days - days[0]) / pd.Timedelta(days=1)).to_numpy(dtype=np.float64)
+    ks = np.arange(min_days, n - min_days)
+    sse, slope, intercept = _hinge_fits(t, y[None, :], ks)
+    j = int(np.argmin(sse[0]))
+    k = int(ks[j])
+    step_k = _single_split(y, min_days)
+    out.update(
+        slope=float(slope[0, j]),
+        intercept=float(intercept[0, j]),
+        sse=float(sse[0, j]),
+        sse_step=_sse(y[:step_k]) + _sse(y[step_k:]),
+    )
+    stat = _bic(n, sse0, out["sse"])
+    out["statistic"] = stat
+    if not stat > pen:
+        out["reason"] = (
+            f"no ramp: a broken stick does not beat one mean by the BIC-type criterion "
+            f"(n*ln(SSE0/SSE) = {stat:.2f} <= penalty {pen:.2f})"
+        )
+        return out
+    fitted = out["intercept"] + out["slope"] * np.maximum(0.0, t - t[k])
+    resid = y - fitted
+    idx = block_bootstrap_indices(n, block, n_bootstrap, np.random.default_rng(random_state))
+    boot_sse, _, _ = _hinge_fits(t, fitted[None, :] + resid[idx], ks)
+    boot_k = ks[np.argmin(boot_sse, axis=1)]
+    interval, confidence = _interval(days, k, boot_k, tolerance_days)
+    out.update(onset=days[k], interval=interval, confidence=confidence)
+    return out
