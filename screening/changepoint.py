@@ -75,6 +75,7 @@ def _prepare(dates: Any, values: Any, args: dict[str, Any]) -> tuple[pd.Datetime
     _nonnegative("tolerance_days", args["tolerance_days"])
     if args["penalty"] is not None:
         _nonnegative("penalty", args["penalty"])
+    _nonnegative("min_change", args["min_change"])
     keep = np.isfinite(y)
     return days[keep], y[keep]
 
@@ -162,6 +163,7 @@ def estimate_onset(
     min_days: int = 5,
     tolerance_days: int = 3,
     block_days: int | None = None,
+    min_change: float = 0.0,
 ) -> dict[str, Any]:
     """Date of a single change in the mean of a daily series, with a bootstrap interval.
 
@@ -181,7 +183,9 @@ def estimate_onset(
        default 2·ln(n): one ln(n) for the extra mean and one for the change location. A
        constant series has no change. On 365 days of pure Gaussian noise this default
        reports a change about 4 % of the time (200 noise series with fixed random states: 8
-       false alarms); raise ``penalty`` to be stricter.
+       false alarms); raise ``penalty`` to be stricter. A daily median of many samples is so
+       precise that a change of millimetres passes the test: a change smaller than
+       ``min_change`` (in the series' unit) is not reported either.
     3. Uncertainty: moving-block bootstrap of the residuals around the two-segment fit (see
        the module docstring); each resampled series is refitted as in step 1. The interval is
        the 5th-95th percentile of the refitted onset dates (taken as observed dates: lower and
@@ -206,6 +210,8 @@ def estimate_onset(
         Half-width of the confidence window [days].
     block_days : int or None
         Bootstrap block length [days of data]; None for round(n^(1/3)).
+    min_change : float
+        Smallest change of the mean worth reporting [unit of values], >= 0.
 
     Returns
     -------
@@ -252,6 +258,12 @@ def estimate_onset(
         return result
 
     mean_before, mean_after = float(y[:k].mean()), float(y[k:].mean())
+    if abs(mean_after - mean_before) < min_change:
+        result["reason"] = (
+            f"the change of the mean ({mean_after - mean_before:+.3g}) is smaller than the "
+            f"smallest change worth reporting ({min_change:g})"
+        )
+        return result
     fitted = np.where(np.arange(n) < k, mean_before, mean_after)
     resid = y - fitted
     idx = block_bootstrap_indices(n, block, n_bootstrap, np.random.default_rng(random_state))
@@ -299,6 +311,7 @@ def estimate_ramp_onset(
     min_days: int = 5,
     tolerance_days: int = 7,
     block_days: int | None = None,
+    min_change: float = 0.0,
 ) -> dict[str, Any]:
     """Start of a gradual decline (or rise): the best broken-stick fit of a daily series.
 
@@ -313,7 +326,9 @@ def estimate_ramp_onset(
        in place of the two means (two extra parameters, slope and hinge: penalty 2·ln(n)).
     3. Uncertainty: moving-block bootstrap of the residuals around the hinge fit, refitted as
        in step 1; interval and confidence as in :func:`estimate_onset`. A ramp's start is
-       less sharp than a step, hence the wider default tolerance.
+       less sharp than a step, hence the wider default tolerance. A ramp whose total change
+       (slope times the days from the hinge to the last day) is smaller than ``min_change``
+       is not reported.
 
     Parameters
     ----------
@@ -333,6 +348,8 @@ def estimate_ramp_onset(
         Half-width of the confidence window [days].
     block_days : int or None
         Bootstrap block length [days of data]; None for round(n^(1/3)).
+    min_change : float
+        Smallest total change along the ramp worth reporting [unit of values], >= 0.
 
     Returns
     -------
@@ -387,6 +404,13 @@ def estimate_ramp_onset(
         out["reason"] = (
             f"no ramp: a broken stick does not beat one mean by the BIC-type criterion "
             f"(n*ln(SSE0/SSE) = {stat:.2f} <= penalty {pen:.2f})"
+        )
+        return out
+    total = out["slope"] * (t[-1] - t[k])
+    if abs(total) < min_change:
+        out["reason"] = (
+            f"the change along the ramp ({total:+.3g}) is smaller than the smallest change "
+            f"worth reporting ({min_change:g})"
         )
         return out
     fitted = out["intercept"] + out["slope"] * np.maximum(0.0, t - t[k])

@@ -141,6 +141,11 @@ class Onset(_Strict):
     min_hours: float = Field(0.5, ge=0, description="[h]")
     bridge_hours: float = Field(1.0, ge=0, description="[h]")
     baseline_days: float = Field(21.0, gt=0, description="[days]")
+    #: Smallest change worth calling an onset: of the flow-normalised margin [m] and of the
+    #: daily hours below guidance [h/day]. A choice of ours, not a standard: a daily median
+    #: of hundreds of samples shows millimetres, which no one should act on.
+    min_margin_change: float = Field(0.3, ge=0, description="[m]")
+    min_exposure_change: float = Field(0.5, ge=0, description="[h/day]")
 
     @model_validator(mode="after")
     def _hysteresis(self) -> Onset:

@@ -193,14 +193,18 @@ def investigate(
         daily_resid = daily_resid[daily_resid.index.tz_localize(None) < cut]
         exposure = exposure[exposure.index < cut]
     onset = cp.estimate_onset(
-        pd.to_datetime(daily_resid.index).tz_localize(None), daily_resid.to_numpy()
+        pd.to_datetime(daily_resid.index).tz_localize(None), daily_resid.to_numpy(),
+        min_change=rules.min_margin_change,
+    )  # fmt: skip
+    onset_exposure = cp.estimate_onset(
+        exposure.index, exposure.to_numpy(), min_change=rules.min_exposure_change
     )
-    onset_exposure = cp.estimate_onset(exposure.index, exposure.to_numpy())
     # a slow drift (a fouling strainer) is a ramp: where a hinge fits the margin better than a
     # step, the decline's start is the onset (see changepoint.estimate_ramp_onset)
     ramp = cp.estimate_ramp_onset(
-        pd.to_datetime(daily_resid.index).tz_localize(None), daily_resid.to_numpy()
-    )
+        pd.to_datetime(daily_resid.index).tz_localize(None), daily_resid.to_numpy(),
+        min_change=rules.min_margin_change,
+    )  # fmt: skip
     ramp["chosen"] = bool(
         ramp["onset"] is not None and ramp["slope"] < 0 and ramp["sse"] < ramp["sse_step"]
     )

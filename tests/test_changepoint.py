@@ -188,3 +188,16 @@ def test_ramp_interval_covers_the_planted_start_and_no_ramp_in_noise():
     assert flat["onset"] is None and "no ramp" in flat["reason"]
     with pytest.raises(ValueError, match="block_days must be a whole number >= 1"):
         estimate_ramp_onset(days, y, block_days=0)
+
+
+def test_a_change_too_small_to_matter_is_not_an_onset():
+    # Noise sd 0.002 and a step of 0.01: overwhelming by the BIC-type test, but below a
+    # smallest change worth reporting of 0.3 (the plant file's default for metres of margin).
+    rng = np.random.default_rng(4)
+    y = 0.01 * (np.arange(365) >= TRUE_ONSET) + rng.normal(0.0, 0.002, 365)
+    assert estimate_onset(DAYS, y)["onset"] == DAYS[TRUE_ONSET]
+    small = estimate_onset(DAYS, y, min_change=0.3)
+    assert small["onset"] is None and "smaller than the smallest change" in small["reason"]
+    ramp = 0.0001 * np.maximum(0, np.arange(365) - 150) + rng.normal(0.0, 0.002, 365)
+    assert estimate_ramp_onset(DAYS, ramp)["onset"] is not None
+    assert estimate_ramp_onset(DAYS, ramp, min_change=0.3)["onset"] is None

@@ -27,8 +27,11 @@ def _history(tmp_path, cause: str):
     flow = 90.0 + rng.normal(0, 2.0, n)
     if cause == "pressure":
         pressure[day >= 40] -= 25.0  # planted: suction pressure down 25 kPa from day 40
-    else:
+    elif cause == "temperature":
         temp[day >= 50] += 55.0  # planted: liquid 55 K warmer from day 50
+    elif cause == "episodes":
+        for a, b in EPISODES:  # planted: the suction pressure down 25 kPa for a few hours
+            pressure[(times >= a) & (times < b)] -= 25.0
     frame = pd.DataFrame(
         {
             "timestamp": times.strftime("%Y-%m-%d %H:%M:%S"),
@@ -44,6 +47,11 @@ def _history(tmp_path, cause: str):
     )  # fmt: skip
 
 
+EPISODES = [
+    (pd.Timestamp("2026-01-31 08:00"), pd.Timestamp("2026-01-31 14:00")),
+    (pd.Timestamp("2026-02-25 02:00"), pd.Timestamp("2026-02-25 03:30")),
+    (pd.Timestamp("2026-03-10 22:10"), pd.Timestamp("2026-03-11 09:40")),
+]
 PLANTED = [("pressure", 40, "suction_pressure"), ("temperature", 50, "temperature")]
 
 
@@ -128,3 +136,24 @@ def test_a_baseline_without_running_samples_is_a_clear_error(tmp_path):
     with pytest.raises(ValueError, match="has no running sample with a known margin; choose"):
         screening.investigate(path, "P1", "2026-01-01", "2026-04-01",
                               baseline="2025-06-01..2025-07-01")  # fmt: skip
+
+
+def test_planted_episodes_are_found_to_the_sample(tmp_path):
+    # Three planted stretches of low suction pressure (10-minute samples, UTC): each episode
+    # starts at the first low sample and ends at the first normal one, so start, end and
+    # duration match exactly (the tolerance the issue allows is one sample, 10 min).
+    r = screening.investigate(_history(tmp_path, "episodes"), "P1", "2026-01-01", "2026-04-01")
+    assert len(r.episodes) == len(EPISODES)
+    for (a, b), e in zip(EPISODES, r.episodes.itertuples(), strict=True):
+        assert abs(e.start - a.tz_localize("UTC")) <= pd.Timedelta(minutes=10)
+        assert abs(e.end - b.tz_localize("UTC")) <= pd.Timedelta(minutes=10)
+        assert e.duration_h == pytest.approx((b - a) / pd.Timedelta(hours=1), abs=1 / 6)
+        assert e.suction_pressure_m < -2.0  # 25 kPa of water is about -2.5 m of margin
+
+
+def test_a_clean_series_gives_no_onset_and_no_episode(tmp_path):
+    r = screening.investigate(_history(tmp_path, "none"), "P1", "2026-01-01", "2026-04-01")
+    assert r.onset["onset"] is None and r.onset_exposure["onset"] is None
+    assert not r.ramp["chosen"]
+    assert r.episodes.empty
+    assert "no lasting change" in r.finding
