@@ -1209,7 +1209,21 @@ def register_row(p: Pump) -> dict:
         "allowable_max_flow [m3/h]": p.allowable_max_flow,
         # incompressible liquids only (empty: CoolProp's own vapour pressure)
         "vapour_pressure": p.vapour_pressure,
+        # today's operating limits, for the what-if comparison (empty: not known)
+        **dict(zip(("low_pressure_setpoint", "low_level_setpoint", "high_temperature_setpoint"),
+                   TODAY_SETPOINTS.get(p.pump_id, ("", "", "")), strict=True)),
     }
+
+
+#: Invented operating limits of a few pumps (register cells, with their units; pressures in
+#: the suction transmitter's reference, levels in the level transmitter's frame).
+TODAY_SETPOINTS: dict[str, tuple[str, str, str]] = {
+    "CD-412": ("", "800 mm", ""),
+    "RW-504": ("", "2.2 m", ""),
+    "CW-103": ("", "", "35 degC"),
+    "RW-502": ("-85 kPa", "", ""),
+    "DH-202": ("110 kPa", "", "110 degC"),
+}
 
 
 def write_configs() -> None:

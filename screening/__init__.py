@@ -17,6 +17,8 @@ from .regions import REGIONS
 from .report import write_report
 from .scan import ScanResult, WindowError, scan
 from .states import BANDS, STATES
+from .whatif import WhatIfResult, whatif
+from .whatif_page import write_whatif_report
 
 __version__ = "0.1.0"
 __all__ = [
@@ -33,5 +35,8 @@ __all__ = [
     "load_plant",
     "scan",
     "write_report",
+    "WhatIfResult",
+    "whatif",
+    "write_whatif_report",
     "__version__",
 ]

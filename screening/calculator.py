@@ -26,7 +26,7 @@ from .loader import TagSeries
 from .policy import Guidance, margin_band
 from .properties import FluidTable
 from .quality import frozen_samples
-from .regions import operating_region, region_edges
+from .regions import operating_region, pump_region_edges
 from .register import PumpSpec, TagSpec
 from .units import to_si
 
@@ -293,11 +293,7 @@ def calculate_pump(
 
     # --- operating region: needs only the run decision, flow and speed
     ratio_n = np.ones(len(grid)) if speed is None else speed / pump.rated_speed
-    edges = region_edges(
-        pump.bep_flow, ratio_n, pump.preferred_low, pump.preferred_high,
-        pump.min_stable_flow, pump.thermal_min_flow,
-        pump.allowable_max_flow if pump.allowable_max_flow is not None else curve.flow_max,
-    )  # fmt: skip
+    edges = pump_region_edges(pump, curve.flow_max, speed)
     with np.errstate(invalid="ignore"):
         rcode = operating_region(flow, edges)
     r_bad = decide_bad.copy()
@@ -377,6 +373,7 @@ def calculate_pump(
                 "temperature_k": temp,
                 "flow_m3_s": flow,
                 "speed_rpm": speed if speed is not None else np.nan,
+                "barometric_pa": baro,
             }
         )
         if pump.source != "transmitter":

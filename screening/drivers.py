@@ -52,8 +52,10 @@ def drivers_for(pump: PumpSpec) -> tuple[str, ...]:
     return tuple(names)
 
 
-def margin_m(pump: PumpSpec, curve: Npsh3Curve, table: FluidTable, inputs: dict) -> np.ndarray:
-    """NPSHa − NPSH3 [m] from a pump's inputs, the same way the calculator computes them.
+def npsh_pair(
+    pump: PumpSpec, curve: Npsh3Curve, table: FluidTable, inputs: dict
+) -> tuple[np.ndarray, np.ndarray]:
+    """NPSHa and NPSH3 [m] from a pump's inputs, the same way the calculator computes them.
 
     ``inputs`` holds arrays by driver name (see :data:`COLUMNS`): ``suction_pressure`` [Pa
     absolute] for a transmitter pump, ``surface_pressure`` [Pa absolute] and ``level`` [m] for
@@ -77,6 +79,12 @@ def margin_m(pump: PumpSpec, curve: Npsh3Curve, table: FluidTable, inputs: dict)
             surface, p_v, rho, inputs["level"], pump.level_zero_elevation, loss
         )
     r = curve.at_speed(flow, inputs.get("speed"), pump.rated_speed, pump.npsh3_exponent)
+    return a, r
+
+
+def margin_m(pump: PumpSpec, curve: Npsh3Curve, table: FluidTable, inputs: dict) -> np.ndarray:
+    """NPSHa − NPSH3 [m] from a pump's inputs (see :func:`npsh_pair`)."""
+    a, r = npsh_pair(pump, curve, table, inputs)
     return a - r
 
 

@@ -87,6 +87,27 @@ def region_edges(
     return q_min, preferred_low * bep, preferred_high * bep, q_max
 
 
+def pump_region_edges(pump, curve_flow_max: float, speed):
+    """Region edges [m³/s] of a register pump at its running speed.
+
+    Parameters
+    ----------
+    pump : screening.register.PumpSpec
+        BEP flow, preferred region, minimum flows and allowable maximum at rated speed.
+    curve_flow_max : float
+        Last flow of the NPSH3 curve at rated speed [m³/s]: the allowable end when the
+        register gives none.
+    speed : array_like or None
+        Running speed [rpm]; None for a fixed-speed pump (rated speed).
+    """
+    ratio = 1.0 if speed is None else np.asarray(speed, dtype=np.float64) / pump.rated_speed
+    return region_edges(
+        pump.bep_flow, ratio, pump.preferred_low, pump.preferred_high, pump.min_stable_flow,
+        pump.thermal_min_flow,
+        pump.allowable_max_flow if pump.allowable_max_flow is not None else curve_flow_max,
+    )  # fmt: skip
+
+
 def operating_region(flow, edges) -> np.ndarray:
     """Region code per sample for ``flow`` [m³/s] and edges from :func:`region_edges`.
 

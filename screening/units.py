@@ -186,6 +186,34 @@ def parse_quantity(text: str, kind: str, default_unit: str | None) -> float:
     return scalar_to_si(number, unit, kind)
 
 
+def parse_difference(text: str, kind: str) -> float:
+    """Parse a difference such as ``"5 K"``, ``"5 degC"``, ``"9 degF"`` or ``"20 kPa"`` to SI.
+
+    Temperature units with an offset are read as differences: 5 degC of difference is 5 K,
+    9 degF is 5 K (not 278.15 K or 260.9 K). Other kinds are as :func:`parse_quantity`
+    without a default unit.
+
+    Parameters
+    ----------
+    text : str
+        A number followed by its unit.
+    kind : str
+        Quantity kind (see :data:`SI_UNITS`).
+
+    Returns
+    -------
+    float, in the SI unit of ``kind`` [K for temperature].
+    """
+    if kind != "temperature":
+        return parse_quantity(text, kind, None)
+    match = _QUANTITY.match(str(text))
+    if not match or not match.group(2):
+        raise UnitError(f"{text!r} is not a temperature difference with a unit (e.g. '5 K')")
+    unit = parse_unit(match.group(2), "temperature")
+    step = ureg.Quantity(1.0, unit) - ureg.Quantity(0.0, unit)  # one unit of difference
+    return float(match.group(1)) * float(step.to("kelvin").magnitude)
+
+
 def parse_duration(text: str) -> float:
     """Parse a duration such as ``"5 min"`` or ``"6 h"`` to seconds [s]."""
     return parse_quantity(text, "duration", None)

@@ -1,0 +1,69 @@
+"""``pumpscreen whatif``: replay recorded history with changed setpoints, and find the
+setpoints that would have kept each pump at its guidance."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from ..whatif import whatif
+from ..whatif_page import write_whatif_report
+from .common import (
+    DEBUG_OPTION,
+    EXIT_NOTHING,
+    EXIT_OK,
+    EXIT_PARTIAL,
+    QUIET_OPTION,
+    friendly_errors,
+)
+
+
+@friendly_errors
+def whatif_command(
+    config: Path = typer.Argument(..., help="The plant file (TOML)."),
+    scenarios: Path = typer.Argument(..., help="The scenario file (TOML)."),
+    start: str = typer.Option(
+        None, "--from", help="Window start, a date or time (site time zone unless an offset)."
+    ),
+    end: str = typer.Option(None, "--to", help="Window end (exclusive)."),
+    out: Path = typer.Option(
+        None, "--out", help="Report folder (default: reports/whatif_<scenario file>_<start>_<end>)."
+    ),
+    pump: list[str] = typer.Option(None, "--pump", help="Only this pump (repeatable)."),
+    share: list[float] = typer.Option(
+        None,
+        "--share",
+        help="Share of running hours the required setpoints must cover, e.g. 0.99 "
+        "(repeatable; default 0.99 and 1).",
+    ),
+    quiet: bool = QUIET_OPTION,
+    debug: bool = DEBUG_OPTION,
+) -> None:
+    """Replay history with each scenario's changes; report hours moved and required setpoints."""
+    shares = tuple(sorted(set(share))) if share else (0.99, 1.0)
+    result = whatif(config, scenarios, start, end, pumps=pump or None, shares=shares)
+    scan = result.scan
+    if out is None:
+        tz = scan.plant.timezone
+        a = scan.start.tz_convert(tz).strftime("%Y%m%d")
+        b = scan.end.tz_convert(tz).strftime("%Y%m%d")
+        out = Path("reports") / f"whatif_{scenarios.stem}_{a}_{b}"
+    folder = write_whatif_report(result, out)
+    n_ok, n_bad = len(scan.summary), len(scan.problems)
+    if not quiet:
+        typer.echo(f"{len(result.scenarios)} scenario(s) on {n_ok} pump(s), {n_bad} not screened")
+        h = result.hours
+        below = h[(h.kind == "margin") & h.state.isin(["below_npsh3", "below_guidance"])]
+        for (sc, pid), g in below.groupby(["scenario", "pump_id"], sort=False):
+            before, after = g["before_h"].sum(), g["after_h"].sum()
+            typer.echo(f"  {sc}: {pid} below guidance {before:.1f} h -> {max(after, 0):.1f} h")
+        for note in result.notes:
+            typer.echo(f"note: {note}", err=True)
+        for row in scan.problems.itertuples(index=False):
+            typer.echo(f"not screened: {row.pump_id}: {row.message}", err=True)
+        typer.echo("report:")
+    typer.echo(str((folder / "index.html").resolve()))
+    if n_ok == 0:
+        raise typer.Exit(EXIT_NOTHING)
+    raise typer.Exit(EXIT_PARTIAL if n_bad else EXIT_OK)
