@@ -581,7 +581,24 @@ def fluid_table(fluid: str, vapour_pressure: str | None = None) -> FluidTable:
         incompressible liquid without a valid choice, and for a choice given with a fluid that
         has its own vapour pressure in CoolProp.
     """
-    return _fluid_table(fluid, _normalise_choice(vapour_pressure))
+    choice = _normalise_choice(vapour_pressure)
+    seeded = _SEEDED.get((fluid, choice))
+    return seeded if seeded is not None else _fluid_table(fluid, choice)
+
+
+#: Tables built in another process and handed over (see :func:`seed_fluid_tables`).
+_SEEDED: dict[tuple[str, str | None], FluidTable] = {}
+
+
+def seed_fluid_tables(tables: dict[tuple[str, str | None], FluidTable]) -> None:
+    """Make tables built elsewhere (the parent of a worker process) this process's own, so
+    :func:`fluid_table` does not build them again. Keys: (fluid, normalised choice)."""
+    _SEEDED.update(tables)
+
+
+def normalise_choice(vapour_pressure) -> str | None:
+    """The vapour-pressure choice as :func:`fluid_table` keys it (None, "water", "raoult")."""
+    return _normalise_choice(vapour_pressure)
 
 
 @lru_cache(maxsize=64)

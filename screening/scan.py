@@ -7,8 +7,10 @@ This is the Python API the command line uses: ``screening.scan(config, start, en
 from __future__ import annotations
 
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -16,6 +18,7 @@ import pandas as pd
 from . import regions, states
 from ._allocator import keep_freed_memory
 from .calculator import PumpResult, Settings, calculate_pump, prepare_tag
+from .execution import BatchContext, BatchOutput, fluid_tables_for, run_batches
 from .loader import ExportError, ExportIndex, TagQuality
 from .plant import Plant, load_plant, pump_suction_specific_speed
 from .properties import fluid_table
@@ -60,6 +63,7 @@ class ScanResult:
     problems: pd.DataFrame
     file_problems: pd.DataFrame
     series: dict[str, pd.DataFrame] = field(default_factory=dict)
+    extras: dict[str, Any] = field(default_factory=dict)  # what ``each_pump`` returned
     plots: dict[str, pd.DataFrame] = field(default_factory=dict)
     #: Every export file the plant file's globs matched (read or not), for the audit trail.
     export_files: list[str] = field(default_factory=list)
@@ -153,6 +157,10 @@ def scan(
     pumps: list[str] | None = None,
     keep_series: bool = False,
     plot_buckets: int = 0,
+    each_pump: Callable[[Plant, PumpResult], Any] | None = None,
+    processes: int | None = None,
+    cluster: Any = None,
+    progress: Callable[[BatchOutput], None] | None = None,
 ) -> ScanResult:
     """Screen every pump of a plant over a window.
 
@@ -171,6 +179,24 @@ def scan(
         Time buckets of the report's plot data (minimum and maximum per bucket) kept per pump
         in ``ScanResult.plots``; 0 (the default) keeps none. The command line asks for
         :data:`screening.plotdata.DEFAULT_BUCKETS` to draw the pump pages.
+    each_pump : callable, optional
+        Called as ``each_pump(plant, result)`` right after each pump is screened, with its
+        per-piece series in ``result.series``; what it returns is kept in
+        ``ScanResult.extras[pump_id]`` and the series is then dropped (unless
+        ``keep_series``), so memory stays bounded by one pump. A ``ValueError`` it raises
+        makes that pump a problem, as bad data does. The what-if analysis uses it. With
+        several processes it must be picklable (a module-level function or a partial of one).
+    processes : int or None
+        Worker processes on this machine [-]: None (the default) for every core, 1 to run in
+        this process. A plant that fits in one batch always runs in this process.
+    cluster : str, distributed.Client or int, optional
+        Run the batches on Dask distributed instead: a scheduler address
+        (``tcp://host:port``), a connected client, or a number of workers for a local Dask
+        cluster started for this run (see :mod:`screening.execution`).
+    progress : callable, optional
+        Called with each batch's output (``pumps``, ``samples``) as it completes.
+
+    The results do not depend on where the work ran.
 
     Returns
     -------
@@ -197,10 +223,6 @@ def scan(
 
     baro_span = (start_ns - int(settings.barometer_stale_limit * 1e9) - 1, end_ns)
     barometer, baro_quality = _read_barometer(plant, index, settings, baro_span)
-    results: list[PumpResult] = []
-    quality_rows: list[dict] = []
-    file_problems = dict(index.file_problems)
-    samples = 0
     # One look-back for the whole plant, so that what is read (and counted) never depends on
     # which pumps share a batch: the longest hold or frozen allowance of any tag.
     longest = max(
@@ -208,30 +230,30 @@ def scan(
         + [t.stale_limit or 0.0 for p in selected for t in plant.pumps[p].tags().values()]
     )
     span = (start_ns - int(longest * 1e9) - 1, end_ns)
-    known = index.known_tags()
-    for batch in _batches(plant, index, selected):
-        tags = [t.tag for pid in batch for t in plant.pumps[pid].tags().values() if t.tag in known]
-        raw, read_problems = index.read(tags, span)
-        file_problems.update(read_problems)
-        for pid in batch:
-            pump = plant.pumps[pid]
-            try:
-                result, tag_quality, n = _screen_pump(
-                    plant, pump, index, raw, barometer, settings, start_ns, end_ns, edges,
-                    keep_series, plot_buckets,
-                )  # fmt: skip
-            except (ExportError, UnitError, ValueError) as exc:
-                problems.append({"pump_id": pid, "stage": "data", "message": str(exc)})
-                continue
-            samples += n
-            results.append(result)
-            for role, q in tag_quality.items():
-                quality_rows.append(_quality_row(pid, role, q))
-        del raw
+    batches = _batches(plant, index, selected, end_ts - start_ts)
+    ctx = BatchContext(
+        plant, index, settings, barometer, start_ns, end_ns, edges, span, keep_series,
+        plot_buckets, each_pump,
+        fluid_tables_for(plant, selected) if len(batches) > 1 else {},
+    )  # fmt: skip
+    outputs = run_batches(ctx, batches, processes, cluster, progress)
+    results: list[PumpResult] = []
+    extras: dict[str, Any] = {}
+    quality_rows: list[dict] = []
+    file_problems = dict(index.file_problems)
+    samples = 0
+    for o in outputs:
+        results.extend(o.results)
+        extras.update(o.extras)
+        quality_rows.extend(o.quality_rows)
+        problems.extend(o.problems)
+        file_problems.update(o.file_problems)
+        samples += o.samples
     if baro_quality is not None:
         quality_rows.append(_quality_row("(site)", "barometer", baro_quality))
     out = _tables(plant, results, start_ts, end_ts, edges, quality_rows, problems, file_problems)
     out.series = {r.pump_id: r.series for r in results if r.series is not None}
+    out.extras = extras
     out.plots = {r.pump_id: r.plot for r in results if r.plot is not None}
     out.points = {r.pump_id: r.points for r in results if r.points is not None}
     out.export_files = [str(f.path) for f in index.files] + [
@@ -255,13 +277,22 @@ def _read_barometer(plant, index, settings, span):
     return s, s.quality
 
 
-#: Pumps read together: the files they share are read once per batch. Memory grows with the
-#: batch, not with the plant.
+#: Pumps read together for a window of a month: the files they share are read once per batch.
+#: Memory grows with the batch, not with the plant; longer windows get fewer pumps per batch.
 BATCH_PUMPS = 25
+BATCH_PUMP_DAYS = BATCH_PUMPS * 31
 
 
-def _batches(plant: Plant, index: ExportIndex, selected: list[str]) -> list[list[str]]:
-    """Pumps grouped by the files holding their tags, in batches of at most BATCH_PUMPS."""
+def _batches(
+    plant: Plant, index: ExportIndex, selected: list[str], window: pd.Timedelta | None = None
+) -> list[list[str]]:
+    """Pumps grouped by the files holding their tags, in batches of at most BATCH_PUMPS pumps
+    and BATCH_PUMP_DAYS pump-days, so that a batch's memory stays about the same whatever the
+    window's length (a year-long window: two pumps per batch)."""
+    size = BATCH_PUMPS
+    if window is not None:
+        days = max(window / pd.Timedelta(days=1), 1.0)
+        size = int(min(BATCH_PUMPS, max(1, BATCH_PUMP_DAYS // days)))
 
     def key(pid: str):
         files = sorted({str(f) for t in plant.pumps[pid].tags().values()
@@ -269,7 +300,7 @@ def _batches(plant: Plant, index: ExportIndex, selected: list[str]) -> list[list
         return (files, pid)
 
     ordered = sorted(selected, key=key)
-    return [ordered[i : i + BATCH_PUMPS] for i in range(0, len(ordered), BATCH_PUMPS)]
+    return [ordered[i : i + size] for i in range(0, len(ordered), size)]
 
 
 def _screen_pump(

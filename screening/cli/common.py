@@ -3,11 +3,14 @@
 from __future__ import annotations
 
 import sys
+import time
 import traceback
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from functools import wraps
 
 import typer
+from rich.console import Console
 
 #: Exit codes (documented in the README).
 EXIT_OK = 0  # every pump screened / everything valid
@@ -39,3 +42,54 @@ def friendly_errors(func: Callable) -> Callable:
             raise typer.Exit(EXIT_ERROR) from None
 
     return wrapper
+
+
+PROCESSES_OPTION = typer.Option(
+    None, "--processes", help="Worker processes on this machine (default: every core; 1: none)."
+)
+CLUSTER_OPTION = typer.Option(
+    None, "--cluster", help="Run on an existing Dask scheduler, e.g. tcp://10.0.0.5:8786."
+)
+WORKERS_OPTION = typer.Option(
+    None, "--workers", help="Start a local Dask cluster with this many workers for the run."
+)
+
+
+@contextmanager
+def progress_bar(total_pumps: int, quiet: bool) -> Iterator[Callable | None]:
+    """A progress bar on standard error (pumps done, samples per second, time left), or None
+    when quiet or when standard error is not a terminal (a log file stays clean)."""
+    if quiet or not sys.stderr.isatty() or total_pumps <= 0:
+        yield None
+        return
+    from rich.progress import (
+        BarColumn,
+        MofNCompleteColumn,
+        Progress,
+        TextColumn,
+        TimeRemainingColumn,
+    )
+
+    start = time.perf_counter()
+    samples = 0
+    with Progress(
+        TextColumn("screening"), BarColumn(), MofNCompleteColumn(), TextColumn("pumps"),
+        TextColumn("{task.fields[rate]}"), TimeRemainingColumn(),
+        console=Console(stderr=True), transient=True,
+    ) as bar:  # fmt: skip
+        task = bar.add_task("scan", total=total_pumps, rate="")
+
+        def advance(output) -> None:
+            nonlocal samples
+            samples += output.samples
+            rate = samples / max(time.perf_counter() - start, 1e-9)
+            bar.update(task, advance=output.pumps, rate=f"{rate:,.0f} samples/s")
+
+        yield advance
+
+
+def cluster_choice(cluster: str | None, workers: int | None):
+    """The ``cluster`` argument of :func:`screening.scan` from the command-line options."""
+    if cluster and workers:
+        raise typer.BadParameter("give --cluster or --workers, not both")
+    return cluster or workers

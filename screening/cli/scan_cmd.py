@@ -6,16 +6,22 @@ from pathlib import Path
 
 import typer
 
+from ..plant import load_plant
 from ..plotdata import DEFAULT_BUCKETS
 from ..report import write_report
 from ..scan import scan
 from .common import (
+    CLUSTER_OPTION,
     DEBUG_OPTION,
     EXIT_NOTHING,
     EXIT_OK,
     EXIT_PARTIAL,
+    PROCESSES_OPTION,
     QUIET_OPTION,
+    WORKERS_OPTION,
+    cluster_choice,
     friendly_errors,
+    progress_bar,
 )
 
 
@@ -34,11 +40,19 @@ def scan_command(
     compare_to: Path = typer.Option(
         None, "--compare-to", help="A previous report folder: mark pumps that got worse or better."
     ),
+    processes: int = PROCESSES_OPTION,
+    cluster: str = CLUSTER_OPTION,
+    workers: int = WORKERS_OPTION,
     quiet: bool = QUIET_OPTION,
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Screen every pump over a window: hours in each NPSH margin band, with every hour counted."""
-    result = scan(config, start, end, pumps=pump or None, plot_buckets=DEFAULT_BUCKETS)
+    plant = load_plant(config)
+    with progress_bar(len(pump) if pump else len(plant.pumps), quiet) as advance:
+        result = scan(
+            plant, start, end, pumps=pump or None, plot_buckets=DEFAULT_BUCKETS,
+            processes=processes, cluster=cluster_choice(cluster, workers), progress=advance,
+        )  # fmt: skip
     if out is None:
         tz = result.plant.timezone
         a = result.start.tz_convert(tz).strftime("%Y%m%d")
