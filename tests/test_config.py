@@ -21,7 +21,7 @@ def test_bad_layout_names_valid_values(tmp_path):
     path = make_plant(tmp_path, wide={"a.csv": steady_frame()})
     path.write_text(path.read_text().replace('layout = "wide"', 'layout = "tall"'))
     with pytest.raises(
-        ConfigError, match=r"exports\[1\]\.layout\] Input should be 'wide' or 'long'"
+        ConfigError, match=r"exports\[1\]\.layout\] Input should be 'wide', 'long' or 'dataset'"
     ):
         read_plant_file(path)
 

@@ -5,8 +5,10 @@ from __future__ import annotations
 import typer
 
 from .check_cmd import check_command
+from .ingest_cmd import ingest_command
 from .onset_cmd import onset_command
 from .scan_cmd import scan_command
+from .whatif_cmd import whatif_command
 
 app = typer.Typer(
     name="pumpscreen",
@@ -18,6 +20,8 @@ app = typer.Typer(
 app.command("scan")(scan_command)
 app.command("check")(check_command)
 app.command("onset")(onset_command)
+app.command("whatif")(whatif_command)
+app.command("ingest")(ingest_command)
 
 if __name__ == "__main__":  # pragma: no cover
     app()

@@ -1,0 +1,282 @@
+"""The ingested dataset against the raw exports: a scan of either gives the same tables.
+
+Plants here are invented (tests/plantmaker.py); the demo plant is invented too.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow.parquet as pq
+import pytest
+from pandas.testing import assert_frame_equal
+from plantmaker import make_plant, pump_row, steady_frame
+from typer.testing import CliRunner
+
+import screening
+from screening import dataset
+from screening.cli.main import app
+from screening.config import ConfigError
+from screening.ingest import IngestError, ingest
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def dataset_plant(plant_file: Path, folder: Path, out: Path) -> Path:
+    """A copy of a plant file whose exports are the dataset in ``folder``."""
+    keep, skipping = [], False
+    for line in plant_file.read_text().splitlines():
+        stripped = line.strip()
+        if stripped.startswith("[[exports]]"):
+            skipping = True
+            continue
+        if skipping and stripped.startswith("["):
+            skipping = False
+        if not skipping:
+            keep.append(line)
+    text = re.sub(
+        r'^(pumps|curves)\s*=\s*"([^"]+)"',
+        lambda m: f'{m[1]} = "{(plant_file.parent / m[2]).resolve()}"',
+        "\n".join(keep),
+        flags=re.M,
+    )
+    out.write_text(text + f'\n[[exports]]\nlayout = "dataset"\npath = "{folder}"\n')
+    return out
+
+
+def scan_both(plant_file, tmp_path, start=None, end=None, keep=(None, None)):
+    """Scan the raw exports and the dataset ingested from them; return both and the summary."""
+    summary = ingest(plant_file, tmp_path / "ds", *keep)
+    other = dataset_plant(plant_file, tmp_path / "ds", tmp_path / "from_dataset.toml")
+    return screening.scan(plant_file, start, end), screening.scan(other, start, end), summary
+
+
+def assert_same(raw, ds, quality=True):
+    for name in ("hours", "summary", "daily", "problems", "file_problems"):
+        assert_frame_equal(getattr(raw, name), getattr(ds, name), obj=name)
+    if quality:
+        assert_frame_equal(raw.quality, ds.quality, obj="quality")
+
+
+def long_csv(rows: list[tuple[str, str, str, str]]) -> str:
+    return "\n".join(["tag,time,value,quality"] + [",".join(r) for r in rows]) + "\n"
+
+
+def test_demo_plant_scans_the_same_from_the_dataset(tmp_path):
+    plant = ROOT / "configs" / "demo_plant.toml"
+    raw, ds, summary = scan_both(plant, tmp_path, "2026-10-01", "2026-11-01")
+    assert summary.sources == len(raw.export_files) and not summary.files_not_read
+    assert len(raw.summary) > 10
+    assert_same(raw, ds, quality=False)
+    # The counts agree; only where a long Parquet problem was first seen may differ: the raw
+    # loader counts rows of its tag-filtered read, the dataset names the row of the file.
+    assert_frame_equal(raw.quality.drop(columns="first_problem"),
+                       ds.quality.drop(columns="first_problem"))  # fmt: skip
+
+
+@pytest.mark.parametrize("timezone", ["UTC", "Europe/Berlin"])
+def test_window_across_a_month_boundary(tmp_path, timezone):
+    frame = steady_frame(start="2026-10-31", periods=2 * 1440)
+    frame.loc[1500:1560, "P1.PS"] = -95.0  # below NPSH3 around the turn of the month
+    plant = make_plant(tmp_path, wide={"a.csv": frame}, timezone=timezone,
+                       start="2026-10-31 12:00", end="2026-11-01 12:00")  # fmt: skip
+    raw, ds, _ = scan_both(plant, tmp_path)
+    assert_same(raw, ds)
+    assert raw.hours.query("state == 'below_npsh3'").hours.sum() > 0
+    folder = tmp_path / "ds" / "pump=P1"
+    assert sorted(p.name for p in folder.iterdir()) == ["month=2026-10", "month=2026-11"]
+    first = pq.read_table(folder / "month=2026-11" / "part-0.parquet").column("time")
+    if timezone == "UTC":  # a sample exactly at the first instant of the month is in it
+        assert first.to_pandas().min() == pd.Timestamp("2026-11-01", tz="UTC")
+
+
+def test_only_overlapping_months_are_opened(tmp_path):
+    frame = steady_frame(start="2026-09-30", periods=3 * 1440)
+    plant = make_plant(tmp_path, wide={"a.csv": frame})
+    ingest(plant, tmp_path / "ds")
+    ds = dataset.open_dataset(tmp_path / "ds")
+    oct1 = pd.Timestamp("2026-10-01", tz="UTC").value
+    hour = 3600 * 10**9
+    folder = tmp_path / "ds" / "pump=P1"
+    opened = [p.parent.name for p, _ in dataset._partitions(folder, (oct1, oct1 + hour))]
+    assert opened == ["month=2026-10"]
+    opened = [p.parent.name for p, _ in dataset._partitions(folder, (oct1 - hour, oct1))]
+    assert opened == ["month=2026-09"]  # the end is exclusive
+    assert len(dataset._partitions(folder, None)) == 2
+    assert ds.tags["P1.TT"] == "pump=P1"
+
+
+def test_a_sample_at_the_first_instant_of_a_month_holds_into_the_window(tmp_path):
+    # 23:58 is in the October part, 00:00 in the November part; the window starts at 00:05
+    # and only the 00:00 sample (held 10 min) covers 00:05 to 00:10
+    frame = pd.concat(
+        [
+            steady_frame(start=t, periods=n)
+            for t, n in (("2026-10-31 23:58", 1), ("2026-11-01 00:00", 1), ("2026-11-01 00:10", 50))
+        ]
+    )
+    plant = make_plant(tmp_path, wide={"a.csv": frame}, start="2026-11-01 00:05",
+                       end="2026-11-01 01:00", stale="10 min")  # fmt: skip
+    raw, ds, _ = scan_both(plant, tmp_path, keep=("2026-11-01 00:05", "2026-11-01 01:00"))
+    assert_same(raw, ds)
+    h = ds.hours.query("kind == 'margin'").set_index("state").hours
+    assert h["no_data"] == 0 and h.sum() == pytest.approx(55 / 60)
+    months = sorted(p.parent.name for p in (tmp_path / "ds").rglob("part-0.parquet"))
+    assert months == ["month=2026-10", "month=2026-11"]
+
+
+def test_a_tag_split_over_two_files_with_bad_rows(tmp_path):
+    frame = steady_frame()
+    first, second = frame.copy(), frame[["timestamp", "P1.TT"]].copy()
+    first.loc[720:, "P1.TT"] = None  # the second half of the temperature is in b.csv
+    second = second.iloc[719:].astype({"P1.TT": object})  # 11:59 in both files: a duplicate
+    second.loc[719, "P1.TT"] = 25.0
+    second.loc[800, "P1.TT"] = "Comm Fail"
+    second.loc[801, "timestamp"] = "not a time"
+    rows = [("P1.RUN", "2026-10-01T00:00:00+00:00", "1", "ok")]
+    rows += [("P1.FT", f"2026-10-01T{h:02d}:{m:02d}:00Z", "80", "ok" if h != 3 else "suspect")
+             for h in range(24) for m in range(0, 60, 5)]  # fmt: skip
+    rows.insert(5, rows.pop(8))  # out of order
+    rows.append(("", "2026-10-01T05:00:00Z", "80", "ok"))  # no tag
+    plant = make_plant(
+        tmp_path,
+        wide={"a.csv": first.drop(columns=["P1.FT", "P1.RUN"]), "b.csv": second},
+        long={"t.csv": long_csv(rows)},
+        stale="1 day",
+    )
+    with open(tmp_path / "exports" / "a.csv", "a") as fh:
+        fh.write("2026-10-01 12:00:30,100\n")  # too few fields: a bad sample of each tag
+    raw, ds, summary = scan_both(plant, tmp_path)
+    assert_same(raw, ds)  # CSV rows: even the first place of each problem is the same
+    q = ds.quality.set_index("role")
+    assert q.loc["temperature", "duplicates"] == 1 and q.loc["temperature", "text_values"] == 1
+    assert q.loc["temperature", "bad_timestamps"] == 1
+    assert q.loc["flow", "bad_quality"] == 12 and q.loc["flow", "out_of_order"] == 1
+    assert "b.csv line 83" in q.loc["temperature", "first_problem"]
+    assert "row with a wrong number of fields: " in q.loc["suction", "first_problem"]
+    assert summary.bad_rows == {"bad timestamp": 1, "text value": 1, "bad quality": 12,
+                                "no tag": 1, "row with a wrong number of fields": 2}  # fmt: skip
+    assert "t.csv line" in summary.first_bad["no tag"]
+
+
+def test_unsafe_pump_ids_stay_inside_the_folder(tmp_path):
+    ids = ["../../escape", "a/b", "a_b", ".."]
+    frames = [steady_frame(pid) for pid in ids]
+    frame = frames[0]
+    for f in frames[1:]:
+        frame = frame.merge(f, on="timestamp")
+    plant = make_plant(tmp_path, wide={"a.csv": frame}, rows=[pump_row(p) for p in ids])
+    raw, ds, _ = scan_both(plant, tmp_path)
+    assert_same(raw, ds)
+    root = (tmp_path / "ds").resolve()
+    written = [p.resolve() for p in tmp_path.rglob("*") if p.is_file()]
+    outside = [p for p in written if not p.is_relative_to(root) and p.suffix == ".parquet"]
+    assert outside == []
+    folders = sorted(p.name for p in root.iterdir() if p.is_dir())
+    assert len(folders) == len(ids) and all(f.startswith("pump=") for f in folders)
+
+
+def test_shared_tag_and_site_barometer(tmp_path):
+    frame = steady_frame("P1").merge(steady_frame("P2"), on="timestamp")
+    frame["SITE.BARO"] = 1013.0
+    frame["COMMON.TT"] = 30.0
+    rows = [
+        pump_row("P1", temperature_tag="COMMON.TT"),
+        pump_row("P2", temperature_tag="COMMON.TT"),
+    ]
+    baro = 'barometer_tag = "SITE.BARO"\nbarometer_unit = "hPa"'
+    plant = make_plant(tmp_path, wide={"a.csv": frame}, rows=rows, barometer=baro)
+    raw, ds, _ = scan_both(plant, tmp_path)
+    assert_same(raw, ds)
+    tags = json.loads((tmp_path / "ds" / "manifest.json").read_text())["tags"]
+    assert tags["SITE.BARO"] == "site" and tags["COMMON.TT"] == "pump=P1"
+    assert tags["P1.TT"] == "other"  # in the export, used by no pump: kept, not lost
+
+
+def test_a_register_tag_no_export_holds_is_not_found_either_way(tmp_path):
+    plant = make_plant(tmp_path, wide={"a.csv": steady_frame()},
+                       rows=[pump_row("P1", speed_tag="P1.SPEED", speed_unit="rpm")])  # fmt: skip
+    raw, ds, _ = scan_both(plant, tmp_path)
+    assert_same(raw, ds)
+    assert ds.problems.message.str.contains("P1.SPEED").all() and ds.summary.empty
+
+
+def test_unreadable_file_is_reported_and_carried_to_the_scan(tmp_path):
+    plant = make_plant(tmp_path, wide={"a.csv": steady_frame()})
+    (tmp_path / "exports" / "broken.csv").write_bytes(b"\x00\x01 no header here\n")
+    raw, ds, summary = scan_both(plant, tmp_path)
+    assert "broken.csv" in next(iter(summary.files_not_read))
+    assert_same(raw, ds)
+    manifest = json.loads((tmp_path / "ds" / "manifest.json").read_text())
+    assert [Path(s["path"]).name for s in manifest["sources"]] == ["a.csv"]
+    assert len(manifest["sources"][0]["sha256"]) == 64 and manifest["layout_version"] == 1
+
+
+def test_no_readable_file_is_an_error(tmp_path):
+    plant = make_plant(tmp_path)
+    with pytest.raises(IngestError, match="no export file could be read"):
+        ingest(plant, tmp_path / "ds")
+
+
+def test_a_window_wider_than_the_dataset_is_named(tmp_path):
+    plant = make_plant(tmp_path, wide={"a.csv": steady_frame(periods=3 * 1440)})
+    ingest(plant, tmp_path / "ds", "2026-10-01", "2026-10-02")
+    other = dataset_plant(plant, tmp_path / "ds", tmp_path / "d.toml")
+    r = screening.scan(other, "2026-10-01", "2026-10-03")
+    assert r.summary.empty
+    assert r.file_problems.message.str.contains("ingest again with a wider window").all()
+
+
+def test_output_folder_rules(tmp_path):
+    plant = make_plant(tmp_path, wide={"a.csv": steady_frame()})
+    (tmp_path / "busy").mkdir()
+    (tmp_path / "busy" / "notes.txt").write_text("keep me")
+    with pytest.raises(IngestError, match="is not a dataset"):
+        ingest(plant, tmp_path / "busy")
+    ingest(plant, tmp_path / "ds")
+    again = ingest(plant, tmp_path / "ds", "2026-10-01 06:00", "2026-10-01 12:00")  # replaced
+    assert again.outside_window > 0
+    assert json.loads((tmp_path / "ds" / "manifest.json").read_text())["window"]["start"]
+    other = dataset_plant(plant, tmp_path / "ds", tmp_path / "d.toml")
+    with pytest.raises(IngestError, match=r"exports\[1\]\] is a dataset"):
+        ingest(other, tmp_path / "ds2")
+
+
+@pytest.mark.parametrize(
+    ("block", "message"),
+    [
+        ('layout = "dataset"', "needs 'path'"),
+        ('layout = "dataset"\npath = "ds"\nfiles = "x/*.csv"', r"key\(s\) files.* do not apply"),
+        ('layout = "wide"\npath = "ds"', "'path' applies only to layout 'dataset'"),
+        ('layout = "long"', "needs 'files'"),
+    ],
+)
+def test_export_source_keys_are_checked(tmp_path, block, message):
+    plant = make_plant(tmp_path, wide={"a.csv": steady_frame()})
+    text = plant.read_text().replace('files = "exports/*.csv"\nlayout = "wide"', block)
+    plant.write_text(text)
+    with pytest.raises(ConfigError, match=message):
+        screening.load_plant(plant)
+
+
+def test_missing_dataset_is_a_file_problem(tmp_path):
+    plant = make_plant(tmp_path, wide={"a.csv": steady_frame()})
+    other = dataset_plant(plant, tmp_path / "nowhere", tmp_path / "d.toml")
+    r = screening.scan(other)
+    assert r.file_problems.message.str.contains("not a dataset").all()
+    assert r.problems.message.str.contains("not found in any export").all()
+
+
+def test_ingest_command(tmp_path):
+    plant = make_plant(tmp_path, wide={"a.csv": steady_frame()})
+    (tmp_path / "exports" / "broken.csv").write_text("")
+    res = CliRunner().invoke(app, ["ingest", str(plant), "--out", str(tmp_path / "ds")])
+    assert res.exit_code == 3, res.output  # a file not read: partial
+    assert "file not read" in res.output and str((tmp_path / "ds").resolve()) in res.output
+    res = CliRunner().invoke(app, ["ingest", str(tmp_path / "missing.toml")])
+    assert res.exit_code == 1 and "plant file not found" in res.output
+    assert np.isfinite(screening.scan(plant).summary.coverage).all()
