@@ -7,6 +7,7 @@ pump register and the NPSH3 curves are tables of their own (see :mod:`screening.
 
 from __future__ import annotations
 
+import math
 import tomllib
 import zoneinfo
 from pathlib import Path
@@ -29,21 +30,32 @@ class ConfigError(ValueError):
 
 
 class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    # inf and nan are valid TOML floats but no valid setting
+    model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
+
+
+#: Longest duration a setting may give [s]: a hold or an allowance beyond a year is a typo.
+MAX_DURATION = 366 * 86400.0
 
 
 def _length(value) -> float:
     try:
-        return parse_quantity(value, "length", None)
+        length = parse_quantity(value, "length", None)
     except UnitError as exc:
         raise ValueError(str(exc)) from exc
+    if not math.isfinite(length):
+        raise ValueError(f"{value!r} is not a finite length")
+    return length
 
 
 def _duration(value) -> float:
     try:
-        return parse_duration(value)
+        seconds = parse_duration(value)
     except UnitError as exc:
         raise ValueError(str(exc)) from exc
+    if not 0 <= seconds <= MAX_DURATION:  # also false for nan
+        raise ValueError(f"{value!r} is not a duration from 0 to 366 days (such as '5 min')")
+    return seconds
 
 
 class Site(_Strict):
@@ -57,6 +69,16 @@ class Site(_Strict):
     barometer_stale_limit: float = Field(1800.0, description="hold of a barometer sample [s]")
 
     _elev = field_validator("elevation", mode="before")(lambda v: _length(v))
+
+    @field_validator("elevation")
+    @classmethod
+    def _elevation_range(cls, v: float) -> float:
+        if not -1000.0 <= v <= 10_000.0:
+            raise ValueError(
+                f"site elevation {v:g} m is not between -1000 m and 10000 m above sea level"
+            )
+        return v
+
     _baro_stale = field_validator("barometer_stale_limit", mode="before")(lambda v: _duration(v))
 
     @field_validator("timezone")
@@ -119,6 +141,13 @@ class Running(_Strict):
     #: 80-120 % of the test speed, from memory).
     speed_scaling_range: tuple[float, float] = (0.8, 1.2)
 
+    @field_validator("speed_scaling_range")
+    @classmethod
+    def _ordered(cls, v: tuple[float, float]) -> tuple[float, float]:
+        if not 0 < v[0] < v[1]:
+            raise ValueError(f"{list(v)} is not [low, high] with 0 < low < high, e.g. [0.8, 1.2]")
+        return v
+
 
 class Window(_Strict):
     """Default screening window (dates in the site time zone; end exclusive)."""
@@ -158,10 +187,15 @@ class Onset(_Strict):
 
 
 class ExportSource(_Strict):
-    """One family of historian export files and how they are laid out."""
+    """One family of historian export files and how they are laid out.
 
-    files: str = Field(description="glob relative to the plant file")
-    layout: Literal["wide", "long"]
+    ``layout = "dataset"`` is a folder written by ``pumpscreen ingest`` (see
+    :mod:`screening.dataset`), given by ``path``; it takes no other key.
+    """
+
+    files: str | None = Field(None, description="glob relative to the plant file")
+    layout: Literal["wide", "long", "dataset"]
+    path: str | None = Field(None, description="dataset folder relative to the plant file")
     format: Literal["csv", "parquet"] | None = None
     time_column: str = "timestamp"
     tag_column: str = "tag"
@@ -170,6 +204,31 @@ class ExportSource(_Strict):
     delimiter: str = ","
     decimal: str = "."
     encoding: str = "utf-8"
+
+    @model_validator(mode="after")
+    def _keys_of_layout(self) -> ExportSource:
+        if self.layout == "dataset":
+            if not self.path:
+                raise ValueError(
+                    "layout 'dataset' needs 'path': the folder written by 'pumpscreen ingest'"
+                )
+            other = sorted(self.model_fields_set - {"layout", "path"})
+            if other:
+                raise ValueError(
+                    f"key(s) {', '.join(other)} do not apply to layout 'dataset' (it takes "
+                    "only 'path'; the dataset's manifest describes its columns)"
+                )
+        else:
+            if self.path is not None:
+                raise ValueError(
+                    f"key 'path' applies only to layout 'dataset'; {self.layout} files are "
+                    "found by 'files' (a glob)"
+                )
+            if not self.files:
+                raise ValueError(
+                    f"layout {self.layout!r} needs 'files' (a glob relative to the plant file)"
+                )
+        return self
 
 
 class PolicyRule(_Strict):
@@ -253,12 +312,21 @@ def read_plant_file(path: str | Path) -> tuple[PlantFile, Path]:
         text = path.read_text(encoding="utf-8-sig")
     except FileNotFoundError as exc:
         raise ConfigError(f"{path}: plant file not found") from exc
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError(f"{path}: cannot be read as UTF-8 text ({exc})") from exc
+    except UnicodeDecodeError as exc:
+        data = path.read_bytes()
+        line = data[: exc.start].count(b"\n") + 1
+        raise ConfigError(
+            f"{path} line {line}: not UTF-8 text (byte 0x{data[exc.start]:02x}; a Latin-1 "
+            "character such as '°'?); save the plant file as UTF-8"
+        ) from exc
+    except OSError as exc:
+        raise ConfigError(f"{path}: cannot be read ({exc})") from exc
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(f"{path}: not valid TOML: {exc}") from exc
+    except RecursionError as exc:
+        raise ConfigError(f"{path}: not valid TOML: arrays or tables nested too deeply") from exc
     try:
         plant = PlantFile.model_validate(raw)
     except ValidationError as exc:

@@ -13,8 +13,10 @@ with a filter on the tag column. The index of which file holds which tag is buil
 
 from __future__ import annotations
 
+import csv
 import glob
 import gzip
+import io
 from collections import OrderedDict
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -25,12 +27,25 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
+from . import dataset as _dataset
 from .config import ExportSource, PlantFile
 from .timestamps import parse_times
 
 
 class ExportError(ValueError):
     """An export file that cannot be read; the message names the file and the column."""
+
+
+#: Failures of a reading library on a malformed file that no check above foresaw: the file is
+#: reported as not read (with the library's words) and the rest of the plant goes on.
+_FILE_FAULTS = (
+    ValueError, TypeError, KeyError, IndexError, OverflowError, UnicodeError, OSError,
+    EOFError, csv.Error, pa.ArrowException,
+)  # fmt: skip
+
+
+def _unexpected(path, exc: BaseException) -> str:
+    return f"{path}: cannot be read ({type(exc).__name__}: {exc})"
 
 
 @dataclass
@@ -47,6 +62,9 @@ class TagQuality:
     out_of_order: int = 0
     frozen: int = 0
     out_of_range: int = 0
+    #: CSV rows with more or fewer fields than the header (a truncated or garbled line):
+    #: every tag's value in such a row is a bad sample.
+    malformed_rows: int = 0
     words: dict[str, int] = field(default_factory=dict)
     first_problem: dict[str, str] = field(default_factory=dict)
 
@@ -92,12 +110,94 @@ def _csv_header(path: Path, source: ExportSource) -> list[str]:
     try:
         with opener(path, "rt", encoding=source.encoding, newline="") as fh:
             line = fh.readline()
-    except (OSError, UnicodeDecodeError, EOFError) as exc:
+    except UnicodeDecodeError as exc:
+        raise ExportError(_encoding_message(path, source.encoding)) from exc
+    except (OSError, EOFError, gzip.BadGzipFile) as exc:
         raise ExportError(f"{path}: cannot be read ({exc})") from exc
     line = line.lstrip("\ufeff").rstrip("\r\n")
     if not line:
         raise ExportError(f"{path}: empty file (no header line)")
     return [c.strip().strip('"') for c in line.split(source.delimiter)]
+
+
+def _raw_bytes(path: Path) -> bytes:
+    """The bytes of a file, uncompressed when its name ends in .gz."""
+    if path.name.lower().endswith(".gz"):
+        with gzip.open(path, "rb") as fh:
+            return fh.read()
+    return path.read_bytes()
+
+
+def _encoding_message(path: Path, encoding: str) -> str:
+    """Where a file stops being text in ``encoding``: its first undecodable line and byte."""
+    try:
+        data = _raw_bytes(path)
+    except (OSError, EOFError, gzip.BadGzipFile) as exc:
+        return f"{path}: cannot be read ({exc})"
+    for number, raw in enumerate(data.split(b"\n"), start=1):
+        try:
+            raw.decode(encoding)
+        except UnicodeDecodeError as exc:
+            byte = raw[exc.start]
+            return (
+                f"{path} line {number}: not {encoding} text (byte 0x{byte:02x} at column "
+                f"{exc.start + 1}; a Latin-1 or Windows-1252 character such as '°'?). Save "
+                'the file as UTF-8, or set encoding = "latin-1" in its [[exports]] block'
+            )
+    return f"{path}: not {encoding} text; save it as UTF-8 or set encoding in [[exports]]"
+
+
+def _check_unique(path: Path, names: list[str]) -> None:
+    """A column named twice is ambiguous: which of the two holds the tag?"""
+    seen: dict[str, int] = {}
+    for i, name in enumerate(names, start=1):
+        if name in seen:
+            raise ExportError(
+                f"{path}: column {name!r} appears twice (columns {seen[name]} and {i}); "
+                "each tag and the time must have one column"
+            )
+        seen[name] = i
+
+
+_ASCII_LIKE = {"utf8", "utf8sig", "latin1", "iso88591", "cp1252", "windows1252", "ascii"}
+_BLANK = np.zeros(256, dtype=bool)
+_BLANK[[9, 13, 32]] = True  # tab, carriage return, space: pandas skips lines of only these
+
+
+def _record_layout(path: Path, source: ExportSource) -> tuple[np.ndarray, np.ndarray]:
+    """Line number [-] and number of fields of every non-blank record of a CSV file.
+
+    The first record is the header. Quote-free files in an ASCII-compatible encoding are
+    counted with numpy; others through :mod:`csv`, which follows quoting.
+    """
+    data = _raw_bytes(path)
+    enc = source.encoding.lower().replace("-", "").replace("_", "")
+    delim = source.delimiter.encode(source.encoding)
+    simple = (
+        enc in _ASCII_LIKE
+        and len(delim) == 1
+        and b'"' not in data
+        and data.count(b"\r") == data.count(b"\r\n")
+    )
+    if simple:
+        buf = np.frombuffer(data, dtype=np.uint8)
+        nl = np.flatnonzero(buf == 10)
+        starts = np.concatenate(([0], nl + 1))
+        ends = np.concatenate((nl, [len(buf)]))
+        delims = np.concatenate(([0], np.cumsum(buf == delim[0])))
+        content = np.concatenate(([0], np.cumsum(~_BLANK[buf])))
+        keep = content[ends] > content[starts]
+        lines = np.flatnonzero(keep) + 1
+        return lines, (delims[ends] - delims[starts] + 1)[keep]
+    text = data.decode(source.encoding)
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=source.delimiter)
+    lines, fields, line = [], [], 1
+    for record in reader:
+        if any(c.strip() for c in record) or len(record) > 1:
+            lines.append(line)
+            fields.append(len(record))
+        line = reader.line_num + 1
+    return np.array(lines, dtype=np.int64), np.array(fields, dtype=np.int64)
 
 
 class ExportIndex:
@@ -121,7 +221,11 @@ class ExportIndex:
         self._by_tag: dict[str, list[_FileInfo]] = {}
         self._known: frozenset[str] | None = None
         self._time_cache: OrderedDict[Path, tuple[np.ndarray, np.ndarray]] = OrderedDict()
+        self._datasets: dict[Path, _dataset.Dataset] = {}  # folder -> its dataset
         for source in plant.exports:
+            if source.layout == "dataset":
+                self._add_dataset(source, base)
+                continue
             pattern = source.files
             if not Path(pattern).is_absolute():
                 pattern = str(base / pattern)
@@ -134,6 +238,9 @@ class ExportIndex:
                     info = self._inspect(path, source)
                 except ExportError as exc:
                     self.file_problems[str(path)] = str(exc)
+                    continue
+                except _FILE_FAULTS as exc:  # the last line of defence: one file, not the run
+                    self.file_problems[str(path)] = _unexpected(path, exc)
                     continue
                 self.files.append(info)
                 for tag in info.tags:
@@ -150,6 +257,7 @@ class ExportIndex:
                     raise ExportError(f"{path}: not a readable Parquet file ({exc})") from exc
             else:
                 names = _csv_header(path, source)
+            _check_unique(path, names)
             if source.time_column not in names:
                 raise ExportError(
                     f"{path}: no time column {source.time_column!r} (columns: "
@@ -163,6 +271,7 @@ class ExportIndex:
             if fmt == "parquet":
                 try:
                     names = pq.read_schema(path).names
+                    _check_unique(path, [n for n in names if n in needed])
                     missing = [c for c in needed if c not in names]
                     if missing:
                         raise ExportError(f"{path}: missing column(s) {', '.join(missing)}")
@@ -172,6 +281,7 @@ class ExportIndex:
                     raise ExportError(f"{path}: not a readable Parquet file ({exc})") from exc
             else:
                 names = _csv_header(path, source)
+                _check_unique(path, [n for n in names if n in needed])
                 missing = [c for c in needed if c not in names]
                 if missing:
                     raise ExportError(
@@ -191,6 +301,23 @@ class ExportIndex:
                 typed = False
         return _FileInfo(path, source, fmt, tags, typed, time_range)
 
+    def _add_dataset(self, source: ExportSource, base: Path) -> None:
+        """Index a dataset written by ``pumpscreen ingest``: one entry per folder of tags."""
+        root = Path(source.path)
+        root = root if root.is_absolute() else base / root
+        try:
+            ds = _dataset.open_dataset(root)
+        except _dataset.DatasetError as exc:
+            self.file_problems[str(root)] = str(exc)
+            return
+        self.file_problems.update(ds.files_not_read)  # as the raw exports would report them
+        for folder, tags in sorted(ds.folders().items()):
+            info = _FileInfo(root / folder, source, "dataset", frozenset(tags))
+            self._datasets[info.path] = ds
+            self.files.append(info)
+            for tag in tags:
+                self._by_tag.setdefault(tag, []).append(info)
+
     def known_tags(self) -> frozenset[str]:
         """Every tag found in any readable export file."""
         if self._known is None:
@@ -198,8 +325,11 @@ class ExportIndex:
         return self._known
 
     def files_for(self, tag: str) -> list[Path]:
-        """The files that hold ``tag``."""
-        return [f.path for f in self._by_tag.get(tag, [])]
+        """The files that hold ``tag`` (for a dataset: the export files it was ingested from)."""
+        out = []
+        for f in self._by_tag.get(tag, []):
+            out += self._datasets[f.path].tag_files.get(tag, []) if f.fmt == "dataset" else [f.path]
+        return out
 
     # -- reading -----------------------------------------------------------------------------
     def _read_csv(self, path: Path, source: ExportSource, columns: list[str]) -> pd.DataFrame:
@@ -207,6 +337,7 @@ class ExportIndex:
             return pd.read_csv(
                 path,
                 usecols=lambda c: c.strip().strip('"').lstrip("\ufeff") in columns,
+                index_col=False,  # never take a row with extra fields as an index
                 dtype=str,
                 keep_default_na=False,
                 na_values=[""],
@@ -214,8 +345,28 @@ class ExportIndex:
                 encoding=source.encoding,
                 skipinitialspace=True,
             ).rename(columns=lambda c: c.strip().strip('"').lstrip("\ufeff"))
-        except (pd.errors.ParserError, UnicodeDecodeError, OSError, EOFError, ValueError) as exc:
+        except UnicodeDecodeError as exc:
+            raise ExportError(_encoding_message(path, source.encoding)) from exc
+        except (pd.errors.ParserError, OSError, EOFError, ValueError) as exc:
             raise ExportError(f"{path}: cannot be read as CSV ({exc})") from exc
+
+    def _read_csv_rows(
+        self, path: Path, source: ExportSource, columns: list[str]
+    ) -> tuple[pd.DataFrame, np.ndarray, np.ndarray]:
+        """Read CSV columns with the line number of each row and whether the row is malformed
+        (more or fewer fields than the header: a truncated copy or a garbled line)."""
+        frame = self._read_csv(path, source, columns)
+        try:
+            lines, fields = _record_layout(path, source)
+        except (csv.Error, UnicodeDecodeError, OSError, EOFError, ValueError) as exc:
+            raise ExportError(f"{path}: cannot be read as CSV ({exc})") from exc
+        if len(lines) != len(frame) + 1:
+            raise ExportError(
+                f"{path}: {len(frame)} rows read but {max(len(lines) - 1, 0)} data lines "
+                "counted; check the quoting and the line endings of the file"
+            )
+        malformed = fields[1:] != fields[0]
+        return frame, lines[1:], malformed
 
     def _wide_times(self, info: _FileInfo, raw: pd.Series) -> tuple[np.ndarray, np.ndarray]:
         cached = self._time_cache.get(info.path)
@@ -254,14 +405,21 @@ class ExportIndex:
         for tag in wanted:
             for info in self._by_tag[tag]:
                 files.setdefault(info.path, (info, []))[1].append(tag)
-        for info, file_tags in files.values():
+        # In the order of the index, so that "the last in file order" of a tag's duplicate
+        # times never depends on which other tags are read with it.
+        position = {f.path: i for i, f in enumerate(self.files)}
+        for info, file_tags in sorted(files.values(), key=lambda v: position[v[0].path]):
             try:
                 if info.source.layout == "wide":
                     self._read_wide(info, file_tags, chunks, quality, span)
+                elif info.source.layout == "dataset":
+                    self._read_dataset(info, file_tags, chunks, quality, span)
                 else:
                     self._read_long(info, file_tags, chunks, quality, span)
             except ExportError as exc:
                 problems[str(info.path)] = str(exc)
+            except _FILE_FAULTS as exc:  # the last line of defence: one file, not the run
+                problems[str(info.path)] = _unexpected(info.path, exc)
         series = {}
         failed = set(problems)
         for tag in wanted:
@@ -300,21 +458,22 @@ class ExportIndex:
                 self._wide_arrow(info, table, tags, chunks, quality, span)
                 return
             frame = table.to_pandas()
-            first_row = 0
+            rows = np.arange(len(frame))
+            malformed = np.zeros(len(frame), dtype=bool)
         else:
-            frame = self._read_csv(info.path, src, cols)
-            first_row = 2  # line numbers: the header is line 1
+            frame, rows, malformed = self._read_csv_rows(info.path, src, cols)
         if info.fmt == "parquet" and span is not None and info.timestamp_typed:
             times, ok = parse_times(frame[src.time_column], self.timezone)
         else:
             times, ok = self._wide_times(info, frame[src.time_column])
-        rows = np.arange(len(frame)) + first_row
+        label = "row" if info.fmt == "parquet" else "line"
         for tag in tags:
             raw = frame[tag]
-            present = raw.notna().to_numpy()
+            # an empty cell is "not sampled"; a malformed row is a bad sample of every tag
+            present = raw.notna().to_numpy() | malformed
             _add_chunk(
                 tag, info, raw[present], times[present], ok[present], rows[present],
-                None, chunks, quality, self.good_quality, span=span,
+                None, chunks, quality, self.good_quality, label, span, malformed[present],
             )  # fmt: skip
 
     def _wide_arrow(self, info, table: pa.Table, tags, chunks, quality, span) -> None:
@@ -336,6 +495,15 @@ class ExportIndex:
                 None, chunks, quality, self.good_quality, "row", span,
             )  # fmt: skip
 
+    def _read_dataset(self, info, tags, chunks, quality, span=None) -> None:
+        """One folder of an ingested dataset: only the months that overlap ``span``."""
+        ds = self._datasets[info.path]
+        try:
+            table = _dataset.read_rows(ds, info.path.name, tags, span)
+            _dataset.add_chunks(ds, table, tags, chunks, quality, self.good_quality)
+        except _dataset.DatasetError as exc:
+            raise ExportError(str(exc)) from exc
+
     def _read_long(self, info, tags, chunks, quality, span=None) -> None:
         src = info.source
         cols = [src.tag_column, src.time_column, src.value_column]
@@ -353,13 +521,13 @@ class ExportIndex:
             frame = table.to_pandas()
             rows = np.arange(len(frame))
             label = "row"
+            malformed = np.zeros(len(frame), dtype=bool)
         else:
-            frame = self._read_csv(info.path, src, cols)
-            rows = np.arange(len(frame)) + 2
+            frame, rows, malformed = self._read_csv_rows(info.path, src, cols)
             label = "line"
             frame[src.tag_column] = frame[src.tag_column].str.strip()
             keep = frame[src.tag_column].isin(tags).to_numpy()
-            frame, rows = frame[keep], rows[keep]
+            frame, rows, malformed = frame[keep], rows[keep], malformed[keep]
         frame = frame.reset_index(drop=True)
         times, ok = parse_times(frame[src.time_column], self.timezone, frame[src.tag_column])
         tag_col = frame[src.tag_column].astype(str).to_numpy()
@@ -368,19 +536,32 @@ class ExportIndex:
             qual = frame[src.quality_column][sel] if src.quality_column else None
             _add_chunk(
                 tag, info, frame[src.value_column][sel], times[sel], ok[sel], rows[sel],
-                qual, chunks, quality, self.good_quality, label, span,
+                qual, chunks, quality, self.good_quality, label, span, malformed[sel],
             )  # fmt: skip
 
 
+def _as_text(value) -> str | None:
+    """A cell of any type as text (bytes decoded, undecodable bytes replaced)."""
+    if value is None or value is pd.NA or (isinstance(value, float) and np.isnan(value)):
+        return None
+    if isinstance(value, bytes | bytearray):
+        return bytes(value).decode("utf-8", errors="replace")
+    return str(value)
+
+
 def _add_chunk(
-    tag, info, raw, times, ok, rows, qual, chunks, quality, good, label="line", span=None
-):
+    tag, info, raw, times, ok, rows, qual, chunks, quality, good, label="line", span=None,
+    malformed=None,
+):  # fmt: skip
     """Parse one file's values of one tag into numbers and bad flags; count the problems."""
     q: TagQuality = quality[tag]
+    if malformed is None:
+        malformed = np.zeros(len(raw), dtype=bool)
     if span is not None and len(raw):
         inside = ~ok | ((times >= span[0]) & (times < span[1]))
         if not inside.all():
             raw, times, ok, rows = raw[inside], times[inside], ok[inside], rows[inside]
+            malformed = malformed[inside]
             if qual is not None:
                 qual = qual[inside]
     if len(raw) == 0:
@@ -390,31 +571,37 @@ def _add_chunk(
         q.bad_timestamps += int((~ok).sum())
         q.note("bad timestamp", where + str(rows[~ok][0]))
     raw = raw[ok] if not ok.all() else raw
-    times, rows = times[ok], rows[ok]
+    times, rows, malformed = times[ok], rows[ok], malformed[ok]
     if qual is not None:
         qual = qual[ok]
     if isinstance(raw, np.ndarray):
         values = raw.astype(np.float64, copy=False)
         is_text = np.zeros(len(values), dtype=bool)
-    elif raw.dtype.kind == "f" or raw.dtype.kind in "iu":
-        values = raw.to_numpy(dtype=np.float64)
+    elif raw.dtype.kind in "fiub":  # numbers, and booleans (a run status) as 1 and 0
+        values = raw.to_numpy(dtype=np.float64, na_value=np.nan)
         is_text = np.zeros(len(values), dtype=bool)
     else:
-        text = raw.astype("string").str.strip()
+        try:
+            text = raw.astype("string").str.strip()
+        except (UnicodeDecodeError, TypeError, ValueError):
+            text = pd.Series([_as_text(v) for v in raw], dtype="string").str.strip()
         if info.source.decimal != ".":
             text = text.str.replace(info.source.decimal, ".", regex=False)
         values = pd.to_numeric(text, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan)
-        is_text = np.isnan(values) & text.notna().to_numpy()
+        is_text = np.isnan(values) & text.notna().to_numpy() & ~malformed
         if is_text.any():
             q.text_values += int(is_text.sum())
             q.note("text value", where + str(rows[is_text][0]))
             for word, count in text[is_text].value_counts().items():
                 q.words[str(word)] = q.words.get(str(word), 0) + int(count)
-    not_finite = ~np.isfinite(values) & ~is_text
+    if malformed.any():
+        q.malformed_rows += int(malformed.sum())
+        q.note("row with a wrong number of fields", where + str(rows[malformed][0]))
+    not_finite = ~np.isfinite(values) & ~is_text & ~malformed
     if not_finite.any():
         q.not_finite += int(not_finite.sum())
         q.note("missing or infinite value", where + str(rows[not_finite][0]))
-    bad = is_text | not_finite
+    bad = is_text | not_finite | malformed
     if qual is not None:
         words = qual.astype("string").str.strip().str.lower().fillna("")
         bad_q = (~words.isin(good) & (words != "")).to_numpy()

@@ -8,6 +8,8 @@ valid. A bad row concerns only its pump: it is reported and the rest of the regi
 
 from __future__ import annotations
 
+import csv
+import io
 import re
 from dataclasses import dataclass
 from pathlib import Path
@@ -68,7 +70,12 @@ OPTIONAL = (
     "preferred_low",
     "preferred_high",
     "allowable_max_flow",
+    "low_pressure_setpoint",
+    "low_level_setpoint",
+    "high_temperature_setpoint",
 )
+#: Longest stale limit a register row may give [s]: a sample held for a year is no sample.
+MAX_STALE_LIMIT = 366 * 86400.0
 _HEADER = re.compile(r"^\s*([A-Za-z0-9_]+)\s*(?:\[(.*)\])?\s*$")
 
 
@@ -143,6 +150,12 @@ class PumpSpec:
     vessel_gauge: bool = False
     suction_line: SuctionLine | None = None
     line: int = 0
+    #: Today's operating limits, for the what-if comparison: the low suction-pressure
+    #: setpoint [Pa, in the suction transmitter's reference], the low vessel-level setpoint
+    #: [m, in the level transmitter's frame] and the high liquid-temperature setpoint [K].
+    low_pressure_setpoint: float | None = None
+    low_level_setpoint: float | None = None
+    high_temperature_setpoint: float | None = None
 
     @property
     def needs_barometer(self) -> bool:
@@ -177,24 +190,81 @@ class RowProblem:
     message: str
 
 
-def _read_table(path: Path) -> tuple[pd.DataFrame, dict[str, str | None]]:
+def _read_table(
+    path: Path,
+) -> tuple[pd.DataFrame, dict[str, str | None], list[tuple[int, str | None]]]:
+    """Read a register table: its rows (text), the unit of each column from its header, and
+    per row its line number [-] and what is wrong with the row as a whole (None if nothing).
+
+    A row with more or fewer fields than the header, or with bytes that are not UTF-8 text
+    (a Latin-1 "°C" typed in another editor), is a problem of that row only; the header must
+    be sound, or the whole table is refused.
+    """
     try:
-        frame = pd.read_csv(path, dtype=str, keep_default_na=False, encoding="utf-8-sig")
+        data = path.read_bytes()
     except FileNotFoundError as exc:
         raise ConfigError(f"{path}: file not found") from exc
-    except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError) as exc:
-        raise ConfigError(f"{path}: cannot be read as a CSV table ({exc})") from exc
+    except OSError as exc:
+        raise ConfigError(f"{path}: cannot be read ({exc})") from exc
+    # undecodable bytes become U+FFFD here and are reported with their row below
+    text = data.decode("utf-8-sig", errors="replace")
+    reader = csv.reader(io.StringIO(text, newline=""))
+    records: list[tuple[int, list[str]]] = []
+    line = 1
+    try:
+        for record in reader:
+            if any(cell.strip() for cell in record):
+                records.append((line, record))
+            line = reader.line_num + 1
+    except csv.Error as exc:
+        raise ConfigError(f"{path} line {reader.line_num}: cannot be read as CSV ({exc})") from exc
+    if not records:
+        raise ConfigError(f"{path}: empty file (no header line)")
+    header_line, header = records[0]
     units: dict[str, str | None] = {}
-    names = []
-    for col in frame.columns:
-        match = _HEADER.match(str(col))
+    names: list[str] = []
+    for number, col in enumerate(header, start=1):
+        if "\ufffd" in col:
+            raise ConfigError(
+                f"{path} line {header_line}, column {number}: the header is not UTF-8 text "
+                "(a Latin-1 character such as '°'?); save the file as UTF-8"
+            )
+        match = _HEADER.match(col)
         if not match:
-            raise ConfigError(f"{path}: column header {col!r} is not 'name' or 'name [unit]'")
-        names.append(match.group(1))
-        units[match.group(1)] = (match.group(2) or "").strip() or None
-    frame.columns = names
-    frame = frame.apply(lambda s: s.str.strip())
-    return frame, units
+            what = "has no name; write" if not col.strip() else f"{col.strip()!r} is not"
+            hint = " (the delimiter must be a comma)" if ";" in col or "\t" in col else ""
+            raise ConfigError(
+                f"{path}: column header {number} {what} 'name' or 'name [unit]'{hint}"
+            )
+        name = match.group(1)
+        if name in units:
+            raise ConfigError(
+                f"{path}: column {name!r} appears twice (columns {names.index(name) + 1} and "
+                f"{number})"
+            )
+        names.append(name)
+        units[name] = (match.group(2) or "").strip() or None
+    rows: list[list[str]] = []
+    lines: list[tuple[int, str | None]] = []
+    for line, record in records[1:]:
+        fault = None
+        if len(record) != len(names):
+            fault = (
+                f"{path} line {line}: the row has {len(record)} fields and the header "
+                f"{len(names)} (a stray or missing delimiter, or a truncated line)"
+            )
+            record = (record + [""] * len(names))[: len(names)]
+        else:
+            bad = [names[i] for i, cell in enumerate(record) if "\ufffd" in cell]
+            if bad:
+                fault = (
+                    f"{path} line {line}, column {bad[0]!r}: not UTF-8 text (a Latin-1 "
+                    "character such as '°'?); save the file as UTF-8"
+                )
+        rows.append([cell.strip() for cell in record])
+        lines.append((line, fault))
+    frame = pd.DataFrame(rows, columns=names, dtype=object)
+    return frame, units, lines
 
 
 class _Row:
@@ -222,9 +292,12 @@ class _Row:
         if value is None:
             return None
         try:
-            return parse_quantity(value, kind, self.units.get(column))
+            number = parse_quantity(value, kind, self.units.get(column))
         except UnitError as exc:
             self.fail(column, str(exc))
+        if not np.isfinite(number):
+            self.fail(column, f"{value!r} is not a finite number")
+        return number
 
     def number(self, column: str, default: float | None, low: float, high: float):
         value = self.text(column, required=False)
@@ -251,8 +324,8 @@ class _Row:
 def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
     r = _Row(path, line, row, units)
     stale = r.quantity("stale_limit", "duration", required=False)
-    if stale is not None and stale <= 0:
-        r.fail("stale_limit", "must be a positive duration such as '15 min'")
+    if stale is not None and not 0 < stale <= MAX_STALE_LIMIT:
+        r.fail("stale_limit", "must be a positive duration up to 366 days, such as '15 min'")
 
     def tag(role: str, kind: str, required: bool = True) -> TagSpec | None:
         name = r.text(f"{role}_tag", required)
@@ -323,6 +396,11 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         vapour_pressure=r.text("vapour_pressure", required=False),
         source=source,
         line=line,
+        low_pressure_setpoint=r.quantity("low_pressure_setpoint", "pressure", required=False),
+        low_level_setpoint=r.quantity("low_level_setpoint", "length", required=False),
+        high_temperature_setpoint=r.quantity(
+            "high_temperature_setpoint", "temperature", required=False
+        ),
         **vessel,
     )
 
@@ -385,7 +463,7 @@ def read_pump_register(
         If the file cannot be read, or a required column is missing or unknown.
     """
     path = Path(path)
-    frame, units = _read_table(path)
+    frame, units, lines = _read_table(path)
     missing = [c for c in REQUIRED if c not in frame.columns]
     if missing:
         raise ConfigError(f"{path}: missing required column(s) {', '.join(missing)}")
@@ -397,9 +475,11 @@ def read_pump_register(
         )
     pumps: dict[str, PumpSpec] = {}
     problems: list[RowProblem] = []
-    for i, (_, row) in enumerate(frame.iterrows()):
-        line = i + 2  # the header is line 1
+    for (_, row), (line, fault) in zip(frame.iterrows(), lines, strict=True):
         pid = row.get("pump_id", "") or f"(line {line})"
+        if fault is not None:
+            problems.append(RowProblem(pid, fault))
+            continue
         try:
             spec = _pump_from_row(path, line, row, units, default_stale)
         except ConfigError as exc:
@@ -429,7 +509,7 @@ def read_curves(path: str | Path) -> tuple[dict[str, Npsh3Curve], dict[str, str]
         Usable curves by id [SI: m³/s and m], and a message per curve that could not be used.
     """
     path = Path(path)
-    frame, units = _read_table(path)
+    frame, units, lines = _read_table(path)
     for col in ("curve_id", "flow", "npsh3"):
         if col not in frame.columns:
             raise ConfigError(f"{path}: missing required column {col!r}")
@@ -437,11 +517,13 @@ def read_curves(path: str | Path) -> tuple[dict[str, Npsh3Curve], dict[str, str]
     problems: dict[str, str] = {}
     flows: dict[str, list[float]] = {}
     heads: dict[str, list[float]] = {}
-    for i, (_, row) in enumerate(frame.iterrows()):
-        line = i + 2
+    for (_, row), (line, fault) in zip(frame.iterrows(), lines, strict=True):
         cid = row["curve_id"]
         if not cid:
             raise ConfigError(f"{path} line {line}, column 'curve_id': is empty")
+        if fault is not None:
+            problems.setdefault(cid, fault)
+            continue
         try:
             q = parse_quantity(row["flow"], "flow", row.get("flow_unit") or units.get("flow"))
         except UnitError as exc:
