@@ -27,6 +27,7 @@ from typing import Any
 
 import numpy as np
 
+from ._allocator import keep_freed_memory
 from .calculator import PumpResult, Settings
 from .loader import ExportError, ExportIndex, TagSeries
 from .plant import Plant
@@ -69,6 +70,7 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
     """Screen one batch of pumps (see :func:`screening.scan.scan` for what is screened)."""
     from .scan import _quality_row, _screen_pump  # the per-pump steps live with the scan
 
+    keep_freed_memory()  # a Dask worker is a fresh process (and Dask asks glibc to trim)
     seed_fluid_tables(ctx.tables)
     plant, index = ctx.plant, ctx.index
     known = index.known_tags()
