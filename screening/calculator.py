@@ -281,7 +281,10 @@ def calculate_pump(
     speed = held["speed"].value if "speed" in held else None
     npsh3 = curve.at_speed(flow, speed, pump.rated_speed, pump.npsh3_exponent)
 
-    # --- states
+    # --- states. An absolute pressure at or below zero (a gauge reading below the local
+    # vacuum) is impossible: bad data, not a number in the results.
+    with np.errstate(invalid="ignore"):
+        all_bad = all_bad | (np.asarray(p_abs) <= 0.0)
     on_curve = np.isfinite(npsh3) & np.isfinite(npsha)
     with np.errstate(invalid="ignore"):
         code = margin_band(npsha, npsh3, guidance, settings.ample_ratio)
