@@ -267,3 +267,28 @@ def test_today_setpoint_is_compared(tmp_path):
     row = r.setpoints.set_index(["input", "share"]).loc[("suction_pressure", 1.0)]
     assert row["today_setpoint"] == pytest.approx(-60e3)
     assert row["change_from_setpoint"] == pytest.approx(row["required"] + 60e3)
+
+
+def test_demo_scenarios_on_the_demo_plant():
+    """The invented demo plant's scenarios (configs/demo_scenarios.toml) act on the planted
+    events of demo_exports/planted_events.csv: the hotwell draw-down of CD-412 (below guidance
+    for about 4.5 h) is cured by a 1.2 m low-level floor, and RW-502's fouled strainer by 25 kPa
+    more suction pressure."""
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1]
+    r = screening.whatif(root / "configs/demo_plant.toml", root / "configs/demo_scenarios.toml",
+                         "2026-10-01", "2026-11-01", pumps=["CD-412", "RW-502"])  # fmt: skip
+    h = r.hours[r.hours.kind == "margin"].set_index(["scenario", "pump_id", "state"]).sort_index()
+    level = h.loc[("hotwell low level 1.2 m", "CD-412")]
+    assert 4.0 < level.loc["below_guidance", "before_h"] < 5.5
+    assert level.loc["below_guidance", "after_h"] == pytest.approx(0.0, abs=1e-9)
+    strainer = h.loc[("raw-water intake: strainer kept clean", "RW-502")]
+    assert strainer.loc["below_npsh3", "before_h"] > 10
+    assert strainer.loc[["below_npsh3", "below_guidance"], "after_h"].sum() == pytest.approx(
+        0.0, abs=1e-9
+    )
+    sp = r.setpoints.set_index(["pump_id", "input", "share"])
+    cd = sp.loc[("CD-412", "level", 1.0)]
+    assert cd["today_setpoint"] == pytest.approx(0.8)  # 800 mm in the register
+    assert cd["required"] > cd["today_setpoint"]  # today's low level is too low
