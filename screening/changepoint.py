@@ -80,6 +80,36 @@ def _prepare(dates: Any, values: Any, args: dict[str, Any]) -> tuple[pd.Datetime
     return days[keep], y[keep]
 
 
+def _start(dates, values, args: dict, fewest: int, method: str, **fields):
+    """Common start of the estimators: checked data, the result skeleton (``fields`` are the
+    estimator's own keys) and SSE0; SSE0 is None when the series is too short or constant
+    (the skeleton then says why)."""
+    days, y = _prepare(dates, values, args)
+    n = len(y)
+    penalty = args["penalty"]
+    out: dict[str, Any] = {
+        "onset": None,
+        "reason": None,
+        **fields,
+        "interval": None,
+        "confidence": None,
+        "statistic": None,
+        "penalty": float(2.0 * math.log(n)) if penalty is None and n > 1 else penalty,
+        "n_days": n,
+        "block_days": args["block_days"] or max(1, round(n ** (1 / 3))),
+        "method": method,
+    }
+    if n < fewest:
+        out["reason"] = f"too few days with data ({n}; need at least {fewest})"
+        return days, y, out, None
+    sse0 = _sse(y)
+    if sse0 == 0.0:
+        out["statistic"] = 0.0
+        out["reason"] = "the series is constant"
+        return days, y, out, None
+    return days, y, out, sse0
+
+
 def block_bootstrap_indices(
     n: int, block: int, n_bootstrap: int, rng: np.random.Generator
 ) -> np.ndarray:
@@ -222,31 +252,11 @@ def estimate_onset(
         ``statistic`` and ``penalty`` (of step 2), ``n_days`` (days used), ``block_days``
         and ``method``.
     """
-    days, y = _prepare(dates, values, locals())
-    n = len(y)
-    pen = float(2.0 * math.log(n)) if penalty is None and n > 1 else penalty
-    block = block_days or max(1, round(n ** (1 / 3)))
-    result: dict[str, Any] = {
-        "onset": None,
-        "reason": None,
-        "mean_before": None,
-        "mean_after": None,
-        "interval": None,
-        "confidence": None,
-        "statistic": None,
-        "penalty": pen,
-        "n_days": n,
-        "block_days": block,
-        "method": ONSET_METHOD,
-    }
-    if n < 2 * min_days:
-        result["reason"] = f"too few days with data ({n}; need at least {2 * min_days})"
+    days, y, result, sse0 = _start(dates, values, locals(), 2 * min_days, ONSET_METHOD,
+                                   mean_before=None, mean_after=None)  # fmt: skip
+    if sse0 is None:
         return result
-    sse0 = _sse(y)
-    if sse0 == 0.0:
-        result["statistic"] = 0.0
-        result["reason"] = "the series is constant"
-        return result
+    n, pen = len(y), result["penalty"]
     k = _single_split(y, min_days)
     stat = _bic(n, sse0, _sse(y[:k]) + _sse(y[k:]))
     result["statistic"] = stat
@@ -266,7 +276,9 @@ def estimate_onset(
         return result
     fitted = np.where(np.arange(n) < k, mean_before, mean_after)
     resid = y - fitted
-    idx = block_bootstrap_indices(n, block, n_bootstrap, np.random.default_rng(random_state))
+    idx = block_bootstrap_indices(
+        n, result["block_days"], n_bootstrap, np.random.default_rng(random_state)
+    )
     boot_k = np.array([_single_split(fitted + resid[i], min_days) for i in idx], dtype=np.int64)
     interval, confidence = _interval(days, k, boot_k, tolerance_days)
     result.update(
@@ -359,33 +371,13 @@ def estimate_ramp_onset(
         ``sse_step`` of the best single mean shift (for comparison), ``interval``,
         ``confidence``, ``statistic``, ``penalty``, ``n_days``, ``block_days`` and ``method``.
     """
-    days, y = _prepare(dates, values, locals())
-    n = len(y)
-    pen = float(2.0 * math.log(n)) if penalty is None and n > 1 else penalty
-    block = block_days or max(1, round(n ** (1 / 3)))
-    out: dict[str, Any] = {
-        "onset": None,
-        "reason": None,
-        "slope": math.nan,
-        "intercept": math.nan,
-        "sse": math.nan,
-        "sse_step": math.nan,
-        "interval": None,
-        "confidence": None,
-        "statistic": None,
-        "penalty": pen,
-        "n_days": n,
-        "block_days": block,
-        "method": RAMP_METHOD,
-    }
-    if n < 2 * min_days + 2:
-        out["reason"] = f"too few days with data ({n}; need at least {2 * min_days + 2})"
+    days, y, out, sse0 = _start(
+        dates, values, locals(), 2 * min_days + 2, RAMP_METHOD, slope=math.nan,
+        intercept=math.nan, sse=math.nan, sse_step=math.nan,
+    )  # fmt: skip
+    if sse0 is None:
         return out
-    sse0 = _sse(y)
-    if sse0 == 0.0:
-        out["statistic"] = 0.0
-        out["reason"] = "the series is constant"
-        return out
+    n, pen = len(y), out["penalty"]
     t = ((days - days[0]) / pd.Timedelta(days=1)).to_numpy(dtype=np.float64)
     ks = np.arange(min_days, n - min_days)
     sse, slope, intercept = _hinge_fits(t, y[None, :], ks)
@@ -415,7 +407,9 @@ def estimate_ramp_onset(
         return out
     fitted = out["intercept"] + out["slope"] * np.maximum(0.0, t - t[k])
     resid = y - fitted
-    idx = block_bootstrap_indices(n, block, n_bootstrap, np.random.default_rng(random_state))
+    idx = block_bootstrap_indices(
+        n, out["block_days"], n_bootstrap, np.random.default_rng(random_state)
+    )
     boot_sse, _, _ = _hinge_fits(t, fitted[None, :] + resid[idx], ks)
     boot_k = ks[np.argmin(boot_sse, axis=1)]
     interval, confidence = _interval(days, k, boot_k, tolerance_days)

@@ -86,7 +86,8 @@ class Site(_Strict):
     def _tz(cls, v: str) -> str:
         try:
             zoneinfo.ZoneInfo(v)
-        except (zoneinfo.ZoneInfoNotFoundError, ValueError) as exc:
+        # OSError: a name too long for a file name in the time-zone database
+        except (zoneinfo.ZoneInfoNotFoundError, ValueError, OSError) as exc:
             raise ValueError(
                 f"time zone {v!r} is not an IANA name (for example 'Europe/Berlin', 'UTC', "
                 "'America/Chicago')"
@@ -330,16 +331,21 @@ def read_plant_file(path: str | Path) -> tuple[PlantFile, Path]:
     try:
         plant = PlantFile.model_validate(raw)
     except ValidationError as exc:
-        lines = []
-        for err in exc.errors():
-            where = _location(err["loc"]) or "(top level)"
-            msg = err["msg"].removeprefix("Value error, ")
-            if err["type"] == "extra_forbidden":
-                msg = "unknown key (check its spelling; see the configuration reference)"
-            if err["type"] == "too_short" and any(
-                line.startswith(f"{path}: [{where}") for line in lines
-            ):
-                continue  # the item's own error says more than "too few items"
-            lines.append(f"{path}: [{where}] {msg}")
-        raise ConfigError("\n".join(lines)) from None
+        raise validation_error(path, exc, "the configuration reference") from None
     return plant, path.parent
+
+
+def validation_error(path: Path, exc: ValidationError, reference: str) -> ConfigError:
+    """One clear error from pydantic's: a line per problem naming the file and the key."""
+    lines: list[str] = []
+    for err in exc.errors():
+        where = _location(err["loc"]) or "(top level)"
+        msg = err["msg"].removeprefix("Value error, ")
+        if err["type"] == "extra_forbidden":
+            msg = f"unknown key (check its spelling; see {reference})"
+        if err["type"] == "too_short" and any(
+            line.startswith(f"{path}: [{where}") for line in lines
+        ):
+            continue  # the item's own error says more than "too few items"
+        lines.append(f"{path}: [{where}] {msg}")
+    return ConfigError("\n".join(lines))

@@ -29,7 +29,7 @@ from pathlib import Path
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
-from .config import ConfigError, _location
+from .config import ConfigError, validation_error
 from .register import PumpSpec
 from .units import UnitError, parse_difference, parse_quantity
 
@@ -192,13 +192,7 @@ def read_scenarios(path: str | Path) -> list[Scenario]:
     try:
         model = _FileModel.model_validate(raw)
     except ValidationError as exc:
-        lines = []
-        for err in exc.errors():
-            msg = err["msg"].removeprefix("Value error, ")
-            if err["type"] == "extra_forbidden":
-                msg = "unknown key (check its spelling; see the README's what-if section)"
-            lines.append(f"{path}: [{_location(err['loc']) or '(top level)'}] {msg}")
-        raise ConfigError("\n".join(lines)) from None
+        raise validation_error(path, exc, "the README's what-if section") from None
     names = [s.name for s in model.scenario]
     twice = sorted({n for n in names if names.count(n) > 1})
     if twice:
