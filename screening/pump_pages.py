@@ -3,6 +3,7 @@ operating points on the curve, daily hours per band, register data.
 
 Plots use the min/max-per-bucket data kept by the scan (:mod:`screening.plotdata`); numbers
 are shown in the chosen display units (SI or US customary), converted here at the edge.
+Figures are plain plotly.js JSON dicts (:mod:`screening.figjson`), drawn in the browser.
 """
 
 from __future__ import annotations
@@ -13,10 +14,9 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import plotly.graph_objects as go
-from plotly.subplots import make_subplots
 
 from . import states
+from .figjson import figure_html, local_times, numbers
 from .palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
 from .units import si_to
 
@@ -76,89 +76,136 @@ def page_names(pump_ids) -> dict[str, str]:
     return names
 
 
-def _html(fig: go.Figure, div_id: str) -> str:
-    return fig.to_html(full_html=False, include_plotlyjs=False, div_id=div_id)
+def _html(fig: dict, div_id: str) -> str:
+    """A figure dict as a ``<div>`` drawn by plotly.js (see :func:`figjson.figure_html`)."""
+    return figure_html(fig, div_id)
 
 
-def _band(fig, t, lo, hi, name, colour, row=None, dash=None):
-    """Minimum and maximum per bucket as two lines (no fill: fills bridge the gaps)."""
-    kw = {} if row is None else {"row": row, "col": 1}
-    fig.add_scatter(
-        x=t, y=lo, mode="lines", line={"width": 1.4, "color": colour, "dash": dash},
-        name=f"{name} (min in bucket)", legendgroup=name, **kw,
-    )  # fmt: skip
-    fig.add_scatter(
-        x=t, y=hi, mode="lines", line={"width": 0.6, "color": colour, "dash": dash},
-        opacity=0.6, name=f"{name} (max in bucket)", legendgroup=name, **kw,
-    )  # fmt: skip
+def _line(colour: str, width: float | None = None, dash: str | None = None) -> dict:
+    line = {"color": colour}
+    if width is not None:
+        line["width"] = width
+    if dash is not None:
+        line["dash"] = dash
+    return line
 
 
-def npsh_figure(plot: pd.DataFrame, units: DisplayUnits, tz: str) -> go.Figure:
-    """NPSHa (min-max band), NPSH3 and the guidance over time."""
-    t = plot["time"].dt.tz_convert(tz)
-    fig = go.Figure()
+def _band(traces: list, t, lo, hi, name, colour, row=None, dash=None) -> None:
+    """Minimum and maximum per bucket as two lines (no fill: fills bridge the gaps); appended
+    to ``traces``, on the axes of subplot ``row`` (1 at the top) when given."""
+    axes = {} if row is None else _row_axes(row)
+    lo_trace = {
+        "type": "scatter", "x": t, "y": numbers(lo), "mode": "lines",
+        "line": _line(colour, 1.4, dash), "name": f"{name} (min in bucket)", "legendgroup": name,
+    }  # fmt: skip
+    hi_trace = {
+        "type": "scatter", "x": t, "y": numbers(hi), "mode": "lines",
+        "line": _line(colour, 0.6, dash), "opacity": 0.6, "name": f"{name} (max in bucket)",
+        "legendgroup": name,
+    }  # fmt: skip
+    traces += [{**lo_trace, **axes}, {**hi_trace, **axes}]
+
+
+def _row_axes(row: int) -> dict:
+    suffix = "" if row == 1 else str(row)
+    return {"xaxis": f"x{suffix}", "yaxis": f"y{suffix}"}
+
+
+def _title(text: str, **font) -> dict:
+    return {"title": {"text": text, "font": font} if font else {"text": text}}
+
+
+def npsh_figure(plot: pd.DataFrame, units: DisplayUnits, tz: str, t=None) -> dict:
+    """NPSHa (min-max band), NPSH3 and the guidance over time, heads in display units.
+
+    ``t`` is ``local_times(plot["time"], tz)`` when the caller has it already."""
+    t = local_times(plot["time"], tz) if t is None else t
     c = units.convert
+    traces: list[dict] = []
     _band(
-        fig,
+        traces,
         t,
         c(plot["npsha_m_min"], "length"),
         c(plot["npsha_m_max"], "length"),
         "NPSHa",
         "#2d5f8f",
     )
-    fig.add_scatter(
-        x=t,
-        y=c(plot["guidance_m_max"], "length"),
-        mode="lines",
-        name="guidance (max in bucket)",
-        line={"color": "#c7761c", "dash": "dash"},
+    traces.append(
+        {
+            "type": "scatter",
+            "x": t,
+            "y": numbers(c(plot["guidance_m_max"], "length")),
+            "mode": "lines",
+            "name": "guidance (max in bucket)",
+            "line": {"color": "#c7761c", "dash": "dash"},
+        }
     )
-    fig.add_scatter(
-        x=t,
-        y=c(plot["npsh3_m_max"], "length"),
-        mode="lines",
-        name="NPSH3 (max in bucket)",
-        line={"color": "#5c2a00", "width": 2},
+    traces.append(
+        {
+            "type": "scatter",
+            "x": t,
+            "y": numbers(c(plot["npsh3_m_max"], "length")),
+            "mode": "lines",
+            "name": "NPSH3 (max in bucket)",
+            "line": {"color": "#5c2a00", "width": 2},
+        }
     )
-    fig.update_layout(
-        height=380,
-        margin={"l": 60, "r": 20, "t": 20, "b": 40},
-        yaxis_title=f"head [{units.label('length')}]",
-        hovermode="x unified",
-    )
-    return fig
+    layout = {
+        "height": 380,
+        "margin": {"l": 60, "r": 20, "t": 20, "b": 40},
+        "yaxis": _title(f"head [{units.label('length')}]"),
+        "hovermode": "x unified",
+    }
+    return {"data": traces, "layout": layout}
 
 
-def ratio_figure(plot: pd.DataFrame, tz: str, guidance_ratio: float, ample: float) -> go.Figure:
-    """Margin ratio over time (minimum per bucket) with the band edges."""
-    t = plot["time"].dt.tz_convert(tz)
-    fig = go.Figure()
-    fig.add_scatter(
-        x=t,
-        y=plot["ratio_min"],
-        mode="lines",
-        name="NPSHa/NPSH3 (min in bucket)",
-        line={"color": "#2d5f8f"},
-    )
+def ratio_figure(plot: pd.DataFrame, tz: str, guidance_ratio: float, ample: float, t=None) -> dict:
+    """Margin ratio [-] over time (minimum per bucket) with the band edges as lines."""
+    t = local_times(plot["time"], tz) if t is None else t
+    trace = {
+        "type": "scatter",
+        "x": t,
+        "y": numbers(plot["ratio_min"]),
+        "mode": "lines",
+        "name": "NPSHa/NPSH3 (min in bucket)",
+        "line": {"color": "#2d5f8f"},
+    }
+    shapes, notes = [], []
     for y, label, colour, dash in (
         (1.0, "NPSH3", "#5c2a00", "solid"),
-        (guidance_ratio, "guidance ratio", "#c7761c", "dash"),
-        (ample, "ample", "#2d5f8f", "dot"),
+        (float(guidance_ratio), "guidance ratio", "#c7761c", "dash"),
+        (float(ample), "ample", "#2d5f8f", "dot"),
     ):
-        fig.add_hline(
-            y=y,
-            line={"color": colour, "dash": dash, "width": 1.2},
-            annotation_text=label,
-            annotation_position="top left",
-        )
-    fig.update_layout(
-        height=300, margin={"l": 60, "r": 20, "t": 20, "b": 40}, yaxis_title="NPSHa / NPSH3 [-]"
-    )
-    return fig
+        # a line across the plot at y, its label above its left end
+        shapes.append(
+            {
+                "type": "line", "xref": "x domain", "x0": 0, "x1": 1, "yref": "y", "y0": y,
+                "y1": y, "line": {"color": colour, "dash": dash, "width": 1.2},
+            }
+        )  # fmt: skip
+        notes.append(
+            {
+                "text": label, "showarrow": False, "xref": "x domain", "x": 0,
+                "xanchor": "left", "yref": "y", "y": y, "yanchor": "bottom",
+            }
+        )  # fmt: skip
+    layout = {
+        "shapes": shapes,
+        "annotations": notes,
+        "height": 300,
+        "margin": {"l": 60, "r": 20, "t": 20, "b": 40},
+        "yaxis": _title("NPSHa / NPSH3 [-]"),
+    }
+    return {"data": [trace], "layout": layout}
 
 
-def process_figure(plot: pd.DataFrame, units: DisplayUnits, tz: str) -> go.Figure:
-    """Temperature, suction pressure or level, flow and speed on a shared time axis."""
+#: Gap between stacked subplots [fraction of the plot height].
+_SPACING = 0.03
+
+
+def process_figure(plot: pd.DataFrame, units: DisplayUnits, tz: str, t=None) -> dict:
+    """Temperature, suction pressure or level, flow and speed on a shared time axis, one
+    subplot per quantity stacked top to bottom (display units)."""
     rows = [("temperature_k", "temperature", "temperature")]
     if "suction_pressure_abs_pa_min" in plot:
         rows.append(("suction_pressure_abs_pa", "suction pressure (abs)", "pressure"))
@@ -167,89 +214,117 @@ def process_figure(plot: pd.DataFrame, units: DisplayUnits, tz: str) -> go.Figur
     rows.append(("flow_m3_s", "flow", "flow"))
     if "speed_rpm_min" in plot:
         rows.append(("speed_rpm", "speed", "speed"))
-    fig = make_subplots(rows=len(rows), cols=1, shared_xaxes=True, vertical_spacing=0.03)
-    t = plot["time"].dt.tz_convert(tz)
+    t = local_times(plot["time"], tz) if t is None else t
+    n = len(rows)
+    height = (1.0 - _SPACING * (n - 1)) / n
+    traces: list[dict] = []
+    layout: dict = {}
     for i, (col, label, kind) in enumerate(rows, start=1):
         lo = units.convert(plot[f"{col}_min"], kind)
         hi = units.convert(plot[f"{col}_max"], kind)
-        _band(fig, t, lo, hi, label, "#444444", row=i)
-        fig.update_yaxes(
-            title_text=f"{label} [{units.label(kind)}]", row=i, col=1, title_font={"size": 10}
-        )
-    fig.update_layout(
-        height=170 * len(rows) + 60, showlegend=False, margin={"l": 70, "r": 20, "t": 20, "b": 40}
-    )
-    return fig
+        _band(traces, t, lo, hi, label, "#444444", row=i)
+        suffix = "" if i == 1 else str(i)
+        bottom = (n - i) * (height + _SPACING)
+        # one x axis per row, all moving with the bottom one; tick labels only at the bottom
+        xaxis = {"anchor": f"y{suffix}", "domain": [0.0, 1.0]}
+        if i < n:
+            xaxis |= {"matches": f"x{n}", "showticklabels": False}
+        layout[f"xaxis{suffix}"] = xaxis
+        layout[f"yaxis{suffix}"] = {
+            "anchor": f"x{suffix}",
+            "domain": [bottom, min(bottom + height, 1.0)],
+            **_title(f"{label} [{units.label(kind)}]", size=10),
+        }
+    layout |= {
+        "height": 170 * n + 60,
+        "showlegend": False,
+        "margin": {"l": 70, "r": 20, "t": 20, "b": 40},
+    }
+    return {"data": traces, "layout": layout}
 
 
-def points_figure(points: dict, curve, pump, units: DisplayUnits) -> go.Figure:
-    """Time-weighted operating points (flow, NPSHa) with the NPSH3 curve and the POR."""
+#: plotly's "Greys" colour scale (white for few hours to black for many).
+_GREYS = [
+    [0.0, "rgb(255,255,255)"], [0.125, "rgb(240,240,240)"], [0.25, "rgb(217,217,217)"],
+    [0.375, "rgb(189,189,189)"], [0.5, "rgb(150,150,150)"], [0.625, "rgb(115,115,115)"],
+    [0.75, "rgb(82,82,82)"], [0.875, "rgb(37,37,37)"], [1.0, "rgb(0,0,0)"],
+]  # fmt: skip
+
+
+def points_figure(points: dict, curve, pump, units: DisplayUnits) -> dict:
+    """Time-weighted operating points (flow, NPSHa) [h per cell] with the NPSH3 curve and the
+    preferred operating region, in display units."""
     fe, he, hours = points["flow_edges"], points["npsha_edges"], points["hours"]
-    fig = go.Figure()
     z = np.where(hours > 0, hours, np.nan).T
-    fig.add_heatmap(
-        x=units.convert((fe[1:] + fe[:-1]) / 2, "flow"),
-        y=units.convert((he[1:] + he[:-1]) / 2, "length"),
-        z=z,
-        colorscale="Greys",
-        colorbar={"title": "h"},
-        name="running hours",
-        hovertemplate="%{z:.2f} h<extra></extra>",
-    )
+    heatmap = {
+        "type": "heatmap",
+        "x": numbers(units.convert((fe[1:] + fe[:-1]) / 2, "flow")),
+        "y": numbers(units.convert((he[1:] + he[:-1]) / 2, "length")),
+        "z": numbers(z),
+        "colorscale": _GREYS,
+        "colorbar": {"title": {"text": "h"}},
+        "name": "running hours",
+        "hovertemplate": "%{z:.2f} h<extra></extra>",
+    }
     q = np.linspace(curve.flow_min, curve.flow_max, 100)
-    fig.add_scatter(
-        x=units.convert(q, "flow"),
-        y=units.convert(curve.at_reference_speed(q), "length"),
-        mode="lines",
-        name="NPSH3 (rated speed)",
-        line={"color": "#5c2a00", "width": 2.5},
-    )
-    lo = units.convert(pump.preferred_low * pump.bep_flow, "flow")
-    hi = units.convert(pump.preferred_high * pump.bep_flow, "flow")
-    fig.add_vrect(
-        x0=float(lo),
-        x1=float(hi),
-        fillcolor="#9cc3e4",
-        opacity=0.25,
-        line_width=0,
-        annotation_text="preferred region",
-        annotation_position="top left",
-    )
-    fig.update_layout(
-        height=400,
-        margin={"l": 60, "r": 20, "t": 30, "b": 50},
-        xaxis_title=f"flow [{units.label('flow')}]",
-        yaxis_title=f"NPSHa [{units.label('length')}]",
-        legend={"orientation": "h", "y": -0.2},
-    )
-    return fig
+    npsh3 = {
+        "type": "scatter",
+        "x": numbers(units.convert(q, "flow")),
+        "y": numbers(units.convert(curve.at_reference_speed(q), "length")),
+        "mode": "lines",
+        "name": "NPSH3 (rated speed)",
+        "line": {"color": "#5c2a00", "width": 2.5},
+    }
+    lo = float(units.convert(pump.preferred_low * pump.bep_flow, "flow"))
+    hi = float(units.convert(pump.preferred_high * pump.bep_flow, "flow"))
+    # the preferred region shaded over the full height, its label in its top left corner
+    region = {
+        "type": "rect", "xref": "x", "x0": lo, "x1": hi, "yref": "y domain", "y0": 0, "y1": 1,
+        "fillcolor": "#9cc3e4", "opacity": 0.25, "line": {"width": 0},
+    }  # fmt: skip
+    note = {
+        "text": "preferred region", "showarrow": False, "xref": "x", "x": lo, "xanchor": "left",
+        "yref": "y domain", "y": 1, "yanchor": "top",
+    }  # fmt: skip
+    layout = {
+        "shapes": [region],
+        "annotations": [note],
+        "height": 400,
+        "margin": {"l": 60, "r": 20, "t": 30, "b": 50},
+        "xaxis": _title(f"flow [{units.label('flow')}]"),
+        "yaxis": _title(f"NPSHa [{units.label('length')}]"),
+        "legend": {"orientation": "h", "y": -0.2},
+    }
+    return {"data": [heatmap, npsh3], "layout": layout}
 
 
-def calendar_figure(daily: pd.DataFrame) -> go.Figure:
-    """Stacked daily hours per margin state (one bar per local day)."""
+def calendar_figure(daily: pd.DataFrame) -> dict:
+    """Stacked daily hours [h] per margin state (one bar per local day)."""
     wide = daily.pivot(index="date", columns="state", values="hours")
-    fig = go.Figure()
-    for s in states.STATES:
-        if s in wide:
-            fig.add_bar(
-                x=[str(d) for d in wide.index],
-                y=wide[s],
-                name=STATE_LABELS[s],
-                marker={
-                    "color": STATE_COLOURS[s],
-                    "line": {"color": "#555", "width": 0.4},
-                    "pattern": {"shape": STATE_PATTERNS[s], "fgcolor": "#ffffff"},
-                },
-            )
-    fig.update_layout(
-        barmode="stack",
-        legend_traceorder="normal",
-        height=400,
-        yaxis_title="hours per day",
-        margin={"l": 50, "r": 20, "t": 30, "b": 60},
-        legend={"orientation": "h", "y": -0.3},
-    )
-    return fig
+    days = [str(d) for d in wide.index]
+    traces = [
+        {
+            "type": "bar",
+            "x": days,
+            "y": numbers(wide[s]),
+            "name": STATE_LABELS[s],
+            "marker": {
+                "color": STATE_COLOURS[s],
+                "line": {"color": "#555", "width": 0.4},
+                "pattern": {"shape": STATE_PATTERNS[s], "fgcolor": "#ffffff"},
+            },
+        }
+        for s in states.STATES
+        if s in wide
+    ]
+    layout = {
+        "barmode": "stack",
+        "height": 400,
+        "yaxis": _title("hours per day"),
+        "margin": {"l": 50, "r": 20, "t": 30, "b": 60},
+        "legend": {"orientation": "h", "y": -0.3, "traceorder": "normal"},
+    }
+    return {"data": traces, "layout": layout}
 
 
 def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list[tuple[str, str]]:

@@ -11,18 +11,20 @@ import json
 import os
 import shutil
 import tempfile
+from collections.abc import Iterator
+from contextlib import contextmanager
 from datetime import UTC, datetime
 from pathlib import Path
 
 import CoolProp
 import numpy as np
 import pandas as pd
-import plotly.graph_objects as go
 from jinja2 import Environment, PackageLoader, select_autoescape
 from plotly.offline import get_plotlyjs
 
 from . import pump_pages, regions, states
 from .cautions import CAUTIONS
+from .figjson import figure_html, local_times, numbers
 from .palette import (
     REGION_COLOURS,
     REGION_LABELS,
@@ -53,7 +55,9 @@ def _safe_cell(value):
     return value
 
 
-def _write_table(frame: pd.DataFrame, folder: Path, name: str) -> None:
+def write_table(frame: pd.DataFrame, folder: Path, name: str) -> None:
+    """Write a table as ``name.parquet`` and ``name.csv``; formula-like text in the CSV is
+    neutralised (a quote in front), so a spreadsheet shows it as text."""
     frame.to_parquet(folder / f"{name}.parquet", index=False)
     text = frame.copy()
     for col in text.columns:
@@ -63,6 +67,8 @@ def _write_table(frame: pd.DataFrame, folder: Path, name: str) -> None:
 
 
 def _hours_figure(result: ScanResult, kind: str = "margin") -> str:
+    """Stacked horizontal bars of hours [h] per state (``kind`` "margin") or per operating
+    region (``kind`` "region"), one bar per pump in ranking order, as a figure's HTML."""
     if kind == "margin":
         names, colours, patterns, labels = (
             states.STATES, STATE_COLOURS, STATE_PATTERNS, STATE_LABELS
@@ -75,31 +81,33 @@ def _hours_figure(result: ScanResult, kind: str = "margin") -> str:
     table = result.hours[result.hours["kind"] == kind]
     wide = table.pivot(index="pump_id", columns="state", values="hours")
     wide = wide.reindex(index=order[::-1])
-    fig = go.Figure()
-    for state in names:
-        if state not in wide.columns:
-            continue
-        fig.add_bar(
-            y=wide.index,
-            x=wide[state],
-            name=labels[state],
-            orientation="h",
-            marker={
+    pumps = [str(p) for p in wide.index]
+    traces = [
+        {
+            "type": "bar",
+            "y": pumps,
+            "x": numbers(wide[state]),
+            "name": labels[state],
+            "orientation": "h",
+            "marker": {
                 "color": colours[state],
                 "line": {"color": "#555", "width": 0.5},
                 "pattern": {"shape": patterns[state], "fgcolor": "#ffffff"},
             },
-            hovertemplate="%{y}: %{x:.1f} h " + labels[state] + "<extra></extra>",
-        )
-    fig.update_layout(
-        barmode="stack",
-        height=max(300, 22 * len(wide) + 120),
-        margin={"l": 120, "r": 20, "t": 30, "b": 40},
-        xaxis_title="hours in the window",
-        legend={"orientation": "h", "y": 1.02, "yanchor": "bottom", "traceorder": "normal"},
-        plot_bgcolor="#ffffff",
-    )
-    return fig.to_html(full_html=False, include_plotlyjs=False, div_id=f"hours-by-{kind}")
+            "hovertemplate": "%{y}: %{x:.1f} h " + labels[state] + "<extra></extra>",
+        }
+        for state in names
+        if state in wide.columns
+    ]
+    layout = {
+        "barmode": "stack",
+        "height": max(300, 22 * len(wide) + 120),
+        "margin": {"l": 120, "r": 20, "t": 30, "b": 40},
+        "xaxis": {"title": {"text": "hours in the window"}},
+        "legend": {"orientation": "h", "y": 1.02, "yanchor": "bottom", "traceorder": "normal"},
+        "plot_bgcolor": "#ffffff",
+    }
+    return _fig({"data": traces, "layout": layout}, f"hours-by-{kind}")
 
 
 def _input_files(result: ScanResult) -> list[dict]:
@@ -118,6 +126,39 @@ def _input_files(result: ScanResult) -> list[dict]:
             {"path": str(path), "bytes": len(data), "sha256": hashlib.sha256(data).hexdigest()}
         )
     return files
+
+
+@contextmanager
+def atomic_folder(out: str | Path) -> Iterator[Path]:
+    """Write a folder in full or not at all.
+
+    Yields a new temporary folder beside ``out``; when the block ends without an error the
+    temporary folder replaces ``out`` (a previous ``out`` is moved aside first and removed
+    after), so a run killed midway leaves the previous folder as it was and never a half
+    one. On an error the temporary folder is removed and the error raised.
+    """
+    out = Path(out)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    aside = out.with_name(f".{out.name}.old")
+    if aside.is_dir() and not out.exists():
+        # a run killed between moving the previous folder aside and moving the new one in:
+        # put the previous folder back before anything else
+        os.replace(aside, out)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", dir=out.parent))
+    try:
+        yield tmp
+        if out.exists():
+            old = out.with_name(f".{out.name}.old")
+            if old.exists():
+                shutil.rmtree(old)
+            os.replace(out, old)
+            os.replace(tmp, out)
+            shutil.rmtree(old)
+        else:
+            os.replace(tmp, out)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
 
 
 def write_report(
@@ -150,20 +191,18 @@ def write_report(
     if units not in DISPLAY_UNITS:
         raise ValueError(f"display units {units!r} are not 'si' or 'us'")
     changes = _changes(result, Path(compare_to)) if compare_to is not None else None
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", dir=out.parent))
-    try:
-        _write_table(result.hours, tmp, "hours")
+    with atomic_folder(out) as tmp:
+        write_table(result.hours, tmp, "hours")
         summary = result.summary.copy()
         if "worst_time" in summary:
             summary["worst_time"] = summary["worst_time"].astype("string")
-        _write_table(summary, tmp, "summary")
+        write_table(summary, tmp, "summary")
         daily = result.daily.copy()
         daily["date"] = daily["date"].astype("string")
-        _write_table(daily, tmp, "daily_hours")
-        _write_table(result.quality, tmp, "data_quality")
-        _write_table(result.problems, tmp, "not_screened")
-        _write_table(result.file_problems, tmp, "files_not_read")
+        write_table(daily, tmp, "daily_hours")
+        write_table(result.quality, tmp, "data_quality")
+        write_table(result.problems, tmp, "not_screened")
+        write_table(result.file_problems, tmp, "files_not_read")
         (tmp / "plotly.min.js").write_text(get_plotlyjs(), encoding="utf-8")
         site = result.plant.settings.site
         meta = {
@@ -184,7 +223,7 @@ def write_report(
         }
         (tmp / "run.json").write_text(json.dumps(meta, indent=2), encoding="utf-8")
         if changes is not None:
-            _write_table(changes, tmp, "changes")
+            write_table(changes, tmp, "changes")
         if result.plots:
             # the numbers behind the pump pages' plots, tidy, beside them
             buckets = pd.concat(
@@ -193,26 +232,14 @@ def write_report(
             buckets["time"] = buckets["time"].dt.tz_convert(result.plant.timezone)
             buckets = buckets[["pump_id"] + [c for c in buckets.columns if c != "pump_id"]]
             buckets["time"] = buckets["time"].astype("string")
-            _write_table(buckets, tmp, "plot_buckets")
-            _write_table(_points_table(result.points), tmp, "operating_points")
+            write_table(buckets, tmp, "plot_buckets")
+            write_table(_points_table(result.points), tmp, "operating_points")
         _write_workbook(tmp / "summary.xlsx", result, changes)
         pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
         _write_pump_pages(result, tmp, pages, DISPLAY_UNITS[units])
         (tmp / "index.html").write_text(
             _overview_html(result, meta, pages, changes), encoding="utf-8"
         )
-        if out.exists():
-            old = out.with_name(f".{out.name}.old")
-            if old.exists():
-                shutil.rmtree(old)
-            os.replace(out, old)
-            os.replace(tmp, out)
-            shutil.rmtree(old)
-        else:
-            os.replace(tmp, out)
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
     return out
 
 
@@ -270,11 +297,15 @@ def _write_pump_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
     a, b = result.start.tz_convert(tz), result.end.tz_convert(tz)
     window = f"{a:%Y-%m-%d %H:%M} to {b:%Y-%m-%d %H:%M}"
     ample = plant.settings.policy.ample_ratio
+    # each pump's rows picked once (a mask per pump would cost pumps x rows)
+    hours_of = dict(list(result.hours.groupby("pump_id", sort=False)))
+    margin_days = result.daily[result.daily.kind == "margin"]
+    daily_of = dict(list(margin_days.groupby("pump_id", sort=False)))
     for pid, name in pages.items():
         pump = plant.pumps[pid]
         g = plant.guidance[pid]
         plot = result.plots.get(pid)
-        h = result.hours[result.hours.pump_id == pid]
+        h = hours_of.get(pid, result.hours.iloc[:0])
         head = ["kind", "hours per state (each kind adds up to the window)"]
         rows = []
         for kind, names in (("margin", states.STATES), ("region", regions.REGIONS)):
@@ -282,15 +313,17 @@ def _write_pump_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
             rows.append([kind] + [f"{n}: {part.get(n, 0.0):.1f} h" for n in names])
         figs = {"fig_npsh": "", "fig_ratio": "", "fig_process": "", "fig_points": ""}
         if plot is not None and len(plot):
-            figs["fig_npsh"] = _fig(pump_pages.npsh_figure(plot, units, tz), "npsh")
-            figs["fig_ratio"] = _fig(pump_pages.ratio_figure(plot, tz, g.ratio, ample), "ratio")
-            figs["fig_process"] = _fig(pump_pages.process_figure(plot, units, tz), "process")
+            t = local_times(plot["time"], tz)  # the same time axis for the three plots
+            figs["fig_npsh"] = _fig(pump_pages.npsh_figure(plot, units, tz, t), "npsh")
+            fig = pump_pages.ratio_figure(plot, tz, g.ratio, ample, t)
+            figs["fig_ratio"] = _fig(fig, "ratio")
+            figs["fig_process"] = _fig(pump_pages.process_figure(plot, units, tz, t), "process")
         if pid in result.points:
             fig = pump_pages.points_figure(
                 result.points[pid], plant.curves[pump.curve_id], pump, units
             )
             figs["fig_points"] = _fig(fig, "points")
-        daily = result.daily[(result.daily.pump_id == pid) & (result.daily.kind == "margin")]
+        daily = daily_of.get(pid, margin_days.iloc[:0])
         figs["fig_calendar"] = _fig(pump_pages.calendar_figure(daily), "calendar")
         model = fluid_table(pump.fluid, pump.vapour_pressure).vapour_pressure_model
         html = template.render(
@@ -338,8 +371,9 @@ def _points_table(points: dict) -> pd.DataFrame:
     return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
 
 
-def _fig(fig, div_id: str) -> str:
-    return fig.to_html(full_html=False, include_plotlyjs=False, div_id=div_id)
+def _fig(fig: dict, div_id: str) -> str:
+    """A plotly.js figure dict as the page's ``<div>`` and the script drawing it."""
+    return figure_html(fig, div_id)
 
 
 def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> str:
