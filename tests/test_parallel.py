@@ -77,3 +77,20 @@ def test_progress_is_reported_per_batch(tmp_path):
     screening.scan(path, processes=2, progress=lambda out: seen.append((out.pumps, out.samples)))
     assert sum(p for p, _ in seen) == 5
     assert sum(s for _, s in seen) == screening.scan(path, processes=1).samples
+
+
+def test_pump_pages_written_in_parallel_are_the_same(tmp_path, monkeypatch):
+    from screening import report
+    from screening.plotdata import DEFAULT_BUCKETS
+
+    result = screening.scan(DEMO, plot_buckets=DEFAULT_BUCKETS, pumps=["CD-412", "RW-502",
+                                                                        "DH-202", "CW-103"])  # fmt: skip
+    screening.write_report(result, tmp_path / "one")
+    monkeypatch.setattr(report, "PARALLEL_PAGES", 2)
+    monkeypatch.setattr(report, "default_processes", lambda: 2)
+    screening.write_report(result, tmp_path / "two")
+    one = sorted((tmp_path / "one" / "pumps").iterdir())
+    two = sorted((tmp_path / "two" / "pumps").iterdir())
+    assert [p.name for p in one] == [p.name for p in two] and len(one) == 4
+    for a, b in zip(one, two, strict=True):
+        assert a.read_bytes() == b.read_bytes()
