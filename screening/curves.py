@@ -55,6 +55,7 @@ class Npsh3Curve:
             raise CurveError(f"curve {self.curve_id!r}: flows must be strictly increasing")
         if np.any(flow < 0) or np.any(npsh3 <= 0):
             raise CurveError(f"curve {self.curve_id!r}: flows must be >= 0 and NPSH3 > 0")
+        _check_shape(self.curve_id, flow, npsh3)
         object.__setattr__(self, "flow", flow)
         object.__setattr__(self, "npsh3", npsh3)
         # PCHIP keeps the curve monotone between points where the data are monotone
@@ -102,6 +103,31 @@ class Npsh3Curve:
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             q_ref = np.asarray(flow, dtype=np.float64) / ratio
             return self.at_reference_speed(q_ref) * ratio**exponent
+
+
+def _check_shape(curve_id: str, flow: np.ndarray, npsh3: np.ndarray) -> None:
+    """Refuse an NPSH3 curve [flow m³/s, NPSH3 m] that falls where it must rise.
+
+    NPSH3 may fall from the lowest flows (where inlet recirculation raises it) to a minimum,
+    but from its minimum on it rises with flow, since the velocities and the incidence at the
+    impeller inlet grow with flow: a curve that falls again after its minimum, or falls all
+    the way to its highest flow, has points swapped or mistyped. Flat stretches are allowed.
+    """
+    lowest = int(np.argmin(npsh3))  # the first minimum
+    falls = np.flatnonzero(np.diff(npsh3[lowest:]) < 0)
+    if falls.size:
+        i = lowest + int(falls[0])
+        raise CurveError(
+            f"curve {curve_id!r}: NPSH3 falls from {npsh3[i]:.4g} m at {flow[i] * 3600:.4g} "
+            f"m3/h to {npsh3[i + 1]:.4g} m at {flow[i + 1] * 3600:.4g} m3/h after its minimum; "
+            "beyond its minimum NPSH3 must rise with flow (points swapped or mistyped?)"
+        )
+    if lowest == len(npsh3) - 1:
+        raise CurveError(
+            f"curve {curve_id!r}: NPSH3 falls all the way to the highest flow "
+            f"({npsh3[-1]:.4g} m at {flow[-1] * 3600:.4g} m3/h); it must rise towards the "
+            "curve's high-flow end (points swapped or mistyped?)"
+        )
 
 
 def suction_specific_speed(speed: float, flow: float, npsh3: float, eyes: int = 1) -> float:

@@ -12,14 +12,22 @@ Policy (documented in the README):
 - When clocks go forward, the skipped local hour does not exist. Such a timestamp cannot be
   placed in time: it is counted as a bad timestamp with its file and row, never moved.
 - A timestamp that cannot be parsed at all is counted the same way.
+- Besides ISO 8601, a date written with dots is day first (``01.10.2026 03:00`` is the first of
+  October) and one written with slashes month first (``10/01/2026``). A trailing ``UTC`` or
+  ``GMT`` is an offset of zero; any other zone name (``CET``, ``EST``: abbreviations are
+  ambiguous) cannot be placed and is a bad timestamp.
 """
 
 from __future__ import annotations
+
+import warnings
 
 import numpy as np
 import pandas as pd
 
 _OFFSET = r"(?:[Zz]|[+-]\d\d:?\d\d)\s*$"
+_ZERO_ZONE = r"\s*(?:UTC|GMT)\s*$"
+_DOTTED = r"^\s*\d{1,2}\.\d{1,2}\.\d{2,4}"
 
 
 def parse_times(
@@ -50,7 +58,7 @@ def parse_times(
         return _to_ns(utc)
     if pd.api.types.is_datetime64_dtype(raw.dtype):
         return _localise(pd.Series(raw.to_numpy()), timezone, groups)
-    text = raw.astype("string").str.strip()
+    text = raw.astype("string").str.strip().str.replace(_ZERO_ZONE, "+00:00", regex=True)
     has_offset = text.str.contains(_OFFSET, regex=True, na=False).to_numpy()
     times = np.zeros(n, dtype=np.int64)
     ok = np.zeros(n, dtype=bool)
@@ -68,16 +76,59 @@ def parse_times(
 
 
 def _parse_naive(text: pd.Series) -> pd.Series:
-    parsed = pd.to_datetime(text, errors="coerce", format="ISO8601")
-    if parsed.isna().any():
-        # other common layouts, e.g. "25.10.2026 02:30" or "10/25/2026 02:30"
-        retry = pd.to_datetime(text[parsed.isna()], errors="coerce", format="mixed")
-        parsed = parsed.copy()
-        parsed[retry.index] = retry
+    """Naive timestamps: ISO 8601 first, then dotted dates day first, then other layouts."""
+    parsed = _ns(pd.to_datetime(text, errors="coerce", format="ISO8601"))
+    missing = (parsed.isna() & text.notna()).to_numpy()
+    if missing.any():
+        rest = text[missing]
+        dotted = rest.str.match(_DOTTED).fillna(False).to_numpy(dtype=bool)
+        # "01.10.2026" is the first of October: dotted dates are day first, always
+        for part, dayfirst in ((rest[dotted], True), (rest[~dotted], False)):
+            if len(part):
+                parsed[part.index] = _parse_other(part, dayfirst).to_numpy()
     return parsed.reset_index(drop=True)
 
 
+def _parse_other(text: pd.Series, dayfirst: bool) -> pd.Series:
+    """Layouts other than ISO 8601, e.g. "25.10.2026 02:30" or "10/25/2026 02:30"; NaT where
+    the text cannot be read or names a time zone (mixed zones make pandas raise)."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # pandas warns when it infers a layout per element
+        try:
+            out = pd.to_datetime(text, errors="coerce", format="mixed", dayfirst=dayfirst)
+            if out.dt.tz is None:
+                return _ns(out)
+        except (ValueError, OverflowError, TypeError):
+            pass
+        return pd.Series([_parse_one(t, dayfirst) for t in text], index=text.index,
+                         dtype="datetime64[ns]")  # fmt: skip
+
+
+def _parse_one(text, dayfirst: bool):
+    try:
+        ts = pd.to_datetime(text, errors="coerce", dayfirst=dayfirst)
+    except (ValueError, OverflowError, TypeError):
+        return pd.NaT
+    if ts is pd.NaT or ts.tzinfo is not None:
+        return pd.NaT  # a zone name other than UTC/GMT: cannot be placed
+    if not (pd.Timestamp.min <= ts <= pd.Timestamp.max):
+        return pd.NaT  # beyond what nanoseconds since 1970 in 64 bits can hold
+    return ts.as_unit("ns")
+
+
+def _ns(parsed: pd.Series) -> pd.Series:
+    """Datetimes in nanoseconds; those beyond 1677-2262 (int64 nanoseconds) become NaT."""
+    try:
+        return parsed.dt.as_unit("ns")
+    except (pd.errors.OutOfBoundsDatetime, OverflowError):
+        lo, hi = pd.Timestamp.min, pd.Timestamp.max
+        if parsed.dt.tz is not None:
+            lo, hi = lo.tz_localize("UTC"), hi.tz_localize("UTC")
+        return parsed.where((parsed >= lo) & (parsed <= hi)).dt.as_unit("ns")
+
+
 def _to_ns(parsed: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    parsed = _ns(parsed)
     values = parsed.dt.tz_convert("UTC") if parsed.dt.tz is not None else parsed
     ok = values.notna().to_numpy()
     ns = values.to_numpy(dtype="datetime64[ns]", na_value=np.datetime64(0, "ns"))
