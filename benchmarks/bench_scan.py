@@ -22,12 +22,13 @@ is its own; the files are in the page cache, having just been written or read; `
 picks some of the measures)
     read    pyarrow.parquet.read_table of every file, all columns, to pandas, one file at a time
             (each frame dropped before the next; pyarrow uses its own thread pool).
-    scan    ``screening.scan(plant_toml, start, end, processes=1)``. The calculation-only time is the sum of
-            the wall time spent inside ``calculate_pump`` during that same scan: the scan
-            module's ``calculate_pump``, ``prepare_tag``, ``_tables`` and the loader's
-            ``ExportIndex.read`` are wrapped by timers (about a microsecond each, some 3 000 calls
-            at full size). numpy runs these array operations on one thread, so that time is one
-            core's. Peak memory includes the interpreter and imports (printed beside it).
+    scan    ``screening.scan(plant_toml, start, end, processes=1)``. The calculation-only
+            time is the sum of the wall time spent inside ``calculate_pump`` during that same
+            scan: the scan module's ``calculate_pump``, ``prepare_tag``, ``_tables`` and the
+            loader's ``ExportIndex.read`` are wrapped by timers (about a microsecond each, some
+            3 000 calls at full size). numpy runs these array operations on one thread, so that
+            time is one core's. Peak memory includes the interpreter and imports (printed
+            beside it).
     scan2   the same with ``processes=2`` (a process pool; the parts then run in the workers,
             so only the total is measured; "largest worker" is the peak of the biggest child).
     dask    the same on a local Dask cluster of 2 worker processes (``cluster=client``); the

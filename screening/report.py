@@ -22,6 +22,8 @@ from pathlib import Path
 import CoolProp
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.csv as pa_csv
 from jinja2 import Environment, PackageLoader, select_autoescape
 from plotly.offline import get_plotlyjs
 
@@ -59,6 +61,18 @@ def _safe_cell(value):
     return value
 
 
+def _neutralised(column: pd.Series) -> pd.Series:
+    """The column with formula-like text neutralised; each distinct value is checked once (a
+    plot table repeats 500 pump ids 750 000 times)."""
+    try:
+        distinct = pd.unique(column)
+    except TypeError:  # unhashable cells: check each
+        return column.map(_safe_cell)
+    changed = {v: _safe_cell(v) for v in distinct if isinstance(v, str)}
+    changed = {k: v for k, v in changed.items() if v != k}
+    return column.replace(changed) if changed else column
+
+
 def write_table(frame: pd.DataFrame, folder: Path, name: str) -> None:
     """Write a table as ``name.parquet`` and ``name.csv``; formula-like text in the CSV is
     neutralised (a quote in front), so a spreadsheet shows it as text."""
@@ -66,8 +80,14 @@ def write_table(frame: pd.DataFrame, folder: Path, name: str) -> None:
     text = frame.copy()
     for col in text.columns:
         if text[col].dtype == object or pd.api.types.is_string_dtype(text[col]):
-            text[col] = text[col].map(_safe_cell)
-    text.to_csv(folder / f"{name}.csv", index=False)
+            text[col] = _neutralised(text[col])
+    try:
+        # Arrow's CSV writer: ten times faster than pandas on the large plot tables; times
+        # keep their offset (2026-10-25 02:00:00.000000+0200)
+        pa_csv.write_csv(pa.Table.from_pandas(text, preserve_index=False),
+                         folder / f"{name}.csv")  # fmt: skip
+    except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError):
+        text.to_csv(folder / f"{name}.csv", index=False)  # a column of mixed Python objects
 
 
 def _hours_figure(result: ScanResult, kind: str = "margin") -> str:
@@ -235,7 +255,6 @@ def write_report(
             )
             buckets["time"] = buckets["time"].dt.tz_convert(result.plant.timezone)
             buckets = buckets[["pump_id"] + [c for c in buckets.columns if c != "pump_id"]]
-            buckets["time"] = buckets["time"].astype("string")
             write_table(buckets, tmp, "plot_buckets")
             write_table(_points_table(result.points), tmp, "operating_points")
         _write_workbook(tmp / "summary.xlsx", result, changes)
@@ -282,14 +301,17 @@ def _write_workbook(path: Path, result: ScanResult, changes) -> None:
     }
     if changes is not None:
         sheets["changes"] = changes
-    with pd.ExcelWriter(path, engine="openpyxl") as xl:
+    # XlsxWriter: three times faster than openpyxl on a 500-pump plant; text is never read
+    # as a formula or a link
+    options = {"strings_to_formulas": False, "strings_to_urls": False}
+    with pd.ExcelWriter(path, engine="xlsxwriter", engine_kwargs={"options": options}) as xl:
         for name, frame in sheets.items():
             f = frame.copy()
             for col in f.columns:
                 if isinstance(f[col].dtype, pd.DatetimeTZDtype):
                     f[col] = f[col].astype("string")
                 elif f[col].dtype == object or pd.api.types.is_string_dtype(f[col]):
-                    f[col] = f[col].map(_safe_cell)
+                    f[col] = _neutralised(f[col])
             f.to_excel(xl, sheet_name=name, index=False)
 
 

@@ -83,8 +83,8 @@ def test_pump_pages_written_in_parallel_are_the_same(tmp_path, monkeypatch):
     from screening import report
     from screening.plotdata import DEFAULT_BUCKETS
 
-    result = screening.scan(DEMO, plot_buckets=DEFAULT_BUCKETS, pumps=["CD-412", "RW-502",
-                                                                        "DH-202", "CW-103"])  # fmt: skip
+    some = ["CD-412", "RW-502", "DH-202", "CW-103"]
+    result = screening.scan(DEMO, plot_buckets=DEFAULT_BUCKETS, pumps=some)
     screening.write_report(result, tmp_path / "one")
     monkeypatch.setattr(report, "PARALLEL_PAGES", 2)
     monkeypatch.setattr(report, "default_processes", lambda: 2)
