@@ -74,6 +74,10 @@ class PumpResult:
     series: pd.DataFrame | None = field(default=None, repr=False)
 
 
+def _at(time_ns: int, what: str) -> str:
+    return f"sample at {pd.Timestamp(int(time_ns), tz='UTC').isoformat()}: {what}"
+
+
 def prepare_tag(
     series: TagSeries | None, spec: TagSpec, settings: Settings, role: str, check=None
 ) -> TagSeries | None:
@@ -89,8 +93,15 @@ def prepare_tag(
     if spec.kind == "status":
         values = series.values.copy()
     else:
-        values = to_si(series.values, spec.unit, spec.kind)
+        with np.errstate(over="ignore"):  # an overflow is counted below
+            values = to_si(series.values, spec.unit, spec.kind)
     bad = series.bad.copy()
+    # a finite reading that overflows on conversion (1e308 kPa) is not a number either
+    overflow = ~np.isfinite(values) & ~bad
+    if overflow.any():
+        q.not_finite += int(overflow.sum())
+        bad |= overflow
+        q.note("not_finite", _at(series.times[overflow][0], "too large to convert to SI"))
     if settings.frozen_after is not None and role != "run":
         frozen = frozen_samples(series.times, values, bad, int(settings.frozen_after * 1e9))
         frozen &= ~bad
@@ -98,10 +109,12 @@ def prepare_tag(
             q.frozen = int(frozen.sum())
             bad |= frozen
     if check is not None:
-        impossible = check(values) & ~bad
+        with np.errstate(invalid="ignore"):
+            impossible = check(values) & ~bad
         if impossible.any():
             q.out_of_range = int(impossible.sum())
             bad |= impossible
+            q.note("out_of_range", _at(series.times[impossible][0], "physically impossible"))
     return TagSeries(series.tag, series.times, values, bad, q)
 
 

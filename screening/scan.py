@@ -335,6 +335,23 @@ def _screen_pump(
     return result, quality, n
 
 
+#: Columns of the summary and quality tables (also when no pump could be screened).
+SUMMARY_COLUMNS = [
+    "pump_id", "service", "area", "fluid", "vapour_pressure_model", "window_hours",
+    "running_hours", "below_npsh3_hours", "below_guidance_hours", "off_curve_hours",
+    "no_data_hours", "bad_data_hours", "coverage", "worst_ratio", "worst_time",
+    "guidance_ratio", "guidance_margin_m", "guidance_source", "suction_specific_speed_us",
+    "suction_specific_speed_metric", "preferred_region_hours", "outside_preferred_hours",
+    "below_min_flow_hours", "beyond_allowable_hours", "speed_outside_scaling_hours",
+    "standard_atmosphere_hours",
+]  # fmt: skip
+QUALITY_COLUMNS = [
+    "pump_id", "role", "tag", "samples", "text_values", "bad_quality", "not_finite", "frozen",
+    "out_of_range", "bad_timestamps", "duplicates", "out_of_order", "malformed_rows", "words",
+    "first_problem",
+]  # fmt: skip
+
+
 def _quality_row(pid: str, role: str, q: TagQuality) -> dict:
     return {
         "pump_id": pid,
@@ -349,6 +366,7 @@ def _quality_row(pid: str, role: str, q: TagQuality) -> dict:
         "bad_timestamps": q.bad_timestamps,
         "duplicates": q.duplicates,
         "out_of_order": q.out_of_order,
+        "malformed_rows": q.malformed_rows,
         "words": "; ".join(f"{w} ({c})" for w, c in sorted(q.words.items())),
         "first_problem": "; ".join(f"{k}: {v}" for k, v in q.first_problem.items()),
     }
@@ -422,7 +440,7 @@ def _tables(plant, results, start, end, edges, quality_rows, problems, file_prob
             }
         )
     hours = pd.DataFrame(hours_rows, columns=["pump_id", "kind", "state", "hours"])
-    summary = pd.DataFrame(summary_rows)
+    summary = pd.DataFrame(summary_rows, columns=SUMMARY_COLUMNS)
     if len(summary):
         summary = summary.sort_values(
             ["below_npsh3_hours", "below_guidance_hours", "pump_id"],
@@ -435,7 +453,7 @@ def _tables(plant, results, start, end, edges, quality_rows, problems, file_prob
         ],
         ignore_index=True,
     )
-    quality = pd.DataFrame(quality_rows)
+    quality = pd.DataFrame(quality_rows, columns=QUALITY_COLUMNS)
     probs = pd.DataFrame(problems, columns=["pump_id", "stage", "message"])
     files = pd.DataFrame(
         [{"file": k, "message": v} for k, v in file_problems.items()], columns=["file", "message"]

@@ -93,3 +93,34 @@ def test_gauge_reading_below_the_local_vacuum_is_bad_data(tmp_path):
     frame = steady_frame(pressure_kpa=-80.0)
     r = screening.scan(make_plant(tmp_path, wide={"a.csv": frame}, elevation="5000 m"))
     assert _margin_hours(r)["bad_data"] == pytest.approx(24.0)
+
+
+def test_a_reading_too_large_for_si_is_not_finite(tmp_path):
+    # 1e306 kPa is a finite float, but 1e309 Pa is not: counted as not finite, with its place
+    frame = steady_frame(pressure_kpa=100.0)
+    frame.loc[0:59, "P1.PS"] = 1e306
+    r = screening.scan(make_plant(tmp_path, wide={"a.csv": frame}))
+    assert _margin_hours(r)["bad_data"] == pytest.approx(1.0)
+    q = _quality(r, "suction")
+    assert q["not_finite"] == 60
+    assert "too large to convert to SI" in q["first_problem"]
+    assert "out_of_range: sample at" not in q["first_problem"]
+
+
+def test_the_first_impossible_sample_is_named(tmp_path):
+    frame = steady_frame(pressure_kpa=100.0)
+    frame.loc[30:89, "P1.PS"] = -150.0
+    r = screening.scan(make_plant(tmp_path, wide={"a.csv": frame}))
+    q = _quality(r, "suction")
+    assert (
+        "out_of_range: sample at 2026-10-01T00:30:00+00:00: physically impossible"
+        in (q["first_problem"])
+    )
+
+
+def test_nothing_screened_still_gives_tables_with_their_columns(tmp_path):
+    frame = steady_frame().drop(columns=["P1.TT"])  # the only pump's temperature is missing
+    r = screening.scan(make_plant(tmp_path, wide={"a.csv": frame}))
+    assert r.summary.empty and "pump_id" in r.summary.columns
+    assert r.quality.empty and "malformed_rows" in r.quality.columns
+    assert list(r.problems["pump_id"]) == ["P1"]
