@@ -26,6 +26,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
+import pyarrow
 
 from ._allocator import keep_freed_memory
 from .calculator import PumpResult, Settings
@@ -107,6 +108,9 @@ def _init_worker(ctx: BatchContext) -> None:
     global _WORKER_CTX
     _WORKER_CTX = ctx
     seed_fluid_tables(ctx.tables)
+    # one thread per worker: the pool already keeps every core busy, and Arrow's own decoding
+    # threads would only compete with the other workers
+    pyarrow.set_cpu_count(1)
 
 
 def _run_in_worker(batch: list[str]) -> BatchOutput:

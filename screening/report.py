@@ -15,7 +15,7 @@ import sys
 import tempfile
 from collections.abc import Iterator
 from concurrent.futures import ProcessPoolExecutor
-from contextlib import contextmanager
+from contextlib import ExitStack, contextmanager
 from datetime import UTC, datetime
 from pathlib import Path
 
@@ -215,7 +215,7 @@ def write_report(
     if units not in DISPLAY_UNITS:
         raise ValueError(f"display units {units!r} are not 'si' or 'us'")
     changes = _changes(result, Path(compare_to)) if compare_to is not None else None
-    with atomic_folder(out) as tmp:
+    with atomic_folder(out) as tmp, ExitStack() as stack:
         write_table(result.hours, tmp, "hours")
         summary = result.summary.copy()
         if "worst_time" in summary:
@@ -227,6 +227,9 @@ def write_report(
         write_table(result.quality, tmp, "data_quality")
         write_table(result.problems, tmp, "not_screened")
         write_table(result.file_problems, tmp, "files_not_read")
+        pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
+        # the pump pages are written while the tables are (in forked processes, large plants)
+        stack.enter_context(_pump_pages(result, tmp, pages, DISPLAY_UNITS[units]))
         (tmp / "plotly.min.js").write_text(get_plotlyjs(), encoding="utf-8")
         site = result.plant.settings.site
         meta = {
@@ -258,8 +261,7 @@ def write_report(
             write_table(buckets, tmp, "plot_buckets")
             write_table(_points_table(result.points), tmp, "operating_points")
         _write_workbook(tmp / "summary.xlsx", result, changes)
-        pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
-        _write_pump_pages(result, tmp, pages, DISPLAY_UNITS[units])
+        stack.close()  # every pump page written
         (tmp / "index.html").write_text(
             _overview_html(result, meta, pages, changes), encoding="utf-8"
         )
@@ -320,27 +322,32 @@ def _write_workbook(path: Path, result: ScanResult, changes) -> None:
 PARALLEL_PAGES = 100
 
 
-def _write_pump_pages(result: ScanResult, folder: Path, pages: dict, units) -> None:
-    """Write every pump page; in forked processes for large plants (Linux). The children
-    inherit ``result`` (no copy is sent) and each writes its share of the pages; a failure in
-    one is raised here, so the report is never moved into place without all its pages."""
+@contextmanager
+def _pump_pages(result: ScanResult, folder: Path, pages: dict, units) -> Iterator[None]:
+    """Write every pump page by the end of the block. For large plants (Linux) forked
+    processes write them while the block runs (the tables and the workbook): the children
+    inherit ``result`` (no copy is sent) and each writes its share. A failure in one is raised
+    here, so the report is never moved into place without all its pages; an error in the
+    block stops the children."""
     (folder / "pumps").mkdir()
     n = min(default_processes(), len(pages) // (PARALLEL_PAGES // 2) or 1)
     if len(pages) < PARALLEL_PAGES or n < 2 or not sys.platform.startswith("linux"):
+        yield
         _write_some_pages(result, folder, pages, units)
         return
     items = list(pages.items())
     shares = [dict(items[i::n]) for i in range(n)]
     _FORKED[id(result)] = result  # before the children fork, so that they inherit it
+    pool = ProcessPoolExecutor(max_workers=n, mp_context=multiprocessing.get_context("fork"))
     try:
-        ctx = multiprocessing.get_context("fork")
-        with ProcessPoolExecutor(max_workers=n, mp_context=ctx) as pool:
-            futures = [
-                pool.submit(_pages_in_child, id(result), folder, share, units) for share in shares
-            ]
-            for f in futures:
-                f.result()
+        futures = [
+            pool.submit(_pages_in_child, id(result), folder, share, units) for share in shares
+        ]
+        yield
+        for f in futures:
+            f.result()
     finally:
+        pool.shutdown(wait=True, cancel_futures=True)
         _FORKED.pop(id(result), None)
 
 
