@@ -22,13 +22,12 @@ of magnitude of Hall, Horowitz & Jing (1995), Biometrika 82:561-574).
 
 from __future__ import annotations
 
+import functools
 import math
 from typing import Any
 
 import numpy as np
 import pandas as pd
-import ruptures
-from ruptures.base import BaseCost
 
 ONSET_METHOD = (
     "ruptures.Binseg, L2 cost, one change point (exact best single split); BIC-type test; "
@@ -140,27 +139,34 @@ def _interval(days: pd.DatetimeIndex, k: int, boot_k: np.ndarray, tolerance_days
 # -------------------------------------------------------------------------- change in the mean
 
 
-class _L2Cost(BaseCost):
-    """L2 cost (squared deviation from the segment mean) in O(1) per segment from running sums.
+@functools.cache
+def _l2_cost_class() -> type:
+    """The L2 cost as a ruptures cost class (built on first use: ruptures and the scipy it
+    imports cost half a second, which a plant scan need not pay)."""
+    from ruptures.base import BaseCost
 
-    Gives the same numbers as ruptures' own ``CostL2`` (which recomputes a variance for every
-    segment), only faster; the series is centred first to keep the running sums small.
-    """
+    class L2Cost(BaseCost):
+        """L2 cost (squared deviation from the segment mean) in O(1) per segment from running
+        sums. Gives the same numbers as ruptures' own ``CostL2`` (which recomputes a variance
+        for every segment), only faster; the series is centred first to keep the sums small.
+        """
 
-    model = "l2_running_sums"
-    min_size = 1
+        model = "l2_running_sums"
+        min_size = 1
 
-    def fit(self, signal: np.ndarray) -> _L2Cost:
-        y = np.asarray(signal, dtype=np.float64).ravel()
-        y = y - y.mean()
-        self.signal = y.reshape(-1, 1)
-        self._s1 = np.concatenate(([0.0], np.cumsum(y)))
-        self._s2 = np.concatenate(([0.0], np.cumsum(y * y)))
-        return self
+        def fit(self, signal: np.ndarray):
+            y = np.asarray(signal, dtype=np.float64).ravel()
+            y = y - y.mean()
+            self.signal = y.reshape(-1, 1)
+            self._s1 = np.concatenate(([0.0], np.cumsum(y)))
+            self._s2 = np.concatenate(([0.0], np.cumsum(y * y)))
+            return self
 
-    def error(self, start: int, end: int) -> float:
-        s1 = self._s1[end] - self._s1[start]
-        return float(max(self._s2[end] - self._s2[start] - s1 * s1 / (end - start), 0.0))
+        def error(self, start: int, end: int) -> float:
+            s1 = self._s1[end] - self._s1[start]
+            return float(max(self._s2[end] - self._s2[start] - s1 * s1 / (end - start), 0.0))
+
+    return L2Cost
 
 
 def _single_split(y: np.ndarray, min_size: int) -> int:
@@ -171,7 +177,9 @@ def _single_split(y: np.ndarray, min_size: int) -> int:
     C. Truong, L. Oudre, N. Vayatis (2020), "Selective review of offline change point detection
     methods", Signal Processing 167:107299.
     """
-    algo = ruptures.Binseg(custom_cost=_L2Cost(), min_size=min_size, jump=1).fit(y)
+    import ruptures
+
+    algo = ruptures.Binseg(custom_cost=_l2_cost_class()(), min_size=min_size, jump=1).fit(y)
     return int(algo.predict(n_bkps=1)[0])
 
 

@@ -60,12 +60,31 @@ import re
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from functools import lru_cache
+from typing import TYPE_CHECKING
 
-import CoolProp
 import numpy as np
-from CoolProp.CoolProp import PropsSI
 
+from . import tablecache
 from .kernels import table_eval
+
+if TYPE_CHECKING:
+    import CoolProp
+
+
+def _coolprop():
+    """CoolProp, imported on first use: a scan whose tables are all in the disk cache (see
+    :mod:`screening.tablecache`) never pays the two seconds of its import."""
+    import CoolProp
+
+    return CoolProp
+
+
+def PropsSI(*args):  # noqa: N802 - CoolProp's own name
+    """CoolProp's ``PropsSI``, imported on first use."""
+    from CoolProp.CoolProp import PropsSI as props
+
+    return props(*args)
+
 
 #: Target relative interpolation error of p_v and rho at grid mid-points.
 TARGET_REL_ERROR = 1e-6
@@ -159,7 +178,7 @@ def saturated_liquid(fluid: str, temperature) -> tuple[np.ndarray, np.ndarray]:
     p = np.empty_like(temps)
     rho = np.empty_like(temps)
     for i, t in enumerate(temps):
-        state.update(CoolProp.QT_INPUTS, 0.0, float(t))
+        state.update(_coolprop().QT_INPUTS, 0.0, float(t))
         p[i] = state.p()
         rho[i] = state.rhomass()
     return p, rho
@@ -187,13 +206,13 @@ def _state(fluid: str) -> CoolProp.AbstractState:
     if "&" in name or "[" in name:
         names, fractions = _parse_mixture(fluid, name)
         try:
-            state = CoolProp.AbstractState("HEOS", "&".join(names))
+            state = _coolprop().AbstractState("HEOS", "&".join(names))
             state.set_mole_fractions(fractions)
         except ValueError as exc:
             raise FluidError(f"mixture {fluid!r} is not known to CoolProp: {exc}") from exc
         return state
     try:
-        return CoolProp.AbstractState("HEOS", name)
+        return _coolprop().AbstractState("HEOS", name)
     except ValueError as exc:
         raise FluidError(
             f"fluid {fluid!r} is not known to CoolProp (examples: Water, Methanol, n-Butane, "
@@ -337,7 +356,7 @@ def _heos_source(fluid: str) -> _Source:
     t_max = CRITICAL_FRACTION * t_crit if math.isfinite(t_crit) else float(state.Tmax())
 
     def evaluate(t: float) -> tuple[float, float]:
-        state.update(CoolProp.QT_INPUTS, 0.0, t)
+        state.update(_coolprop().QT_INPUTS, 0.0, t)
         return state.p(), state.rhomass()
 
     components = state.fluid_names()
@@ -346,7 +365,7 @@ def _heos_source(fluid: str) -> _Source:
         # components'; each component's equation holds only above its own (usually its triple
         # point), and the bubble points scatter by 1e-5 (relative) at the lowest temperatures
         # (LPG near 105 K, at 0.07 Pa). A mixture starts at the highest of the components'.
-        t_min = max(float(CoolProp.AbstractState("HEOS", c).Tmin()) for c in components)
+        t_min = max(float(_coolprop().AbstractState("HEOS", c).Tmin()) for c in components)
         pv_model, rho_model = "CoolProp bubble point (mixture)", "CoolProp bubble-point liquid"
     elif state.fluid_param_string("pure") == "false":
         t_min = float(state.Tmin())
@@ -400,7 +419,7 @@ def _incompressible_source(fluid: str, choice: str | None) -> _Source:
     water_state = _state("Water")
 
     def evaluate(t: float) -> tuple[float, float]:
-        water_state.update(CoolProp.QT_INPUTS, 0.0, t)
+        water_state.update(_coolprop().QT_INPUTS, 0.0, t)
         # Raoult's law: p_v = x_water * p_sat,water(T) (factor 1 for the "water" choice).
         return factor * water_state.p(), PropsSI("D", "T", t, "P", NOMINAL_PRESSURE, name)
 
@@ -604,6 +623,17 @@ def normalise_choice(vapour_pressure) -> str | None:
 @lru_cache(maxsize=64)
 def _fluid_table(fluid: str, choice: str | None) -> FluidTable:
     # The choice is part of the cache key: one fluid can be tabulated under both choices.
+    settings = (TARGET_REL_ERROR, CRITICAL_FRACTION, _FIRST_STEP, _SMALLEST_STEP, NOMINAL_PRESSURE)
+    key = tablecache.key("fluid-table", fluid, choice, settings)
+    cached = tablecache.load(key, FluidTable)
+    if cached is not None:
+        return cached
+    table = _build_table(fluid, choice)
+    tablecache.store(key, table)
+    return table
+
+
+def _build_table(fluid: str, choice: str | None) -> FluidTable:
     if _is_incompressible(fluid):
         source = _incompressible_source(fluid, choice)
     else:

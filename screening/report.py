@@ -17,9 +17,9 @@ from collections.abc import Iterator
 from concurrent.futures import ProcessPoolExecutor
 from contextlib import ExitStack, contextmanager
 from datetime import UTC, datetime
+from importlib import metadata
 from pathlib import Path
 
-import CoolProp
 import numpy as np
 import pandas as pd
 import pyarrow as pa
@@ -73,10 +73,18 @@ def _neutralised(column: pd.Series) -> pd.Series:
     return column.replace(changed) if changed else column
 
 
-def write_table(frame: pd.DataFrame, folder: Path, name: str) -> None:
+#: Tables longer than this are written as Parquet only: the plot data of a 500-pump month
+#: (750 000 rows) would make a 200 MB CSV that no spreadsheet opens.
+CSV_MAX_ROWS = 100_000
+
+
+def write_table(frame: pd.DataFrame, folder: Path, name: str, csv_max_rows: int | None = None):
     """Write a table as ``name.parquet`` and ``name.csv``; formula-like text in the CSV is
-    neutralised (a quote in front), so a spreadsheet shows it as text."""
+    neutralised (a quote in front), so a spreadsheet shows it as text. With ``csv_max_rows``,
+    a longer table gets no CSV (the Parquet file holds every row)."""
     frame.to_parquet(folder / f"{name}.parquet", index=False)
+    if csv_max_rows is not None and len(frame) > csv_max_rows:
+        return
     text = frame.copy()
     for col in text.columns:
         if text[col].dtype == object or pd.api.types.is_string_dtype(text[col]):
@@ -245,7 +253,7 @@ def write_report(
             "pumps_not_screened": int(result.problems.shape[0]),
             "samples": result.samples,
             "elapsed_s": round(result.elapsed_s, 3),
-            "coolprop": CoolProp.__version__,
+            "coolprop": metadata.version("CoolProp"),
             "inputs": _input_files(result),
         }
         (tmp / "run.json").write_text(json.dumps(meta, indent=2), encoding="utf-8")
@@ -258,8 +266,8 @@ def write_report(
             )
             buckets["time"] = buckets["time"].dt.tz_convert(result.plant.timezone)
             buckets = buckets[["pump_id"] + [c for c in buckets.columns if c != "pump_id"]]
-            write_table(buckets, tmp, "plot_buckets")
-            write_table(_points_table(result.points), tmp, "operating_points")
+            write_table(buckets, tmp, "plot_buckets", CSV_MAX_ROWS)
+            write_table(_points_table(result.points), tmp, "operating_points", CSV_MAX_ROWS)
         _write_workbook(tmp / "summary.xlsx", result, changes)
         stack.close()  # every pump page written
         (tmp / "index.html").write_text(
@@ -494,7 +502,7 @@ def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> 
         file_problems=result.file_problems.to_dict("records"),
         barometer=baro,
         ample_ratio=result.plant.settings.policy.ample_ratio,
-        coolprop_version=CoolProp.__version__,
+        coolprop_version=metadata.version("CoolProp"),
         por_low=0.70,
         por_high=1.20,
         cautions=CAUTIONS,

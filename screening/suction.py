@@ -31,12 +31,11 @@ from dataclasses import dataclass, field
 from functools import lru_cache
 
 import numpy as np
-from CoolProp.CoolProp import PropsSI
 from fluids.friction import friction_factor as fluids_friction_factor
 from numpy.typing import ArrayLike
 
 from .npsh import G, absolute_pressure
-from .properties import CRITICAL_FRACTION, FluidError
+from .properties import CRITICAL_FRACTION, FluidError, PropsSI
 
 #: Reynolds number below which the flow is taken as laminar, f = 64/Re [-] (Avila et al.
 #: 2011; the same limit as ``fluids.friction.LAMINAR_TRANSITION_PIPE``).
