@@ -271,7 +271,9 @@ class _Row:
     """Reads the cells of one register row, raising errors that name the column."""
 
     def __init__(self, path: Path, line: int, row: pd.Series, units: dict[str, str | None]):
-        self.path, self.line, self.row, self.units = path, line, row, units
+        # a plain dict: a pandas look-up per cell costs more than the whole row's parsing
+        cells = row.to_dict() if isinstance(row, pd.Series) else dict(row)
+        self.path, self.line, self.row, self.units = path, line, cells, units
 
     def fail(self, column: str, message: str):
         pump = self.row.get("pump_id", "") or "?"

@@ -113,14 +113,26 @@ def to_si(values, unit: str, kind: str) -> np.ndarray:
     -------
     numpy.ndarray of float64 in the SI unit of ``kind``.
     """
-    src = parse_unit(unit, kind)
+    scale, offset = _affine(unit, kind)
     arr = np.asarray(values, dtype=np.float64)
+    if offset == 0.0:
+        return arr * scale
+    return arr * scale + offset
+
+
+@lru_cache(maxsize=512)
+def _affine(unit: str, kind: str) -> tuple[float, float]:
+    """(scale, offset) with SI = value·scale + offset, from pint once per unit string: every
+    unit of these kinds is linear or, for temperatures, affine (degC, degF)."""
+    src = parse_unit(unit, kind)
     if kind == "speed":
-        return arr * _speed_factor(src)
+        return _speed_factor(src), 0.0
     target = ureg.parse_units(SI_UNITS[kind])
     if src == target:
-        return arr.copy()
-    return ureg.Quantity(arr, src).to(target).magnitude
+        return 1.0, 0.0
+    offset = float(ureg.Quantity(0.0, src).to(target).magnitude)
+    step = ureg.Quantity(1.0, src) - ureg.Quantity(0.0, src)  # one unit of difference
+    return float(step.to(target).magnitude), offset
 
 
 def _speed_factor(unit: pint.Unit) -> float:
