@@ -280,25 +280,7 @@ def _count(q, chunk_list, where, ok, times, values, is_text, text, bad_q, rows, 
         times, values, is_text, text, bad_q, rows, malformed = (
             x[ok] for x in (times, values, is_text, text, bad_q, rows, malformed)
         )
-    if is_text.any():
-        q.text_values += int(is_text.sum())
-        q.note("text value", where + str(rows[is_text][0]))
-        for word, count in pd.Series(text[is_text]).value_counts().items():
-            q.words[str(word)] = q.words.get(str(word), 0) + int(count)
-    if malformed.any():
-        q.malformed_rows += int(malformed.sum())
-        q.note("row with a wrong number of fields", where + str(rows[malformed][0]))
-    not_finite = ~np.isfinite(values) & ~is_text & ~malformed
-    if not_finite.any():
-        q.not_finite += int(not_finite.sum())
-        q.note("missing or infinite value", where + str(rows[not_finite][0]))
-    if bad_q.any():
-        q.bad_quality += int(bad_q.sum())
-        q.note("bad quality", where + str(rows[bad_q][0]))
-    back = np.diff(times) < 0
-    if back.any():
-        q.out_of_order += int(back.sum())
-        q.note("out of order", where + str(rows[1:][back][0]))
-    q.samples += len(values)
-    bad = is_text | not_finite | malformed | bad_q
+    from .loader import count_samples  # the loader imports this module
+
+    bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed)
     chunk_list.append((times, values.astype(np.float64, copy=False), bad))

@@ -574,6 +574,7 @@ def _add_chunk(
     times, rows, malformed = times[ok], rows[ok], malformed[ok]
     if qual is not None:
         qual = qual[ok]
+    text = None
     if isinstance(raw, np.ndarray):
         values = raw.astype(np.float64, copy=False)
         is_text = np.zeros(len(values), dtype=bool)
@@ -589,11 +590,28 @@ def _add_chunk(
             text = text.str.replace(info.source.decimal, ".", regex=False)
         values = pd.to_numeric(text, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan)
         is_text = np.isnan(values) & text.notna().to_numpy() & ~malformed
-        if is_text.any():
-            q.text_values += int(is_text.sum())
-            q.note("text value", where + str(rows[is_text][0]))
-            for word, count in text[is_text].value_counts().items():
-                q.words[str(word)] = q.words.get(str(word), 0) + int(count)
+    bad_q = np.zeros(len(values), dtype=bool)
+    if qual is not None:
+        words = qual.astype("string").str.strip().str.lower().fillna("")
+        bad_q = (~words.isin(good) & (words != "")).to_numpy()
+    bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed)
+    chunks[tag].append((times, values, bad))
+
+
+def count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed) -> np.ndarray:
+    """Count one file's samples of one tag into ``q`` and return which are bad.
+
+    The rules every reader shares (the raw exports here, the ingested dataset in
+    :mod:`screening.dataset`): text values (with their words), rows with a wrong number of
+    fields, missing or infinite values, bad quality words, samples out of time order; each
+    kind's first place is noted as ``where`` plus the row. ``times`` [ns] hold only samples
+    with a valid timestamp; ``text`` may be None when no value is text.
+    """
+    if is_text.any():
+        q.text_values += int(is_text.sum())
+        q.note("text value", where + str(rows[is_text][0]))
+        for word, count in pd.Series(text[is_text]).value_counts().items():
+            q.words[str(word)] = q.words.get(str(word), 0) + int(count)
     if malformed.any():
         q.malformed_rows += int(malformed.sum())
         q.note("row with a wrong number of fields", where + str(rows[malformed][0]))
@@ -601,20 +619,15 @@ def _add_chunk(
     if not_finite.any():
         q.not_finite += int(not_finite.sum())
         q.note("missing or infinite value", where + str(rows[not_finite][0]))
-    bad = is_text | not_finite | malformed
-    if qual is not None:
-        words = qual.astype("string").str.strip().str.lower().fillna("")
-        bad_q = (~words.isin(good) & (words != "")).to_numpy()
-        if bad_q.any():
-            q.bad_quality += int(bad_q.sum())
-            q.note("bad quality", where + str(rows[bad_q][0]))
-        bad = bad | bad_q
+    if bad_q.any():
+        q.bad_quality += int(bad_q.sum())
+        q.note("bad quality", where + str(rows[bad_q][0]))
     back = np.diff(times) < 0
     if back.any():
         q.out_of_order += int(back.sum())
         q.note("out of order", where + str(rows[1:][back][0]))
     q.samples += len(values)
-    chunks[tag].append((times, values, bad))
+    return is_text | not_finite | malformed | bad_q
 
 
 def _parquet_time_range(path: Path, column: str) -> tuple[int, int] | None:

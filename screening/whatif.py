@@ -45,7 +45,6 @@ from .setpoints import SENSITIVITY_COLUMNS, SETPOINT_COLUMNS, required_setpoints
 
 #: States whose inputs are all known while running: the ones a change is applied to.
 EVALUATED = states.RUNNING  # the four bands and off_curve
-MARGIN_KINDS = ("margin", "region")
 
 
 @dataclass
