@@ -44,6 +44,11 @@ def friendly_errors(func: Callable) -> Callable:
     return wrapper
 
 
+FROM_OPTION = typer.Option(
+    None, "--from", help="Window start, a date or time (site time zone unless an offset)."
+)
+TO_OPTION = typer.Option(None, "--to", help="Window end (exclusive).")
+PUMP_OPTION = typer.Option(None, "--pump", help="Only this pump (repeatable).")
 PROCESSES_OPTION = typer.Option(
     None, "--processes", help="Worker processes on this machine (default: every core; 1: none)."
 )

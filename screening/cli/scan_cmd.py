@@ -16,8 +16,11 @@ from .common import (
     EXIT_NOTHING,
     EXIT_OK,
     EXIT_PARTIAL,
+    FROM_OPTION,
     PROCESSES_OPTION,
+    PUMP_OPTION,
     QUIET_OPTION,
+    TO_OPTION,
     WORKERS_OPTION,
     cluster_choice,
     friendly_errors,
@@ -28,14 +31,12 @@ from .common import (
 @friendly_errors
 def scan_command(
     config: Path = typer.Argument(..., help="The plant file (TOML).", exists=False),
-    start: str = typer.Option(
-        None, "--from", help="Window start, a date or time (site time zone unless an offset)."
-    ),
-    end: str = typer.Option(None, "--to", help="Window end (exclusive)."),
+    start: str = FROM_OPTION,
+    end: str = TO_OPTION,
     out: Path = typer.Option(
         None, "--out", help="Report folder (default: reports/<plant file>_<start>_<end>)."
     ),
-    pump: list[str] = typer.Option(None, "--pump", help="Screen only this pump (repeatable)."),
+    pump: list[str] = PUMP_OPTION,
     units: str = typer.Option("si", "--units", help="Display units of the HTML: si or us."),
     compare_to: Path = typer.Option(
         None, "--compare-to", help="A previous report folder: mark pumps that got worse or better."

@@ -14,7 +14,10 @@ from .common import (
     EXIT_NOTHING,
     EXIT_OK,
     EXIT_PARTIAL,
+    FROM_OPTION,
+    PUMP_OPTION,
     QUIET_OPTION,
+    TO_OPTION,
     friendly_errors,
 )
 
@@ -23,14 +26,12 @@ from .common import (
 def whatif_command(
     config: Path = typer.Argument(..., help="The plant file (TOML)."),
     scenarios: Path = typer.Argument(..., help="The scenario file (TOML)."),
-    start: str = typer.Option(
-        None, "--from", help="Window start, a date or time (site time zone unless an offset)."
-    ),
-    end: str = typer.Option(None, "--to", help="Window end (exclusive)."),
+    start: str = FROM_OPTION,
+    end: str = TO_OPTION,
     out: Path = typer.Option(
         None, "--out", help="Report folder (default: reports/whatif_<scenario file>_<start>_<end>)."
     ),
-    pump: list[str] = typer.Option(None, "--pump", help="Only this pump (repeatable)."),
+    pump: list[str] = PUMP_OPTION,
     share: list[float] = typer.Option(
         None,
         "--share",
