@@ -132,12 +132,12 @@ class _Tab:
         if urlsplit(request.url).scheme in LOCAL_SCHEMES:
             self.problems.append(f"local load failed: {request.url} ({request.failure})")
 
-    def visit(self, page_file: Path, shot: Path) -> list[str]:
+    def visit(self, page_file: Path, shot: Path, need_plot: bool = True) -> list[str]:
         """Open one page, check its plots, save a full-page screenshot; return its problems."""
         self.problems = []
         self.page.goto(page_file.as_uri(), wait_until="load")
         plots = self.page.evaluate(_PLOT_STATE_JS)
-        if not plots:
+        if not plots and need_plot:
             self.problems.append("no plot (div.plotly-graph-div) on the page")
         for plot in plots:
             if not plot["drawn"]:
@@ -181,3 +181,39 @@ def test_report_pages_render_offline_without_errors(browser, report, tmp_path_fa
     assert not failures, "report pages with problems:\n" + "\n".join(
         f"  {name}:\n" + "\n".join(f"    - {p}" for p in probs) for name, probs in failures.items()
     )
+
+
+def test_onset_and_whatif_pages_render_offline_without_errors(browser, tmp_path):
+    """The onset page of the invented year-long history (HX-701) and the what-if pages of the
+    demo scenarios: no console error, no network request, every plot drawn."""
+    onset = screening.investigate(ROOT / "configs" / "demo_history.toml", "HX-701",
+                                  "2025-11-01", "2026-11-01", failed_on="2026-09-20")  # fmt: skip
+    onset_page = screening.write_onset_report(onset, tmp_path / "onset")
+    wi = screening.whatif(CONFIG, ROOT / "configs" / "demo_scenarios.toml",
+                          pumps=["CD-412", "RW-502", "CW-103", "DH-202"])  # fmt: skip
+    wi_dir = screening.write_whatif_report(wi, tmp_path / "whatif")
+    pages = [(onset_page, True), (wi_dir / "index.html", False)]
+    pages += [(p, True) for p in sorted(wi_dir.glob("scenario_*.html"))]
+    assert len(pages) == 6  # onset, the what-if index and its four scenarios
+    network: list[str] = []
+
+    def guard(route):
+        if urlsplit(route.request.url).scheme in LOCAL_SCHEMES:
+            route.continue_()
+        else:
+            network.append(route.request.url)
+            route.abort()
+
+    context = browser.new_context(viewport={"width": 1280, "height": 900})
+    context.route("**/*", guard)
+    tab = _Tab(context)
+    failures = {}
+    try:
+        for page_file, need_plot in pages:
+            problems = tab.visit(page_file, tmp_path / f"{page_file.stem}.png", need_plot)
+            if problems:
+                failures[page_file.name] = problems
+    finally:
+        context.close()
+    assert not network, network
+    assert not failures, failures
