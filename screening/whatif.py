@@ -245,6 +245,7 @@ def whatif(
     end=None,
     pumps: list[str] | None = None,
     shares: tuple[float, ...] = (0.99, 1.0),
+    progress=None,
 ) -> WhatIfResult:
     """Apply scenarios to a plant's recorded history and find the required setpoints.
 
@@ -261,6 +262,8 @@ def whatif(
     shares : tuple of float
         Shares of the running hours [-] (0 < share <= 1) for which the required setpoints keep
         NPSHa at or above the guidance.
+    progress : callable, optional
+        As for :func:`screening.scan`: called with each batch of pumps as it completes.
 
     Returns
     -------
@@ -272,7 +275,7 @@ def whatif(
     plant = config if isinstance(config, Plant) else load_plant(config)
     chosen = scenarios if isinstance(scenarios, list) else read_scenarios(scenarios)
     hook = partial(evaluate_pump, scenarios=chosen, shares=tuple(shares))
-    result = scan(plant, start, end, pumps=pumps, each_pump=hook)
+    result = scan(plant, start, end, pumps=pumps, each_pump=hook, progress=progress)
     rows: dict[str, list] = {"hours": [], "moves": [], "changes": [], "setpoints": [],
                              "sensitivity": []}  # fmt: skip
     for pid in sorted(result.extras):

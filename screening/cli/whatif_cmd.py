@@ -7,6 +7,7 @@ from pathlib import Path
 
 import typer
 
+from ..plant import load_plant
 from ..whatif import whatif
 from ..whatif_page import write_whatif_report
 from .common import (
@@ -19,6 +20,7 @@ from .common import (
     QUIET_OPTION,
     TO_OPTION,
     friendly_errors,
+    progress_bar,
 )
 
 
@@ -43,7 +45,10 @@ def whatif_command(
 ) -> None:
     """Replay history with each scenario's changes; report hours moved and required setpoints."""
     shares = tuple(sorted(set(share))) if share else (0.99, 1.0)
-    result = whatif(config, scenarios, start, end, pumps=pump or None, shares=shares)
+    plant = load_plant(config)
+    with progress_bar(len(pump) if pump else len(plant.pumps), quiet) as advance:
+        result = whatif(plant, scenarios, start, end, pumps=pump or None, shares=shares,
+                        progress=advance)  # fmt: skip
     scan = result.scan
     if out is None:
         tz = scan.plant.timezone
