@@ -75,7 +75,9 @@ def check(config: str | Path | Plant) -> CheckResult:
             for label, n in (
                 ("text values", q.text_values),
                 ("bad quality", q.bad_quality),
+                ("not finite", q.not_finite),
                 ("bad timestamps", q.bad_timestamps),
+                ("rows with a wrong number of fields", q.malformed_rows),
                 ("duplicates", q.duplicates),
                 ("out of order", q.out_of_order),
             ):

@@ -92,3 +92,14 @@ def test_check_finds_missing_tag(tmp_path):
     res = runner.invoke(app, ["check", str(path)])
     assert res.exit_code == 3
     assert "P2.PS (suction) not found" in res.output
+
+
+def test_check_counts_malformed_rows(tmp_path):
+    path = make_plant(tmp_path, wide={"a.csv": steady_frame("P1")})
+    export = tmp_path / "exports" / "a.csv"
+    lines = export.read_text().splitlines()
+    lines[5] += ",7,8"  # two stray fields: a garbled line of the historian's export
+    export.write_text("\n".join(lines) + "\n")
+    result = screening.check(path)
+    suction = result.tags.set_index("role").loc["suction"]
+    assert "1 rows with a wrong number of fields" in suction["problems"]
