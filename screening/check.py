@@ -51,7 +51,7 @@ def check(config: str | Path | Plant) -> CheckResult:
     index = ExportIndex(plant.settings, plant.base)
     problems = [{"pump_id": k, "message": v} for k, v in plant.problems.items()]
     rows = []
-    files = dict(index.file_problems)
+    files = {**index.file_problems, **index.partly_read}
     tz = plant.timezone
     tag_roles = []
     for pid, pump in plant.pumps.items():

@@ -144,7 +144,7 @@ def ingest(
     kept, window = _kept_span(plant, start, end)
     index = ExportIndex(plant.settings, plant.base)
     homes = _homes(plant, index)
-    summary = IngestSummary(out, files_not_read=dict(index.file_problems))
+    summary = IngestSummary(out, files_not_read={**index.file_problems, **index.partly_read})
     summary.other_tags = sorted(t for t, f in homes.items() if f == ds.OTHER_FOLDER)
     sources: list[dict] = []
     staging = Path(tempfile.mkdtemp(prefix=f".{out.name}.staging.", dir=_parent(out)))

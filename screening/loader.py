@@ -218,6 +218,8 @@ class ExportIndex:
         self.files: list[_FileInfo] = []
         #: Files that could not be read at all: path -> message.
         self.file_problems: dict[str, str] = {}
+        #: Files read only in part, and why (long-layout rows without a tag name).
+        self.partly_read: dict[str, str] = {}
         self._by_tag: dict[str, list[_FileInfo]] = {}
         self._known: frozenset[str] | None = None
         self._time_cache: OrderedDict[Path, tuple[np.ndarray, np.ndarray]] = OrderedDict()
@@ -277,6 +279,11 @@ class ExportIndex:
                         raise ExportError(f"{path}: missing column(s) {', '.join(missing)}")
                     col = pq.read_table(path, columns=[source.tag_column]).column(0)
                     tags = frozenset(str(t) for t in pc.unique(col).to_pylist() if t is not None)
+                    blank = pc.is_null(col)
+                    if pa.types.is_string(col.type) or pa.types.is_large_string(col.type):
+                        empty = pc.equal(pc.utf8_trim_whitespace(col), "")
+                        blank = pc.or_(blank, pc.fill_null(empty, False))
+                    self._untagged(path, source, blank.to_numpy(zero_copy_only=False), "row", 0)
                 except (pa.ArrowException, OSError) as exc:
                     raise ExportError(f"{path}: not a readable Parquet file ({exc})") from exc
             else:
@@ -289,7 +296,10 @@ class ExportIndex:
                         f"{', '.join(names)})"
                     )
                 frame = self._read_csv(path, source, [source.tag_column])
-                tags = frozenset(frame[source.tag_column].dropna().str.strip().unique())
+                stripped = frame[source.tag_column].str.strip()
+                tags = frozenset(stripped.dropna().unique())
+                blank = (stripped.isna() | (stripped == "")).to_numpy()
+                self._untagged(path, source, blank, "data row", 1)
         typed, time_range = False, None
         if fmt == "parquet":
             try:
@@ -300,6 +310,17 @@ class ExportIndex:
             except (KeyError, pa.ArrowException, OSError):
                 typed = False
         return _FileInfo(path, source, fmt, tags, typed, time_range)
+
+    def _untagged(self, path: Path, source, blank: np.ndarray, label: str, first: int) -> None:
+        """Note the rows of a long file that name no tag: they belong to no pump and are not
+        read, which the report says rather than dropping them without a word."""
+        n = int(np.count_nonzero(blank))
+        if n:
+            at = int(np.flatnonzero(blank)[0]) + first
+            self.partly_read[str(path)] = (
+                f"{path}: {n} row(s) without a tag name in column {source.tag_column!r} (first at "
+                f"{label} {at}); they belong to no tag and are not read"
+            )
 
     def _add_dataset(self, source: ExportSource, base: Path) -> None:
         """Index a dataset written by ``pumpscreen ingest``: one entry per folder of tags."""

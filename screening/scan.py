@@ -240,7 +240,7 @@ def scan(
     results: list[PumpResult] = []
     extras: dict[str, Any] = {}
     quality_rows: list[dict] = []
-    file_problems = dict(index.file_problems)
+    file_problems = {**index.file_problems, **index.partly_read}
     samples = 0
     for o in outputs:
         results.extend(o.results)

@@ -228,3 +228,22 @@ def test_long_parquet_filters_tags_and_reads_quality(tmp_path):
     r = screening.scan(path)
     assert hours(r)["bad_data"] == pytest.approx(1.0)
     assert hours(r)["ample_margin"] == pytest.approx(23.0)
+
+
+def test_long_rows_without_a_tag_are_reported_not_dropped(tmp_path):
+    # invented long export: two rows name no tag; they belong to no pump, and the report
+    # says so with the first place instead of dropping them silently
+    from plantmaker import make_plant, steady_frame
+
+    long_text = "tag,time,value,quality\n" + "\n".join(
+        f"P1.{t},2026-10-01 00:{m:02d}:00,{v},ok"
+        for m in range(60)
+        for t, v in (("PS", 100), ("TT", 20), ("FT", 80), ("RUN", 1))
+    )
+    long_text += "\n,2026-10-01 00:10:00,5,ok\n  ,2026-10-01 00:11:00,6,ok\n"
+    path = make_plant(tmp_path, wide={"w.csv": steady_frame("P9")}, long={"l.csv": long_text})
+    r = screening.scan(path)
+    problems = r.file_problems.set_index("file")["message"]
+    message = problems[str(tmp_path / "long" / "l.csv")]
+    assert "2 row(s) without a tag name in column 'tag' (first at data row 241)" in message
+    assert "P1" in set(r.summary["pump_id"])
