@@ -32,7 +32,7 @@ from ._allocator import keep_freed_memory
 from .calculator import PumpResult, Settings
 from .loader import ExportError, ExportIndex, TagSeries
 from .plant import Plant
-from .properties import FluidTable, seed_fluid_tables
+from .properties import FluidTable, adopt_fluid_tables
 from .units import UnitError
 
 
@@ -72,7 +72,7 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
     from .scan import _quality_row, _screen_pump  # the per-pump steps live with the scan
 
     keep_freed_memory()  # a Dask worker is a fresh process (and Dask asks glibc to trim)
-    seed_fluid_tables(ctx.tables)
+    adopt_fluid_tables(ctx.tables)
     plant, index = ctx.plant, ctx.index
     known = index.known_tags()
     tags = [t.tag for pid in batch for t in plant.pumps[pid].tags().values() if t.tag in known]
@@ -107,7 +107,7 @@ _WORKER_CTX: BatchContext | None = None
 def _init_worker(ctx: BatchContext) -> None:
     global _WORKER_CTX
     _WORKER_CTX = ctx
-    seed_fluid_tables(ctx.tables)
+    adopt_fluid_tables(ctx.tables)
     # one thread per worker: the pool already keeps every core busy, and Arrow's own decoding
     # threads would only compete with the other workers
     pyarrow.set_cpu_count(1)

@@ -601,18 +601,18 @@ def fluid_table(fluid: str, vapour_pressure: str | None = None) -> FluidTable:
         has its own vapour pressure in CoolProp.
     """
     choice = _normalise_choice(vapour_pressure)
-    seeded = _SEEDED.get((fluid, choice))
-    return seeded if seeded is not None else _fluid_table(fluid, choice)
+    adopted = _ADOPTED.get((fluid, choice))
+    return adopted if adopted is not None else _fluid_table(fluid, choice)
 
 
-#: Tables built in another process and handed over (see :func:`seed_fluid_tables`).
-_SEEDED: dict[tuple[str, str | None], FluidTable] = {}
+#: Tables built in another process and handed over (see :func:`adopt_fluid_tables`).
+_ADOPTED: dict[tuple[str, str | None], FluidTable] = {}
 
 
-def seed_fluid_tables(tables: dict[tuple[str, str | None], FluidTable]) -> None:
+def adopt_fluid_tables(tables: dict[tuple[str, str | None], FluidTable]) -> None:
     """Make tables built elsewhere (the parent of a worker process) this process's own, so
     :func:`fluid_table` does not build them again. Keys: (fluid, normalised choice)."""
-    _SEEDED.update(tables)
+    _ADOPTED.update(tables)
 
 
 def normalise_choice(vapour_pressure) -> str | None:

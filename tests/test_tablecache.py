@@ -11,7 +11,7 @@ from screening import properties, tablecache
 
 def _fresh(monkeypatch, folder) -> None:
     monkeypatch.setenv("PUMPSCREEN_CACHE", str(folder))
-    monkeypatch.setattr(properties, "_SEEDED", {})  # tables handed over by an earlier scan
+    monkeypatch.setattr(properties, "_ADOPTED", {})  # tables handed over by an earlier scan
     properties._fluid_table.cache_clear()
 
 
