@@ -290,6 +290,30 @@ def _location(loc: tuple) -> str:
     return ".".join(parts)
 
 
+def read_toml(path: Path, what: str) -> dict:
+    """The TOML table of a file, or a ConfigError naming the file (and the line where the
+    bytes are not UTF-8); ``what`` names the file in messages ("plant file")."""
+    try:
+        text = path.read_text(encoding="utf-8-sig")
+    except FileNotFoundError as exc:
+        raise ConfigError(f"{path}: {what} not found") from exc
+    except UnicodeDecodeError as exc:
+        data = path.read_bytes()
+        line = data[: exc.start].count(b"\n") + 1
+        raise ConfigError(
+            f"{path} line {line}: not UTF-8 text (byte 0x{data[exc.start]:02x}; a Latin-1 "
+            f"character such as '°'?); save the {what} as UTF-8"
+        ) from exc
+    except OSError as exc:
+        raise ConfigError(f"{path}: cannot be read ({exc})") from exc
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(f"{path}: not valid TOML: {exc}") from exc
+    except RecursionError as exc:
+        raise ConfigError(f"{path}: not valid TOML: arrays or tables nested too deeply") from exc
+
+
 def read_plant_file(path: str | Path) -> tuple[PlantFile, Path]:
     """Read and validate a plant file.
 
@@ -309,25 +333,7 @@ def read_plant_file(path: str | Path) -> tuple[PlantFile, Path]:
         Naming the file, the key and what would be valid.
     """
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except FileNotFoundError as exc:
-        raise ConfigError(f"{path}: plant file not found") from exc
-    except UnicodeDecodeError as exc:
-        data = path.read_bytes()
-        line = data[: exc.start].count(b"\n") + 1
-        raise ConfigError(
-            f"{path} line {line}: not UTF-8 text (byte 0x{data[exc.start]:02x}; a Latin-1 "
-            "character such as '°'?); save the plant file as UTF-8"
-        ) from exc
-    except OSError as exc:
-        raise ConfigError(f"{path}: cannot be read ({exc})") from exc
-    try:
-        raw = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise ConfigError(f"{path}: not valid TOML: {exc}") from exc
-    except RecursionError as exc:
-        raise ConfigError(f"{path}: not valid TOML: arrays or tables nested too deeply") from exc
+    raw = read_toml(path, "plant file")
     try:
         plant = PlantFile.model_validate(raw)
     except ValidationError as exc:

@@ -106,8 +106,7 @@ _WORKER_CTX: BatchContext | None = None
 
 def _init_worker(ctx: BatchContext) -> None:
     global _WORKER_CTX
-    _WORKER_CTX = ctx
-    adopt_fluid_tables(ctx.tables)
+    _WORKER_CTX = ctx  # run_batch adopts its fluid tables
     # one thread per worker: the pool already keeps every core busy, and Arrow's own decoding
     # threads would only compete with the other workers
     pyarrow.set_cpu_count(1)

@@ -23,13 +23,12 @@ selected when any of them matches) and lists one or more actions, applied in the
 from __future__ import annotations
 
 import fnmatch
-import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
-from .config import ConfigError, validation_error
+from .config import ConfigError, read_toml, validation_error
 from .register import PumpSpec
 from .units import UnitError, parse_difference, parse_quantity
 
@@ -181,14 +180,7 @@ def read_scenarios(path: str | Path) -> list[Scenario]:
         Naming the file, the scenario and key, and what would be valid.
     """
     path = Path(path)
-    try:
-        raw = tomllib.loads(path.read_text(encoding="utf-8-sig"))
-    except FileNotFoundError:
-        raise ConfigError(f"{path}: scenario file not found") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError(f"{path}: cannot be read as UTF-8 text ({exc})") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise ConfigError(f"{path}: not valid TOML: {exc}") from None
+    raw = read_toml(path, "scenario file")
     try:
         model = _FileModel.model_validate(raw)
     except ValidationError as exc:

@@ -159,6 +159,8 @@ def required_setpoints(
     baro = series["barometric_pa"].to_numpy(dtype=np.float64)[keep]
     rows = []
 
+    as_recorded = float(w[a >= guide * (1 - REL_TOL)].sum() / w.sum())
+
     def met(changed: dict) -> float:
         a2, _ = npsh_pair(pump, curve, table, {**inputs, **changed})
         return float(w[a2 >= guide * (1 - REL_TOL)].sum() / w.sum())
@@ -181,7 +183,7 @@ def required_setpoints(
         req = floor_needed(need, ok, w, share)
         note = ""
         if np.isnan(req):
-            achieved = met({})
+            achieved = as_recorded
             note = f"met without a change: at or above guidance {100 * achieved:.2f} % of the time"
         else:
             achieved = met({key: np.maximum(inputs[key], req + offset)})
@@ -199,7 +201,7 @@ def required_setpoints(
             cap = cap_needed(t_max, ok, w, share)
             note = ""
             if np.isnan(cap):
-                achieved = met({})
+                achieved = as_recorded
                 note = (
                     f"met without a change: at or above guidance {100 * achieved:.2f} % of the time"
                 )

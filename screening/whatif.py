@@ -281,12 +281,9 @@ def whatif(
     for pid in sorted(result.extras):
         for k in rows:
             rows[k].extend(result.extras[pid][k])
-    notes = []
-    selected = {p for sc in chosen for p in plant.pumps if sc.changes_for(plant.pumps[p])}
-    for sc in chosen:
-        if not any(sc.changes_for(p) for p in plant.pumps.values()):
-            notes.append(f"scenario {sc.name!r} selects no pump of the register")
-    if not selected:
+    idle = [sc.name for sc in chosen if not any(map(sc.changes_for, plant.pumps.values()))]
+    notes = [f"scenario {name!r} selects no pump of the register" for name in idle]
+    if len(idle) == len(chosen):
         notes.append("no scenario selects any pump; only the required setpoints are shown")
     return WhatIfResult(
         result, chosen,

@@ -54,25 +54,17 @@ def _hours(x: float) -> str:
     return f"{0.0 if abs(x) < 0.05 else x:.1f}"  # no "-0.0" from rounding
 
 
-def _display_value(value: float, unit: str) -> str:
-    """A required value in the page's units: kPa, degC, m."""
+def _display_value(value: float, unit: str, difference: bool = False) -> str:
+    """A required value [SI] in the page's units (kPa, °C, m); a difference signed, and a
+    temperature difference in K."""
     if value is None or not np.isfinite(value):
         return ""
+    sign = "+" if difference else ""
     if unit.startswith("Pa"):
-        return f"{value / 1000:.1f} kPa{unit[2:]}"
+        return f"{value / 1000:{sign}.1f} kPa" + ("" if difference else unit[2:])
     if unit == "K":
-        return f"{value - 273.15:.1f} °C"
-    return f"{value:.3f} m"
-
-
-def _difference(value: float, unit: str) -> str:
-    if value is None or not np.isfinite(value):
-        return ""
-    if unit.startswith("Pa"):
-        return f"{value / 1000:+.1f} kPa"
-    if unit == "K":
-        return f"{value:+.1f} K"
-    return f"{value:+.3f} m"
+        return f"{value:+.1f} K" if difference else f"{value - 273.15:.1f} °C"
+    return f"{value:{sign}.3f} m"
 
 
 def _setpoint_rows(frame: pd.DataFrame, shares: tuple[float, ...]) -> tuple[list[dict], list]:
@@ -95,7 +87,9 @@ def _setpoint_rows(frame: pd.DataFrame, shares: tuple[float, ...]) -> tuple[list
                                  or "not needed" for q in shares],
                     "today": _display_value(strict.today_setpoint, strict.unit)
                     or "not in register",
-                    "change": _difference(strict.change_from_setpoint, strict.unit),
+                    "change": _display_value(
+                        strict.change_from_setpoint, strict.unit, difference=True
+                    ),
                     "recorded": _display_value(strict.recorded, strict.unit),
                     "achieved": "" if not np.isfinite(strict.achieved_share)
                     else f"{100 * strict.achieved_share:.2f} %",

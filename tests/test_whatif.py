@@ -225,7 +225,8 @@ name = "cooler"
   temperature_subtract = "9 degF"
 """))  # fmt: skip
     change = s[0].entries[0].changes[0]
-    assert change.operation == "add" and change.value == pytest.approx(-5.0)  # 9 °F = 5 K
+    # 1 °F of difference is 5/9 K by the definition of the Fahrenheit scale: 9 °F = 5 K
+    assert change.operation == "add" and change.value == pytest.approx(-5.0)
 
 
 def test_whatif_command_writes_pages_tables_and_cautions(tmp_path):

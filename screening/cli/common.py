@@ -98,3 +98,16 @@ def cluster_choice(cluster: str | None, workers: int | None):
     if cluster and workers:
         raise typer.BadParameter("give --cluster or --workers, not both")
     return cluster or workers
+
+
+def finish(folder, problems, n_ok: int, quiet: bool) -> None:
+    """The end of a screening command: pumps not screened (standard error), the report's
+    path, and the exit code (0 all screened, 3 some not, 4 none)."""
+    if not quiet:
+        for row in problems.itertuples(index=False):
+            typer.echo(f"not screened: {row.pump_id}: {row.message}", err=True)
+        typer.echo("report:")
+    typer.echo(str((folder / "index.html").resolve()))
+    if n_ok == 0:
+        raise typer.Exit(EXIT_NOTHING)
+    raise typer.Exit(EXIT_PARTIAL if len(problems) else EXIT_OK)

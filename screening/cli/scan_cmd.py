@@ -13,9 +13,6 @@ from ..scan import scan
 from .common import (
     CLUSTER_OPTION,
     DEBUG_OPTION,
-    EXIT_NOTHING,
-    EXIT_OK,
-    EXIT_PARTIAL,
     FROM_OPTION,
     PROCESSES_OPTION,
     PUMP_OPTION,
@@ -23,6 +20,7 @@ from .common import (
     TO_OPTION,
     WORKERS_OPTION,
     cluster_choice,
+    finish,
     friendly_errors,
     progress_bar,
 )
@@ -75,10 +73,4 @@ def scan_command(
                     f"  {row.pump_id:<12} {row.below_npsh3_hours:8.1f} h "
                     f"{row.below_guidance_hours:8.1f} h   {row.service}"
                 )
-        for row in result.problems.itertuples(index=False):
-            typer.echo(f"not screened: {row.pump_id}: {row.message}", err=True)
-        typer.echo("report:")
-    typer.echo(str((folder / "index.html").resolve()))
-    if n_ok == 0:
-        raise typer.Exit(EXIT_NOTHING)
-    raise typer.Exit(EXIT_PARTIAL if n_bad else EXIT_OK)
+    finish(folder, result.problems, n_ok, quiet)

@@ -12,13 +12,11 @@ from ..whatif import whatif
 from ..whatif_page import write_whatif_report
 from .common import (
     DEBUG_OPTION,
-    EXIT_NOTHING,
-    EXIT_OK,
-    EXIT_PARTIAL,
     FROM_OPTION,
     PUMP_OPTION,
     QUIET_OPTION,
     TO_OPTION,
+    finish,
     friendly_errors,
     progress_bar,
 )
@@ -66,10 +64,4 @@ def whatif_command(
             typer.echo(f"  {sc}: {pid} below guidance {before:.1f} h -> {max(after, 0):.1f} h")
         for note in result.notes:
             typer.echo(f"note: {note}", err=True)
-        for row in scan.problems.itertuples(index=False):
-            typer.echo(f"not screened: {row.pump_id}: {row.message}", err=True)
-        typer.echo("report:")
-    typer.echo(str((folder / "index.html").resolve()))
-    if n_ok == 0:
-        raise typer.Exit(EXIT_NOTHING)
-    raise typer.Exit(EXIT_PARTIAL if n_bad else EXIT_OK)
+    finish(folder, scan.problems, n_ok, quiet)
