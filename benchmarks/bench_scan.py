@@ -371,9 +371,9 @@ def measure_scan(toml: Path, start, end, processes: int = 1, cluster=None) -> di
     """The Python API scan. With one process the time is split by step (the steps run here);
     with more processes or a cluster they run elsewhere and only the total is measured."""
     import screening
-    from screening import loader
+    from screening.inputs import loader
 
-    scan_mod = importlib.import_module("screening.scan")  # the module, not the function
+    scan_mod = importlib.import_module("screening.engine.scan")  # the module, not the function
     totals = defaultdict(float)
     for name in ("calculate_pump", "prepare_tag", "_tables"):
         setattr(scan_mod, name, _timed(getattr(scan_mod, name), name, totals))
@@ -424,7 +424,7 @@ def measure_naive(toml: Path, start, end, samples: int, samples_total: int) -> d
     """Time the per-sample loop on ``samples`` samples; scale to ``samples_total``."""
     from CoolProp.CoolProp import PropsSI
 
-    from screening.units import to_si
+    from screening.inputs.units import to_si
 
     reg = pd.read_csv(toml.parent / "pumps.csv", keep_default_na=False)
     p = reg.iloc[0]

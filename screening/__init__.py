@@ -9,18 +9,20 @@ Python API (the command line uses the same functions)::
     screening.write_report(result, "reports/october")
 """
 
-from .check import check
-from .config import ConfigError
-from .onset import investigate, write_onset_report
-from .plant import Plant, load_plant
-from .regions import REGIONS
-from .report import write_report
-from .scan import ScanResult, WindowError, scan
-from .states import BANDS, STATES
-from .whatif import WhatIfResult, whatif
-from .whatif_page import write_whatif_report
+from screening.base.states import BANDS, STATES
+from screening.engine.scan import ScanResult, scan
+from screening.inputs.check import check
+from screening.inputs.config import ConfigError
+from screening.inputs.plant import Plant, load_plant
+from screening.inputs.window import WindowError
+from screening.onset.investigate import investigate
+from screening.physics.regions import REGIONS
+from screening.report.onset_page import write_onset_report
+from screening.report.plant_report import write_report
+from screening.report.whatif_page import write_whatif_report
+from screening.scenarios.whatif import WhatIfResult, whatif
 
-__version__ = "0.1.0"
+from screening.base.version import __version__  # noqa: E402 - after the API it sits beside
 __all__ = [
     "BANDS",
     "REGIONS",

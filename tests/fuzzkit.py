@@ -26,7 +26,7 @@ from hypothesis import strategies as st
 from plantmaker import make_plant
 
 import screening
-from screening.loader import ExportIndex
+from screening.inputs.loader import ExportIndex
 
 TAGS = ("P1.PS", "P1.TT", "P1.FT", "P1.RUN")
 START = pd.Timestamp("2026-10-01")  # the plantmaker window: 2026-10-01 to 2026-10-02, UTC

@@ -15,13 +15,13 @@ from hypothesis import strategies as st
 from plantmaker import make_plant, pump_row
 
 import screening
-from screening.calculator import NS_PER_HOUR, Settings, calculate_pump
-from screening.curves import Npsh3Curve
-from screening.loader import TagQuality, TagSeries
-from screening.policy import Guidance
-from screening.properties import fluid_table
-from screening.register import PumpSpec, TagSpec
-from screening.scan import _day_edges
+from screening.engine.calculator import NS_PER_HOUR, Settings, calculate_pump
+from screening.inputs.register import PumpSpec, TagSpec
+from screening.inputs.tagdata import TagQuality, TagSeries
+from screening.inputs.window import day_edges as _day_edges
+from screening.physics.curves import Npsh3Curve
+from screening.physics.margin import Guidance
+from screening.physics.properties import fluid_table
 
 NS_MIN = 60 * 10**9
 START = pd.Timestamp("2026-10-01", tz="UTC")

@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from fluids.atmosphere import ATMOSPHERE_1976
 
-from screening.atmosphere import standard_pressure
+from screening.physics.atmosphere import standard_pressure
 
 # check-values.md, "Standard atmosphere": (geometric altitude [m], pressure [Pa] from the 1976
 # standard, pressure in Davis (2010) Table 3-7 [kPa]).

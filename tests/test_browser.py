@@ -26,7 +26,7 @@ from urllib.parse import urlsplit
 import pytest
 
 import screening
-from screening.plotdata import DEFAULT_BUCKETS
+from screening.engine.plotdata import DEFAULT_BUCKETS
 
 ROOT = Path(__file__).resolve().parents[1]
 CONFIG = ROOT / "configs" / "demo_plant.toml"

@@ -12,7 +12,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from screening.changepoint import block_bootstrap_indices, estimate_onset, estimate_ramp_onset
+from screening.onset.changepoint import block_bootstrap_indices, estimate_onset, estimate_ramp_onset
 
 # ------------------------------------------------------------------------------------ onset
 

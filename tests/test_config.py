@@ -6,8 +6,8 @@ import pytest
 from plantmaker import CURVES, make_plant, pump_row, steady_frame
 
 import screening
-from screening.config import ConfigError, read_plant_file
-from screening.register import read_curves, read_pump_register
+from screening.inputs.config import ConfigError, read_plant_file
+from screening.inputs.register import read_curves, read_pump_register
 
 
 def test_unknown_key_in_plant_file(tmp_path):

@@ -15,8 +15,8 @@ import pytest
 from fuzzkit import Outcome, plant_with_export
 
 import screening
-from screening.config import ConfigError, read_plant_file
-from screening.register import read_curves, read_pump_register
+from screening.inputs.config import ConfigError, read_plant_file
+from screening.inputs.register import read_curves, read_pump_register
 
 CORPUS = Path(__file__).parent / "corpus"
 

@@ -14,8 +14,8 @@ import math
 import numpy as np
 import pytest
 
-from screening.curves import CurveError, Npsh3Curve, suction_specific_speed
-from screening.units import to_si
+from screening.inputs.units import to_si
+from screening.physics.curves import CurveError, Npsh3Curve, suction_specific_speed
 
 FT = 0.3048  # [m], exact
 

@@ -12,8 +12,8 @@ import pytest
 from plantmaker import make_plant, steady_frame
 
 import screening
-from screening.drivers import driver_shares
-from screening.properties import fluid_table
+from screening.engine.drivers import driver_shares
+from screening.physics.properties import fluid_table
 
 
 def _series(tmp_path, frame):
@@ -62,7 +62,7 @@ def test_a_lower_vessel_level_is_blamed_on_level(tmp_path):
     # the level (ANSI/HI 1.3 definition: static head), so the level's share is exactly -4 ft.
     from test_vessel_scan import FT, vessel_plant
 
-    from screening.drivers import drivers_for
+    from screening.engine.drivers import drivers_for
 
     level = np.where(np.arange(1440) < 720, 10.0, 6.0)
     path = vessel_plant(tmp_path, level)
@@ -86,7 +86,7 @@ def test_a_lower_vessel_level_is_blamed_on_level(tmp_path):
 def test_a_saturated_vessel_has_no_pressure_driver(tmp_path):
     from test_vessel_scan import vessel_plant
 
-    from screening.drivers import drivers_for
+    from screening.engine.drivers import drivers_for
 
     plant = screening.load_plant(vessel_plant(tmp_path, 10.0, surface="saturated"))
     assert drivers_for(plant.pumps["P1"]) == ("level", "temperature", "flow")

@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from screening.episodes import cumulative_exposure, exposure_before, find_episodes
+from screening.onset.episodes import cumulative_exposure, exposure_before, find_episodes
 
 T0 = pd.Timestamp("2026-03-01", tz="UTC")
 HOUR = pd.Timedelta(hours=1)

@@ -20,9 +20,9 @@ from plantmaker import make_plant, pump_row, steady_frame
 from typer.testing import CliRunner
 
 import screening
-from screening import pump_pages
 from screening.cli.main import app
-from screening.config import ConfigError, read_plant_file
+from screening.inputs.config import ConfigError, read_plant_file
+from screening.report import pump_pages
 
 runner = CliRunner()
 TESTS = Path(__file__).resolve().parent
@@ -104,7 +104,7 @@ def test_scan_killed_while_writing_keeps_the_previous_report(previous_report, tm
         """
         import sys, time
         from pathlib import Path
-        from screening import pump_pages
+        from screening.report import pump_pages
         from screening.cli.main import app
 
         def slow(page, html):

@@ -20,7 +20,7 @@ import numpy as np
 import pytest
 from CoolProp.CoolProp import PropsSI
 
-from screening.properties import (
+from screening.physics.properties import (
     GLYCOL_MOLAR_MASS,
     MOLAR_MASS_WATER,
     FluidError,

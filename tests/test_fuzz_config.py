@@ -22,8 +22,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from plantmaker import PUMP_HEADER, make_plant, pump_row
 
-from screening.config import ConfigError, read_plant_file
-from screening.register import read_curves, read_pump_register
+from screening.inputs.config import ConfigError, read_plant_file
+from screening.inputs.register import read_curves, read_pump_register
 
 FUZZ = settings(
     max_examples=80, deadline=None, suppress_health_check=[HealthCheck.too_slow], database=None

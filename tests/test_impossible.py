@@ -7,7 +7,7 @@ import pytest
 from plantmaker import make_plant, pump_row, steady_frame
 
 import screening
-from screening.curves import CurveError, Npsh3Curve
+from screening.physics.curves import CurveError, Npsh3Curve
 
 
 def _margin_hours(result, pid="P1"):

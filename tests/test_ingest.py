@@ -18,10 +18,10 @@ from plantmaker import make_plant, pump_row, steady_frame
 from typer.testing import CliRunner
 
 import screening
-from screening import dataset
 from screening.cli.main import app
-from screening.config import ConfigError
-from screening.ingest import IngestError, ingest
+from screening.inputs import dataset
+from screening.inputs.config import ConfigError
+from screening.inputs.ingest import IngestError, ingest
 
 ROOT = Path(__file__).resolve().parents[1]
 

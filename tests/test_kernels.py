@@ -15,7 +15,7 @@ sorted_any = st.lists(st.integers(-(10**12), 10**12), max_size=200).map(
 
 
 def test_grid_points_equal_to_samples_take_that_sample():
-    from screening.kernels import hold
+    from screening.base.kernels import hold
 
     times = np.array([10, 20, 30], dtype=np.int64)
     grid = np.array([5, 10, 19, 20, 30, 99], dtype=np.int64)
@@ -28,7 +28,7 @@ def test_grid_points_equal_to_samples_take_that_sample():
 @settings(max_examples=200, deadline=None)
 @given(a=sorted_unique, b=sorted_unique)
 def test_union_sorted_matches_numpy(a, b):
-    from screening.kernels import union_sorted, union_sorted_numpy
+    from screening.base.kernels import union_sorted, union_sorted_numpy
 
     np.testing.assert_array_equal(union_sorted(a, b), union_sorted_numpy(a, b))
     np.testing.assert_array_equal(union_sorted(a, b), np.union1d(a, b))
@@ -42,7 +42,7 @@ def test_pchip_kernel_matches_scipy(q):
     # scipy's PchipInterpolator is the reference implementation of the curve
     from scipy.interpolate import PchipInterpolator
 
-    from screening.kernels import pchip_eval, pchip_eval_numpy
+    from screening.base.kernels import pchip_eval, pchip_eval_numpy
 
     x = np.array([1.0, 2.0, 4.0, 7.0, 10.0])
     y = np.array([2.0, 2.1, 2.6, 4.0, 7.5])
@@ -55,7 +55,7 @@ def test_pchip_kernel_matches_scipy(q):
 
 
 def test_table_kernel_matches_numpy_form():
-    from screening.kernels import table_eval, table_eval_numpy
+    from screening.base.kernels import table_eval, table_eval_numpy
 
     rng = np.random.default_rng(7)  # fixed random state
     ln_pv = np.log(np.linspace(600.0, 9e4, 101))
@@ -70,7 +70,7 @@ def test_table_kernel_matches_numpy_form():
 @settings(max_examples=200, deadline=None)
 @given(times=sorted_unique, grid=sorted_any, stale=st.integers(0, 10**9))
 def test_hold_matches_numpy(times, grid, stale):
-    from screening.kernels import hold, hold_numpy
+    from screening.base.kernels import hold, hold_numpy
 
     rng = np.random.default_rng(len(times))  # fixed random state per case
     values = rng.normal(size=len(times))
@@ -85,7 +85,7 @@ def test_hold_matches_numpy(times, grid, stale):
 
 
 def test_bucket_min_max_matches_numpy():
-    from screening.kernels import bucket_min_max, bucket_min_max_numpy
+    from screening.base.kernels import bucket_min_max, bucket_min_max_numpy
 
     rng = np.random.default_rng(5)  # fixed random state
     values = rng.normal(size=(3, 500))

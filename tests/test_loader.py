@@ -14,7 +14,7 @@ import pytest
 from plantmaker import make_plant, pump_row, steady_frame
 
 import screening
-from screening.timestamps import parse_times
+from screening.inputs.timestamps import parse_times
 
 H = 1 / 60  # one minute in hours
 

@@ -15,15 +15,15 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from screening.npsh import (
+from screening.inputs.units import to_si
+from screening.physics.npsh import (
     G,
     absolute_pressure,
     head_from_pressure,
     npsha_from_pressure,
     velocity_head,
 )
-from screening.properties import fluid_table
-from screening.units import to_si
+from screening.physics.properties import fluid_table
 
 FT = 0.3048  # [m] international foot, exact (1959 agreement; NIST SP 811)
 BORE = 0.15405  # [m] any pipe bore; the tank cases have zero flow, so it does not matter

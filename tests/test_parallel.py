@@ -11,7 +11,7 @@ import pytest
 from plantmaker import make_plant, pump_row, steady_frame
 
 import screening
-from screening.scan import _batches
+from screening.engine.scan import _batches
 
 DEMO = Path(__file__).resolve().parents[1] / "configs" / "demo_plant.toml"
 TABLES = ("hours", "summary", "daily", "quality", "problems", "file_problems")
@@ -40,7 +40,7 @@ def _plant(tmp_path):
 def test_long_windows_get_small_batches(tmp_path):
     path = _plant(tmp_path)
     plant = screening.load_plant(path)
-    from screening.loader import ExportIndex
+    from screening.inputs.loader import ExportIndex
 
     index = ExportIndex(plant.settings, plant.base)
     assert len(_batches(plant, index, list(plant.pumps), pd.Timedelta(days=400))) == 5
@@ -80,8 +80,8 @@ def test_progress_is_reported_per_batch(tmp_path):
 
 
 def test_pump_pages_written_in_parallel_are_the_same(tmp_path, monkeypatch):
-    from screening import report
-    from screening.plotdata import DEFAULT_BUCKETS
+    from screening.engine.plotdata import DEFAULT_BUCKETS
+    from screening.report import plant_report as report
 
     some = ["CD-412", "RW-502", "DH-202", "CW-103"]
     result = screening.scan(DEMO, plot_buckets=DEFAULT_BUCKETS, pumps=some)

@@ -10,9 +10,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from screening.config import Policy, PolicyRule
-from screening.policy import Guidance, PolicyError, guidance_for, margin_band
-from screening.states import AMPLE_MARGIN, BELOW_GUIDANCE, BELOW_NPSH3, MEETS_GUIDANCE
+from screening.base.states import AMPLE_MARGIN, BELOW_GUIDANCE, BELOW_NPSH3, MEETS_GUIDANCE
+from screening.inputs.config import Policy, PolicyRule
+from screening.inputs.policy import PolicyError, guidance_for
+from screening.physics.margin import Guidance, margin_band
 
 # ANSI/HI 9.6.1-2012 (check-values.md): chemical, S < 11000: 1.1 or 0.6 m.
 HI_LOW = Guidance(1.1, 0.6, "ANSI/HI 9.6.1-2012 summary: 1.1 or 0.6 m")

@@ -19,8 +19,8 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from screening.properties import FluidError, fluid_table, saturated_liquid
-from screening.units import to_si
+from screening.inputs.units import to_si
+from screening.physics.properties import FluidError, fluid_table, saturated_liquid
 
 # IAPWS-IF97 and IAPWS-95 saturation pressures differ by up to about 1.8e-4 (relative) between
 # 1 and 200 °C (check-values.md; measured 1.76e-4 with iapws.IAPWS97 against iapws.IAPWS95 at

@@ -11,7 +11,7 @@ import pytest
 from plantmaker import make_plant, pump_row, steady_frame
 
 import screening
-from screening import figjson
+from screening.report import figjson
 
 _FIGURE = re.compile(r'<script type="application/json" id="([\w-]+)-figure">(.*?)</script>', re.S)
 

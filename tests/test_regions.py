@@ -9,8 +9,8 @@ import pytest
 from plantmaker import make_plant, pump_row, steady_frame
 
 import screening
-from screening import regions
-from screening.regions import operating_region, region_edges
+from screening.physics import regions
+from screening.physics.regions import operating_region, region_edges
 
 
 def test_default_preferred_region_is_70_to_120_percent_of_bep():

@@ -9,9 +9,9 @@ from plantmaker import make_plant, pump_row, steady_frame
 from typer.testing import CliRunner
 
 import screening
+from screening.base.files import page_names
 from screening.cli.main import app
-from screening.plotdata import min_max_buckets
-from screening.pump_pages import page_names
+from screening.engine.plotdata import min_max_buckets
 
 runner = CliRunner()
 
@@ -89,7 +89,7 @@ def test_unknown_display_units(tmp_path):
 
 
 def test_operating_points_match_numpy_histogram():
-    from screening.plotdata import operating_points
+    from screening.engine.plotdata import operating_points
 
     rng = np.random.default_rng(3)  # fixed random state
     flow = rng.uniform(0.0, 0.03, 5000)

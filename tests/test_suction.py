@@ -21,9 +21,10 @@ from fluids.core import K_from_f, Reynolds, head_from_K, head_from_P
 from fluids.friction import friction_factor, one_phase_dP
 from iapws import IAPWS97
 
-from screening.npsh import G
-from screening.properties import FluidError, fluid_table
-from screening.suction import (
+from screening.inputs.units import to_si
+from screening.physics.npsh import G
+from screening.physics.properties import FluidError, fluid_table
+from screening.physics.suction import (
     LAMINAR_LIMIT,
     SATURATED,
     darcy_friction_factor,
@@ -36,7 +37,6 @@ from screening.suction import (
     surface_pressure_open,
     viscosity_table,
 )
-from screening.units import to_si
 
 FT = 0.3048  # [m] international foot, exact (1959 agreement; NIST SP 811)
 

@@ -6,7 +6,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from screening import properties, tablecache
+from screening.physics import properties, tablecache
 
 
 def _fresh(monkeypatch, folder) -> None:

@@ -15,7 +15,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from screening.units import UnitError, parse_quantity, parse_unit, to_si
+from screening.inputs.units import UnitError, parse_quantity, parse_unit, to_si
 
 EXACT = 1e-12
 GALLON_M3 = 3.785411784e-3  # US gallon [m³], exact

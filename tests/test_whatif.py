@@ -12,12 +12,12 @@ from typer.testing import CliRunner
 
 import screening
 from screening.cli.main import app
-from screening.config import ConfigError
-from screening.drivers import npsh_pair
-from screening.npsh import G
-from screening.properties import fluid_table
-from screening.scenario import Change, read_scenarios
-from screening.whatif import apply_changes
+from screening.engine.drivers import npsh_pair
+from screening.inputs.config import ConfigError
+from screening.physics.npsh import G
+from screening.physics.properties import fluid_table
+from screening.scenarios.scenario import Change, read_scenarios
+from screening.scenarios.whatif import apply_changes
 
 
 def _scenarios(tmp_path, text: str):

@@ -6,7 +6,8 @@ from pathlib import Path
 
 import typer
 
-from ..check import check
+from screening.inputs.check import check
+
 from .common import DEBUG_OPTION, EXIT_OK, EXIT_PARTIAL, friendly_errors
 
 

@@ -6,7 +6,8 @@ from pathlib import Path
 
 import typer
 
-from ..ingest import ingest
+from screening.inputs.ingest import ingest
+
 from .common import DEBUG_OPTION, EXIT_OK, EXIT_PARTIAL, QUIET_OPTION, friendly_errors
 
 

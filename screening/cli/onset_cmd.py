@@ -6,7 +6,9 @@ from pathlib import Path
 
 import typer
 
-from ..onset import investigate, write_onset_report
+from screening.onset.investigate import investigate
+from screening.report.onset_page import write_onset_report
+
 from .common import DEBUG_OPTION, EXIT_OK, friendly_errors
 
 

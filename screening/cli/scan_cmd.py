@@ -6,10 +6,11 @@ from pathlib import Path
 
 import typer
 
-from ..plant import load_plant
-from ..plotdata import DEFAULT_BUCKETS
-from ..report import write_report
-from ..scan import scan
+from screening.engine.plotdata import DEFAULT_BUCKETS
+from screening.engine.scan import scan
+from screening.inputs.plant import load_plant
+from screening.report.plant_report import write_report
+
 from .common import (
     CLUSTER_OPTION,
     DEBUG_OPTION,

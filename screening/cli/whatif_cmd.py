@@ -7,9 +7,10 @@ from pathlib import Path
 
 import typer
 
-from ..plant import load_plant
-from ..whatif import whatif
-from ..whatif_page import write_whatif_report
+from screening.inputs.plant import load_plant
+from screening.report.whatif_page import write_whatif_report
+from screening.scenarios.whatif import whatif
+
 from .common import (
     DEBUG_OPTION,
     FROM_OPTION,

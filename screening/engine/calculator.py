@@ -1,0 +1,401 @@
+"""The per-pump calculation: aligned tags -> NPSHa, NPSH3, margin and a state for every moment.
+
+Alignment (see DESIGN.md, "Time weighting"): the timeline of a pump is cut at every sample time
+of any of its tags, at the window's start and at every local midnight. On each piece, every tag
+holds its last sample, for at most that tag's stale limit. A piece therefore has one state for
+as long as all the tags it needs are fresh, and is ``no_data`` for the rest of it. Which tags a
+piece needs depends on what it is: the run status (or flow and speed, without a run tag) to
+decide running or stopped; all process tags when running. Time is kept in integer nanoseconds
+until the very end, so the hours of all states add up to the window.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import functools
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from screening.base import states
+from screening.base.kernels import hold, union_sorted
+from screening.engine import plotdata
+from screening.inputs.quality import frozen_samples
+from screening.inputs.register import PumpSpec, TagSpec
+from screening.inputs.tagdata import TagSeries
+from screening.inputs.units import to_si
+from screening.physics import npsh, regions, suction
+from screening.physics.atmosphere import standard_pressure
+from screening.physics.curves import Npsh3Curve
+from screening.physics.margin import Guidance, margin_band
+from screening.physics.properties import FluidTable
+from screening.physics.regions import operating_region, pump_region_edges
+
+NS_PER_HOUR = 3_600_000_000_000
+_NEVER = np.iinfo(np.int64).min // 4
+#: Plausible barometric pressures [Pa]; a barometer reading outside is not used.
+BARO_RANGE = (50_000.0, 110_000.0)
+
+
+@dataclass
+class Settings:
+    """What the calculation needs besides the pump: SI units throughout.
+
+    Attributes: stale_limit [s] (plant default), frozen_after [s] or None, min_flow_fraction
+    and min_speed_fraction [-], ample_ratio [-], site_elevation [m], barometer_stale_limit [s],
+    speed_scaling_range [-] (speed ratios inside which NPSH3 scaling is trusted).
+    """
+
+    stale_limit: float
+    frozen_after: float | None
+    min_flow_fraction: float
+    min_speed_fraction: float
+    ample_ratio: float
+    site_elevation: float
+    barometer_stale_limit: float = 1800.0
+    speed_scaling_range: tuple[float, float] = (0.8, 1.2)
+
+
+@dataclass
+class PumpResult:
+    """The outcome for one pump over one window."""
+
+    pump_id: str
+    hours: np.ndarray  # [h] per state code
+    daily: np.ndarray  # [h] per day and state code, shape (days, states)
+    window_hours: float
+    worst_ratio: float = np.nan
+    worst_time: pd.Timestamp | None = None
+    baro_fallback_hours: float = 0.0
+    region_hours: np.ndarray | None = None  # [h] per region code
+    region_daily: np.ndarray | None = None  # [h] per day and region code
+    speed_outside_hours: float = 0.0  # running hours outside the speed scaling range
+    plot: pd.DataFrame | None = field(default=None, repr=False)  # min/max per time bucket
+    points: dict | None = field(default=None, repr=False)  # operating-point histogram
+    series: pd.DataFrame | None = field(default=None, repr=False)
+
+
+def _at(time_ns: int, what: str) -> str:
+    return f"sample at {pd.Timestamp(int(time_ns), tz='UTC').isoformat()}: {what}"
+
+
+def prepare_tag(
+    series: TagSeries | None, spec: TagSpec, settings: Settings, role: str, check=None
+) -> TagSeries | None:
+    """Convert a tag's raw values to SI, flag frozen and impossible samples (counted)."""
+    if series is None:
+        return None
+    # a tag may serve several pumps (a shared basin temperature): count per pump
+    q = dataclasses.replace(
+        series.quality,
+        words=dict(series.quality.words),
+        first_problem=dict(series.quality.first_problem),
+    )
+    if spec.kind == "status":
+        values = series.values.copy()
+    else:
+        with np.errstate(over="ignore"):  # an overflow is counted below
+            values = to_si(series.values, spec.unit, spec.kind)
+    bad = series.bad.copy()
+    # a finite reading that overflows on conversion (1e308 kPa) is not a number either
+    overflow = ~np.isfinite(values) & ~bad
+    if overflow.any():
+        q.not_finite += int(overflow.sum())
+        bad |= overflow
+        q.note("not_finite", _at(series.times[overflow][0], "too large to convert to SI"))
+    if settings.frozen_after is not None and role != "run":
+        frozen = frozen_samples(series.times, values, bad, int(settings.frozen_after * 1e9))
+        frozen &= ~bad
+        if frozen.any():
+            q.frozen = int(frozen.sum())
+            bad |= frozen
+    if check is not None:
+        with np.errstate(invalid="ignore"):
+            impossible = check(values) & ~bad
+        if impossible.any():
+            q.out_of_range = int(impossible.sum())
+            bad |= impossible
+            q.note("out_of_range", _at(series.times[impossible][0], "physically impossible"))
+    return TagSeries(series.tag, series.times, values, bad, q)
+
+
+def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str):
+    """Surface pressure [Pa] and NPSHa [m] of a vessel-fed pump (see screening.suction)."""
+    if pump.vessel_surface == "open":
+        p_surface = suction.surface_pressure_open(baro)
+    elif pump.vessel_surface == "saturated":
+        p_surface = suction.SATURATED
+    else:
+        p_surface = suction.surface_pressure_from_tag(
+            held["vessel_pressure"].value, baro, pump.vessel_gauge
+        )
+    loss = suction.line_loss(pump.suction_line, flow, rho, temp, fluid)
+    npsha = suction.npsha_from_vessel(
+        p_surface, p_v, rho, held["level"].value, pump.level_zero_elevation, loss
+    )
+    p_abs = p_v if pump.vessel_surface == "saturated" else p_surface
+    return np.broadcast_to(np.asarray(p_abs, dtype=np.float64), npsha.shape), npsha
+
+
+def _weigh(code, until, grid, t_next, day, n_days: int, n_states: int):
+    """Hours per day and state [h] and the fresh part of each piece [ns].
+
+    The fresh part of each piece (until its needed tags go stale) has the piece's state; the
+    rest of it has no data (code 6 in both kinds of state). Sums are exact: integer
+    nanoseconds below 2^53 per bin.
+    """
+    fresh = np.clip(np.minimum(until, t_next) - grid, 0, None)
+    stale = (t_next - grid) - fresh
+    daily = np.bincount(day * n_states + code, weights=fresh, minlength=n_days * n_states)
+    gaps = np.flatnonzero(stale)
+    if len(gaps):
+        daily += np.bincount(
+            day[gaps] * n_states + states.NO_DATA, weights=stale[gaps], minlength=n_days * n_states
+        )
+    return daily.reshape(n_days, n_states) / NS_PER_HOUR, fresh
+
+
+@functools.lru_cache(maxsize=16)
+def _standard_pressure(elevation: float) -> float:
+    return standard_pressure(elevation)
+
+
+class _Held:
+    """A tag's last sample at each grid point, with the time until which it stays fresh."""
+
+    def __init__(self, s: TagSeries | None, grid: np.ndarray, stale_ns: int):
+        if s is None or len(s.times) == 0:
+            self.value = np.full(len(grid), np.nan)
+            self.bad = np.zeros(len(grid), dtype=bool)
+            self.until = np.full(len(grid), _NEVER, dtype=np.int64)
+            return
+        self.value, self.bad, self.until = hold(
+            s.times, s.values, s.bad, grid, np.int64(stale_ns), np.int64(_NEVER)
+        )
+
+
+def calculate_pump(
+    pump: PumpSpec,
+    curve: Npsh3Curve,
+    guidance: Guidance,
+    table: FluidTable,
+    tags: dict[str, TagSeries | None],
+    barometer: TagSeries | None,
+    settings: Settings,
+    start_ns: int,
+    end_ns: int,
+    day_edges: np.ndarray,
+    keep_series: bool = False,
+    plot_buckets: int = 0,
+) -> PumpResult:
+    """Screen one pump over the window [start_ns, end_ns).
+
+    Parameters
+    ----------
+    pump : PumpSpec
+        Register row (SI).
+    curve : Npsh3Curve
+        Vendor NPSH3 curve at ``pump.rated_speed``.
+    guidance : Guidance
+        The pump's margin guidance.
+    table : FluidTable
+        Saturated-liquid properties of the pump's fluid.
+    tags : dict
+        Prepared (SI) series by role: suction [Pa], temperature [K], flow [m³/s], and optional
+        speed [rpm] and run [-]; see :func:`prepare_tag`.
+    barometer : TagSeries or None
+        Prepared barometer series [Pa], or None to use the standard atmosphere.
+    settings : Settings
+        Plant-wide rules.
+    start_ns, end_ns : int
+        Window bounds [ns since epoch, UTC]; end exclusive.
+    day_edges : numpy.ndarray
+        Local midnights [ns] from the window start to its end, both included.
+    keep_series : bool
+        Keep the per-piece series (NPSHa, NPSH3, ratio, state) in the result.
+    plot_buckets : int
+        When positive, keep the report's plot data: minimum and maximum per time bucket and
+        the operating-point histogram (see :mod:`screening.plotdata`).
+    """
+
+    def stale_ns(spec: TagSpec | None) -> int:
+        limit = (
+            settings.stale_limit if spec is None or spec.stale_limit is None else (spec.stale_limit)
+        )
+        return int(round(limit * 1e9))
+
+    # --- the grid: every sample time in the window, the window start and local midnights
+    parts = [np.array([start_ns], dtype=np.int64), day_edges[:-1]]
+    seen: list[np.ndarray] = []
+    for s in list(tags.values()) + [barometer]:
+        if s is not None and len(s.times):
+            lo, hi = np.searchsorted(s.times, [start_ns, end_ns])
+            piece = s.times[lo:hi]
+            # tags of one wide file share their times: add each distinct time axis once
+            if not any(len(x) == len(piece) and np.array_equal(x, piece) for x in seen):
+                seen.append(piece)
+    # every part is sorted: merge them one by one into the sorted unique grid
+    grid = np.unique(np.concatenate(parts))
+    for piece in seen:
+        grid = union_sorted(grid, np.ascontiguousarray(piece))
+    t_next = np.append(grid[1:], end_ns)
+    roles = {
+        "suction": pump.suction,
+        "temperature": pump.temperature,
+        "flow": pump.flow,
+        "speed": pump.speed,
+        "run": pump.run,
+        "level": pump.level,
+        "vessel_pressure": pump.vessel_pressure,
+    }
+    held = {r: _Held(tags.get(r), grid, stale_ns(spec)) for r, spec in roles.items() if spec}
+
+    # --- running or stopped
+    bep = pump.bep_flow
+    if "run" in held:
+        decide = ["run"]
+        running = held["run"].value > 0.5
+    else:
+        decide = ["flow"] + (["speed"] if "speed" in held else [])
+        running = held["flow"].value > settings.min_flow_fraction * bep
+        if "speed" in held:
+            running &= held["speed"].value > settings.min_speed_fraction * pump.rated_speed
+    decide_bad = np.zeros(len(grid), dtype=bool)
+    decide_until = np.full(len(grid), np.iinfo(np.int64).max, dtype=np.int64)
+    for r in decide:
+        decide_bad |= held[r].bad
+        decide_until = np.minimum(decide_until, held[r].until)
+    all_bad = decide_bad.copy()
+    all_until = decide_until.copy()
+    for h in held.values():
+        all_bad |= h.bad
+        all_until = np.minimum(all_until, h.until)
+
+    # --- barometric pressure: the barometer where fresh and plausible, else the standard
+    # atmosphere at the site elevation (U.S. Standard Atmosphere 1976)
+    p_std = _standard_pressure(settings.site_elevation)
+    baro = np.full(len(grid), p_std)
+    baro_used = np.zeros(len(grid), dtype=bool)
+    if barometer is not None and len(barometer.times):
+        hb = _Held(barometer, grid, int(round(settings.barometer_stale_limit * 1e9)))
+        fresh = ~hb.bad & (hb.until > grid) & (hb.value >= BARO_RANGE[0])
+        fresh &= hb.value <= BARO_RANGE[1]
+        baro = np.where(fresh, hb.value, p_std)
+        baro_used = fresh
+
+    # --- NPSHa and NPSH3 (pure functions of SI arrays)
+    temp = held["temperature"].value
+    p_v, rho = table.properties(temp)
+    flow = held["flow"].value
+    if pump.source == "transmitter":
+        p_abs = npsh.absolute_pressure(held["suction"].value, baro, pump.gauge)
+        npsha = npsh.npsha_from_pressure(p_abs, p_v, rho, flow, pump.tap_bore, pump.tap_elevation)
+    else:
+        p_abs, npsha = _vessel_npsha(pump, held, baro, p_v, rho, flow, temp, table.fluid)
+    speed = held["speed"].value if "speed" in held else None
+    npsh3 = curve.at_speed(flow, speed, pump.rated_speed, pump.npsh3_exponent)
+
+    # --- states. An absolute pressure at or below zero (a gauge reading below the local
+    # vacuum) is impossible: bad data, not a number in the results.
+    with np.errstate(invalid="ignore"):
+        all_bad = all_bad | (np.asarray(p_abs) <= 0.0)
+    on_curve = np.isfinite(npsh3) & np.isfinite(npsha)
+    with np.errstate(invalid="ignore"):
+        code = margin_band(npsha, npsh3, guidance, settings.ample_ratio)
+    code[~on_curve] = states.OFF_CURVE
+    code[all_bad] = states.BAD_DATA
+    code[~running] = states.STOPPED
+    code[decide_bad] = states.BAD_DATA
+    until = np.where(running & ~decide_bad, all_until, decide_until)
+
+    # --- operating region: needs only the run decision, flow and speed
+    ratio_n = np.ones(len(grid)) if speed is None else speed / pump.rated_speed
+    edges = pump_region_edges(pump, curve.flow_max, speed)
+    with np.errstate(invalid="ignore"):
+        rcode = operating_region(flow, edges)
+    r_bad = decide_bad.copy()
+    r_until = decide_until.copy()
+    for r in ("flow", "speed"):
+        if r in held:
+            r_bad |= held[r].bad
+            r_until = np.minimum(r_until, held[r].until)
+    rcode[r_bad] = regions.BAD_DATA
+    rcode[~running] = regions.STOPPED
+    rcode[decide_bad] = regions.BAD_DATA
+    r_until = np.where(running & ~decide_bad, r_until, decide_until)
+
+    # --- time weighting: the fresh part of each piece has the state, the rest has no data
+    n_days = len(day_edges) - 1
+    # every local midnight is a grid point: the day index is a run-length repeat
+    first = np.searchsorted(grid, day_edges[:-1], side="left")
+    day = np.repeat(np.arange(n_days), np.diff(np.append(first, len(grid))))
+    daily, fresh = _weigh(code, until, grid, t_next, day, n_days, len(states.STATES))
+    r_daily, r_fresh = _weigh(rcode, r_until, grid, t_next, day, n_days, len(regions.REGIONS))
+    hours = daily.sum(axis=0)
+    window_hours = (end_ns - start_ns) / NS_PER_HOUR
+
+    ratio = npsha / npsh3
+    banded = (code <= states.AMPLE_MARGIN) & (fresh > 0)
+    result = PumpResult(pump.pump_id, hours, daily, window_hours)
+    result.region_daily = r_daily
+    result.region_hours = r_daily.sum(axis=0)
+    if speed is not None:
+        lo, hi = settings.speed_scaling_range
+        with np.errstate(invalid="ignore"):
+            outside = (code <= states.AMPLE_MARGIN) & ((ratio_n < lo) | (ratio_n > hi))
+        result.speed_outside_hours = float(fresh[outside].sum() / NS_PER_HOUR)
+    if banded.any():
+        i = int(np.argmin(np.where(banded, ratio, np.inf)))
+        result.worst_ratio = float(ratio[i])
+        result.worst_time = pd.Timestamp(int(grid[i]), tz="UTC")
+    if pump.needs_barometer:
+        counted = running & ~all_bad & (code != states.STOPPED)
+        result.baro_fallback_hours = float(fresh[counted & ~baro_used].sum() / NS_PER_HOUR)
+    if plot_buckets:
+        guide = guidance.head(npsh3)
+        on = running & ~all_bad
+        series = {
+            "npsha_m": np.where(on, npsha, np.nan),
+            "npsh3_m": np.where(on, npsh3, np.nan),
+            "guidance_m": np.where(on, guide, np.nan),
+            "ratio": np.where(on, ratio, np.nan),
+            "temperature_k": np.where(held["temperature"].bad, np.nan, temp),
+            "flow_m3_s": np.where(held["flow"].bad, np.nan, flow),
+        }
+        if pump.source == "transmitter":
+            series["suction_pressure_abs_pa"] = np.where(held["suction"].bad, np.nan, p_abs)
+        else:
+            series["level_m"] = np.where(held["level"].bad, np.nan, held["level"].value)
+        if speed is not None:
+            series["speed_rpm"] = np.where(held["speed"].bad, np.nan, speed)
+        result.plot = plotdata.min_max_buckets(grid, fresh, series, start_ns, end_ns, plot_buckets)
+        banded = code <= states.AMPLE_MARGIN
+        result.points = plotdata.operating_points(
+            np.where(banded, flow, np.nan), np.where(banded, npsha, np.nan),
+            fresh / NS_PER_HOUR, curve.flow_max * (1 if speed is None else np.nanmax(
+                np.append(ratio_n[banded], 1.0))),
+        )  # fmt: skip
+    if keep_series:
+        result.series = pd.DataFrame(
+            {
+                "time": pd.to_datetime(grid, utc=True),
+                "hours": fresh / NS_PER_HOUR,
+                "state": pd.Categorical.from_codes(code, categories=list(states.STATES)),
+                "region": pd.Categorical.from_codes(rcode, categories=list(regions.REGIONS)),
+                "region_hours": r_fresh / NS_PER_HOUR,
+                "npsha_m": np.where(running, npsha, np.nan),
+                "npsh3_m": np.where(running, npsh3, np.nan),
+                "ratio": np.where(running, ratio, np.nan),
+                "suction_pressure_abs_pa": p_abs if pump.source == "transmitter" else np.nan,
+                "temperature_k": temp,
+                "flow_m3_s": flow,
+                "speed_rpm": speed if speed is not None else np.nan,
+                "barometric_pa": baro,
+            }
+        )
+        if pump.source != "transmitter":
+            # surface pressure (p_v for a saturated vessel) and level of a vessel-fed pump
+            result.series["surface_pressure_abs_pa"] = p_abs
+            result.series["level_m"] = held["level"].value
+    return result

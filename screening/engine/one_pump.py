@@ -1,0 +1,121 @@
+"""One pump through the engine: its tags read, checked and converted to SI, then calculated.
+
+Shared by every place that runs pumps (this process, a worker process, a Dask worker).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from screening.engine.calculator import Settings, calculate_pump, prepare_tag
+from screening.inputs.plant import Plant
+from screening.inputs.tagdata import ExportError, TagQuality
+from screening.inputs.units import UnitError, to_si
+from screening.physics.properties import fluid_table
+
+
+def settings_for(plant: Plant) -> Settings:
+    """The calculator's settings from the plant file."""
+    s = plant.settings
+    return Settings(
+        stale_limit=s.data.stale_limit,
+        frozen_after=s.data.frozen_after,
+        min_flow_fraction=s.running.min_flow_fraction,
+        min_speed_fraction=s.running.min_speed_fraction,
+        ample_ratio=s.policy.ample_ratio,
+        site_elevation=s.site.elevation,
+        barometer_stale_limit=s.site.barometer_stale_limit,
+        speed_scaling_range=tuple(s.running.speed_scaling_range),
+    )
+
+
+def check_range(role: str, pump, table):
+    """Physically impossible values of a role (SI): flagged as bad data."""
+    if role == "temperature":
+        return lambda v: ~table.in_range(v)
+    if role == "suction":
+        if pump.gauge:
+            return lambda v: v < -110_000.0  # a gauge reading below full vacuum
+        return lambda v: v <= 0.0
+    if role == "vessel_pressure":
+        if pump.vessel_gauge:
+            return lambda v: v < -110_000.0
+        return lambda v: v <= 0.0
+    if role == "speed":
+        return lambda v: v < 0.0
+    return None
+
+
+def read_barometer(plant, index, settings, span):
+    """The site barometer tag read over ``span`` [ns] and converted to Pa, with its quality."""
+    site = plant.settings.site
+    if not site.barometer_tag:
+        return None, None
+    series, _ = index.read([site.barometer_tag], span)
+    s = series.get(site.barometer_tag)
+    if s is None:
+        return None, None
+    values = to_si(s.values, site.barometer_unit or "Pa", "pressure")
+    s.values = values
+    return s, s.quality
+
+
+def screen_pump(
+    plant, pump, index, raw, barometer, settings, start_ns, end_ns, edges, keep, buckets
+):
+    """Read, check and calculate one pump; returns its result, tag quality and samples."""
+    roles = pump.tags()
+    known = index.known_tags()
+    missing = [f"{spec.tag} ({role})" for role, spec in roles.items() if spec.tag not in known]
+    if missing:
+        raise ExportError(f"tag(s) not found in any export file: {', '.join(missing)}")
+    table = fluid_table(pump.fluid, pump.vapour_pressure)
+    prepared = {}
+    n = 0
+    for role, spec in roles.items():
+        s = raw.get(spec.tag)
+        if s is None:
+            raise ExportError(
+                f"tag {spec.tag} ({role}) could not be read from "
+                f"{', '.join(map(str, index.files_for(spec.tag)))}"
+            )
+        try:
+            prepared[role] = prepare_tag(s, spec, settings, role, check_range(role, pump, table))
+        except UnitError as exc:
+            raise ExportError(f"tag {spec.tag} ({role}): {exc}") from exc
+        n += int(np.searchsorted(s.times, end_ns) - np.searchsorted(s.times, start_ns))
+    result = calculate_pump(
+        pump, plant.curves[pump.curve_id], plant.guidance[pump.pump_id], table, prepared,
+        barometer if pump.needs_barometer else None, settings, start_ns, end_ns, edges, keep,
+        buckets,
+    )  # fmt: skip
+    quality = {role: prepared[role].quality for role in roles}
+    return result, quality, n
+
+
+QUALITY_COLUMNS = [
+    "pump_id", "role", "tag", "samples", "text_values", "bad_quality", "not_finite", "frozen",
+    "out_of_range", "bad_timestamps", "duplicates", "out_of_order", "malformed_rows", "words",
+    "first_problem",
+]  # fmt: skip
+
+
+def quality_row(pid: str, role: str, q: TagQuality) -> dict:
+    """One row of the quality table."""
+    return {
+        "pump_id": pid,
+        "role": role,
+        "tag": q.tag,
+        "samples": q.samples,
+        "text_values": q.text_values,
+        "bad_quality": q.bad_quality,
+        "not_finite": q.not_finite,
+        "frozen": q.frozen,
+        "out_of_range": q.out_of_range,
+        "bad_timestamps": q.bad_timestamps,
+        "duplicates": q.duplicates,
+        "out_of_order": q.out_of_order,
+        "malformed_rows": q.malformed_rows,
+        "words": "; ".join(f"{w} ({c})" for w, c in sorted(q.words.items())),
+        "first_problem": "; ".join(f"{k}: {v}" for k, v in q.first_problem.items()),
+    }

@@ -1,0 +1,101 @@
+"""Small data for the report's plots, computed inside the scan so that series never pile up.
+
+Long series are downsampled for the browser keeping the extremes: the window is cut into
+equal time buckets and each bucket keeps the minimum and the maximum of every series, so a
+short dip below NPSH3 is never averaged away (the report says so). Operating points are a
+time-weighted two-dimensional histogram of flow and NPSHa.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from screening.base.kernels import bucket_min_max
+
+#: Buckets per window for the time plots (each keeps a minimum and a maximum).
+DEFAULT_BUCKETS = 1500
+
+
+def min_max_buckets(
+    grid: np.ndarray,
+    weight: np.ndarray,
+    series: dict[str, np.ndarray],
+    start_ns: int,
+    end_ns: int,
+    buckets: int = DEFAULT_BUCKETS,
+) -> pd.DataFrame:
+    """Minimum and maximum of each series per time bucket [same units as the series].
+
+    Parameters
+    ----------
+    grid : numpy.ndarray
+        Piece start times [ns], sorted.
+    weight : numpy.ndarray
+        Fresh duration of each piece [ns]; pieces of zero weight are ignored.
+    series : dict of str to numpy.ndarray
+        Values per piece (NaN where not defined, e.g. not running).
+    start_ns, end_ns : int
+        Window [ns].
+    buckets : int
+        Number of equal time buckets.
+
+    Returns
+    -------
+    DataFrame with ``time`` (bucket start, UTC) and ``<name>_min``, ``<name>_max`` columns;
+    buckets without any value are left out.
+    """
+    width = max(1, -(-(end_ns - start_ns) // buckets))
+    keep = weight > 0
+    g = grid[keep]
+    if len(g) == 0:
+        return pd.DataFrame({"time": pd.to_datetime([], utc=True)})
+    b = (g - start_ns) // width
+    starts = np.flatnonzero(np.concatenate(([True], b[1:] != b[:-1])))
+    out = {"time": pd.to_datetime(start_ns + b[starts] * width, utc=True)}
+    names = list(series)
+    stacked = np.stack([np.asarray(series[k], dtype=np.float64)[keep] for k in names])
+    lo, hi = bucket_min_max(stacked, starts.astype(np.int64))
+    for i, name in enumerate(names):
+        out[f"{name}_min"] = lo[i]
+        out[f"{name}_max"] = hi[i]
+    return pd.DataFrame(out)
+
+
+def operating_points(
+    flow: np.ndarray, npsha: np.ndarray, weight: np.ndarray, flow_max: float, bins: int = 50
+) -> dict:
+    """Time-weighted histogram of running points: hours per (flow, NPSHa) cell.
+
+    Parameters
+    ----------
+    flow : numpy.ndarray
+        Flow per piece [m³/s] (NaN where not running).
+    npsha : numpy.ndarray
+        NPSH available per piece [m].
+    weight : numpy.ndarray
+        Hours of each piece [h].
+    flow_max : float
+        Upper flow edge of the histogram [m³/s] (the curve's end, with room beyond).
+    bins : int
+        Cells per axis.
+
+    Returns
+    -------
+    dict with ``flow_edges`` [m³/s], ``npsha_edges`` [m] and ``hours`` [h] (flow by NPSHa).
+    """
+    ok = np.isfinite(flow) & np.isfinite(npsha) & (weight > 0)
+    top = float(np.nanmax(npsha[ok])) if ok.any() else 1.0
+    f_edges = np.linspace(0.0, max(flow_max, float(np.nanmax(flow[ok])) if ok.any() else 0) * 1.05,
+                          bins + 1)  # fmt: skip
+    h_edges = np.linspace(0.0, max(top, 1e-3) * 1.05, bins + 1)
+    # uniform cells: the cell index is arithmetic (np.histogram2d's general search is slower)
+    fi = np.minimum(((flow[ok] - f_edges[0]) / (f_edges[1] - f_edges[0])).astype(np.int64),
+                    bins - 1)  # fmt: skip
+    hi = np.minimum(((npsha[ok] - h_edges[0]) / (h_edges[1] - h_edges[0])).astype(np.int64),
+                    bins - 1)  # fmt: skip
+    inside = (fi >= 0) & (hi >= 0)
+    hist = np.bincount(
+        fi[inside] * bins + hi[inside], weights=weight[ok][inside], minlength=bins * bins
+    ).reshape(bins, bins)
+    return {"flow_edges": f_edges, "npsha_edges": h_edges, "hours": hist}

@@ -1,0 +1,165 @@
+"""The tidy tables of a plant scan: hours per state, the summary per pump, daily hours,
+tag quality, problems; and the :class:`ScanResult` that holds them."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from screening.base import states
+from screening.engine.one_pump import QUALITY_COLUMNS
+from screening.inputs.plant import Plant, pump_suction_specific_speed
+from screening.physics import regions
+from screening.physics.properties import fluid_table
+
+#: Suction specific speed: U.S. units (rpm, gpm, ft) per metric units (rpm, m³/s, m);
+#: 1 gpm^0.5 / ft^0.75 = (6.309e-5 m³/s)^0.5 / (0.3048 m)^0.75, so S_US = 51.64 · S_metric.
+US_PER_METRIC_S = (1 / 6.30901964e-5) ** 0.5 / (1 / 0.3048) ** 0.75
+
+
+@dataclass
+class ScanResult:
+    """Tables of a plant scan (tidy; units in column names).
+
+    Attributes
+    ----------
+    hours : DataFrame
+        ``pump_id``, ``state``, ``hours``: one row per screened pump and state, zeros included.
+    summary : DataFrame
+        One row per screened pump: hours running, worst ratio, hours below guidance, coverage.
+    daily : DataFrame
+        ``pump_id``, ``date``, ``state``, ``hours``: hours per local day and state.
+    quality : DataFrame
+        One row per pump and tag: what the loader found (text values, bad quality, ...).
+    problems : DataFrame
+        ``pump_id``, ``stage``, ``message``: pumps that could not be screened, and why.
+    file_problems : DataFrame
+        ``file``, ``message``: export files that could not be read.
+    """
+
+    plant: Plant
+    start: pd.Timestamp
+    end: pd.Timestamp
+    hours: pd.DataFrame
+    summary: pd.DataFrame
+    daily: pd.DataFrame
+    quality: pd.DataFrame
+    problems: pd.DataFrame
+    file_problems: pd.DataFrame
+    series: dict[str, pd.DataFrame] = field(default_factory=dict)
+    extras: dict[str, Any] = field(default_factory=dict)  # what ``each_pump`` returned
+    plots: dict[str, pd.DataFrame] = field(default_factory=dict)
+    #: Every export file the plant file's globs matched (read or not), for the audit trail.
+    export_files: list[str] = field(default_factory=list)
+    points: dict[str, dict] = field(default_factory=dict)
+    elapsed_s: float = 0.0
+    samples: int = 0
+
+    @property
+    def window_hours(self) -> float:
+        """Length of the window [h]."""
+        return (self.end - self.start).total_seconds() / 3600.0
+
+
+#: Columns of the summary and quality tables (also when no pump could be screened).
+SUMMARY_COLUMNS = [
+    "pump_id", "service", "area", "fluid", "vapour_pressure_model", "window_hours",
+    "running_hours", "below_npsh3_hours", "below_guidance_hours", "off_curve_hours",
+    "no_data_hours", "bad_data_hours", "coverage", "worst_ratio", "worst_time",
+    "guidance_ratio", "guidance_margin_m", "guidance_source", "suction_specific_speed_us",
+    "suction_specific_speed_metric", "preferred_region_hours", "outside_preferred_hours",
+    "below_min_flow_hours", "beyond_allowable_hours", "speed_outside_scaling_hours",
+    "standard_atmosphere_hours",
+]  # fmt: skip
+
+
+def _daily(results, days, kind: str, names: list[str], get) -> pd.DataFrame:
+    n_days, n_states = len(days), len(names)
+    return pd.DataFrame(
+        {
+            "pump_id": np.repeat([r.pump_id for r in results], n_days * n_states),
+            "kind": kind,
+            "date": np.tile(np.repeat(days, n_states), len(results)),
+            "state": np.tile(names, n_days * len(results)),
+            "hours": np.concatenate([get(r).ravel() for r in results]) if results else [],
+        }
+    )
+
+
+def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_problems):
+    names = list(states.STATES)
+    hours_rows, summary_rows = [], []
+    days = pd.to_datetime(edges[:-1], utc=True).tz_convert(plant.timezone).date
+    for r in results:
+        pump = plant.pumps[r.pump_id]
+        g = plant.guidance[r.pump_id]
+        for name, h in zip(names, r.hours, strict=True):
+            hours_rows.append(
+                {"pump_id": r.pump_id, "kind": "margin", "state": name, "hours": float(h)}
+            )
+        for name, h in zip(regions.REGIONS, r.region_hours, strict=True):
+            hours_rows.append(
+                {"pump_id": r.pump_id, "kind": "region", "state": name, "hours": float(h)}
+            )
+        h = dict(zip(names, r.hours, strict=True))
+        rh = dict(zip(regions.REGIONS, r.region_hours, strict=True))
+        s_us = pump_suction_specific_speed(plant, r.pump_id)
+        running = sum(h[s] for s in states.RUNNING)
+        summary_rows.append(
+            {
+                "pump_id": r.pump_id,
+                "service": pump.service,
+                "area": pump.area,
+                "fluid": pump.fluid,
+                "vapour_pressure_model": fluid_table(
+                    pump.fluid, pump.vapour_pressure
+                ).vapour_pressure_model,
+                "window_hours": r.window_hours,
+                "running_hours": running,
+                "below_npsh3_hours": h["below_npsh3"],
+                "below_guidance_hours": h["below_npsh3"] + h["below_guidance"],
+                "off_curve_hours": h["off_curve"],
+                "no_data_hours": h["no_data"],
+                "bad_data_hours": h["bad_data"],
+                "coverage": 1.0 - (h["no_data"] + h["bad_data"]) / r.window_hours,
+                "worst_ratio": r.worst_ratio,
+                "worst_time": (
+                    r.worst_time.tz_convert(plant.timezone) if r.worst_time is not None else None
+                ),
+                "guidance_ratio": g.ratio,
+                "guidance_margin_m": g.margin,
+                "guidance_source": g.source,
+                "suction_specific_speed_us": s_us,
+                "suction_specific_speed_metric": s_us / US_PER_METRIC_S,
+                "preferred_region_hours": rh["preferred_region"],
+                "outside_preferred_hours": sum(rh[x] for x in regions.RUNNING_REGIONS)
+                - rh["preferred_region"],
+                "below_min_flow_hours": rh["below_min_flow"],
+                "beyond_allowable_hours": rh["beyond_allowable"],
+                "speed_outside_scaling_hours": r.speed_outside_hours,
+                "standard_atmosphere_hours": r.baro_fallback_hours,
+            }
+        )
+    hours = pd.DataFrame(hours_rows, columns=["pump_id", "kind", "state", "hours"])
+    summary = pd.DataFrame(summary_rows, columns=SUMMARY_COLUMNS)
+    if len(summary):
+        summary = summary.sort_values(
+            ["below_npsh3_hours", "below_guidance_hours", "pump_id"],
+            ascending=[False, False, True],
+        ).reset_index(drop=True)
+    daily = pd.concat(
+        [
+            _daily(results, days, "margin", names, lambda r: r.daily),
+            _daily(results, days, "region", list(regions.REGIONS), lambda r: r.region_daily),
+        ],
+        ignore_index=True,
+    )
+    quality = pd.DataFrame(quality_rows, columns=QUALITY_COLUMNS)
+    probs = pd.DataFrame(problems, columns=["pump_id", "stage", "message"])
+    files = pd.DataFrame(
+        [{"file": k, "message": v} for k, v in file_problems.items()], columns=["file", "message"]
+    )
+    return ScanResult(plant, start, end, hours, summary, daily, quality, probs, files)

@@ -1,0 +1,207 @@
+"""Reading tags from the indexed export files: only the tags and the time span asked for
+(wide files by column, long Parquet files with a filter on the tag column, an ingested dataset
+by month), each file's values counted and merged per tag by :mod:`screening.inputs.tagdata`."""
+
+from __future__ import annotations
+
+from collections import OrderedDict
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from screening.inputs import dataset as _dataset
+from screening.inputs.export_files import FileInfo, read_csv_rows
+from screening.inputs.tagdata import (
+    FILE_FAULTS,
+    ExportError,
+    TagQuality,
+    TagSeries,
+    add_chunk,
+    assemble,
+    unexpected,
+)
+from screening.inputs.timestamps import parse_times
+
+
+class TagReader:
+    """Reads tags for an :class:`~screening.inputs.loader.ExportIndex` (its files, the tags
+    each holds, the site time zone and the good quality words), keeping the parsed time
+    columns of the last files read."""
+
+    def __init__(self, index):
+        self.index = index
+        self._time_cache: OrderedDict[Path, tuple[np.ndarray, np.ndarray]] = OrderedDict()
+
+    def _wide_times(self, info: FileInfo, raw: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+        cached = self._time_cache.get(info.path)
+        if cached is None:
+            cached = parse_times(raw, self.index.timezone)
+            self._time_cache[info.path] = cached
+            while len(self._time_cache) > 64:
+                self._time_cache.popitem(last=False)
+        return cached
+
+    def read(
+        self, tags: list[str], span: tuple[int, int] | None = None
+    ) -> tuple[dict[str, TagSeries], dict[str, str]]:
+        """Read ``tags`` from every file that holds them.
+
+        Parameters
+        ----------
+        tags : list of str
+            Tag names.
+        span : (int, int), optional
+            Keep only samples with ``span[0] <= time < span[1]`` [ns since epoch, UTC];
+            time-zone-aware Parquet files are filtered while reading. Samples outside the span
+            are not counted in the quality figures.
+
+        Returns
+        -------
+        (series, problems)
+            One :class:`TagSeries` per tag found, and file problems met while reading
+            (path -> message); a tag whose every file failed is absent from ``series``.
+        """
+        wanted = [t for t in dict.fromkeys(tags) if t in self.index._by_tag]
+        chunks: dict[str, list[tuple]] = {t: [] for t in wanted}
+        quality = {t: TagQuality(t) for t in wanted}
+        problems: dict[str, str] = {}
+        files: dict[Path, tuple[FileInfo, list[str]]] = {}
+        for tag in wanted:
+            for info in self.index._by_tag[tag]:
+                files.setdefault(info.path, (info, []))[1].append(tag)
+        # In the order of the index, so that "the last in file order" of a tag's duplicate
+        # times never depends on which other tags are read with it.
+        position = {f.path: i for i, f in enumerate(self.index.files)}
+        for info, file_tags in sorted(files.values(), key=lambda v: position[v[0].path]):
+            try:
+                if info.source.layout == "wide":
+                    self._read_wide(info, file_tags, chunks, quality, span)
+                elif info.source.layout == "dataset":
+                    self._read_dataset(info, file_tags, chunks, quality, span)
+                else:
+                    self._read_long(info, file_tags, chunks, quality, span)
+            except ExportError as exc:
+                problems[str(info.path)] = str(exc)
+            except FILE_FAULTS as exc:  # the last line of defence: one file, not the run
+                problems[str(info.path)] = unexpected(info.path, exc)
+        series = {}
+        failed = set(problems)
+        for tag in wanted:
+            if chunks[tag] or any(str(f.path) not in failed for f in self.index._by_tag[tag]):
+                # a tag with no sample in the span is an empty series: no data, not an error
+                series[tag] = assemble(tag, chunks[tag], quality[tag])
+        return series, problems
+
+    def _time_filter(self, info: FileInfo, span) -> list | None:
+        """Filters on the time column for a span; [] when none is needed, None to skip."""
+        if span is None or not info.timestamp_typed:
+            return []
+        if info.time_range is not None:
+            lo_t, hi_t = info.time_range
+            if lo_t >= span[0] and hi_t < span[1]:
+                return []  # the whole file is inside the span
+            if hi_t < span[0] or lo_t >= span[1]:
+                return None  # nothing of the file is inside
+        col = info.source.time_column
+        lo = pa.scalar(span[0], type=pa.timestamp("ns", tz="UTC"))
+        hi = pa.scalar(span[1], type=pa.timestamp("ns", tz="UTC"))
+        return [(col, ">=", lo), (col, "<", hi)]
+
+    def _read_wide(self, info, tags, chunks, quality, span=None) -> None:
+        src = info.source
+        cols = [src.time_column, *tags]
+        if info.fmt == "parquet":
+            filters = self._time_filter(info, span)
+            if filters is None:
+                return
+            try:
+                table = pq.read_table(info.path, columns=cols, filters=filters or None)
+            except (pa.ArrowException, OSError) as exc:
+                raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
+            if info.timestamp_typed:
+                self._wide_arrow(info, table, tags, chunks, quality, span)
+                return
+            frame = table.to_pandas()
+            rows = np.arange(len(frame))
+            malformed = np.zeros(len(frame), dtype=bool)
+        else:
+            frame, rows, malformed = read_csv_rows(info.path, src, cols)
+        if info.fmt == "parquet" and span is not None and info.timestamp_typed:
+            times, ok = parse_times(frame[src.time_column], self.index.timezone)
+        else:
+            times, ok = self._wide_times(info, frame[src.time_column])
+        label = "row" if info.fmt == "parquet" else "line"
+        for tag in tags:
+            raw = frame[tag]
+            # an empty cell is "not sampled"; a malformed row is a bad sample of every tag
+            present = raw.notna().to_numpy() | malformed
+            add_chunk(
+                tag, info, raw[present], times[present], ok[present], rows[present],
+                None, chunks, quality, self.index.good_quality, label, span, malformed[present],
+            )  # fmt: skip
+
+    def _wide_arrow(self, info, table: pa.Table, tags, chunks, quality, span) -> None:
+        """Fast path: a wide Parquet file with a time-zone-aware time column, no pandas."""
+        col = table.column(info.source.time_column).cast(pa.timestamp("ns", tz="UTC"))
+        times = col.to_numpy(zero_copy_only=False).view(np.int64)
+        ok = ~np.asarray(col.is_null().to_numpy(zero_copy_only=False), dtype=bool)
+        rows = np.arange(len(times))
+        for tag in tags:
+            column = table.column(tag)
+            if pa.types.is_floating(column.type) or pa.types.is_integer(column.type):
+                raw = column.to_numpy(zero_copy_only=False).astype(np.float64, copy=False)
+                present = ~np.isnan(raw)  # a null (or NaN) cell: not sampled at this instant
+            else:
+                raw = column.to_pandas()
+                present = raw.notna().to_numpy()
+            add_chunk(
+                tag, info, raw[present], times[present], ok[present], rows[present],
+                None, chunks, quality, self.index.good_quality, "row", span,
+            )  # fmt: skip
+
+    def _read_dataset(self, info, tags, chunks, quality, span=None) -> None:
+        """One folder of an ingested dataset: only the months that overlap ``span``."""
+        ds = self.index._datasets[info.path]
+        try:
+            table = _dataset.read_rows(ds, info.path.name, tags, span)
+            _dataset.add_chunks(ds, table, tags, chunks, quality, self.index.good_quality)
+        except _dataset.DatasetError as exc:
+            raise ExportError(str(exc)) from exc
+
+    def _read_long(self, info, tags, chunks, quality, span=None) -> None:
+        src = info.source
+        cols = [src.tag_column, src.time_column, src.value_column]
+        if src.quality_column:
+            cols.append(src.quality_column)
+        if info.fmt == "parquet":
+            try:
+                time_filters = self._time_filter(info, span)
+                if time_filters is None:
+                    return
+                filters = [(src.tag_column, "in", list(tags)), *time_filters]
+                table = pq.read_table(info.path, columns=cols, filters=filters)
+            except (pa.ArrowException, OSError) as exc:
+                raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
+            frame = table.to_pandas()
+            rows = np.arange(len(frame))
+            label = "row"
+            malformed = np.zeros(len(frame), dtype=bool)
+        else:
+            frame, rows, malformed = read_csv_rows(info.path, src, cols)
+            label = "line"
+            frame[src.tag_column] = frame[src.tag_column].str.strip()
+            keep = frame[src.tag_column].isin(tags).to_numpy()
+            frame, rows, malformed = frame[keep], rows[keep], malformed[keep]
+        frame = frame.reset_index(drop=True)
+        times, ok = parse_times(frame[src.time_column], self.index.timezone, frame[src.tag_column])
+        tag_col = frame[src.tag_column].astype(str).to_numpy()
+        for tag in tags:
+            sel = tag_col == tag
+            qual = frame[src.quality_column][sel] if src.quality_column else None
+            add_chunk(
+                tag, info, frame[src.value_column][sel], times[sel], ok[sel], rows[sel],
+                qual, chunks, quality, self.index.good_quality, label, span, malformed[sel],
+            )  # fmt: skip

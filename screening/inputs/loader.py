@@ -1,0 +1,194 @@
+"""Readers of historian exports: CSV (plain or gzip) and Parquet, wide and long layouts.
+
+The loader turns files into one time series per tag: sorted unique UTC times, the raw numbers
+(in the tag's own unit; the calculator converts to SI), and a bad flag per sample. Nothing is
+dropped silently: text in a numeric column, a bad quality word, a non-finite number, an
+unplaceable timestamp, a duplicate or out-of-order row are all counted per tag in a
+:class:`TagQuality` together with the first file and row where each was seen. Values that are
+bad stay in the series as bad samples, so their time is counted as bad data.
+
+Only the tags and the time span asked for are read: wide files by column, long Parquet files
+with a filter on the tag column. The index of which file holds which tag is built once.
+"""
+
+from __future__ import annotations
+
+import glob
+from pathlib import Path
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.parquet as pq
+
+from screening.inputs import dataset as _dataset
+from screening.inputs.config import ExportSource, PlantFile
+from screening.inputs.export_files import (
+    FileInfo,
+    check_unique,
+    csv_header,
+    format_of,
+    parquet_time_range,
+    read_csv,
+)
+from screening.inputs.export_reader import TagReader
+from screening.inputs.tagdata import FILE_FAULTS, ExportError, TagSeries, unexpected
+
+
+class ExportIndex:
+    """The export files of a plant and the tags each holds; reads tags on demand.
+
+    Parameters
+    ----------
+    plant : PlantFile
+        Validated plant file.
+    base : Path
+        Folder the export globs are relative to.
+    """
+
+    def __init__(self, plant: PlantFile, base: Path):
+        self.plant = plant
+        self.timezone = plant.site.timezone
+        self.good_quality = {q.strip().lower() for q in plant.data.good_quality}
+        self.files: list[FileInfo] = []
+        #: Files that could not be read at all: path -> message.
+        self.file_problems: dict[str, str] = {}
+        #: Files read only in part, and why (long-layout rows without a tag name).
+        self.partly_read: dict[str, str] = {}
+        self._by_tag: dict[str, list[FileInfo]] = {}
+        self._known: frozenset[str] | None = None
+        self._datasets: dict[Path, _dataset.Dataset] = {}  # folder -> its dataset
+        self._reader = TagReader(self)
+        for source in plant.exports:
+            if source.layout == "dataset":
+                self._add_dataset(source, base)
+                continue
+            pattern = source.files
+            if not Path(pattern).is_absolute():
+                pattern = str(base / pattern)
+            matches = sorted(glob.glob(pattern, recursive=True))
+            if not matches:
+                self.file_problems[pattern] = "no file matches this pattern"
+            for name in matches:
+                path = Path(name)
+                try:
+                    info = self._inspect(path, source)
+                except ExportError as exc:
+                    self.file_problems[str(path)] = str(exc)
+                    continue
+                except FILE_FAULTS as exc:  # the last line of defence: one file, not the run
+                    self.file_problems[str(path)] = unexpected(path, exc)
+                    continue
+                self.files.append(info)
+                for tag in info.tags:
+                    self._by_tag.setdefault(tag, []).append(info)
+
+    # -- discovery ---------------------------------------------------------------------------
+    def _inspect(self, path: Path, source: ExportSource) -> FileInfo:
+        fmt = format_of(path, source)
+        if source.layout == "wide":
+            if fmt == "parquet":
+                try:
+                    names = pq.read_schema(path).names
+                except (pa.ArrowException, OSError) as exc:
+                    raise ExportError(f"{path}: not a readable Parquet file ({exc})") from exc
+            else:
+                names = csv_header(path, source)
+            check_unique(path, names)
+            if source.time_column not in names:
+                raise ExportError(
+                    f"{path}: no time column {source.time_column!r} (columns: "
+                    f"{', '.join(names[:8])}{', ...' if len(names) > 8 else ''})"
+                )
+            tags = frozenset(n for n in names if n != source.time_column)
+        else:
+            needed = [source.tag_column, source.time_column, source.value_column]
+            if source.quality_column:
+                needed.append(source.quality_column)
+            if fmt == "parquet":
+                try:
+                    names = pq.read_schema(path).names
+                    check_unique(path, [n for n in names if n in needed])
+                    missing = [c for c in needed if c not in names]
+                    if missing:
+                        raise ExportError(f"{path}: missing column(s) {', '.join(missing)}")
+                    col = pq.read_table(path, columns=[source.tag_column]).column(0)
+                    tags = frozenset(str(t) for t in pc.unique(col).to_pylist() if t is not None)
+                    blank = pc.is_null(col)
+                    if pa.types.is_string(col.type) or pa.types.is_large_string(col.type):
+                        empty = pc.equal(pc.utf8_trim_whitespace(col), "")
+                        blank = pc.or_(blank, pc.fill_null(empty, False))
+                    self._untagged(path, source, blank.to_numpy(zero_copy_only=False), "row", 0)
+                except (pa.ArrowException, OSError) as exc:
+                    raise ExportError(f"{path}: not a readable Parquet file ({exc})") from exc
+            else:
+                names = csv_header(path, source)
+                check_unique(path, [n for n in names if n in needed])
+                missing = [c for c in needed if c not in names]
+                if missing:
+                    raise ExportError(
+                        f"{path}: missing column(s) {', '.join(missing)} (found: "
+                        f"{', '.join(names)})"
+                    )
+                frame = read_csv(path, source, [source.tag_column])
+                stripped = frame[source.tag_column].str.strip()
+                tags = frozenset(stripped.dropna().unique())
+                blank = (stripped.isna() | (stripped == "")).to_numpy()
+                self._untagged(path, source, blank, "data row", 1)
+        typed, time_range = False, None
+        if fmt == "parquet":
+            try:
+                field_type = pq.read_schema(path).field(source.time_column).type
+                typed = pa.types.is_timestamp(field_type) and field_type.tz is not None
+                if typed:
+                    time_range = parquet_time_range(path, source.time_column)
+            except (KeyError, pa.ArrowException, OSError):
+                typed = False
+        return FileInfo(path, source, fmt, tags, typed, time_range)
+
+    def _untagged(self, path: Path, source, blank: np.ndarray, label: str, first: int) -> None:
+        """Note the rows of a long file that name no tag: they belong to no pump and are not
+        read, which the report says rather than dropping them without a word."""
+        n = int(np.count_nonzero(blank))
+        if n:
+            at = int(np.flatnonzero(blank)[0]) + first
+            self.partly_read[str(path)] = (
+                f"{path}: {n} row(s) without a tag name in column {source.tag_column!r} (first at "
+                f"{label} {at}); they belong to no tag and are not read"
+            )
+
+    def _add_dataset(self, source: ExportSource, base: Path) -> None:
+        """Index a dataset written by ``pumpscreen ingest``: one entry per folder of tags."""
+        root = Path(source.path)
+        root = root if root.is_absolute() else base / root
+        try:
+            ds = _dataset.open_dataset(root)
+        except _dataset.DatasetError as exc:
+            self.file_problems[str(root)] = str(exc)
+            return
+        self.file_problems.update(ds.files_not_read)  # as the raw exports would report them
+        for folder, tags in sorted(ds.folders().items()):
+            info = FileInfo(root / folder, source, "dataset", frozenset(tags))
+            self._datasets[info.path] = ds
+            self.files.append(info)
+            for tag in tags:
+                self._by_tag.setdefault(tag, []).append(info)
+
+    def known_tags(self) -> frozenset[str]:
+        """Every tag found in any readable export file."""
+        if self._known is None:
+            self._known = frozenset(self._by_tag)
+        return self._known
+
+    def files_for(self, tag: str) -> list[Path]:
+        """The files that hold ``tag`` (for a dataset: the export files it was ingested from)."""
+        out = []
+        for f in self._by_tag.get(tag, []):
+            out += self._datasets[f.path].tag_files.get(tag, []) if f.fmt == "dataset" else [f.path]
+        return out
+
+    def read(
+        self, tags: list[str], span: tuple[int, int] | None = None
+    ) -> tuple[dict[str, TagSeries], dict[str, str]]:
+        """Read ``tags`` from every file that holds them (see :meth:`TagReader.read`)."""
+        return self._reader.read(tags, span)

@@ -1,0 +1,185 @@
+"""One tag's samples as the readers hand them on, and the counting rules every reader shares.
+
+A file's values of one tag become numbers and bad flags (:func:`add_chunk`); every problem met
+is counted per tag in a :class:`TagQuality` with the first file and row where it was seen
+(:func:`count_samples`); a tag's chunks from several files are merged by time
+(:func:`assemble`). Nothing is dropped silently.
+"""
+
+from __future__ import annotations
+
+import csv
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+
+
+class ExportError(ValueError):
+    """An export file that cannot be read; the message names the file and the column."""
+
+
+#: Failures of a reading library on a malformed file that no check above foresaw: the file is
+#: reported as not read (with the library's words) and the rest of the plant goes on.
+FILE_FAULTS = (
+    ValueError, TypeError, KeyError, IndexError, OverflowError, UnicodeError, OSError,
+    EOFError, csv.Error, pa.ArrowException,
+)  # fmt: skip
+
+
+def unexpected(path, exc: BaseException) -> str:
+    """The message of a file that a reading library failed on."""
+    return f"{path}: cannot be read ({type(exc).__name__}: {exc})"
+
+
+@dataclass
+class TagQuality:
+    """What the loader found for one tag (counts of samples, first place of each problem)."""
+
+    tag: str
+    samples: int = 0
+    text_values: int = 0
+    bad_quality: int = 0
+    not_finite: int = 0
+    bad_timestamps: int = 0
+    duplicates: int = 0
+    out_of_order: int = 0
+    frozen: int = 0
+    out_of_range: int = 0
+    #: CSV rows with more or fewer fields than the header (a truncated or garbled line):
+    #: every tag's value in such a row is a bad sample.
+    malformed_rows: int = 0
+    words: dict[str, int] = field(default_factory=dict)
+    first_problem: dict[str, str] = field(default_factory=dict)
+
+    def note(self, kind: str, where: str) -> None:
+        """Remember the first place a problem of ``kind`` was seen."""
+        self.first_problem.setdefault(kind, where)
+
+
+@dataclass
+class TagSeries:
+    """One tag's samples: times [ns since epoch, UTC], raw values, bad flags."""
+
+    tag: str
+    times: np.ndarray
+    values: np.ndarray
+    bad: np.ndarray
+    quality: TagQuality
+
+
+def as_text(value) -> str | None:
+    """A cell of any type as text (bytes decoded, undecodable bytes replaced)."""
+    if value is None or value is pd.NA or (isinstance(value, float) and np.isnan(value)):
+        return None
+    if isinstance(value, bytes | bytearray):
+        return bytes(value).decode("utf-8", errors="replace")
+    return str(value)
+
+
+def add_chunk(
+    tag, info, raw, times, ok, rows, qual, chunks, quality, good, label="line", span=None,
+    malformed=None,
+):  # fmt: skip
+    """Parse one file's values of one tag into numbers and bad flags; count the problems."""
+    q: TagQuality = quality[tag]
+    if malformed is None:
+        malformed = np.zeros(len(raw), dtype=bool)
+    if span is not None and len(raw):
+        inside = ~ok | ((times >= span[0]) & (times < span[1]))
+        if not inside.all():
+            raw, times, ok, rows = raw[inside], times[inside], ok[inside], rows[inside]
+            malformed = malformed[inside]
+            if qual is not None:
+                qual = qual[inside]
+    if len(raw) == 0:
+        return
+    where = f"{info.path} {label} "
+    if not ok.all():
+        q.bad_timestamps += int((~ok).sum())
+        q.note("bad timestamp", where + str(rows[~ok][0]))
+    raw = raw[ok] if not ok.all() else raw
+    times, rows, malformed = times[ok], rows[ok], malformed[ok]
+    if qual is not None:
+        qual = qual[ok]
+    text = None
+    if isinstance(raw, np.ndarray):
+        values = raw.astype(np.float64, copy=False)
+        is_text = np.zeros(len(values), dtype=bool)
+    elif raw.dtype.kind in "fiub":  # numbers, and booleans (a run status) as 1 and 0
+        values = raw.to_numpy(dtype=np.float64, na_value=np.nan)
+        is_text = np.zeros(len(values), dtype=bool)
+    else:
+        try:
+            text = raw.astype("string").str.strip()
+        except (UnicodeDecodeError, TypeError, ValueError):
+            text = pd.Series([as_text(v) for v in raw], dtype="string").str.strip()
+        if info.source.decimal != ".":
+            text = text.str.replace(info.source.decimal, ".", regex=False)
+        values = pd.to_numeric(text, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan)
+        is_text = np.isnan(values) & text.notna().to_numpy() & ~malformed
+    bad_q = np.zeros(len(values), dtype=bool)
+    if qual is not None:
+        words = qual.astype("string").str.strip().str.lower().fillna("")
+        bad_q = (~words.isin(good) & (words != "")).to_numpy()
+    bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed)
+    chunks[tag].append((times, values, bad))
+
+
+def count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed) -> np.ndarray:
+    """Count one file's samples of one tag into ``q`` and return which are bad.
+
+    The rules every reader shares (the raw exports here, the ingested dataset in
+    :mod:`screening.inputs.dataset`): text values (with their words), rows with a wrong number of
+    fields, missing or infinite values, bad quality words, samples out of time order; each
+    kind's first place is noted as ``where`` plus the row. ``times`` [ns] hold only samples
+    with a valid timestamp; ``text`` may be None when no value is text.
+    """
+    if is_text.any():
+        q.text_values += int(is_text.sum())
+        q.note("text value", where + str(rows[is_text][0]))
+        for word, count in pd.Series(text[is_text]).value_counts().items():
+            q.words[str(word)] = q.words.get(str(word), 0) + int(count)
+    if malformed.any():
+        q.malformed_rows += int(malformed.sum())
+        q.note("row with a wrong number of fields", where + str(rows[malformed][0]))
+    not_finite = ~np.isfinite(values) & ~is_text & ~malformed
+    if not_finite.any():
+        q.not_finite += int(not_finite.sum())
+        q.note("missing or infinite value", where + str(rows[not_finite][0]))
+    if bad_q.any():
+        q.bad_quality += int(bad_q.sum())
+        q.note("bad quality", where + str(rows[bad_q][0]))
+    back = np.diff(times) < 0
+    if back.any():
+        q.out_of_order += int(back.sum())
+        q.note("out of order", where + str(rows[1:][back][0]))
+    q.samples += len(values)
+    return is_text | not_finite | malformed | bad_q
+
+
+def assemble(tag: str, parts: list[tuple], q: TagQuality) -> TagSeries:
+    """Merge a tag's chunks: sort by time (stable) and keep the last of duplicate times."""
+    if len(parts) == 1:
+        times, values, bad = parts[0]
+    elif parts:
+        times = np.concatenate([p[0] for p in parts])
+        values = np.concatenate([p[1] for p in parts])
+        bad = np.concatenate([p[2] for p in parts])
+    else:
+        times = np.zeros(0, np.int64)
+        values = np.zeros(0)
+        bad = np.zeros(0, bool)
+    if len(times) > 1 and not np.all(times[1:] > times[:-1]):
+        if np.any(times[1:] < times[:-1]):
+            order = np.argsort(times, kind="stable")
+            times, values, bad = times[order], values[order], bad[order]
+        last = np.append(times[1:] != times[:-1], True)
+        dup = int((~last).sum())
+        if dup:
+            # Several samples at one instant: the last in file order stands (a historian's
+            # later correction); the others are counted as duplicates.
+            q.duplicates += dup
+            times, values, bad = times[last], values[last], bad[last]
+    return TagSeries(tag, times, values, bad, q)

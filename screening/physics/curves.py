@@ -1,0 +1,152 @@
+"""Vendor NPSH3 curves: monotone interpolation inside the tested flow range, speed scaling.
+
+NPSH3 is the NPSH at which the first-stage head falls by 3 % (ANSI/HI 1.6, ISO 9906:2012).
+The vendor curve is given at the rated (test) speed; at another running speed it is scaled by
+the affinity laws on both axes: NPSH3(Q, n) = NPSH3_ref(Q·n_ref/n) · (n/n_ref)^k, with k = 2 in
+theory (Karassik et al., *Pump Handbook*, 4th ed. (2008), §2.2; ISO 9906:2012 §6.1.2 converts
+NPSH with the speed ratio squared). Outside the curve's flow range nothing is extrapolated:
+the result is NaN and the caller counts such samples as off the curve.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.interpolate import PchipInterpolator
+
+from screening.base.kernels import pchip_eval
+
+#: U.S. customary conversion for the suction specific speed: gpm per m³/s and ft per m.
+GPM_PER_M3S = 1.0 / (3.785411784e-3 / 60.0)
+FT_PER_M = 1.0 / 0.3048
+
+
+class CurveError(ValueError):
+    """An NPSH3 curve that cannot be used (too few points, flows not increasing, ...)."""
+
+
+@dataclass(frozen=True)
+class Npsh3Curve:
+    """A vendor NPSH3 curve at its reference speed.
+
+    Attributes
+    ----------
+    curve_id : str
+    flow : numpy.ndarray
+        Flow points [m³/s], strictly increasing.
+    npsh3 : numpy.ndarray
+        NPSH3 at those flows [m], positive.
+    """
+
+    curve_id: str
+    flow: np.ndarray
+    npsh3: np.ndarray
+    _interp: PchipInterpolator = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self):
+        flow = np.asarray(self.flow, dtype=np.float64)
+        npsh3 = np.asarray(self.npsh3, dtype=np.float64)
+        if flow.size < 2:
+            raise CurveError(f"curve {self.curve_id!r} has {flow.size} point(s); at least 2")
+        if not np.all(np.isfinite(flow)) or not np.all(np.isfinite(npsh3)):
+            raise CurveError(f"curve {self.curve_id!r} has a missing or non-numeric value")
+        if np.any(np.diff(flow) <= 0):
+            raise CurveError(f"curve {self.curve_id!r}: flows must be strictly increasing")
+        if np.any(flow < 0) or np.any(npsh3 <= 0):
+            raise CurveError(f"curve {self.curve_id!r}: flows must be >= 0 and NPSH3 > 0")
+        _check_shape(self.curve_id, flow, npsh3)
+        object.__setattr__(self, "flow", flow)
+        object.__setattr__(self, "npsh3", npsh3)
+        # PCHIP keeps the curve monotone between points where the data are monotone
+        # (Fritsch and Carlson, SIAM J. Numer. Anal. 17 (1980) 238-246).
+        object.__setattr__(self, "_interp", PchipInterpolator(flow, npsh3, extrapolate=False))
+
+    @property
+    def flow_min(self) -> float:
+        """Lowest tested flow [m³/s]."""
+        return float(self.flow[0])
+
+    @property
+    def flow_max(self) -> float:
+        """Highest tested flow [m³/s]."""
+        return float(self.flow[-1])
+
+    def at_reference_speed(self, flow) -> np.ndarray:
+        """NPSH3 [m] at ``flow`` [m³/s] and the curve's reference speed; NaN off the curve."""
+        q = np.asarray(flow, dtype=np.float64)
+        flat = np.ascontiguousarray(np.atleast_1d(q).ravel())
+        out = pchip_eval(self._interp.x, np.ascontiguousarray(self._interp.c), flat)
+        return out.reshape(q.shape)
+
+    def at_speed(self, flow, speed, reference_speed: float, exponent: float = 2.0):
+        """NPSH3 [m] at ``flow`` [m³/s] and running ``speed`` [rpm], by the affinity laws.
+
+        NPSH3(Q, n) = NPSH3_ref(Q·n_ref/n)·(n/n_ref)^k (Karassik, *Pump Handbook* §2.2;
+        exponent k: 2 by the affinity laws, about 1.5 from field experience when the speed
+        falls, per Henshaw, Pumps & Systems 2009). NaN where Q·n_ref/n lies off the curve.
+
+        Parameters
+        ----------
+        flow : array_like
+            Flow [m³/s].
+        speed : array_like or None
+            Running speed [rpm]; None means the reference speed.
+        reference_speed : float
+            Speed of the vendor curve [rpm].
+        exponent : float
+            Affinity exponent k of NPSH3 [-].
+        """
+        if speed is None:
+            return self.at_reference_speed(flow)
+        ratio = np.asarray(speed, dtype=np.float64) / reference_speed
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            q_ref = np.asarray(flow, dtype=np.float64) / ratio
+            return self.at_reference_speed(q_ref) * ratio**exponent
+
+
+def _check_shape(curve_id: str, flow: np.ndarray, npsh3: np.ndarray) -> None:
+    """Refuse an NPSH3 curve [flow m³/s, NPSH3 m] that falls where it must rise.
+
+    NPSH3 may fall from the lowest flows (where inlet recirculation raises it) to a minimum,
+    but from its minimum on it rises with flow, since the velocities and the incidence at the
+    impeller inlet grow with flow: a curve that falls again after its minimum, or falls all
+    the way to its highest flow, has points swapped or mistyped. Flat stretches are allowed.
+    """
+    lowest = int(np.argmin(npsh3))  # the first minimum
+    falls = np.flatnonzero(np.diff(npsh3[lowest:]) < 0)
+    if falls.size:
+        i = lowest + int(falls[0])
+        raise CurveError(
+            f"curve {curve_id!r}: NPSH3 falls from {npsh3[i]:.4g} m at {flow[i] * 3600:.4g} "
+            f"m3/h to {npsh3[i + 1]:.4g} m at {flow[i + 1] * 3600:.4g} m3/h after its minimum; "
+            "beyond its minimum NPSH3 must rise with flow (points swapped or mistyped?)"
+        )
+    if lowest == len(npsh3) - 1:
+        raise CurveError(
+            f"curve {curve_id!r}: NPSH3 falls all the way to the highest flow "
+            f"({npsh3[-1]:.4g} m at {flow[-1] * 3600:.4g} m3/h); it must rise towards the "
+            "curve's high-flow end (points swapped or mistyped?)"
+        )
+
+
+def suction_specific_speed(speed: float, flow: float, npsh3: float, eyes: int = 1) -> float:
+    """Suction specific speed S in U.S. customary units (rpm, gpm, ft).
+
+    S = n·√(Q/eyes) / NPSH3^0.75 at the best-efficiency flow and full impeller diameter
+    (ANSI/HI 9.6.1-2012 and ANSI/HI 1.1-1.2 definitions; Q per impeller eye).
+
+    Parameters
+    ----------
+    speed : float
+        Rated speed [rpm].
+    flow : float
+        Best-efficiency flow [m³/s].
+    npsh3 : float
+        NPSH3 at the best-efficiency flow [m].
+    eyes : int
+        Number of impeller eyes (2 for a double-suction impeller).
+    """
+    q_gpm = flow * GPM_PER_M3S / eyes
+    h_ft = npsh3 * FT_PER_M
+    return speed * np.sqrt(q_gpm) / h_ft**0.75

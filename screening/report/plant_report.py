@@ -1,0 +1,477 @@
+"""The report folder: tidy tables (CSV and Parquet) and an offline HTML overview.
+
+The folder is written to a temporary sibling and moved into place at the end, so an
+interrupted run never leaves a half-written report where the last good one was.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import multiprocessing
+import sys
+from collections.abc import Iterator
+from concurrent.futures import ProcessPoolExecutor
+from contextlib import ExitStack, contextmanager
+from datetime import UTC, datetime
+from importlib import metadata
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.csv as pa_csv
+from jinja2 import Environment, PackageLoader, select_autoescape
+from plotly.offline import get_plotlyjs
+
+from screening.base.version import __version__
+from screening.base import states
+from screening.base.files import atomic_folder, page_names
+from screening.engine.execution import default_processes
+from screening.engine.scan import ScanResult
+from screening.physics import regions
+from screening.physics.properties import fluid_table
+from screening.report import pump_pages
+from screening.report.cautions import CAUTIONS
+from screening.report.figjson import figure_html, local_times, numbers
+from screening.report.palette import (
+    REGION_COLOURS,
+    REGION_LABELS,
+    REGION_PATTERNS,
+    STATE_COLOURS,
+    STATE_LABELS,
+    STATE_PATTERNS,
+)
+from screening.report.pump_pages import DISPLAY_UNITS
+
+_ENV = Environment(
+    loader=PackageLoader("screening.report", "templates"),
+    autoescape=select_autoescape(["html"]),
+)
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
+def _safe_cell(value):
+    """Neutralise text a spreadsheet would read as a formula (prefix a quote)."""
+    if isinstance(value, str) and value.startswith(_FORMULA_START):
+        try:
+            float(value)
+            return value
+        except ValueError:
+            return "'" + value
+    return value
+
+
+def _neutralised(column: pd.Series) -> pd.Series:
+    """The column with formula-like text neutralised; each distinct value is checked once (a
+    plot table repeats 500 pump ids 750 000 times)."""
+    try:
+        distinct = pd.unique(column)
+    except TypeError:  # unhashable cells: check each
+        return column.map(_safe_cell)
+    changed = {v: _safe_cell(v) for v in distinct if isinstance(v, str)}
+    changed = {k: v for k, v in changed.items() if v != k}
+    return column.replace(changed) if changed else column
+
+
+#: Tables longer than this are written as Parquet only: the plot data of a 500-pump month
+#: (750 000 rows) would make a 200 MB CSV that no spreadsheet opens.
+CSV_MAX_ROWS = 100_000
+
+
+def write_table(frame: pd.DataFrame, folder: Path, name: str, csv_max_rows: int | None = None):
+    """Write a table as ``name.parquet`` and ``name.csv``; formula-like text in the CSV is
+    neutralised (a quote in front), so a spreadsheet shows it as text. With ``csv_max_rows``,
+    a longer table gets no CSV (the Parquet file holds every row)."""
+    frame.to_parquet(folder / f"{name}.parquet", index=False)
+    if csv_max_rows is not None and len(frame) > csv_max_rows:
+        return
+    text = frame.copy()
+    for col in text.columns:
+        if text[col].dtype == object or pd.api.types.is_string_dtype(text[col]):
+            text[col] = _neutralised(text[col])
+    try:
+        # Arrow's CSV writer: ten times faster than pandas on the large plot tables; times
+        # keep their offset (2026-10-25 02:00:00.000000+0200)
+        pa_csv.write_csv(pa.Table.from_pandas(text, preserve_index=False),
+                         folder / f"{name}.csv")  # fmt: skip
+    except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError):
+        text.to_csv(folder / f"{name}.csv", index=False)  # a column of mixed Python objects
+
+
+def _hours_figure(result: ScanResult, kind: str = "margin") -> str:
+    """Stacked horizontal bars of hours [h] per state (``kind`` "margin") or per operating
+    region (``kind`` "region"), one bar per pump in ranking order, as a figure's HTML."""
+    if kind == "margin":
+        names, colours, patterns, labels = (
+            states.STATES, STATE_COLOURS, STATE_PATTERNS, STATE_LABELS
+        )  # fmt: skip
+    else:
+        names, colours, patterns, labels = (
+            regions.REGIONS, REGION_COLOURS, REGION_PATTERNS, REGION_LABELS
+        )  # fmt: skip
+    order = list(result.summary["pump_id"]) if len(result.summary) else []
+    table = result.hours[result.hours["kind"] == kind]
+    wide = table.pivot(index="pump_id", columns="state", values="hours")
+    wide = wide.reindex(index=order[::-1])
+    pumps = [str(p) for p in wide.index]
+    traces = [
+        {
+            "type": "bar",
+            "y": pumps,
+            "x": numbers(wide[state]),
+            "name": labels[state],
+            "orientation": "h",
+            "marker": {
+                "color": colours[state],
+                "line": {"color": "#555", "width": 0.5},
+                "pattern": {"shape": patterns[state], "fgcolor": "#ffffff"},
+            },
+            "hovertemplate": "%{y}: %{x:.1f} h " + labels[state] + "<extra></extra>",
+        }
+        for state in names
+        if state in wide.columns
+    ]
+    layout = {
+        "barmode": "stack",
+        "height": max(300, 22 * len(wide) + 120),
+        "margin": {"l": 120, "r": 20, "t": 30, "b": 40},
+        "xaxis": {"title": {"text": "hours in the window"}},
+        "legend": {"orientation": "h", "y": 1.02, "yanchor": "bottom", "traceorder": "normal"},
+        "plot_bgcolor": "#ffffff",
+    }
+    return _fig({"data": traces, "layout": layout}, f"hours-by-{kind}")
+
+
+def _input_files(result: ScanResult) -> list[dict]:
+    files = []
+    paths = [result.plant.path]
+    reg = result.plant.settings.register_files
+    paths += [result.plant.base / reg.pumps, result.plant.base / reg.curves]
+    index_paths = sorted(result.export_files)
+    for p in [str(x) for x in paths] + index_paths:
+        path = Path(p)
+        try:
+            data = path.read_bytes()
+        except OSError:
+            continue
+        files.append(
+            {"path": str(path), "bytes": len(data), "sha256": hashlib.sha256(data).hexdigest()}
+        )
+    return files
+
+
+def write_report(
+    result: ScanResult,
+    out: str | Path,
+    units: str = "si",
+    compare_to: str | Path | None = None,
+) -> Path:
+    """Write the report folder of a scan.
+
+    Parameters
+    ----------
+    result : ScanResult
+        From :func:`screening.scan`.
+    out : str or Path
+        The report folder; replaced whole when the new report is complete.
+    units : str
+        Display units of the HTML pages: ``"si"`` or ``"us"`` (US customary); the tables
+        beside them stay SI with units in the column names.
+    compare_to : str or Path, optional
+        A previous report folder: pumps that got worse or better are marked, by how many hours.
+
+    Returns
+    -------
+    Path of the report folder.
+    """
+    out = Path(out)
+    if units not in DISPLAY_UNITS:
+        raise ValueError(f"display units {units!r} are not 'si' or 'us'")
+    changes = _changes(result, Path(compare_to)) if compare_to is not None else None
+    with atomic_folder(out) as tmp, ExitStack() as stack:
+        write_table(result.hours, tmp, "hours")
+        summary = result.summary.copy()
+        if "worst_time" in summary:
+            summary["worst_time"] = summary["worst_time"].astype("string")
+        write_table(summary, tmp, "summary")
+        daily = result.daily.copy()
+        daily["date"] = daily["date"].astype("string")
+        write_table(daily, tmp, "daily_hours")
+        write_table(result.quality, tmp, "data_quality")
+        write_table(result.problems, tmp, "not_screened")
+        write_table(result.file_problems, tmp, "files_not_read")
+        pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
+        # the pump pages are written while the tables are (in forked processes, large plants)
+        stack.enter_context(_pump_pages(result, tmp, pages, DISPLAY_UNITS[units]))
+        (tmp / "plotly.min.js").write_text(get_plotlyjs(), encoding="utf-8")
+        site = result.plant.settings.site
+        meta = {
+            "tool": "pumpscreen",
+            "version": __version__,
+            "written_utc": datetime.now(UTC).isoformat(timespec="seconds"),
+            "plant": site.name,
+            "config": str(result.plant.path),
+            "window_start_utc": result.start.isoformat(),
+            "window_end_utc": result.end.isoformat(),
+            "timezone": site.timezone,
+            "pumps_screened": int(result.summary.shape[0]),
+            "pumps_not_screened": int(result.problems.shape[0]),
+            "samples": result.samples,
+            "elapsed_s": round(result.elapsed_s, 3),
+            "coolprop": metadata.version("CoolProp"),
+            "inputs": _input_files(result),
+        }
+        (tmp / "run.json").write_text(json.dumps(meta, indent=2), encoding="utf-8")
+        if changes is not None:
+            write_table(changes, tmp, "changes")
+        if result.plots:
+            # the numbers behind the pump pages' plots, tidy, beside them
+            buckets = pd.concat(
+                [p.assign(pump_id=pid) for pid, p in result.plots.items()], ignore_index=True
+            )
+            buckets["time"] = buckets["time"].dt.tz_convert(result.plant.timezone)
+            buckets = buckets[["pump_id"] + [c for c in buckets.columns if c != "pump_id"]]
+            write_table(buckets, tmp, "plot_buckets", CSV_MAX_ROWS)
+            write_table(_points_table(result.points), tmp, "operating_points", CSV_MAX_ROWS)
+        _write_workbook(tmp / "summary.xlsx", result, changes)
+        stack.close()  # every pump page written
+        (tmp / "index.html").write_text(
+            _overview_html(result, meta, pages, changes), encoding="utf-8"
+        )
+    return out
+
+
+def _changes(result: ScanResult, previous: Path) -> pd.DataFrame:
+    """Hours below NPSH3 and below guidance now against a previous report's summary."""
+    path = previous / "summary.parquet"
+    if not path.exists():
+        raise FileNotFoundError(f"{previous}: no summary.parquet (is it a pumpscreen report?)")
+    before = pd.read_parquet(path)
+    cols = ["below_npsh3_hours", "below_guidance_hours", "outside_preferred_hours"]
+    cols = [c for c in cols if c in before.columns]
+    now = result.summary.set_index("pump_id")[cols]
+    old = before.set_index("pump_id")[cols]
+    joined = now.add_suffix("_now").join(old.add_suffix("_before"), how="outer")
+    out = pd.DataFrame(index=joined.index)
+    for c in cols:
+        out[f"{c}_before"] = joined[f"{c}_before"]
+        out[f"{c}_now"] = joined[f"{c}_now"]
+        out[f"{c}_change"] = joined[f"{c}_now"] - joined[f"{c}_before"]
+    change = out["below_guidance_hours_change"]
+    out["verdict"] = np.select(
+        [joined["below_guidance_hours_before"].isna(), joined["below_guidance_hours_now"].isna(),
+         change > 0.5, change < -0.5],
+        ["new", "not in this report", "worse", "better"], default="unchanged",
+    )  # fmt: skip
+    return out.reset_index().rename(columns={"index": "pump_id"})
+
+
+def _write_workbook(path: Path, result: ScanResult, changes) -> None:
+    """One spreadsheet gathering the summary tables (formula-like text neutralised)."""
+    sheets = {
+        "summary": result.summary,
+        "hours": result.hours,
+        "data_quality": result.quality,
+        "not_screened": result.problems,
+    }
+    if changes is not None:
+        sheets["changes"] = changes
+    # XlsxWriter: three times faster than openpyxl on a 500-pump plant; text is never read
+    # as a formula or a link
+    options = {"strings_to_formulas": False, "strings_to_urls": False}
+    with pd.ExcelWriter(path, engine="xlsxwriter", engine_kwargs={"options": options}) as xl:
+        for name, frame in sheets.items():
+            f = frame.copy()
+            for col in f.columns:
+                if isinstance(f[col].dtype, pd.DatetimeTZDtype):
+                    f[col] = f[col].astype("string")
+                elif f[col].dtype == object or pd.api.types.is_string_dtype(f[col]):
+                    f[col] = _neutralised(f[col])
+            f.to_excel(xl, sheet_name=name, index=False)
+
+
+#: From this many pump pages on, they are written by forked worker processes (one per core):
+#: a page costs about 13 ms, so a 500-pump plant's pages take 6-7 s on one core.
+PARALLEL_PAGES = 100
+
+
+@contextmanager
+def _pump_pages(result: ScanResult, folder: Path, pages: dict, units) -> Iterator[None]:
+    """Write every pump page by the end of the block. For large plants (Linux) forked
+    processes write them while the block runs (the tables and the workbook): the children
+    inherit ``result`` (no copy is sent) and each writes its share. A failure in one is raised
+    here, so the report is never moved into place without all its pages; an error in the
+    block stops the children."""
+    (folder / "pumps").mkdir()
+    n = min(default_processes(), len(pages) // (PARALLEL_PAGES // 2) or 1)
+    if len(pages) < PARALLEL_PAGES or n < 2 or not sys.platform.startswith("linux"):
+        yield
+        _write_some_pages(result, folder, pages, units)
+        return
+    items = list(pages.items())
+    shares = [dict(items[i::n]) for i in range(n)]
+    _FORKED[id(result)] = result  # before the children fork, so that they inherit it
+    pool = ProcessPoolExecutor(max_workers=n, mp_context=multiprocessing.get_context("fork"))
+    try:
+        futures = [
+            pool.submit(_pages_in_child, id(result), folder, share, units) for share in shares
+        ]
+        yield
+        for f in futures:
+            f.result()
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
+        _FORKED.pop(id(result), None)
+
+
+#: The scan result the forked page writers inherit, by id (set before the children fork).
+_FORKED: dict[int, ScanResult] = {}
+
+
+def _pages_in_child(key: int, folder: Path, pages: dict, units) -> None:
+    _write_some_pages(_FORKED[key], folder, pages, units)
+
+
+def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> None:
+    plant = result.plant
+    tz = plant.timezone
+    template = _ENV.get_template("pump.html")
+    a, b = result.start.tz_convert(tz), result.end.tz_convert(tz)
+    window = f"{a:%Y-%m-%d %H:%M} to {b:%Y-%m-%d %H:%M}"
+    ample = plant.settings.policy.ample_ratio
+    # each pump's rows picked once (a mask per pump would cost pumps x rows)
+    hours_of = dict(list(result.hours.groupby("pump_id", sort=False)))
+    margin_days = result.daily[result.daily.kind == "margin"]
+    daily_of = dict(list(margin_days.groupby("pump_id", sort=False)))
+    for pid, name in pages.items():
+        pump = plant.pumps[pid]
+        g = plant.guidance[pid]
+        plot = result.plots.get(pid)
+        h = hours_of.get(pid, result.hours.iloc[:0])
+        head = ["kind", "hours per state (each kind adds up to the window)"]
+        rows = []
+        for kind, names in (("margin", states.STATES), ("region", regions.REGIONS)):
+            part = h[h.kind == kind].set_index("state")["hours"]
+            rows.append([kind] + [f"{n}: {part.get(n, 0.0):.1f} h" for n in names])
+        figs = {"fig_npsh": "", "fig_ratio": "", "fig_process": "", "fig_points": ""}
+        if plot is not None and len(plot):
+            t = local_times(plot["time"], tz)  # the same time axis for the three plots
+            figs["fig_npsh"] = _fig(pump_pages.npsh_figure(plot, units, tz, t), "npsh")
+            fig = pump_pages.ratio_figure(plot, tz, g.ratio, ample, t)
+            figs["fig_ratio"] = _fig(fig, "ratio")
+            figs["fig_process"] = _fig(pump_pages.process_figure(plot, units, tz, t), "process")
+        if pid in result.points:
+            fig = pump_pages.points_figure(
+                result.points[pid], plant.curves[pump.curve_id], pump, units
+            )
+            figs["fig_points"] = _fig(fig, "points")
+        daily = daily_of.get(pid, margin_days.iloc[:0])
+        figs["fig_calendar"] = _fig(pump_pages.calendar_figure(daily), "calendar")
+        model = fluid_table(pump.fluid, pump.vapour_pressure).vapour_pressure_model
+        html = template.render(
+            pump=pump,
+            plant_name=plant.name,
+            window=window,
+            units_label=units.name,
+            hours_head=head,
+            hours_rows=rows,
+            downsample_note=(
+                f"Downsampled for the browser: the window is cut into "
+                f"{len(plot) if plot is not None else 0} time buckets and each keeps the minimum "
+                "and the maximum of every series, so short dips stay visible. Full-resolution "
+                "hours are in the tables beside this page."
+            ),
+            guidance_ratio=f"{g.ratio:.2f}",
+            guidance_margin=f"{float(units.convert(g.margin, 'length')):.2f} "
+            f"{units.label('length')}",
+            ample_ratio=f"{ample:.2f}",
+            register=pump_pages.register_rows(pump, g, model, units),
+            cautions=CAUTIONS,
+            **figs,
+        )
+        pump_pages.write_pump_page(folder / "pumps" / name, html)
+
+
+def _points_table(points: dict) -> pd.DataFrame:
+    """Operating-point histograms as a tidy table: one row per non-empty cell."""
+    frames = []
+    for pid, p in points.items():
+        fi, hi = np.nonzero(p["hours"])
+        fe, he = p["flow_edges"], p["npsha_edges"]
+        frames.append(
+            pd.DataFrame(
+                {
+                    "pump_id": pid,
+                    "flow_low_m3_s": fe[fi],
+                    "flow_high_m3_s": fe[fi + 1],
+                    "npsha_low_m": he[hi],
+                    "npsha_high_m": he[hi + 1],
+                    "hours": p["hours"][fi, hi],
+                }
+            )
+        )
+    return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
+
+
+def _fig(fig: dict, div_id: str) -> str:
+    """A plotly.js figure dict as the page's ``<div>`` and the script drawing it."""
+    return figure_html(fig, div_id)
+
+
+def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> str:
+    tz = result.plant.timezone
+    site = result.plant.settings.site
+    ranking = []
+    for row in result.summary.itertuples(index=False):
+        d = row._asdict()
+        d["worst_ratio_text"] = "—" if pd.isna(row.worst_ratio) else f"{row.worst_ratio:.2f}"
+        d["guidance_text"] = f"{row.guidance_ratio:.2f} or {row.guidance_margin_m:.2f} m"
+        d["page"] = f"pumps/{pages[row.pump_id]}" if pages and row.pump_id in pages else None
+        d["change"] = ""
+        if changes is not None:
+            c = changes.set_index("pump_id")
+            if row.pump_id in c.index:
+                v = c.loc[row.pump_id]
+                delta = v["below_guidance_hours_change"]
+                d["change"] = (
+                    v["verdict"]
+                    if v["verdict"] in ("new", "unchanged")
+                    else f"{v['verdict']} ({delta:+.1f} h)"
+                )
+        ranking.append(d)
+    if site.barometer_tag:
+        baro = (
+            f"tag {site.barometer_tag} where fresh and plausible, otherwise the 1976 standard "
+            f"atmosphere at {site.elevation:.0f} m (hours on the standard atmosphere per pump "
+            "in summary.csv)"
+        )
+    else:
+        baro = f"1976 standard atmosphere at the site elevation of {site.elevation:.0f} m"
+    template = _ENV.get_template("overview.html")
+    return template.render(
+        plant_name=site.name,
+        window_start=result.start.tz_convert(tz).strftime("%Y-%m-%d %H:%M %Z"),
+        window_end=result.end.tz_convert(tz).strftime("%Y-%m-%d %H:%M %Z"),
+        window_hours=f"{result.window_hours:.0f}",
+        timezone=tz,
+        n_screened=len(result.summary),
+        n_problems=len(result.problems),
+        version=meta["version"],
+        written=meta["written_utc"],
+        ranking=ranking,
+        legend=[{"label": STATE_LABELS[s], "colour": STATE_COLOURS[s]} for s in states.STATES],
+        hours_figure=_hours_figure(result, "margin"),
+        region_figure=_hours_figure(result, "region"),
+        quality=result.quality.to_dict("records"),
+        problems=result.problems.to_dict("records"),
+        file_problems=result.file_problems.to_dict("records"),
+        barometer=baro,
+        ample_ratio=result.plant.settings.policy.ample_ratio,
+        coolprop_version=metadata.version("CoolProp"),
+        por_low=0.70,
+        por_high=1.20,
+        cautions=CAUTIONS,
+        compared=changes is not None,
+        inputs=meta["inputs"],
+    )

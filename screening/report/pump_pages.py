@@ -1,0 +1,361 @@
+"""One HTML page per pump: NPSHa against NPSH3 over time, margin ratio, process conditions,
+operating points on the curve, daily hours per band, register data.
+
+Plots use the min/max-per-bucket data kept by the scan (:mod:`screening.plotdata`); numbers
+are shown in the chosen display units (SI or US customary), converted here at the edge.
+Figures are plain plotly.js JSON dicts (:mod:`screening.figjson`), drawn in the browser.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from screening.base import states
+from screening.inputs.units import si_to
+from screening.report.figjson import figure_html, local_times, numbers
+from screening.report.palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
+
+
+@dataclass(frozen=True)
+class DisplayUnits:
+    """Units shown in the report (the tables beside it stay SI, with units in column names)."""
+
+    name: str
+    head: str
+    flow: str
+    pressure: str
+    temperature: str
+
+    def label(self, kind: str) -> str:
+        """Short label of the display unit of ``kind``."""
+        return {
+            "length": self.head,
+            "flow": self.flow.replace("**3", "³"),
+            "pressure": self.pressure,
+            "temperature": self.temperature.replace("deg", "°"),
+            "speed": "rpm",
+        }[kind]
+
+    def convert(self, values, kind: str):
+        """SI values of ``kind`` in this display unit."""
+        unit = {
+            "length": self.head,
+            "flow": self.flow,
+            "pressure": self.pressure,
+            "temperature": self.temperature,
+            "speed": "rpm",
+        }[kind]
+        return si_to(values, unit, kind)
+
+
+DISPLAY_UNITS = {
+    "si": DisplayUnits("SI", "m", "m**3/h", "kPa", "degC"),
+    "us": DisplayUnits("US customary", "ft", "gpm", "psi", "degF"),
+}
+
+
+def _html(fig: dict, div_id: str) -> str:
+    """A figure dict as a ``<div>`` drawn by plotly.js (see :func:`figjson.figure_html`)."""
+    return figure_html(fig, div_id)
+
+
+def _line(colour: str, width: float | None = None, dash: str | None = None) -> dict:
+    line = {"color": colour}
+    if width is not None:
+        line["width"] = width
+    if dash is not None:
+        line["dash"] = dash
+    return line
+
+
+def _band(traces: list, t, lo, hi, name, colour, row=None, dash=None) -> None:
+    """Minimum and maximum per bucket as two lines (no fill: fills bridge the gaps); appended
+    to ``traces``, on the axes of subplot ``row`` (1 at the top) when given."""
+    axes = {} if row is None else _row_axes(row)
+    lo_trace = {
+        "type": "scatter", "x": t, "y": numbers(lo), "mode": "lines",
+        "line": _line(colour, 1.4, dash), "name": f"{name} (min in bucket)", "legendgroup": name,
+    }  # fmt: skip
+    hi_trace = {
+        "type": "scatter", "x": t, "y": numbers(hi), "mode": "lines",
+        "line": _line(colour, 0.6, dash), "opacity": 0.6, "name": f"{name} (max in bucket)",
+        "legendgroup": name,
+    }  # fmt: skip
+    traces += [{**lo_trace, **axes}, {**hi_trace, **axes}]
+
+
+def _row_axes(row: int) -> dict:
+    suffix = "" if row == 1 else str(row)
+    return {"xaxis": f"x{suffix}", "yaxis": f"y{suffix}"}
+
+
+def _title(text: str, **font) -> dict:
+    return {"title": {"text": text, "font": font} if font else {"text": text}}
+
+
+def npsh_figure(plot: pd.DataFrame, units: DisplayUnits, tz: str, t=None) -> dict:
+    """NPSHa (min-max band), NPSH3 and the guidance over time, heads in display units.
+
+    ``t`` is ``local_times(plot["time"], tz)`` when the caller has it already."""
+    t = local_times(plot["time"], tz) if t is None else t
+    c = units.convert
+    traces: list[dict] = []
+    _band(
+        traces,
+        t,
+        c(plot["npsha_m_min"], "length"),
+        c(plot["npsha_m_max"], "length"),
+        "NPSHa",
+        "#2d5f8f",
+    )
+    traces.append(
+        {
+            "type": "scatter",
+            "x": t,
+            "y": numbers(c(plot["guidance_m_max"], "length")),
+            "mode": "lines",
+            "name": "guidance (max in bucket)",
+            "line": {"color": "#c7761c", "dash": "dash"},
+        }
+    )
+    traces.append(
+        {
+            "type": "scatter",
+            "x": t,
+            "y": numbers(c(plot["npsh3_m_max"], "length")),
+            "mode": "lines",
+            "name": "NPSH3 (max in bucket)",
+            "line": {"color": "#5c2a00", "width": 2},
+        }
+    )
+    layout = {
+        "height": 380,
+        "margin": {"l": 60, "r": 20, "t": 20, "b": 40},
+        "yaxis": _title(f"head [{units.label('length')}]"),
+        "hovermode": "x unified",
+    }
+    return {"data": traces, "layout": layout}
+
+
+def ratio_figure(plot: pd.DataFrame, tz: str, guidance_ratio: float, ample: float, t=None) -> dict:
+    """Margin ratio [-] over time (minimum per bucket) with the band edges as lines."""
+    t = local_times(plot["time"], tz) if t is None else t
+    trace = {
+        "type": "scatter",
+        "x": t,
+        "y": numbers(plot["ratio_min"]),
+        "mode": "lines",
+        "name": "NPSHa/NPSH3 (min in bucket)",
+        "line": {"color": "#2d5f8f"},
+    }
+    shapes, notes = [], []
+    for y, label, colour, dash in (
+        (1.0, "NPSH3", "#5c2a00", "solid"),
+        (float(guidance_ratio), "guidance ratio", "#c7761c", "dash"),
+        (float(ample), "ample", "#2d5f8f", "dot"),
+    ):
+        # a line across the plot at y, its label above its left end
+        shapes.append(
+            {
+                "type": "line", "xref": "x domain", "x0": 0, "x1": 1, "yref": "y", "y0": y,
+                "y1": y, "line": {"color": colour, "dash": dash, "width": 1.2},
+            }
+        )  # fmt: skip
+        notes.append(
+            {
+                "text": label, "showarrow": False, "xref": "x domain", "x": 0,
+                "xanchor": "left", "yref": "y", "y": y, "yanchor": "bottom",
+            }
+        )  # fmt: skip
+    layout = {
+        "shapes": shapes,
+        "annotations": notes,
+        "height": 300,
+        "margin": {"l": 60, "r": 20, "t": 20, "b": 40},
+        "yaxis": _title("NPSHa / NPSH3 [-]"),
+    }
+    return {"data": [trace], "layout": layout}
+
+
+#: Gap between stacked subplots [fraction of the plot height].
+_SPACING = 0.03
+
+
+def process_figure(plot: pd.DataFrame, units: DisplayUnits, tz: str, t=None) -> dict:
+    """Temperature, suction pressure or level, flow and speed on a shared time axis, one
+    subplot per quantity stacked top to bottom (display units)."""
+    rows = [("temperature_k", "temperature", "temperature")]
+    if "suction_pressure_abs_pa_min" in plot:
+        rows.append(("suction_pressure_abs_pa", "suction pressure (abs)", "pressure"))
+    if "level_m_min" in plot:
+        rows.append(("level_m", "vessel level", "length"))
+    rows.append(("flow_m3_s", "flow", "flow"))
+    if "speed_rpm_min" in plot:
+        rows.append(("speed_rpm", "speed", "speed"))
+    t = local_times(plot["time"], tz) if t is None else t
+    n = len(rows)
+    height = (1.0 - _SPACING * (n - 1)) / n
+    traces: list[dict] = []
+    layout: dict = {}
+    for i, (col, label, kind) in enumerate(rows, start=1):
+        lo = units.convert(plot[f"{col}_min"], kind)
+        hi = units.convert(plot[f"{col}_max"], kind)
+        _band(traces, t, lo, hi, label, "#444444", row=i)
+        suffix = "" if i == 1 else str(i)
+        bottom = (n - i) * (height + _SPACING)
+        # one x axis per row, all moving with the bottom one; tick labels only at the bottom
+        xaxis = {"anchor": f"y{suffix}", "domain": [0.0, 1.0]}
+        if i < n:
+            xaxis |= {"matches": f"x{n}", "showticklabels": False}
+        layout[f"xaxis{suffix}"] = xaxis
+        layout[f"yaxis{suffix}"] = {
+            "anchor": f"x{suffix}",
+            "domain": [bottom, min(bottom + height, 1.0)],
+            **_title(f"{label} [{units.label(kind)}]", size=10),
+        }
+    layout |= {
+        "height": 170 * n + 60,
+        "showlegend": False,
+        "margin": {"l": 70, "r": 20, "t": 20, "b": 40},
+    }
+    return {"data": traces, "layout": layout}
+
+
+#: plotly's "Greys" colour scale (white for few hours to black for many).
+_GREYS = [
+    [0.0, "rgb(255,255,255)"], [0.125, "rgb(240,240,240)"], [0.25, "rgb(217,217,217)"],
+    [0.375, "rgb(189,189,189)"], [0.5, "rgb(150,150,150)"], [0.625, "rgb(115,115,115)"],
+    [0.75, "rgb(82,82,82)"], [0.875, "rgb(37,37,37)"], [1.0, "rgb(0,0,0)"],
+]  # fmt: skip
+
+
+def points_figure(points: dict, curve, pump, units: DisplayUnits) -> dict:
+    """Time-weighted operating points (flow, NPSHa) [h per cell] with the NPSH3 curve and the
+    preferred operating region, in display units."""
+    fe, he, hours = points["flow_edges"], points["npsha_edges"], points["hours"]
+    z = np.where(hours > 0, hours, np.nan).T
+    heatmap = {
+        "type": "heatmap",
+        "x": numbers(units.convert((fe[1:] + fe[:-1]) / 2, "flow")),
+        "y": numbers(units.convert((he[1:] + he[:-1]) / 2, "length")),
+        "z": numbers(z),
+        "colorscale": _GREYS,
+        "colorbar": {"title": {"text": "h"}},
+        "name": "running hours",
+        "hovertemplate": "%{z:.2f} h<extra></extra>",
+    }
+    q = np.linspace(curve.flow_min, curve.flow_max, 100)
+    npsh3 = {
+        "type": "scatter",
+        "x": numbers(units.convert(q, "flow")),
+        "y": numbers(units.convert(curve.at_reference_speed(q), "length")),
+        "mode": "lines",
+        "name": "NPSH3 (rated speed)",
+        "line": {"color": "#5c2a00", "width": 2.5},
+    }
+    lo = float(units.convert(pump.preferred_low * pump.bep_flow, "flow"))
+    hi = float(units.convert(pump.preferred_high * pump.bep_flow, "flow"))
+    # the preferred region shaded over the full height, its label in its top left corner
+    region = {
+        "type": "rect", "xref": "x", "x0": lo, "x1": hi, "yref": "y domain", "y0": 0, "y1": 1,
+        "fillcolor": "#9cc3e4", "opacity": 0.25, "line": {"width": 0},
+    }  # fmt: skip
+    note = {
+        "text": "preferred region", "showarrow": False, "xref": "x", "x": lo, "xanchor": "left",
+        "yref": "y domain", "y": 1, "yanchor": "top",
+    }  # fmt: skip
+    layout = {
+        "shapes": [region],
+        "annotations": [note],
+        "height": 400,
+        "margin": {"l": 60, "r": 20, "t": 30, "b": 50},
+        "xaxis": _title(f"flow [{units.label('flow')}]"),
+        "yaxis": _title(f"NPSHa [{units.label('length')}]"),
+        "legend": {"orientation": "h", "y": -0.2},
+    }
+    return {"data": [heatmap, npsh3], "layout": layout}
+
+
+def calendar_figure(daily: pd.DataFrame) -> dict:
+    """Stacked daily hours [h] per margin state (one bar per local day)."""
+    wide = daily.pivot(index="date", columns="state", values="hours")
+    days = [str(d) for d in wide.index]
+    traces = [
+        {
+            "type": "bar",
+            "x": days,
+            "y": numbers(wide[s]),
+            "name": STATE_LABELS[s],
+            "marker": {
+                "color": STATE_COLOURS[s],
+                "line": {"color": "#555", "width": 0.4},
+                "pattern": {"shape": STATE_PATTERNS[s], "fgcolor": "#ffffff"},
+            },
+        }
+        for s in states.STATES
+        if s in wide
+    ]
+    layout = {
+        "barmode": "stack",
+        "height": 400,
+        "yaxis": _title("hours per day"),
+        "margin": {"l": 50, "r": 20, "t": 30, "b": 60},
+        "legend": {"orientation": "h", "y": -0.3, "traceorder": "normal"},
+    }
+    return {"data": traces, "layout": layout}
+
+
+def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list[tuple[str, str]]:
+    """The pump's register data and method, as (label, text) rows."""
+    c = units.convert
+    L, F = units.label("length"), units.label("flow")  # noqa: N806
+    rows = [
+        ("service / area", f"{pump.service} / {pump.area}"),
+        ("fluid", pump.fluid),
+        ("vapour pressure", table_model),
+        ("application", pump.application),
+        ("rated speed", f"{pump.rated_speed:.0f} rpm"),
+        ("BEP flow", f"{float(c(pump.bep_flow, 'flow')):.1f} {F}"),
+        ("curve", pump.curve_id),
+        ("NPSH3 speed exponent", f"{pump.npsh3_exponent:g}"),
+        (
+            "guidance",
+            f"{guidance.ratio:.2f} or {float(c(guidance.margin, 'length')):.2f} {L} "
+            f"({guidance.source})",
+        ),
+        ("preferred region", f"{pump.preferred_low:.0%} to {pump.preferred_high:.0%} of BEP"),
+    ]
+    if pump.source == "transmitter":
+        rows += [
+            (
+                "suction",
+                f"transmitter {pump.suction.tag} [{pump.suction.unit}, "
+                f"{'gauge' if pump.gauge else 'absolute'}]",
+            ),
+            (
+                "tap elevation / bore",
+                f"{float(c(pump.tap_elevation, 'length')):.2f} {L} / {pump.tap_bore * 1000:.0f} mm",
+            ),
+            ("method", "NPSHa = (p_abs - p_v)/(rho g) + v^2/(2g) + z (ISO 9906, ANSI/HI 1.3)"),
+        ]
+    else:
+        rows += [
+            (
+                "suction",
+                f"vessel, level {pump.level.tag} [{pump.level.unit}], surface "
+                f"{pump.vessel_surface}",
+            ),
+            ("level zero above datum", f"{float(c(pump.level_zero_elevation, 'length')):.2f} {L}"),
+            ("method", "NPSHa = (p_surface - p_v)/(rho g) + level + offset - line loss"),
+        ]
+    rows.append(("tags", ", ".join(f"{r}: {t.tag}" for r, t in pump.tags().items())))
+    return rows
+
+
+def write_pump_page(path: Path, html: str) -> None:
+    """Write one page (the folder exists; ``path`` comes from :func:`page_names`)."""
+    path.write_text(html, encoding="utf-8")

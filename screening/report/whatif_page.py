@@ -1,0 +1,214 @@
+"""The what-if report folder: the scenarios side by side, one page per scenario with before
+and after, the required setpoints, and the tables beside them (CSV and Parquet)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import plotly.graph_objects as go
+from jinja2 import Environment, PackageLoader, select_autoescape
+from plotly.offline import get_plotlyjs
+
+from screening.base.files import atomic_folder, page_names
+from screening.base.states import BANDS
+from screening.report.cautions import CAUTIONS
+from screening.report.palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
+from screening.report.plant_report import write_table
+from screening.scenarios.whatif import WhatIfResult
+
+_ENV = Environment(loader=PackageLoader("screening.report", "templates"),
+                   autoescape=select_autoescape(["html"]))  # fmt: skip
+#: The caution specific to setpoints, on every what-if page beside the general ones.
+WHATIF_CAUTION = (
+    "These results are a screening estimate from past operation: the same history replayed "
+    "with changed inputs. A setpoint change goes through the site's management-of-change "
+    "process and the review of the pump manufacturer and the site's engineers."
+)
+_BELOW = ("below_npsh3", "below_guidance")
+_OUTSIDE = ("below_min_flow", "low_flow", "high_flow", "beyond_allowable")
+
+
+def _summary(hours: pd.DataFrame) -> pd.DataFrame:
+    """Per scenario and pump: hours below NPSH3, below guidance and outside the preferred
+    region, before and after [h]."""
+    h = hours
+    rows = []
+    for (sc, pid), g in h.groupby(["scenario", "pump_id"], sort=False):
+        m = g[g.kind == "margin"].set_index("state")
+        r = g[g.kind == "region"].set_index("state")
+        row = {"scenario": sc, "pump_id": pid}
+        for when in ("before", "after"):
+            row[f"below_npsh3_{when}_h"] = float(m.loc["below_npsh3", f"{when}_h"])
+            row[f"below_guidance_{when}_h"] = float(m.loc[list(_BELOW), f"{when}_h"].sum())
+            row[f"outside_preferred_{when}_h"] = float(r.loc[list(_OUTSIDE), f"{when}_h"].sum())
+        rows.append(row)
+    return pd.DataFrame(rows)
+
+
+def _hours(x: float) -> str:
+    if x is None or not np.isfinite(x):
+        return ""
+    return f"{0.0 if abs(x) < 0.05 else x:.1f}"  # no "-0.0" from rounding
+
+
+def _display_value(value: float, unit: str, difference: bool = False) -> str:
+    """A required value [SI] in the page's units (kPa, °C, m); a difference signed, and a
+    temperature difference in K."""
+    if value is None or not np.isfinite(value):
+        return ""
+    sign = "+" if difference else ""
+    if unit.startswith("Pa"):
+        return f"{value / 1000:{sign}.1f} kPa" + ("" if difference else unit[2:])
+    if unit == "K":
+        return f"{value:+.1f} K" if difference else f"{value - 273.15:.1f} °C"
+    return f"{value:{sign}.3f} m"
+
+
+def _setpoint_rows(frame: pd.DataFrame, shares: tuple[float, ...]) -> tuple[list[dict], list]:
+    """One row per pump and input with the required limit at each share; pumps that met the
+    guidance all the time without any change are listed apart."""
+    rows, fine = [], []
+    for pid, g in frame.groupby("pump_id", sort=True):
+        if g["required"].isna().all() and (g["achieved_share"] >= 1.0).all():
+            fine.append(pid)
+            continue
+        for (inp, limit), h in g.groupby(["input", "limit"], sort=False):
+            by = h.set_index("share")
+            strict = by.loc[max(shares)]
+            rows.append(
+                {
+                    "pump_id": pid,
+                    "input": inp.replace("_", " "),
+                    "limit": limit,
+                    "required": [_display_value(by.loc[q, "required"], strict.unit)
+                                 or "not needed" for q in shares],
+                    "today": _display_value(strict.today_setpoint, strict.unit)
+                    or "not in register",
+                    "change": _display_value(
+                        strict.change_from_setpoint, strict.unit, difference=True
+                    ),
+                    "recorded": _display_value(strict.recorded, strict.unit),
+                    "achieved": "" if not np.isfinite(strict.achieved_share)
+                    else f"{100 * strict.achieved_share:.2f} %",
+                    "cannot": _hours(strict.cannot_meet_h) if strict.cannot_meet_h else "",
+                    "note": strict.note,
+                }
+            )  # fmt: skip
+    return rows, fine
+
+
+def _before_after_figure(hours: pd.DataFrame, div_id: str) -> str:
+    """Stacked margin-band hours, before and after, for each pump of one scenario."""
+    m = hours[(hours.kind == "margin") & hours.state.isin(BANDS)]
+    pumps = list(dict.fromkeys(m["pump_id"]))
+    x = [sum(([p, p] for p in pumps), []), ["before", "after"] * len(pumps)]
+    fig = go.Figure()
+    for state in BANDS:
+        s = m[m.state == state].set_index("pump_id")
+        y = [float(s.loc[p, col]) for p in pumps for col in ("before_h", "after_h")]
+        fig.add_bar(
+            x=x, y=y, name=STATE_LABELS[state],
+            marker={"color": STATE_COLOURS[state],
+                    "pattern": {"shape": STATE_PATTERNS[state]}},
+        )  # fmt: skip
+    fig.update_layout(barmode="stack", height=360, yaxis_title="running hours in each band",
+                      margin={"l": 60, "r": 20, "t": 20, "b": 60})  # fmt: skip
+    return fig.to_html(full_html=False, include_plotlyjs=False, div_id=div_id)
+
+
+def write_whatif_report(result: WhatIfResult, out: str | Path) -> Path:
+    """Write the what-if report folder: ``index.html``, one page per scenario, and the tables
+    ``whatif_hours``, ``whatif_moves``, ``whatif_changes``, ``whatif_summary``,
+    ``required_setpoints`` and ``margin_sensitivity`` (CSV and Parquet, SI units in the
+    column names or a ``unit`` column). The folder is replaced whole when complete."""
+    out = Path(out)
+    plant = result.scan.plant
+    summary = _summary(result.hours) if len(result.hours) else pd.DataFrame()
+    pages = page_names([f"scenario_{s.name}" for s in result.scenarios])
+    with atomic_folder(out) as tmp:
+        write_table(result.hours, tmp, "whatif_hours")
+        write_table(result.moves, tmp, "whatif_moves")
+        write_table(result.changes, tmp, "whatif_changes")
+        write_table(summary, tmp, "whatif_summary")
+        write_table(result.setpoints, tmp, "required_setpoints")
+        write_table(result.sensitivity, tmp, "margin_sensitivity")
+        write_table(result.scan.problems, tmp, "not_screened")
+        (tmp / "plotly.min.js").write_text(get_plotlyjs(), encoding="utf-8")
+        meta = {
+            "plant": plant.name,
+            "config": str(plant.path),
+            "window_start_utc": result.scan.start.isoformat(),
+            "window_end_utc": result.scan.end.isoformat(),
+            "scenarios": [s.name for s in result.scenarios],
+            "shares": list(result.shares),
+        }
+        (tmp / "run.json").write_text(json.dumps(meta, indent=2), encoding="utf-8")
+        common = {
+            "plant_name": plant.name,
+            "window": f"{result.scan.start.tz_convert(plant.timezone):%Y-%m-%d %H:%M} to "
+            f"{result.scan.end.tz_convert(plant.timezone):%Y-%m-%d %H:%M} ({plant.timezone})",
+            "cautions": (WHATIF_CAUTION, *CAUTIONS),
+        }
+        side = _side_by_side(summary, result)
+        setpoints, fine = _setpoint_rows(result.setpoints, result.shares)
+        (tmp / "index.html").write_text(
+            _ENV.get_template("whatif.html").render(
+                **common,
+                scenarios=[
+                    {
+                        "name": s.name,
+                        "description": s.description,
+                        "page": pages[f"scenario_{s.name}"],
+                    }
+                    for s in result.scenarios
+                ],
+                side=side,
+                setpoints=setpoints,
+                fine=fine,
+                share_labels=[f"{100 * q:g} %" for q in result.shares],
+                sensitivity=result.sensitivity.to_dict("records"),
+                notes=result.notes,
+                problems=result.scan.problems.to_dict("records"),
+                shares=", ".join(f"{100 * q:g} %" for q in result.shares),
+            ),  # fmt: skip
+            encoding="utf-8",
+        )
+        for i, sc in enumerate(result.scenarios):
+            h = result.hours[result.hours.scenario == sc.name]
+            figure = _before_after_figure(h, f"before_after_{i}") if len(h) else ""
+            (tmp / pages[f"scenario_{sc.name}"]).write_text(
+                _ENV.get_template("whatif_scenario.html").render(
+                    **common,
+                    scenario=sc,
+                    figure=figure,
+                    summary=summary[summary.scenario == sc.name].to_dict("records")
+                    if len(summary)
+                    else [],
+                    moves=result.moves[result.moves.scenario == sc.name].to_dict("records"),
+                    changes=result.changes[result.changes.scenario == sc.name].to_dict("records"),
+                    fmt=_hours,
+                ),  # fmt: skip
+                encoding="utf-8",
+            )
+    return out
+
+
+def _side_by_side(summary: pd.DataFrame, result: WhatIfResult) -> dict:
+    """Rows of pumps, columns of scenarios: hours below guidance (and below NPSH3, outside
+    the preferred region) before and after each scenario."""
+    names = [s.name for s in result.scenarios]
+    keys = ("below_npsh3", "below_guidance", "outside_preferred")
+    rows = []
+    if len(summary):
+        for pid, g in summary.groupby("pump_id", sort=True):
+            by = g.set_index("scenario")
+            cells = [
+                {k: _hours(by.loc[n, f"{k}_after_h"]) for k in keys} if n in by.index else None
+                for n in names
+            ]
+            before = {k: _hours(g.iloc[0][f"{k}_before_h"]) for k in keys}
+            rows.append({"pump_id": pid, "before": before, "cells": cells})
+    return {"names": names, "rows": rows}
