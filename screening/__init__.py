@@ -10,6 +10,7 @@ Python API (the command line uses the same functions)::
 """
 
 from screening.base.states import BANDS, STATES
+from screening.base.version import __version__  # noqa: E402 - after the API it sits beside
 from screening.engine.scan import ScanResult, scan
 from screening.inputs.check import check
 from screening.inputs.config import ConfigError
@@ -22,7 +23,6 @@ from screening.report.plant_report import write_report
 from screening.report.whatif_page import write_whatif_report
 from screening.scenarios.whatif import WhatIfResult, whatif
 
-from screening.base.version import __version__  # noqa: E402 - after the API it sits beside
 __all__ = [
     "BANDS",
     "REGIONS",

@@ -30,8 +30,8 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from screening.base.version import __version__
 from screening.base.files import atomic_folder, page_names
+from screening.base.version import __version__
 from screening.inputs import dataset as ds
 from screening.inputs.export_files import FileInfo, read_csv_rows
 from screening.inputs.loader import ExportIndex

@@ -24,9 +24,9 @@ import pyarrow.csv as pa_csv
 from jinja2 import Environment, PackageLoader, select_autoescape
 from plotly.offline import get_plotlyjs
 
-from screening.base.version import __version__
 from screening.base import states
 from screening.base.files import atomic_folder, page_names
+from screening.base.version import __version__
 from screening.engine.execution import default_processes
 from screening.engine.scan import ScanResult
 from screening.physics import regions
