@@ -10,7 +10,7 @@ Python API (the command line uses the same functions)::
 """
 
 from screening.base.states import BANDS, STATES
-from screening.base.version import __version__  # noqa: E402 - after the API it sits beside
+from screening.base.version import __version__
 from screening.engine.scan import ScanResult, scan
 from screening.inputs.check import check
 from screening.inputs.config import ConfigError

@@ -20,14 +20,10 @@ import numpy as np
 import pytest
 from CoolProp.CoolProp import PropsSI
 
-from screening.physics.properties import (
-    GLYCOL_MOLAR_MASS,
-    MOLAR_MASS_WATER,
-    FluidError,
-    fluid_table,
-)
+from screening.physics.coolprop_fluids import GLYCOL_MOLAR_MASS, MOLAR_MASS_WATER, FluidError
+from screening.physics.properties import fluid_table
 
-# The package's promise for every table (TARGET_REL_ERROR in screening/properties.py): the
+# The package's promise for every table (TARGET_REL_ERROR in screening/physics/properties.py): the
 # interpolated value is within 1e-6 (relative) of the direct call it was built from.
 RTOL_TABLE = 1e-6
 # IAPWS-IF97 against IAPWS-95 (CoolProp's water): up to 1.8e-4 between 1 and 200 °C, so 5e-4

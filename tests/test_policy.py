@@ -2,7 +2,7 @@
 
 Reference: ANSI/HI 9.6.1-2012 minimum NPSHa/NPSH3 ratio or margin, whichever is greater, as
 summarised in /work/shared/reference/check-values.md (from secondary summaries of the
-standard; not read in the original). The band meanings are those of screening/states.py.
+standard; not read in the original). The band meanings are those of screening/base/states.py.
 """
 
 from __future__ import annotations

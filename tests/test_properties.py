@@ -20,7 +20,8 @@ import pytest
 from scipy.optimize import brentq
 
 from screening.inputs.units import to_si
-from screening.physics.properties import FluidError, fluid_table, saturated_liquid
+from screening.physics.coolprop_fluids import FluidError, saturated_liquid
+from screening.physics.properties import fluid_table
 
 # IAPWS-IF97 and IAPWS-95 saturation pressures differ by up to about 1.8e-4 (relative) between
 # 1 and 200 °C (check-values.md; measured 1.76e-4 with iapws.IAPWS97 against iapws.IAPWS95 at
@@ -33,7 +34,7 @@ RTOL_PV_IF97 = 5e-4
 # difference as for p_v; a density error large enough to matter for NPSH (1e-4 and up, i.e.
 # 1 mm in 10 m of head) would still fail.
 RTOL_RHO_IF97 = 5e-5
-# The package's promise for the table (TARGET_REL_ERROR in screening/properties.py, and the
+# The package's promise for the table (TARGET_REL_ERROR in screening/physics/properties.py, and the
 # design: "the error against the direct call measured and bounded in a test").
 RTOL_TABLE = 1e-6
 

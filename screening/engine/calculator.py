@@ -216,8 +216,62 @@ def calculate_pump(
         Keep the per-piece series (NPSHa, NPSH3, ratio, state) in the result.
     plot_buckets : int
         When positive, keep the report's plot data: minimum and maximum per time bucket and
-        the operating-point histogram (see :mod:`screening.plotdata`).
+        the operating-point histogram (see :mod:`screening.engine.plotdata`).
     """
+    timeline = _align(pump, tags, barometer, settings, start_ns, end_ns, day_edges)
+    run = _decide_running(pump, timeline.held, settings, len(timeline.grid))
+    phys = _evaluate(pump, curve, table, timeline, barometer, settings)
+    code, until, all_bad = _classify_margin(phys, run, guidance, settings)
+    rcode, r_until = _classify_region(pump, curve, timeline.held, phys, run)
+    return _summarise(
+        pump, curve, guidance, settings, timeline, run, phys, (code, until, all_bad),
+        (rcode, r_until), start_ns, end_ns, day_edges, keep_series, plot_buckets,
+    )  # fmt: skip
+
+
+@dataclass
+class _Timeline:
+    """The pump's pieces: their start times [ns], the next piece's start [ns] and every tag
+    held on them."""
+
+    grid: np.ndarray
+    t_next: np.ndarray
+    held: dict[str, _Held]
+
+
+@dataclass
+class _Running:
+    """Running or stopped on each piece, and which pieces the deciding (and all) tags leave
+    bad or fresh until when [ns]."""
+
+    running: np.ndarray
+    decide_bad: np.ndarray
+    decide_until: np.ndarray
+    all_bad: np.ndarray
+    all_until: np.ndarray
+
+
+@dataclass
+class _Physics:
+    """SI values on each piece: temperature [K], p_v [Pa], rho [kg/m³], flow [m³/s], the
+    absolute pressure [Pa] (suction, or a vessel's surface), NPSHa and NPSH3 [m], speed [rpm]
+    or None, barometric pressure [Pa] and whether the barometer supplied it."""
+
+    temp: np.ndarray
+    p_v: np.ndarray
+    rho: np.ndarray
+    flow: np.ndarray
+    p_abs: np.ndarray
+    npsha: np.ndarray
+    npsh3: np.ndarray
+    speed: np.ndarray | None
+    baro: np.ndarray
+    baro_used: np.ndarray
+
+
+def _align(pump, tags, barometer, settings, start_ns, end_ns, day_edges) -> _Timeline:
+    """Cut the window at every sample time of any tag, the window start and local midnights
+    [ns]; hold every tag on the pieces up to its stale limit."""
 
     def stale_ns(spec: TagSpec | None) -> int:
         limit = (
@@ -250,8 +304,12 @@ def calculate_pump(
         "vessel_pressure": pump.vessel_pressure,
     }
     held = {r: _Held(tags.get(r), grid, stale_ns(spec)) for r, spec in roles.items() if spec}
+    return _Timeline(grid, t_next, held)
 
-    # --- running or stopped
+
+def _decide_running(pump: PumpSpec, held: dict, settings: Settings, n: int) -> _Running:
+    """Running or stopped: the run status, else flow [m³/s] (and speed [rpm]) against their
+    fractions of BEP flow and rated speed."""
     bep = pump.bep_flow
     if "run" in held:
         decide = ["run"]
@@ -261,8 +319,8 @@ def calculate_pump(
         running = held["flow"].value > settings.min_flow_fraction * bep
         if "speed" in held:
             running &= held["speed"].value > settings.min_speed_fraction * pump.rated_speed
-    decide_bad = np.zeros(len(grid), dtype=bool)
-    decide_until = np.full(len(grid), np.iinfo(np.int64).max, dtype=np.int64)
+    decide_bad = np.zeros(n, dtype=bool)
+    decide_until = np.full(n, np.iinfo(np.int64).max, dtype=np.int64)
     for r in decide:
         decide_bad |= held[r].bad
         decide_until = np.minimum(decide_until, held[r].until)
@@ -271,9 +329,13 @@ def calculate_pump(
     for h in held.values():
         all_bad |= h.bad
         all_until = np.minimum(all_until, h.until)
+    return _Running(running, decide_bad, decide_until, all_bad, all_until)
 
-    # --- barometric pressure: the barometer where fresh and plausible, else the standard
-    # atmosphere at the site elevation (U.S. Standard Atmosphere 1976)
+
+def _barometric(barometer, grid, settings: Settings) -> tuple[np.ndarray, np.ndarray]:
+    """Barometric pressure [Pa] on each piece and whether the barometer gave it: the barometer
+    where fresh and plausible, else the standard atmosphere at the site elevation (U.S.
+    Standard Atmosphere 1976)."""
     p_std = _standard_pressure(settings.site_elevation)
     baro = np.full(len(grid), p_std)
     baro_used = np.zeros(len(grid), dtype=bool)
@@ -283,8 +345,16 @@ def calculate_pump(
         fresh &= hb.value <= BARO_RANGE[1]
         baro = np.where(fresh, hb.value, p_std)
         baro_used = fresh
+    return baro, baro_used
 
-    # --- NPSHa and NPSH3 (pure functions of SI arrays)
+
+def _evaluate(pump, curve, table, timeline: _Timeline, barometer, settings) -> _Physics:
+    """NPSHa and NPSH3 [m] on each piece (pure functions of SI arrays): NPSHa by ISO 9906 from a
+    transmitter or ANSI/HI 1.3 from a vessel, NPSH3 by the affinity laws (see
+    :mod:`screening.physics.npsh`, :mod:`screening.physics.suction`,
+    :mod:`screening.physics.curves`)."""
+    held = timeline.held
+    baro, baro_used = _barometric(barometer, timeline.grid, settings)
     temp = held["temperature"].value
     p_v, rho = table.properties(temp)
     flow = held["flow"].value
@@ -295,37 +365,57 @@ def calculate_pump(
         p_abs, npsha = _vessel_npsha(pump, held, baro, p_v, rho, flow, temp, table.fluid)
     speed = held["speed"].value if "speed" in held else None
     npsh3 = curve.at_speed(flow, speed, pump.rated_speed, pump.npsh3_exponent)
+    return _Physics(temp, p_v, rho, flow, p_abs, npsha, npsh3, speed, baro, baro_used)
 
-    # --- states. An absolute pressure at or below zero (a gauge reading below the local
-    # vacuum) is impossible: bad data, not a number in the results.
+
+def _classify_margin(phys: _Physics, run: _Running, guidance: Guidance, settings: Settings):
+    """The margin state of each piece, the time until which it holds [ns], and which pieces
+    are bad data."""
+    # An absolute pressure at or below zero (a gauge reading below the local vacuum) is
+    # impossible: bad data, not a number in the results.
     with np.errstate(invalid="ignore"):
-        all_bad = all_bad | (np.asarray(p_abs) <= 0.0)
-    on_curve = np.isfinite(npsh3) & np.isfinite(npsha)
+        all_bad = run.all_bad | (np.asarray(phys.p_abs) <= 0.0)
+    on_curve = np.isfinite(phys.npsh3) & np.isfinite(phys.npsha)
     with np.errstate(invalid="ignore"):
-        code = margin_band(npsha, npsh3, guidance, settings.ample_ratio)
+        code = margin_band(phys.npsha, phys.npsh3, guidance, settings.ample_ratio)
     code[~on_curve] = states.OFF_CURVE
     code[all_bad] = states.BAD_DATA
-    code[~running] = states.STOPPED
-    code[decide_bad] = states.BAD_DATA
-    until = np.where(running & ~decide_bad, all_until, decide_until)
+    code[~run.running] = states.STOPPED
+    code[run.decide_bad] = states.BAD_DATA
+    until = np.where(run.running & ~run.decide_bad, run.all_until, run.decide_until)
+    return code, until, all_bad
 
-    # --- operating region: needs only the run decision, flow and speed
-    ratio_n = np.ones(len(grid)) if speed is None else speed / pump.rated_speed
-    edges = pump_region_edges(pump, curve.flow_max, speed)
+
+def _classify_region(pump, curve, held, phys: _Physics, run: _Running):
+    """The operating region of each piece (flow [m³/s] against the region edges at the running
+    speed) and the time until which it holds [ns]: needs only the run decision, flow and
+    speed."""
+    edges = pump_region_edges(pump, curve.flow_max, phys.speed)
     with np.errstate(invalid="ignore"):
-        rcode = operating_region(flow, edges)
-    r_bad = decide_bad.copy()
-    r_until = decide_until.copy()
+        rcode = operating_region(phys.flow, edges)
+    r_bad = run.decide_bad.copy()
+    r_until = run.decide_until.copy()
     for r in ("flow", "speed"):
         if r in held:
             r_bad |= held[r].bad
             r_until = np.minimum(r_until, held[r].until)
     rcode[r_bad] = regions.BAD_DATA
-    rcode[~running] = regions.STOPPED
-    rcode[decide_bad] = regions.BAD_DATA
-    r_until = np.where(running & ~decide_bad, r_until, decide_until)
+    rcode[~run.running] = regions.STOPPED
+    rcode[run.decide_bad] = regions.BAD_DATA
+    r_until = np.where(run.running & ~run.decide_bad, r_until, run.decide_until)
+    return rcode, r_until
 
-    # --- time weighting: the fresh part of each piece has the state, the rest has no data
+
+def _summarise(
+    pump, curve, guidance, settings, timeline, run, phys, margin, region, start_ns, end_ns,
+    day_edges, keep_series, plot_buckets,
+) -> PumpResult:  # fmt: skip
+    """Time weighting: the fresh part of each piece has its state, the rest has no data;
+    hours [h] per state, day and region, the worst ratio and the optional plot data and
+    series."""
+    code, until, all_bad = margin
+    rcode, r_until = region
+    grid, t_next = timeline.grid, timeline.t_next
     n_days = len(day_edges) - 1
     # every local midnight is a grid point: the day index is a run-length repeat
     first = np.searchsorted(grid, day_edges[:-1], side="left")
@@ -335,12 +425,13 @@ def calculate_pump(
     hours = daily.sum(axis=0)
     window_hours = (end_ns - start_ns) / NS_PER_HOUR
 
-    ratio = npsha / npsh3
+    ratio = phys.npsha / phys.npsh3
     banded = (code <= states.AMPLE_MARGIN) & (fresh > 0)
     result = PumpResult(pump.pump_id, hours, daily, window_hours)
     result.region_daily = r_daily
     result.region_hours = r_daily.sum(axis=0)
-    if speed is not None:
+    ratio_n = np.ones(len(grid)) if phys.speed is None else phys.speed / pump.rated_speed
+    if phys.speed is not None:
         lo, hi = settings.speed_scaling_range
         with np.errstate(invalid="ignore"):
             outside = (code <= states.AMPLE_MARGIN) & ((ratio_n < lo) | (ratio_n > hi))
@@ -350,52 +441,74 @@ def calculate_pump(
         result.worst_ratio = float(ratio[i])
         result.worst_time = pd.Timestamp(int(grid[i]), tz="UTC")
     if pump.needs_barometer:
-        counted = running & ~all_bad & (code != states.STOPPED)
-        result.baro_fallback_hours = float(fresh[counted & ~baro_used].sum() / NS_PER_HOUR)
+        counted = run.running & ~all_bad & (code != states.STOPPED)
+        result.baro_fallback_hours = float(fresh[counted & ~phys.baro_used].sum() / NS_PER_HOUR)
     if plot_buckets:
-        guide = guidance.head(npsh3)
-        on = running & ~all_bad
-        series = {
-            "npsha_m": np.where(on, npsha, np.nan),
-            "npsh3_m": np.where(on, npsh3, np.nan),
-            "guidance_m": np.where(on, guide, np.nan),
-            "ratio": np.where(on, ratio, np.nan),
-            "temperature_k": np.where(held["temperature"].bad, np.nan, temp),
-            "flow_m3_s": np.where(held["flow"].bad, np.nan, flow),
-        }
-        if pump.source == "transmitter":
-            series["suction_pressure_abs_pa"] = np.where(held["suction"].bad, np.nan, p_abs)
-        else:
-            series["level_m"] = np.where(held["level"].bad, np.nan, held["level"].value)
-        if speed is not None:
-            series["speed_rpm"] = np.where(held["speed"].bad, np.nan, speed)
-        result.plot = plotdata.min_max_buckets(grid, fresh, series, start_ns, end_ns, plot_buckets)
-        banded = code <= states.AMPLE_MARGIN
-        result.points = plotdata.operating_points(
-            np.where(banded, flow, np.nan), np.where(banded, npsha, np.nan),
-            fresh / NS_PER_HOUR, curve.flow_max * (1 if speed is None else np.nanmax(
-                np.append(ratio_n[banded], 1.0))),
+        result.plot, result.points = _plot_data(
+            pump, curve, guidance, timeline, run, phys, code, all_bad, fresh, ratio, ratio_n,
+            start_ns, end_ns, plot_buckets,
         )  # fmt: skip
     if keep_series:
-        result.series = pd.DataFrame(
-            {
-                "time": pd.to_datetime(grid, utc=True),
-                "hours": fresh / NS_PER_HOUR,
-                "state": pd.Categorical.from_codes(code, categories=list(states.STATES)),
-                "region": pd.Categorical.from_codes(rcode, categories=list(regions.REGIONS)),
-                "region_hours": r_fresh / NS_PER_HOUR,
-                "npsha_m": np.where(running, npsha, np.nan),
-                "npsh3_m": np.where(running, npsh3, np.nan),
-                "ratio": np.where(running, ratio, np.nan),
-                "suction_pressure_abs_pa": p_abs if pump.source == "transmitter" else np.nan,
-                "temperature_k": temp,
-                "flow_m3_s": flow,
-                "speed_rpm": speed if speed is not None else np.nan,
-                "barometric_pa": baro,
-            }
-        )
-        if pump.source != "transmitter":
-            # surface pressure (p_v for a saturated vessel) and level of a vessel-fed pump
-            result.series["surface_pressure_abs_pa"] = p_abs
-            result.series["level_m"] = held["level"].value
+        result.series = _series_frame(pump, timeline, run, phys, code, rcode, fresh, r_fresh, ratio)
     return result
+
+
+def _plot_data(
+    pump, curve, guidance, timeline, run, phys, code, all_bad, fresh, ratio, ratio_n, start_ns,
+    end_ns, plot_buckets,
+):  # fmt: skip
+    """The report's plot data: minimum and maximum per time bucket of the SI series, and the
+    operating-point histogram (flow [m³/s] against NPSHa [m], weighted by hours)."""
+    held, grid = timeline.held, timeline.grid
+    npsha, npsh3, speed, flow = phys.npsha, phys.npsh3, phys.speed, phys.flow
+    guide = guidance.head(npsh3)
+    on = run.running & ~all_bad
+    series = {
+        "npsha_m": np.where(on, npsha, np.nan),
+        "npsh3_m": np.where(on, npsh3, np.nan),
+        "guidance_m": np.where(on, guide, np.nan),
+        "ratio": np.where(on, ratio, np.nan),
+        "temperature_k": np.where(held["temperature"].bad, np.nan, phys.temp),
+        "flow_m3_s": np.where(held["flow"].bad, np.nan, flow),
+    }
+    if pump.source == "transmitter":
+        series["suction_pressure_abs_pa"] = np.where(held["suction"].bad, np.nan, phys.p_abs)
+    else:
+        series["level_m"] = np.where(held["level"].bad, np.nan, held["level"].value)
+    if speed is not None:
+        series["speed_rpm"] = np.where(held["speed"].bad, np.nan, speed)
+    plot = plotdata.min_max_buckets(grid, fresh, series, start_ns, end_ns, plot_buckets)
+    banded = code <= states.AMPLE_MARGIN
+    points = plotdata.operating_points(
+        np.where(banded, flow, np.nan), np.where(banded, npsha, np.nan),
+        fresh / NS_PER_HOUR, curve.flow_max * (1 if speed is None else np.nanmax(
+            np.append(ratio_n[banded], 1.0))),
+    )  # fmt: skip
+    return plot, points
+
+
+def _series_frame(pump, timeline, run, phys, code, rcode, fresh, r_fresh, ratio) -> pd.DataFrame:
+    """The per-piece series (SI columns) kept for the onset and what-if analyses."""
+    running, speed = run.running, phys.speed
+    frame = pd.DataFrame(
+        {
+            "time": pd.to_datetime(timeline.grid, utc=True),
+            "hours": fresh / NS_PER_HOUR,
+            "state": pd.Categorical.from_codes(code, categories=list(states.STATES)),
+            "region": pd.Categorical.from_codes(rcode, categories=list(regions.REGIONS)),
+            "region_hours": r_fresh / NS_PER_HOUR,
+            "npsha_m": np.where(running, phys.npsha, np.nan),
+            "npsh3_m": np.where(running, phys.npsh3, np.nan),
+            "ratio": np.where(running, ratio, np.nan),
+            "suction_pressure_abs_pa": phys.p_abs if pump.source == "transmitter" else np.nan,
+            "temperature_k": phys.temp,
+            "flow_m3_s": phys.flow,
+            "speed_rpm": speed if speed is not None else np.nan,
+            "barometric_pa": phys.baro,
+        }
+    )
+    if pump.source != "transmitter":
+        # surface pressure (p_v for a saturated vessel) and level of a vessel-fed pump
+        frame["surface_pressure_abs_pa"] = phys.p_abs
+        frame["level_m"] = timeline.held["level"].value
+    return frame

@@ -60,8 +60,8 @@ def npsh_pair(
     ``inputs`` holds arrays by driver name (see :data:`COLUMNS`): ``suction_pressure`` [Pa
     absolute] for a transmitter pump, ``surface_pressure`` [Pa absolute] and ``level`` [m] for
     a vessel-fed pump, ``temperature`` [K], ``flow`` [m³/s] and ``speed`` [rpm] (absent:
-    rated speed). NPSHa as in :func:`screening.npsh.npsha_from_pressure` (ISO 9906:2012) or
-    :func:`screening.suction.npsha_from_vessel` (ANSI/HI 1.3); NPSH3 from the vendor curve
+    rated speed). NPSHa as in :func:`screening.physics.npsh.npsha_from_pressure` (ISO 9906:2012) or
+    :func:`screening.physics.suction.npsha_from_vessel` (ANSI/HI 1.3); NPSH3 from the vendor curve
     scaled by the affinity laws (:meth:`Npsh3Curve.at_speed`).
     """
     temp, flow = inputs["temperature"], inputs["flow"]

@@ -70,7 +70,7 @@ class BatchOutput:
 
 
 def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
-    """Screen one batch of pumps (see :func:`screening.scan.scan` for what is screened)."""
+    """Screen one batch of pumps (see :func:`screening.engine.scan.scan` for what is screened)."""
 
     keep_freed_memory()  # a Dask worker is a fresh process (and Dask asks glibc to trim)
     adopt_fluid_tables(ctx.tables)

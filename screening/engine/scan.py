@@ -51,7 +51,7 @@ def scan(
     plot_buckets : int
         Time buckets of the report's plot data (minimum and maximum per bucket) kept per pump
         in ``ScanResult.plots``; 0 (the default) keeps none. The command line asks for
-        :data:`screening.plotdata.DEFAULT_BUCKETS` to draw the pump pages.
+        :data:`screening.engine.plotdata.DEFAULT_BUCKETS` to draw the pump pages.
     each_pump : callable, optional
         Called as ``each_pump(plant, result)`` right after each pump is screened, with its
         per-piece series in ``result.series``; what it returns is kept in
@@ -65,7 +65,7 @@ def scan(
     cluster : str, distributed.Client or int, optional
         Run the batches on Dask distributed instead: a scheduler address
         (``tcp://host:port``), a connected client, or a number of workers for a local Dask
-        cluster started for this run (see :mod:`screening.execution`).
+        cluster started for this run (see :mod:`screening.engine.execution`).
     progress : callable, optional
         Called with each batch's output (``pumps``, ``samples``) as it completes.
 

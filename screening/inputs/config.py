@@ -2,7 +2,7 @@
 
 Validated on load with pydantic; any error names the file, the table and key, and what would be
 valid. Quantities are written with their unit ("120 m", "5 min") and converted to SI here. The
-pump register and the NPSH3 curves are tables of their own (see :mod:`screening.register`).
+pump register and the NPSH3 curves are tables of their own (see :mod:`screening.inputs.register`).
 """
 
 from __future__ import annotations
@@ -191,7 +191,7 @@ class ExportSource(_Strict):
     """One family of historian export files and how they are laid out.
 
     ``layout = "dataset"`` is a folder written by ``pumpscreen ingest`` (see
-    :mod:`screening.dataset`), given by ``path``; it takes no other key.
+    :mod:`screening.inputs.dataset`), given by ``path``; it takes no other key.
     """
 
     files: str | None = Field(None, description="glob relative to the plant file")

@@ -1,9 +1,9 @@
-"""Convert a plant's raw exports once into the columnar dataset of :mod:`screening.dataset`.
+"""Convert a plant's raw exports once into the columnar dataset of :mod:`screening.inputs.dataset`.
 
-``screening.ingest.ingest(config, out_dir)`` reads every export file the plant file names (wide
-or long, CSV, CSV.gz or Parquet), places every timestamp in UTC with the loader's rules, reads
-the numbers and keeps the text of values that are not numbers, and writes one folder per pump
-(``pump=<safe id>``), the site barometer (``site``) and tags no pump uses (``other``), one
+``screening.inputs.ingest.ingest(config, out_dir)`` reads every export file the plant file names
+(wide or long, CSV, CSV.gz or Parquet), places every timestamp in UTC with the loader's rules,
+reads the numbers and keeps the text of values that are not numbers, and writes one folder per
+pump (``pump=<safe id>``), the site barometer (``site``) and tags no pump uses (``other``), one
 Parquet part per UTC month. Nothing is judged or dropped here: text values, non-finite numbers
 and quality words are kept and judged when the dataset is read, so a scan of the dataset gives
 the same tables as a scan of the raw exports. Rows whose time cannot be placed are kept in

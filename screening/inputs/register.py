@@ -95,7 +95,7 @@ class SuctionLine:
 
     Either a loss coefficient ``k`` [s²/m⁵] (head = k·Q², from a design point) or the line
     itself: ``length`` [m], ``bore`` [m], ``roughness`` [m], ``fittings_k`` [-] for
-    Darcy-Weisbach (see :mod:`screening.suction`).
+    Darcy-Weisbach (see :mod:`screening.physics.suction`).
     """
 
     k: float | None = None
@@ -345,17 +345,11 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
     source = (r.text("suction_source", required=False) or "transmitter").lower()
     if source not in ("transmitter", "vessel"):
         r.fail("suction_source", f"{source!r} is not 'transmitter' or 'vessel'")
-    vessel: dict = {}
-    suction_tag, gauge, tap_elevation, bore = None, False, 0.0, 1.0
     if source == "transmitter":
-        suction_tag = tag("suction_pressure", "pressure")
-        gauge = reference("suction_pressure_reference")
-        tap_elevation = r.quantity("tap_elevation", "length")
-        bore = r.quantity("tap_bore", "length")
-        if bore <= 0:
-            r.fail("tap_bore", "must be a positive pipe bore")
+        suction_fields = _transmitter_fields(r, tag, reference)
     else:
-        vessel = _vessel_fields(r, tag, reference)
+        suction_fields = {"suction": None, "gauge": False, "tap_elevation": 0.0, "tap_bore": 1.0}
+        suction_fields.update(_vessel_fields(r, tag, reference))
     run_name = r.text("run_tag", required=False)
     rated = r.quantity("rated_speed", "speed")
     if rated <= 0:
@@ -374,14 +368,10 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         area=r.text("area", required=False) or "",
         fluid=r.text("fluid"),
         application=r.text("application"),
-        suction=suction_tag,
-        gauge=gauge,
         temperature=tag("temperature", "temperature"),
         flow=tag("flow", "flow"),
         speed=tag("speed", "speed", required=False),
         run=TagSpec(run_name, "", "status", stale) if run_name else None,
-        tap_elevation=tap_elevation,
-        tap_bore=bore,
         rated_speed=rated,
         bep_flow=bep,
         curve_id=r.text("curve_id"),
@@ -403,8 +393,22 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         high_temperature_setpoint=r.quantity(
             "high_temperature_setpoint", "temperature", required=False
         ),
-        **vessel,
+        **suction_fields,
     )
+
+
+def _transmitter_fields(r: _Row, tag, reference) -> dict:
+    """The register fields of a pump with a suction pressure transmitter (tag, reference,
+    tap elevation [m] and bore [m])."""
+    out = {
+        "suction": tag("suction_pressure", "pressure"),
+        "gauge": reference("suction_pressure_reference"),
+        "tap_elevation": r.quantity("tap_elevation", "length"),
+        "tap_bore": r.quantity("tap_bore", "length"),
+    }
+    if out["tap_bore"] <= 0:
+        r.fail("tap_bore", "must be a positive pipe bore")
+    return out
 
 
 def _vessel_fields(r: _Row, tag, reference) -> dict:

@@ -32,7 +32,7 @@ class Guidance:
 
 
 def margin_band(npsha, npsh3, guidance: Guidance, ample_ratio: float) -> np.ndarray:
-    """Margin band code per sample (see :mod:`screening.states`).
+    """Margin band code per sample (see :mod:`screening.base.states`).
 
     Parameters
     ----------

@@ -92,7 +92,7 @@ def pump_region_edges(pump, curve_flow_max: float, speed):
 
     Parameters
     ----------
-    pump : screening.register.PumpSpec
+    pump : screening.inputs.register.PumpSpec
         BEP flow, preferred region, minimum flows and allowable maximum at rated speed.
     curve_flow_max : float
         Last flow of the NPSH3 curve at rated speed [m³/s]: the allowable end when the

@@ -34,8 +34,8 @@ import numpy as np
 from fluids.friction import friction_factor as fluids_friction_factor
 from numpy.typing import ArrayLike
 
+from screening.physics.coolprop_fluids import CRITICAL_FRACTION, FluidError, PropsSI
 from screening.physics.npsh import G, absolute_pressure
-from screening.physics.properties import CRITICAL_FRACTION, FluidError, PropsSI
 
 #: Reynolds number below which the flow is taken as laminar, f = 64/Re [-] (Avila et al.
 #: 2011; the same limit as ``fluids.friction.LAMINAR_TRANSITION_PIPE``).
@@ -73,7 +73,7 @@ def surface_pressure_open(barometric: ArrayLike) -> np.ndarray:
     ----------
     barometric : array_like
         Local barometric pressure [Pa] (barometer tag, or the standard atmosphere at the site
-        elevation, :func:`screening.atmosphere.standard_pressure`).
+        elevation, :func:`screening.physics.atmosphere.standard_pressure`).
     """
     return np.asarray(barometric, dtype=np.float64)
 
@@ -81,8 +81,8 @@ def surface_pressure_open(barometric: ArrayLike) -> np.ndarray:
 def surface_pressure_from_tag(reading: ArrayLike, barometric: ArrayLike, gauge: bool) -> np.ndarray:
     """Absolute surface pressure [Pa] from a vessel pressure transmitter reading [Pa].
 
-    Same semantics as :func:`screening.npsh.absolute_pressure`: p_abs = p_gauge + p_baro when
-    the transmitter reads gauge, else the reading as is.
+    Same semantics as :func:`screening.physics.npsh.absolute_pressure`: p_abs = p_gauge +
+    p_baro when the transmitter reads gauge, else the reading as is.
 
     Parameters
     ----------
@@ -381,7 +381,7 @@ class ViscosityTable:
         CoolProp name.
     t_min, t_max : float
         Valid temperature range [K]: CoolProp's minimum temperature to
-        :data:`screening.properties.CRITICAL_FRACTION` of the critical temperature.
+        :data:`screening.physics.properties.CRITICAL_FRACTION` of the critical temperature.
     step : float
         Grid step [K].
     ln_mu : numpy.ndarray

@@ -1,9 +1,9 @@
 """One HTML page per pump: NPSHa against NPSH3 over time, margin ratio, process conditions,
 operating points on the curve, daily hours per band, register data.
 
-Plots use the min/max-per-bucket data kept by the scan (:mod:`screening.plotdata`); numbers
+Plots use the min/max-per-bucket data kept by the scan (:mod:`screening.engine.plotdata`); numbers
 are shown in the chosen display units (SI or US customary), converted here at the edge.
-Figures are plain plotly.js JSON dicts (:mod:`screening.figjson`), drawn in the browser.
+Figures are plain plotly.js JSON dicts (:mod:`screening.report.figjson`), drawn in the browser.
 """
 
 from __future__ import annotations

@@ -33,7 +33,7 @@ from screening.inputs.register import PumpSpec
 from screening.inputs.units import UnitError, parse_difference, parse_quantity
 
 #: Action key -> (input changed, operation, quantity kind, is a difference). Inputs are the
-#: driver names of :mod:`screening.drivers`; ``surface_pressure`` is a vessel's pressure.
+#: driver names of :mod:`screening.engine.drivers`; ``surface_pressure`` is a vessel's pressure.
 ACTIONS: dict[str, tuple[str, str, str, bool]] = {
     "suction_pressure_add": ("suction_pressure", "add", "pressure", True),
     "suction_pressure_floor": ("suction_pressure", "floor", "pressure", False),

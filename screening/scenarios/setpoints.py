@@ -128,7 +128,7 @@ def required_setpoints(
     series : DataFrame
         The calculator's per-piece series (``keep_series=True``): ``state``, ``hours`` [h],
         ``npsha_m``, ``npsh3_m`` [m], ``barometric_pa`` [Pa] and the SI input columns of
-        :data:`screening.drivers.COLUMNS`.
+        :data:`screening.engine.drivers.COLUMNS`.
     pump, curve, table, guidance
         Register row, NPSH3 curve, fluid table and guidance of the pump.
     shares : sequence of float

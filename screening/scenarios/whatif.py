@@ -3,11 +3,11 @@ setpoints that would have kept each pump at its guidance.
 
 ``screening.whatif(config, scenarios, start, end)`` screens the plant once (the scan's
 calculator, unchanged) and, pump by pump while its per-piece series is in memory, applies each
-scenario's changes to the recorded inputs (:mod:`screening.scenario`), recomputes NPSHa, NPSH3,
-the margin band and the operating region of every piece whose inputs changed (the same
-functions as the calculator, :func:`screening.drivers.npsh_pair`), and keeps only small
-tables: hours per band and region before and after, the hours moved between them, what each
-change did, and the required setpoints (:mod:`screening.setpoints`).
+scenario's changes to the recorded inputs (:mod:`screening.scenarios.scenario`), recomputes
+NPSHa, NPSH3, the margin band and the operating region of every piece whose inputs changed (the
+same functions as the calculator, :func:`screening.engine.drivers.npsh_pair`), and keeps only
+small tables: hours per band and region before and after, the hours moved between them, what
+each change did, and the required setpoints (:mod:`screening.scenarios.setpoints`).
 
 Rules (documented in the README):
 
@@ -96,7 +96,8 @@ def apply_changes(
     ----------
     series : DataFrame
         The calculator's per-piece series (``keep_series=True``), SI columns of
-        :data:`screening.drivers.COLUMNS`, ``barometric_pa`` [Pa], ``state`` and ``hours`` [h].
+        :data:`screening.engine.drivers.COLUMNS`, ``barometric_pa`` [Pa], ``state`` and
+        ``hours`` [h].
     pump : PumpSpec
         The register row.
     changes : list of Change
@@ -255,7 +256,7 @@ def whatif(
     config : str, Path or Plant
         The plant file or a loaded plant.
     scenarios : str, Path or list of Scenario
-        A scenario file (see :mod:`screening.scenario`) or scenarios already read.
+        A scenario file (see :mod:`screening.scenarios.scenario`) or scenarios already read.
     start, end : str or Timestamp, optional
         Window [start, end), as for :func:`screening.scan`.
     pumps : list of str, optional
