@@ -24,11 +24,11 @@ picks some of the measures)
             (each frame dropped before the next; pyarrow uses its own thread pool).
     scan    ``screening.scan(plant_toml, start, end, processes=1)``. The calculation-only
             time is the sum of the wall time spent inside ``calculate_pump`` during that same
-            scan: the scan module's ``calculate_pump``, ``prepare_tag``, ``_tables`` and the
-            loader's ``ExportIndex.read`` are wrapped by timers (about a microsecond each, some
-            3 000 calls at full size). numpy runs these array operations on one thread, so that
-            time is one core's. Peak memory includes the interpreter and imports (printed
-            beside it).
+            scan: ``calculate_pump`` and ``prepare_tag`` of one pump, the scan's ``scan_tables``
+            and the loader's ``ExportIndex.read`` are wrapped by timers (about a microsecond
+            each, some 3 000 calls at full size). numpy runs these array operations on one
+            thread, so that time is one core's. Peak memory includes the interpreter and
+            imports (printed beside it).
     scan2   the same with ``processes=2`` (a process pool; the parts then run in the workers,
             so only the total is measured; "largest worker" is the peak of the biggest child).
     dask    the same on a local Dask cluster of 2 worker processes (``cluster=client``); the
@@ -374,9 +374,11 @@ def measure_scan(toml: Path, start, end, processes: int = 1, cluster=None) -> di
     from screening.inputs import loader
 
     scan_mod = importlib.import_module("screening.engine.scan")  # the module, not the function
+    one_pump = importlib.import_module("screening.engine.one_pump")
     totals = defaultdict(float)
-    for name in ("calculate_pump", "prepare_tag", "_tables"):
-        setattr(scan_mod, name, _timed(getattr(scan_mod, name), name, totals))
+    for mod, name in ((one_pump, "calculate_pump"), (one_pump, "prepare_tag"),
+                      (scan_mod, "scan_tables")):  # fmt: skip
+        setattr(mod, name, _timed(getattr(mod, name), name, totals))
     loader.ExportIndex.read = _timed(loader.ExportIndex.read, "read", totals)
     base, cpu = peak_mb(), cpu_s()
     client = startup = None
@@ -520,7 +522,7 @@ def report(args, samples: int, r: dict) -> None:
             ("read", "reading exports (ExportIndex.read)"),
             ("prepare_tag", "units, frozen, range (prepare_tag)"),
             ("calculate_pump", "calculation (calculate_pump)"),
-            ("_tables", "result tables (_tables)"),
+            ("scan_tables", "result tables (scan_tables)"),
         ):
             row(f"  of which {label}", {}, parts.get(key, 0.0))
         row("  of which the rest (config, index, ...)", {}, scan["seconds"] - sum(parts.values()))
