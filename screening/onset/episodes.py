@@ -92,6 +92,17 @@ def find_episodes(
         On arrays of different lengths, unsorted times, negative or non-finite hours,
         ``leave_above <= enter_below`` or negative durations.
     """
+    t, h, r = _checked_arrays(time_ns, hours, ratio)
+    _check_thresholds(enter_below, leave_above, min_duration_h, bridge_gap_h)
+    gap_ns = bridge_gap_h * NS_PER_HOUR
+    raw = _raw_episodes(t, h, r, enter_below, leave_above, gap_ns)
+    return _episode_table(_bridged(raw, gap_ns, min_duration_h))
+
+
+def _checked_arrays(
+    time_ns: np.ndarray, hours: np.ndarray, ratio: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The pieces' start [ns], fresh hours [h] and ratio [-] as checked arrays."""
     t = np.asarray(time_ns)
     h = np.asarray(hours, dtype=np.float64)
     r = np.asarray(ratio, dtype=np.float64)
@@ -108,6 +119,13 @@ def find_episodes(
         raise ValueError("time_ns must be sorted in increasing order")
     if np.any(~np.isfinite(h)) or np.any(h < 0):
         raise ValueError("hours must be finite and >= 0 for every piece")
+    return t, h, r
+
+
+def _check_thresholds(
+    enter_below: float, leave_above: float, min_duration_h: float, bridge_gap_h: float
+) -> None:
+    """Check the hysteresis thresholds [-] and the shortest episode and gap [h]."""
     for name, value in (("enter_below", enter_below), ("leave_above", leave_above)):
         if not (isinstance(value, int | float) and math.isfinite(value)):
             raise ValueError(f"{name} must be a finite number, got {value!r}")
@@ -118,8 +136,17 @@ def find_episodes(
     _check_nonnegative("min_duration_h", min_duration_h)
     _check_nonnegative("bridge_gap_h", bridge_gap_h)
 
+
+def _raw_episodes(
+    t: np.ndarray,
+    h: np.ndarray,
+    r: np.ndarray,
+    enter_below: float,
+    leave_above: float,
+    gap_ns: float,
+) -> list[list[Any]]:
+    """Episodes of the hysteresis state machine (starts [ns], hours [h], ratios [-], gap [ns])."""
     # Raw episodes as [first piece, end time in ns) with the hysteresis state machine.
-    gap_ns = bridge_gap_h * NS_PER_HOUR
     raw: list[list[Any]] = []  # [start_ns, end_ns, exposure_h, worst_ratio, worst_ns]
     current: list[Any] | None = None
     known_end = 0  # end of the current episode's last piece with a ratio [ns]
@@ -148,7 +175,11 @@ def find_episodes(
     if current is not None:
         current[1] = known_end
         raw.append(current)
+    return raw
 
+
+def _bridged(raw: list[list[Any]], gap_ns: float, min_duration_h: float) -> list[list[Any]]:
+    """Episodes bridged over gaps under ``gap_ns`` [ns], kept from ``min_duration_h`` [h]."""
     # Bridge short gaps, then drop episodes with too little exposure.
     merged: list[list[Any]] = []
     for ep in raw:
@@ -160,8 +191,11 @@ def find_episodes(
                 prev[3], prev[4] = ep[3], ep[4]
         else:
             merged.append(list(ep))
-    kept = [ep for ep in merged if ep[2] >= min_duration_h]
+    return [ep for ep in merged if ep[2] >= min_duration_h]
 
+
+def _episode_table(kept: list[list[Any]]) -> pd.DataFrame:
+    """The episodes as a table with the columns of :data:`EPISODE_COLUMNS`."""
     start = np.array([ep[0] for ep in kept], dtype=np.int64)
     end = np.array([ep[1] for ep in kept], dtype=np.int64)
     return pd.DataFrame(

@@ -112,6 +112,37 @@ def investigate(
     leave_above = rules.leave_above if leave_above is None else leave_above
     min_duration_h = rules.min_hours if min_duration_h is None else min_duration_h
     bridge_gap_h = rules.bridge_hours if bridge_gap_h is None else bridge_gap_h
+    result = _scan_pump(plant, pump_id, start, end)
+    series = result.series[pump_id]
+    pump = plant.pumps[pump_id]
+    curve = plant.curves[pump.curve_id]
+    g = plant.guidance[pump_id]
+    base_a, base_b = _baseline(plant, result.start, result.end, baseline)
+    base, known = _baseline_pieces(series, pump_id, base_a, base_b)
+
+    # hours per day or week
+    daily = _daily_hours(result.daily)
+    period, table = _hours_per_period(daily, result.start, result.end)
+    eps = _guidance_episodes(series, g, enter_below, leave_above, min_duration_h, bridge_gap_h)
+    notes = _baseline_notes(series, base & known)
+    drivers, shares, names = _drivers_by_day(plant, pump, curve, series, base)
+    eps = _episode_drivers(eps, shares, names)
+    daily_resid, exposure = _onset_series(plant, series, base, daily, failed_on)
+    onset, onset_exposure, ramp = _change_points(rules, daily_resid, exposure)
+
+    before = None
+    if failed_on is not None:
+        before = ep.exposure_before(daily, pd.Timestamp(failed_on))
+    finding = _finding(pump_id, onset, onset_exposure, drivers, eps, before, ramp)
+    return OnsetResult(
+        pump_id, result.start, result.end, period, table, eps, drivers, onset, onset_exposure,
+        before, finding, (base_a, base_b), notes,
+        pd.Timestamp(failed_on) if failed_on is not None else None, ramp, plant.timezone,
+    )  # fmt: skip
+
+
+def _scan_pump(plant: Plant, pump_id: str, start, end):
+    """Scan one pump over the window keeping its per-piece series; a clear error if it can't."""
     if pump_id not in plant.pumps:
         raise ValueError(
             f"pump {pump_id!r} cannot be investigated: "
@@ -120,11 +151,13 @@ def investigate(
     result = scan(plant, start, end, pumps=[pump_id], keep_series=True)
     if pump_id not in result.series:
         raise ValueError(f"pump {pump_id}: {result.problems['message'].iloc[0]}")
-    series = result.series[pump_id]
-    pump = plant.pumps[pump_id]
-    curve = plant.curves[pump.curve_id]
-    g = plant.guidance[pump_id]
-    base_a, base_b = _baseline(plant, result.start, result.end, baseline)
+    return result
+
+
+def _baseline_pieces(
+    series: pd.DataFrame, pump_id: str, base_a: pd.Timestamp, base_b: pd.Timestamp
+) -> tuple[np.ndarray, np.ndarray]:
+    """Masks of the pieces in the baseline and of those running with a known margin."""
     times = series["time"]
     base = ((times >= base_a) & (times < base_b)).to_numpy()
     known = series["state"].isin(BANDS).to_numpy() & (series["hours"].to_numpy() > 0)
@@ -133,11 +166,14 @@ def investigate(
             f"pump {pump_id}: the baseline {base_a} to {base_b} (UTC) has no running sample with "
             "a known margin; choose a baseline when the pump ran (--baseline FROM..TO)"
         )
+    return base, known
 
-    # hours per day or week
-    d = result.daily[(result.daily.kind == "margin")]
+
+def _daily_hours(scan_daily: pd.DataFrame) -> pd.DataFrame:
+    """Hours per day [h] below NPSH3, below guidance and running, from the scan's daily table."""
+    d = scan_daily[(scan_daily.kind == "margin")]
     wide = d.pivot(index="date", columns="state", values="hours")
-    daily = pd.DataFrame(
+    return pd.DataFrame(
         {
             "date": pd.to_datetime(wide.index),
             "below_npsh3_h": wide["below_npsh3"].to_numpy(),
@@ -146,32 +182,52 @@ def investigate(
                                "ample_margin", "off_curve"]].sum(axis=1).to_numpy(),
         }
     )  # fmt: skip
-    period = "week" if (result.end - result.start) > pd.Timedelta(days=120) else "day"
+
+
+def _hours_per_period(
+    daily: pd.DataFrame, start: pd.Timestamp, end: pd.Timestamp
+) -> tuple[str, pd.DataFrame]:
+    """The daily hours [h] summed by week for windows over 120 days, with cumulative exposure."""
+    period = "week" if (end - start) > pd.Timedelta(days=120) else "day"
     table = daily
     if period == "week":
         table = daily.resample("W-MON", on="date", label="left", closed="left").sum()
         table = table.reset_index()
-    table = ep.cumulative_exposure(table)
+    return period, ep.cumulative_exposure(table)
 
+
+def _guidance_episodes(
+    series: pd.DataFrame, g, enter_below, leave_above, min_duration_h, bridge_gap_h
+) -> pd.DataFrame:
+    """Episodes below the guidance head (thresholds [-] on NPSHa/guidance, durations [h])."""
     # episodes below the guidance, with hysteresis
+    times = series["time"]
     npsha = series["npsha_m"].to_numpy(dtype=np.float64)
     guide = g.head(series["npsh3_m"].to_numpy(dtype=np.float64))
     with np.errstate(invalid="ignore", divide="ignore"):
         r_guide = npsha / guide
-    eps = ep.find_episodes(
+    return ep.find_episodes(
         times.astype("int64").to_numpy() if times.dtype.kind == "M" else times.to_numpy(),
         series["hours"].to_numpy(), r_guide, enter_below, leave_above, min_duration_h,
         bridge_gap_h,
     )  # fmt: skip
 
-    # drivers over time: one input at a time put back at its baseline value
+
+def _baseline_notes(series: pd.DataFrame, usable: np.ndarray) -> list[str]:
+    """A note when the baseline holds less than a week of running hours with a known margin."""
     notes: list[str] = []
-    base_hours = float(series["hours"].to_numpy()[base & known].sum())
+    base_hours = float(series["hours"].to_numpy()[usable].sum())
     if base_hours < 7 * 24:
         notes.append(
             f"the baseline holds only {base_hours:.0f} running hours with a known margin; "
             "its medians and the flow-normalised fit rest on little data"
         )
+    return notes
+
+
+def _drivers_by_day(plant: Plant, pump, curve, series: pd.DataFrame, base: np.ndarray):
+    """Each driver's share of the margin change [m], time-weighted per site day, and the shares."""
+    # drivers over time: one input at a time put back at its baseline value
     names = drivers_for(pump)
     shares = driver_shares(series, pump, curve, fluid_table(pump.fluid, pump.vapour_pressure), base)
     shares["date"] = shares["time"].dt.tz_convert(plant.timezone).dt.floor("D")
@@ -180,9 +236,15 @@ def investigate(
     weighted = shares[cols].mul(w, axis=0).assign(date=shares["date"], hours=w)
     grouped = weighted.groupby("date").sum()
     drivers = grouped[cols].div(grouped["hours"].replace(0, np.nan), axis=0).reset_index()
-    eps = _episode_drivers(eps, shares, names)
+    return drivers, shares, names
 
+
+def _onset_series(
+    plant: Plant, series: pd.DataFrame, base: np.ndarray, daily: pd.DataFrame, failed_on
+) -> tuple[pd.Series, pd.Series]:
+    """Daily median flow-normalised residual [m] and daily hours below guidance [h]."""
     # onset: change point in the flow-normalised suction condition and in the exposure rate
+    times = series["time"]
     resid = _residual(series, base)
     rs = pd.DataFrame({"date": times.dt.tz_convert(plant.timezone).dt.floor("D"), "r": resid})
     daily_resid = rs.dropna().groupby("date")["r"].median()
@@ -192,6 +254,11 @@ def investigate(
         cut = pd.Timestamp(failed_on).tz_localize(None).normalize()
         daily_resid = daily_resid[daily_resid.index.tz_localize(None) < cut]
         exposure = exposure[exposure.index < cut]
+    return daily_resid, exposure
+
+
+def _change_points(rules, daily_resid: pd.Series, exposure: pd.Series) -> tuple[dict, dict, dict]:
+    """Onset by a step in the residual [m], a step in exposure [h], a ramp in the residual."""
     onset = cp.estimate_onset(
         pd.to_datetime(daily_resid.index).tz_localize(None), daily_resid.to_numpy(),
         min_change=rules.min_margin_change,
@@ -208,16 +275,7 @@ def investigate(
     ramp["chosen"] = bool(
         ramp["onset"] is not None and ramp["slope"] < 0 and ramp["sse"] < ramp["sse_step"]
     )
-
-    before = None
-    if failed_on is not None:
-        before = ep.exposure_before(daily, pd.Timestamp(failed_on))
-    finding = _finding(pump_id, onset, onset_exposure, drivers, eps, before, ramp)
-    return OnsetResult(
-        pump_id, result.start, result.end, period, table, eps, drivers, onset, onset_exposure,
-        before, finding, (base_a, base_b), notes,
-        pd.Timestamp(failed_on) if failed_on is not None else None, ramp, plant.timezone,
-    )  # fmt: skip
+    return onset, onset_exposure, ramp
 
 
 def _episode_drivers(eps: pd.DataFrame, shares: pd.DataFrame, names) -> pd.DataFrame:

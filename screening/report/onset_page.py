@@ -79,6 +79,35 @@ def write_onset_page(result, out: Path, failed_on=None) -> Path:
     """Write ``onset.html`` (and plotly.min.js) into ``out``; return the page's path."""
     h = result.hours
     x = h["date"].dt.strftime("%Y-%m-%d")
+    timeline = _timeline_figure(result, x)
+    cumul = _cumulative_figure(h, x)
+    d = result.drivers
+    drivers = _drivers_figure(d)
+    eps = _display(result.episodes, result.timezone)
+    estimates = _estimates(result)
+    html = _ENV.get_template("onset.html").render(
+        r=result,
+        fig_timeline=_html(timeline, "timeline"),
+        fig_cumulative=_html(cumul, "cumulative"),
+        fig_drivers=_html(drivers, "drivers") if len(d) else "",
+        estimates=estimates,
+        local=lambda ts: pd.Timestamp(ts).tz_convert(result.timezone).strftime("%Y-%m-%d %H:%M"),
+        episodes=eps.to_dict("records"),
+        episode_columns=list(eps.columns),
+        before=None
+        if result.before_failure is None
+        else _display(result.before_failure, result.timezone).to_dict("records"),
+        cautions=CAUTIONS,
+    )
+    (out / "plotly.min.js").write_text(get_plotlyjs(), encoding="utf-8")
+    page = out / "onset.html"
+    page.write_text(html, encoding="utf-8")
+    return page
+
+
+def _timeline_figure(result, x: pd.Series) -> go.Figure:
+    """Hours below NPSH3 and below guidance per period [h], the onset and failure marked."""
+    h = result.hours
     timeline = go.Figure()
     timeline.add_bar(
         x=x,
@@ -100,6 +129,11 @@ def write_onset_page(result, out: Path, failed_on=None) -> Path:
         _mark(timeline, result.onset.get("onset"), "onset (margin)", "dash")
     _mark(timeline, result.onset_exposure.get("onset"), "onset (exposure)", "dot")
     _mark(timeline, result.failed_on, "failure", "solid")
+    return timeline
+
+
+def _cumulative_figure(h: pd.DataFrame, x: pd.Series) -> go.Figure:
+    """Cumulative hours below NPSH3 and below guidance [h]."""
     cumul = go.Figure()
     for col, name, colour in (
         ("cum_below_npsh3_h", "below NPSH3", "below_npsh3"),
@@ -115,8 +149,12 @@ def write_onset_page(result, out: Path, failed_on=None) -> Path:
             )
     cumul.update_layout(height=300, yaxis_title="cumulative hours",
                         margin={"l": 60, "r": 20, "t": 30, "b": 40})  # fmt: skip
+    return cumul
+
+
+def _drivers_figure(d: pd.DataFrame) -> go.Figure:
+    """Each driver's margin change against the baseline per day [m], and the total."""
     drivers = go.Figure()
-    d = result.drivers
     if len(d):
         dx = pd.to_datetime(d["date"]).dt.strftime("%Y-%m-%d")
         for k in (k for k in DRIVERS if f"{k}_m" in d):
@@ -136,30 +174,16 @@ def write_onset_page(result, out: Path, failed_on=None) -> Path:
         )
     drivers.update_layout(height=320, yaxis_title="margin change against baseline [m]",
                           margin={"l": 60, "r": 20, "t": 30, "b": 40})  # fmt: skip
-    eps = _display(result.episodes, result.timezone)
-    estimates = [
+    return drivers
+
+
+def _estimates(result) -> list[dict]:
+    """The rows of the page's table of onset estimates: step, ramp and exposure."""
+    return [
         _estimate("step in the flow-normalised margin", result.onset),
         _estimate("start of a decline in it (broken stick)", result.ramp),
         _estimate("step in the daily hours below guidance", result.onset_exposure),
     ]
-    html = _ENV.get_template("onset.html").render(
-        r=result,
-        fig_timeline=_html(timeline, "timeline"),
-        fig_cumulative=_html(cumul, "cumulative"),
-        fig_drivers=_html(drivers, "drivers") if len(d) else "",
-        estimates=estimates,
-        local=lambda ts: pd.Timestamp(ts).tz_convert(result.timezone).strftime("%Y-%m-%d %H:%M"),
-        episodes=eps.to_dict("records"),
-        episode_columns=list(eps.columns),
-        before=None
-        if result.before_failure is None
-        else _display(result.before_failure, result.timezone).to_dict("records"),
-        cautions=CAUTIONS,
-    )
-    (out / "plotly.min.js").write_text(get_plotlyjs(), encoding="utf-8")
-    page = out / "onset.html"
-    page.write_text(html, encoding="utf-8")
-    return page
 
 
 def write_onset_report(result: OnsetResult, out: str | Path) -> Path:
