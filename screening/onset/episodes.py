@@ -2,7 +2,7 @@
 
 Pure functions on arrays and small tables, SI units inside (hours for durations, as the daily
 tables of the scan report them). Three tools (the onset date itself is estimated in
-:mod:`screening.changepoint`):
+:mod:`screening.onset.changepoint`):
 
 * :func:`find_episodes` cuts the per-piece NPSHa/NPSH3 ratio of the calculator into stretches
   spent below guidance, with hysteresis (a lower threshold to enter, a higher one to leave), so

@@ -3,9 +3,9 @@
 ``screening.investigate(config, pump_id, start, end, failed_on=None, baseline=None)`` runs the
 scan's calculator on one pump, then builds: hours per day (or week, for windows over 120 days)
 in each margin band and region, cumulative exposure, episodes below the guidance with
-hysteresis, the margin lost against a baseline split by input (:mod:`screening.drivers`), the
+hysteresis, the margin lost against a baseline split by input (:mod:`screening.engine.drivers`), the
 onset estimated by a change-point method on the flow-normalised suction condition and on the
-exposure rate (:mod:`screening.episodes`), and, with a failure date, the exposure before it.
+exposure rate (:mod:`screening.onset.episodes`), and, with a failure date, the exposure before it.
 """
 
 from __future__ import annotations
@@ -104,7 +104,7 @@ def investigate(
         Shortest episode kept [h]; gaps shorter than this are bridged [h].
 
     Episode settings left as None come from the plant file's ``[onset]`` table (see
-    :class:`screening.config.Onset` for the defaults).
+    :class:`screening.inputs.config.Onset` for the defaults).
     """
     plant = config if isinstance(config, Plant) else load_plant(config)
     rules = plant.settings.onset
