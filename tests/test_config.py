@@ -109,5 +109,9 @@ def test_window_errors(tmp_path):
     path = make_plant(tmp_path, wide={"a.csv": steady_frame()})
     with pytest.raises(screening.WindowError, match="not after its start"):
         screening.scan(path, "2026-10-02", "2026-10-01")
-    with pytest.raises(screening.WindowError, match="not a date"):
+    with pytest.raises(screening.WindowError, match="not an ISO 8601 date; write it as 2026-10-01"):
         screening.scan(path, "next tuesday", "2026-10-01")
+    # dotted and slashed dates can be read two ways: refused, never guessed
+    for ambiguous in ("01.10.2026", "10/01/2026", "1/10/2026 06:00"):
+        with pytest.raises(screening.WindowError, match="not an ISO 8601 date"):
+            screening.scan(path, ambiguous, "2026-10-02")

@@ -12,6 +12,8 @@ from functools import wraps
 import typer
 from rich.console import Console
 
+from screening.inputs.window import WindowError, check_iso
+
 #: Exit codes (documented in the README).
 EXIT_OK = 0  # every pump screened / everything valid
 EXIT_ERROR = 1  # the run failed (config, window or unexpected error)
@@ -44,10 +46,36 @@ def friendly_errors(func: Callable) -> Callable:
     return wrapper
 
 
+def iso_date_option(value: str | None) -> str | None:
+    """Refuse a date that is not ISO 8601 before anything runs (exit code 2)."""
+    if value is None:
+        return None
+    try:
+        return check_iso(value)
+    except WindowError as exc:
+        raise typer.BadParameter(str(exc)) from None
+
+
+def iso_period_option(value: str | None) -> str | None:
+    """A period ``FROM..TO`` of two ISO 8601 dates, refused otherwise (exit code 2)."""
+    if value is None:
+        return None
+    parts = value.split("..")
+    if len(parts) != 2:
+        raise typer.BadParameter(f"{value!r} is not a period FROM..TO, e.g. 2026-01-01..2026-02-01")
+    return "..".join(iso_date_option(p) for p in parts)
+
+
 FROM_OPTION = typer.Option(
-    None, "--from", help="Window start, a date or time (site time zone unless an offset)."
+    None,
+    "--from",
+    help="Window start, ISO 8601: 2026-10-01 or 2026-10-01T06:00 (site time zone unless an "
+    "offset is given).",
+    callback=iso_date_option,
 )
-TO_OPTION = typer.Option(None, "--to", help="Window end (exclusive).")
+TO_OPTION = typer.Option(
+    None, "--to", help="Window end (exclusive), ISO 8601 like --from.", callback=iso_date_option
+)
 PUMP_OPTION = typer.Option(None, "--pump", help="Only this pump (repeatable).")
 PROCESSES_OPTION = typer.Option(
     None, "--processes", help="Worker processes on this machine (default: every core; 1: none)."

@@ -8,7 +8,14 @@ import typer
 
 from screening.inputs.ingest import ingest
 
-from .common import DEBUG_OPTION, EXIT_OK, EXIT_PARTIAL, QUIET_OPTION, friendly_errors
+from .common import (
+    DEBUG_OPTION,
+    EXIT_OK,
+    EXIT_PARTIAL,
+    QUIET_OPTION,
+    friendly_errors,
+    iso_date_option,
+)
 
 
 @friendly_errors
@@ -20,9 +27,17 @@ def ingest_command(
         help="Dataset folder (default: datasets/<plant file>); replaced if a dataset.",
     ),
     start: str = typer.Option(
-        None, "--from", help="Keep from this date or time (with the look-back); default: all."
+        None,
+        "--from",
+        help="Keep from this ISO 8601 date or time (with the look-back); default: all.",
+        callback=iso_date_option,
     ),
-    end: str = typer.Option(None, "--to", help="Keep up to this date or time (exclusive)."),
+    end: str = typer.Option(
+        None,
+        "--to",
+        help="Keep up to this ISO 8601 date or time (exclusive).",
+        callback=iso_date_option,
+    ),  # fmt: skip
     quiet: bool = QUIET_OPTION,
     debug: bool = DEBUG_OPTION,
 ) -> None:

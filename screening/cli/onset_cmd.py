@@ -9,18 +9,27 @@ import typer
 from screening.onset.investigate import investigate
 from screening.report.onset_page import write_onset_report
 
-from .common import DEBUG_OPTION, EXIT_OK, friendly_errors
+from .common import DEBUG_OPTION, EXIT_OK, friendly_errors, iso_date_option, iso_period_option
 
 
 @friendly_errors
 def onset_command(
     config: Path = typer.Argument(..., help="The plant file (TOML)."),
     pump: str = typer.Argument(..., help="The pump id."),
-    start: str = typer.Option(..., "--from", help="Window start (a year is normal)."),
-    end: str = typer.Option(..., "--to", help="Window end (exclusive)."),
-    failed_on: str = typer.Option(None, "--failed-on", help="Date the pump failed."),
+    start: str = typer.Option(
+        ..., "--from", help="Window start, ISO 8601 (a year is normal).", callback=iso_date_option
+    ),
+    end: str = typer.Option(
+        ..., "--to", help="Window end (exclusive), ISO 8601.", callback=iso_date_option
+    ),
+    failed_on: str = typer.Option(
+        None, "--failed-on", help="Date the pump failed, ISO 8601.", callback=iso_date_option
+    ),
     baseline: str = typer.Option(
-        None, "--baseline", help="Baseline period FROM..TO (default: the first three weeks)."
+        None,
+        "--baseline",
+        help="Baseline period FROM..TO in ISO 8601 (default: the first three weeks).",
+        callback=iso_period_option,
     ),
     out: Path = typer.Option(None, "--out", help="Report folder (default reports/onset_<pump>)."),
     enter_below: float = typer.Option(

@@ -78,7 +78,8 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
     known = index.known_tags()
     tags = [t.tag for pid in batch for t in plant.pumps[pid].tags().values() if t.tag in known]
     raw, read_problems = index.read(tags, ctx.span)
-    out = BatchOutput([], {}, [], [], dict(read_problems), 0, len(batch))
+    # files read in part (dates without a declared order): the worker's index says so
+    out = BatchOutput([], {}, [], [], {**index.partly_read, **read_problems}, 0, len(batch))
     for pid in batch:
         pump = plant.pumps[pid]
         try:

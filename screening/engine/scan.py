@@ -18,7 +18,7 @@ from screening.engine.calculator import PumpResult
 from screening.engine.execution import BatchContext, BatchOutput, fluid_tables_for, run_batches
 from screening.engine.one_pump import quality_row, read_barometer, settings_for
 from screening.engine.tables import ScanResult, scan_tables
-from screening.inputs.loader import ExportIndex
+from screening.inputs.loader import ExportIndex, open_exports
 from screening.inputs.plant import Plant, load_plant
 from screening.inputs.window import day_edges, window_bounds
 
@@ -82,7 +82,7 @@ def scan(
     start_ns, end_ns = start_ts.value, end_ts.value
     edges = day_edges(start_ts, end_ts, plant.timezone)
     settings = settings_for(plant)
-    index = ExportIndex(plant.settings, plant.base)
+    index = open_exports(plant)
     problems: list[dict] = [
         {"pump_id": pid, "stage": "config", "message": msg} for pid, msg in plant.problems.items()
     ]

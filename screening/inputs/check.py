@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from screening.inputs.loader import ExportIndex
+from screening.inputs.loader import open_exports
 from screening.inputs.plant import Plant, load_plant
 
 
@@ -48,7 +48,7 @@ def check(config: str | Path | Plant) -> CheckResult:
         The plant file or a loaded plant.
     """
     plant = config if isinstance(config, Plant) else load_plant(config)
-    index = ExportIndex(plant.settings, plant.base)
+    index = open_exports(plant)
     problems = [{"pump_id": k, "message": v} for k, v in plant.problems.items()]
     rows = []
     files = {**index.file_problems, **index.partly_read}

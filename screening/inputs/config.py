@@ -22,6 +22,7 @@ from pydantic import (
     model_validator,
 )
 
+from screening.inputs.tagdata import DEFAULT_OFF_WORDS, DEFAULT_ON_WORDS
 from screening.inputs.units import UnitError, parse_duration, parse_quantity, parse_unit
 
 
@@ -141,6 +142,20 @@ class Running(_Strict):
     #: hours outside are counted and shown (ISO 9906 converts test results only within about
     #: 80-120 % of the test speed, from memory).
     speed_scaling_range: tuple[float, float] = (0.8, 1.2)
+    #: Words of run-status tags besides the defaults (on/off, run/stop, running/stopped,
+    #: true/false, yes/no, 1/0; any case): e.g. on_words = ["in service"].
+    on_words: tuple[str, ...] = ()
+    off_words: tuple[str, ...] = ()
+
+    @model_validator(mode="after")
+    def _words_apart(self) -> Running:
+        on = {w.strip().lower() for w in self.on_words}
+        off = {w.strip().lower() for w in self.off_words}
+        from_defaults = set(DEFAULT_ON_WORDS), set(DEFAULT_OFF_WORDS)
+        both = sorted((on | from_defaults[0]) & (off | from_defaults[1]))
+        if both:
+            raise ValueError(f"word(s) {', '.join(map(repr, both))} in both on_words and off_words")
+        return self
 
     @field_validator("speed_scaling_range")
     @classmethod
@@ -205,6 +220,9 @@ class ExportSource(_Strict):
     delimiter: str = ","
     decimal: str = "."
     encoding: str = "utf-8"
+    #: Order of day and month in dates such as 03/04/2026 (see the README, "Dates"): read only
+    #: when declared, never guessed.
+    date_order: Literal["day_first", "month_first"] | None = None
 
     @model_validator(mode="after")
     def _keys_of_layout(self) -> ExportSource:

@@ -220,7 +220,13 @@ def _iso(ns: int | None) -> str:
 
 
 def add_chunks(
-    ds: Dataset, table: pa.Table, tags: list[str], chunks: dict, quality: dict, good: set[str]
+    ds: Dataset,
+    table: pa.Table,
+    tags: list[str],
+    chunks: dict,
+    quality: dict,
+    good: set[str],
+    status_words: dict[str, dict[str, float]] | None = None,
 ) -> None:
     """Turn a folder's rows into the loader's per-file chunks and quality counts.
 
@@ -240,7 +246,10 @@ def add_chunks(
         tag -> TagQuality, updated.
     good : set of str
         Quality words (lower case) meaning good.
+    status_words : dict, optional
+        tag -> run-status words and their values (1 running, 0 stopped), for run tags.
     """
+    status_words = status_words or {}
     if table.num_rows == 0:
         return
     time = table.column("time").cast(pa.int64())
@@ -271,10 +280,12 @@ def add_chunks(
         src = ds.sources[int(source[a])]
         where = f"{src['path']} {src['label']} "
         _count(quality[tag], chunks[tag], where, ok[sel], times[sel], values[sel],
-               is_text[sel], text[sel], bad_q[sel], rows[sel], malformed[sel])  # fmt: skip
+               is_text[sel], text[sel], bad_q[sel], rows[sel], malformed[sel],
+               status_words.get(tag))  # fmt: skip
 
 
-def _count(q, chunk_list, where, ok, times, values, is_text, text, bad_q, rows, malformed):
+def _count(q, chunk_list, where, ok, times, values, is_text, text, bad_q, rows, malformed,
+           words=None):  # fmt: skip
     """One file's samples of one tag: the loader's counts (see ``tagdata.add_chunk``)."""
     if not ok.all():
         q.bad_timestamps += int((~ok).sum())
@@ -282,5 +293,5 @@ def _count(q, chunk_list, where, ok, times, values, is_text, text, bad_q, rows, 
         times, values, is_text, text, bad_q, rows, malformed = (
             x[ok] for x in (times, values, is_text, text, bad_q, rows, malformed)
         )
-    bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed)
+    bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed, words)
     chunk_list.append((times, values.astype(np.float64, copy=False), bad))

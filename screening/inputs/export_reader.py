@@ -23,7 +23,7 @@ from screening.inputs.tagdata import (
     assemble,
     unexpected,
 )
-from screening.inputs.timestamps import parse_times
+from screening.inputs.timestamps import DateNotes, parse_times
 
 
 class TagReader:
@@ -35,10 +35,21 @@ class TagReader:
         self.index = index
         self._time_cache: OrderedDict[Path, tuple[np.ndarray, np.ndarray]] = OrderedDict()
 
-    def _wide_times(self, info: FileInfo, raw: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    def _times(self, info: FileInfo, raw: pd.Series, rows, label: str, groups=None):
+        """Parse a time column to UTC [ns] with the file's declared date order; day-month dates
+        that cannot be placed are named once per file (``index.partly_read``)."""
+        notes = DateNotes()
+        order = info.source.date_order
+        times, ok = parse_times(raw, self.index.timezone, groups, order, notes)
+        message = notes.message(info.path, label, rows, order)
+        if message:
+            self.index.partly_read[str(info.path)] = message
+        return times, ok
+
+    def _wide_times(self, info: FileInfo, raw: pd.Series, rows, label: str):
         cached = self._time_cache.get(info.path)
         if cached is None:
-            cached = parse_times(raw, self.index.timezone)
+            cached = self._times(info, raw, rows, label)
             self._time_cache[info.path] = cached
             while len(self._time_cache) > 64:
                 self._time_cache.popitem(last=False)
@@ -129,11 +140,8 @@ class TagReader:
             malformed = np.zeros(len(frame), dtype=bool)
         else:
             frame, rows, malformed = read_csv_rows(info.path, src, cols)
-        if info.fmt == "parquet" and span is not None and info.timestamp_typed:
-            times, ok = parse_times(frame[src.time_column], self.index.timezone)
-        else:
-            times, ok = self._wide_times(info, frame[src.time_column])
         label = "row" if info.fmt == "parquet" else "line"
+        times, ok = self._wide_times(info, frame[src.time_column], rows, label)
         for tag in tags:
             raw = frame[tag]
             # an empty cell is "not sampled"; a malformed row is a bad sample of every tag
@@ -141,6 +149,7 @@ class TagReader:
             add_chunk(
                 tag, info, raw[present], times[present], ok[present], rows[present],
                 None, chunks, quality, self.index.good_quality, label, span, malformed[present],
+                self.index.status_words.get(tag),
             )  # fmt: skip
 
     def _wide_arrow(self, info, table: pa.Table, tags, chunks, quality, span) -> None:
@@ -159,7 +168,8 @@ class TagReader:
                 present = raw.notna().to_numpy()
             add_chunk(
                 tag, info, raw[present], times[present], ok[present], rows[present],
-                None, chunks, quality, self.index.good_quality, "row", span,
+                None, chunks, quality, self.index.good_quality, "row", span, None,
+                self.index.status_words.get(tag),
             )  # fmt: skip
 
     def _read_dataset(self, info, tags, chunks, quality, span=None) -> None:
@@ -167,7 +177,9 @@ class TagReader:
         ds = self.index._datasets[info.path]
         try:
             table = _dataset.read_rows(ds, info.path.name, tags, span)
-            _dataset.add_chunks(ds, table, tags, chunks, quality, self.index.good_quality)
+            _dataset.add_chunks(
+                ds, table, tags, chunks, quality, self.index.good_quality, self.index.status_words
+            )
         except _dataset.DatasetError as exc:
             raise ExportError(str(exc)) from exc
 
@@ -196,7 +208,7 @@ class TagReader:
             keep = frame[src.tag_column].isin(tags).to_numpy()
             frame, rows, malformed = frame[keep], rows[keep], malformed[keep]
         frame = frame.reset_index(drop=True)
-        times, ok = parse_times(frame[src.time_column], self.index.timezone, frame[src.tag_column])
+        times, ok = self._times(info, frame[src.time_column], rows, label, frame[src.tag_column])
         tag_col = frame[src.tag_column].astype(str).to_numpy()
         for tag in tags:
             sel = tag_col == tag
@@ -204,4 +216,5 @@ class TagReader:
             add_chunk(
                 tag, info, frame[src.value_column][sel], times[sel], ok[sel], rows[sel],
                 qual, chunks, quality, self.index.good_quality, label, span, malformed[sel],
+                self.index.status_words.get(tag),
             )  # fmt: skip

@@ -283,12 +283,12 @@ def _wide_columns(index: ExportIndex, info: FileInfo, tags: list[str]):
             rows, label = np.arange(len(times)), "row"
         else:
             frame = table.to_pandas()
-            times, ok = parse_times(frame[src.time_column], index.timezone)
+            times, ok = parse_times(frame[src.time_column], index.timezone, None, src.date_order)
             rows, label = np.arange(len(frame)), "row"
         malformed = np.zeros(len(times), dtype=bool)
     else:  # line numbers, and rows with more or fewer fields than the header
         frame, rows, malformed = read_csv_rows(info.path, src, [src.time_column, *tags])
-        times, ok = parse_times(frame[src.time_column], index.timezone)
+        times, ok = parse_times(frame[src.time_column], index.timezone, None, src.date_order)
         label = "line"
     keys = ("tag", "times", "ok", "values", "text", "rows", "malformed")
     out: dict[str, list] = {k: [] for k in keys}
@@ -333,7 +333,7 @@ def _long_rows(index: ExportIndex, info: FileInfo, tags: list[str], summary: Ing
         frame, rows, tag = frame[has_tag].reset_index(drop=True), rows[has_tag], tag[has_tag]
         malformed = malformed[has_tag]
     tag = tag.reset_index(drop=True)
-    times, ok = parse_times(frame[src.time_column], index.timezone, tag)
+    times, ok = parse_times(frame[src.time_column], index.timezone, tag, src.date_order)
     values, text = _numbers(frame[src.value_column], src.decimal, malformed)
     qual = frame[src.quality_column] if src.quality_column else None
     return (tag.to_numpy(dtype=object), times, ok, values, text, qual, rows, malformed), label

@@ -32,7 +32,7 @@ from screening.inputs.export_files import (
     read_csv,
 )
 from screening.inputs.export_reader import TagReader
-from screening.inputs.tagdata import FILE_FAULTS, ExportError, TagSeries, unexpected
+from screening.inputs.tagdata import FILE_FAULTS, ExportError, TagSeries, status_words, unexpected
 
 
 class ExportIndex:
@@ -58,6 +58,9 @@ class ExportIndex:
         self._by_tag: dict[str, list[FileInfo]] = {}
         self._known: frozenset[str] | None = None
         self._datasets: dict[Path, _dataset.Dataset] = {}  # folder -> its dataset
+        #: Run-status tags and the words each may hold (tag -> word -> 1 or 0); see
+        #: :func:`open_exports`.
+        self.status_words: dict[str, dict[str, float]] = {}
         self._reader = TagReader(self)
         for source in plant.exports:
             if source.layout == "dataset":
@@ -192,3 +195,16 @@ class ExportIndex:
     ) -> tuple[dict[str, TagSeries], dict[str, str]]:
         """Read ``tags`` from every file that holds them (see :meth:`TagReader.read`)."""
         return self._reader.read(tags, span)
+
+
+def open_exports(plant) -> ExportIndex:
+    """The export index of a :class:`~screening.inputs.plant.Plant`, knowing its run-status
+    tags: their words (on/off, run/stop, true/false, yes/no, ... and the plant's own
+    ``[running] on_words`` / ``off_words``) are read as 1 and 0."""
+    index = ExportIndex(plant.settings, plant.base)
+    running = plant.settings.running
+    words = status_words(running.on_words, running.off_words)
+    for pump in plant.pumps.values():
+        if pump.run is not None:
+            index.status_words[pump.run.tag] = words
+    return index

@@ -80,9 +80,10 @@ def as_text(value) -> str | None:
 
 def add_chunk(
     tag, info, raw, times, ok, rows, qual, chunks, quality, good, label="line", span=None,
-    malformed=None,
+    malformed=None, status=None,
 ):  # fmt: skip
-    """Parse one file's values of one tag into numbers and bad flags; count the problems."""
+    """Parse one file's values of one tag into numbers and bad flags; count the problems.
+    ``status``: a run-status tag's words (see :func:`status_words`)."""
     q: TagQuality = quality[tag]
     if malformed is None:
         malformed = np.zeros(len(raw), dtype=bool)
@@ -123,12 +124,46 @@ def add_chunk(
     if qual is not None:
         words = qual.astype("string").str.strip().str.lower().fillna("")
         bad_q = (~words.isin(good) & (words != "")).to_numpy()
-    bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed)
+    bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed, status)
     chunks[tag].append((times, values, bad))
 
 
-def count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed) -> np.ndarray:
+#: Words a run-status tag may be exported as (any case, surrounding spaces ignored): running.
+DEFAULT_ON_WORDS = ("on", "run", "running", "true", "yes", "1")
+#: ... and stopped. ``[running] on_words`` and ``off_words`` in the plant file add to these.
+DEFAULT_OFF_WORDS = ("off", "stop", "stopped", "false", "no", "0")
+
+
+def status_words(on_words=(), off_words=()) -> dict[str, float]:
+    """The run-status words and their values (1 running, 0 stopped): the defaults plus the
+    plant's own, compared in lower case. A word given as both is refused."""
+    on = {str(w).strip().lower() for w in (*DEFAULT_ON_WORDS, *on_words)}
+    off = {str(w).strip().lower() for w in (*DEFAULT_OFF_WORDS, *off_words)}
+    both = sorted(on & off)
+    if both:
+        raise ValueError(f"run-status word(s) {', '.join(map(repr, both))} mean both on and off")
+    return {**{w: 1.0 for w in on}, **{w: 0.0 for w in off}}
+
+
+def _map_words(values: np.ndarray, is_text: np.ndarray, text, words: dict[str, float]):
+    """Known run-status words become 1 or 0 (in place); returns which samples stay text."""
+    picked = np.flatnonzero(is_text)
+    lowered = pd.Series(np.asarray(text, dtype=object)[picked]).astype("string")
+    mapped = lowered.str.strip().str.lower().map(words).to_numpy(dtype=np.float64, na_value=np.nan)
+    known = ~np.isnan(mapped)
+    values[picked[known]] = mapped[known]
+    is_text = is_text.copy()
+    is_text[picked[known]] = False
+    return is_text
+
+
+def count_samples(
+    q, where, times, values, is_text, text, bad_q, rows, malformed, words=None
+) -> np.ndarray:
     """Count one file's samples of one tag into ``q`` and return which are bad.
+
+    ``words`` (a run-status tag's, see :func:`status_words`) turns known words into 1 or 0
+    in ``values`` first; an unknown word stays a text value, counted with the word.
 
     The rules every reader shares (the raw exports here, the ingested dataset in
     :mod:`screening.inputs.dataset`): text values (with their words), rows with a wrong number of
@@ -136,6 +171,8 @@ def count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed
     kind's first place is noted as ``where`` plus the row. ``times`` [ns] hold only samples
     with a valid timestamp; ``text`` may be None when no value is text.
     """
+    if words and is_text.any():
+        is_text = _map_words(values, is_text, text, words)
     if is_text.any():
         q.text_values += int(is_text.sum())
         q.note("text value", where + str(rows[is_text][0]))

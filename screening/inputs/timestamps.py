@@ -12,26 +12,94 @@ Policy (documented in the README):
 - When clocks go forward, the skipped local hour does not exist. Such a timestamp cannot be
   placed in time: it is counted as a bad timestamp with its file and row, never moved.
 - A timestamp that cannot be parsed at all is counted the same way.
-- Besides ISO 8601, a date written with dots is day first (``01.10.2026 03:00`` is the first of
-  October) and one written with slashes month first (``10/01/2026``). A trailing ``UTC`` or
-  ``GMT`` is an offset of zero; any other zone name (``CET``, ``EST``: abbreviations are
-  ambiguous) cannot be placed and is a bad timestamp.
+- ISO 8601 is read as it is. A date whose day and month are both numbers ahead of the year
+  (``03.04.2026``, ``03/04/2026``, ``03-04-2026``, with or without a time) can be read two
+  ways, so it is read only with the order declared for its file (``date_order = "day_first"``
+  or ``"month_first"`` in the ``[[exports]]`` block). Without a declared order such rows are
+  not placed in time (counted as bad timestamps and the file named, with both readings of an
+  example); rows that are no date in the declared order (a 13th month) are bad timestamps too.
+  Two-digit years are 2000-2099. Other layouts that name the month in words or put the year
+  first (``Oct 1 2026``, ``2026/10/01``) are read as written.
+- A trailing ``UTC`` or ``GMT`` is an offset of zero; any other zone name (``CET``, ``EST``:
+  abbreviations are ambiguous) cannot be placed and is a bad timestamp.
 """
 
 from __future__ import annotations
 
 import warnings
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
 
 _OFFSET = r"(?:[Zz]|[+-]\d\d:?\d\d)\s*$"
 _ZERO_ZONE = r"\s*(?:UTC|GMT)\s*$"
-_DOTTED = r"^\s*\d{1,2}\.\d{1,2}\.\d{2,4}"
+#: Day and month as numbers ahead of the year, one separator, an optional time of day.
+_DAY_MONTH = (
+    r"^\s*(?P<a>\d{1,2})(?P<sep>[./-])(?P<b>\d{1,2})(?P=sep)(?P<y>\d{4}|\d{2})"
+    r"(?:(?:[ T]+)(?P<H>\d{1,2}):(?P<M>\d{2})(?::(?P<S>\d{2})(?:[.,](?P<f>\d{1,9}))?)?"
+    r"\s*(?P<ampm>[AaPp][Mm])?)?\s*$"
+)
+#: Declared orders of day and month (``date_order`` of an ``[[exports]]`` block).
+DATE_ORDERS = ("day_first", "month_first")
+
+
+@dataclass
+class DateNotes:
+    """Rows whose day-month dates could not be placed, by why (positions in the column)."""
+
+    undeclared: int = 0  # day-month dates in a file without a declared order
+    undeclared_first: int = -1
+    undeclared_example: str = ""
+    contradicting: int = 0  # no date in the declared order (a 13th month, a 31 April)
+    contradicting_first: int = -1
+    contradicting_example: str = ""
+
+    def message(self, path, label: str, rows, order: str | None) -> str | None:
+        """One line naming the file, the first row and an example (both readings when
+        undeclared); None when nothing was refused. ``rows`` maps positions to rows."""
+        if self.undeclared:
+            return (
+                f"{path}: dates like {self.undeclared_example!r} "
+                f"(first at {label} {rows[self.undeclared_first]}) read as "
+                f'{two_readings(self.undeclared_example)}; set date_order = "day_first" or '
+                '"month_first" in its [[exports]] block. Until then these rows are not placed '
+                "in time (bad timestamps), never guessed"
+            )
+        if self.contradicting:
+            return (
+                f"{path}: rows such as {self.contradicting_example!r} (first at {label} "
+                f"{rows[self.contradicting_first]}) are no date read {order.replace('_', ' ')} "
+                "(the declared date_order): bad timestamps"
+            )
+        return None
+
+
+def two_readings(text: str) -> str:
+    """Both readings of a day-month date, e.g. "3 April 2026 (day first) or 4 March 2026
+    (month first)"; a reading that is no date says so."""
+    m = pd.Series([text]).str.extract(_DAY_MONTH).iloc[0]
+    out = []
+    for order in DATE_ORDERS:
+        day, month = (m["a"], m["b"]) if order == "day_first" else (m["b"], m["a"])
+        try:
+            d = pd.Timestamp(year=_year(int(m["y"])), month=int(month), day=int(day))
+            out.append(f"{d.day} {d.strftime('%B %Y')} ({order.replace('_', ' ')})")
+        except (ValueError, TypeError):
+            out.append(f"no date ({order.replace('_', ' ')})")
+    return " or ".join(out)
+
+
+def _year(y: int) -> int:
+    return y + 2000 if y < 100 else y
 
 
 def parse_times(
-    raw: pd.Series, timezone: str, groups: pd.Series | None = None
+    raw: pd.Series,
+    timezone: str,
+    groups: pd.Series | None = None,
+    date_order: str | None = None,
+    notes: DateNotes | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Parse a column of timestamps to UTC.
 
@@ -43,6 +111,11 @@ def parse_times(
         IANA name of the site time zone, applied to timestamps that carry no offset.
     groups : pandas.Series, optional
         Tag of each row in a long-layout file: the repeated hour is resolved per tag.
+    date_order : {None, "day_first", "month_first"}
+        The declared order of day-month dates (``03/04/2026``); without one they are not
+        placed (see the module notes).
+    notes : DateNotes, optional
+        Filled with the day-month rows that could not be placed and why.
 
     Returns
     -------
@@ -51,6 +124,7 @@ def parse_times(
         ``ok``: bool, False where the timestamp could not be placed in time.
     """
     n = len(raw)
+    raw = raw.reset_index(drop=True)  # positions, for the notes
     if n == 0:
         return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=bool)
     if isinstance(raw.dtype, pd.DatetimeTZDtype):
@@ -68,25 +142,85 @@ def parse_times(
         times[has_offset], ok[has_offset] = t, k
     naive = ~has_offset
     if naive.any():
-        parsed = _parse_naive(text[naive])
+        parsed = _parse_naive(text[naive], date_order, notes)
         sub = None if groups is None else groups[naive].reset_index(drop=True)
         t, k = _localise(parsed, timezone, sub)
         times[naive], ok[naive] = t, k
     return times, ok
 
 
-def _parse_naive(text: pd.Series) -> pd.Series:
-    """Naive timestamps: ISO 8601 first, then dotted dates day first, then other layouts."""
+def _parse_naive(
+    text: pd.Series, date_order: str | None = None, notes: DateNotes | None = None
+) -> pd.Series:
+    """Naive timestamps: ISO 8601 first, then day-month dates in the declared order only,
+    then other layouts (month in words, year first)."""
     parsed = _ns(pd.to_datetime(text, errors="coerce", format="ISO8601"))
     missing = (parsed.isna() & text.notna()).to_numpy()
     if missing.any():
         rest = text[missing]
-        dotted = rest.str.match(_DOTTED).fillna(False).to_numpy(dtype=bool)
-        # "01.10.2026" is the first of October: dotted dates are day first, always
-        for part, dayfirst in ((rest[dotted], True), (rest[~dotted], False)):
-            if len(part):
-                parsed[part.index] = _parse_other(part, dayfirst).to_numpy()
+        parts = rest.str.extract(_DAY_MONTH)
+        day_month = parts["a"].notna().to_numpy()
+        if day_month.any():
+            dm = rest[day_month]
+            if date_order is None:
+                if notes is not None:
+                    _note(notes, "undeclared", dm, _ambiguous_example(parts[day_month]))
+                parsed[dm.index] = pd.NaT  # never guessed
+            else:
+                placed = _parse_day_month(parts[day_month], date_order)
+                parsed[dm.index] = placed.to_numpy()
+                wrong = placed.isna().to_numpy()
+                if notes is not None and wrong.any():
+                    _note(notes, "contradicting", dm[wrong], 0)
+        other = rest[~day_month]
+        if len(other):
+            parsed[other.index] = _parse_other(other, False).to_numpy()
     return parsed.reset_index(drop=True)
+
+
+def _note(notes: DateNotes, kind: str, rows: pd.Series, example: int) -> None:
+    if getattr(notes, kind) == 0:
+        setattr(notes, f"{kind}_first", int(rows.index[0]))
+        setattr(notes, f"{kind}_example", str(rows.iloc[example]))
+    setattr(notes, kind, getattr(notes, kind) + len(rows))
+
+
+def _ambiguous_example(parts: pd.DataFrame) -> int:
+    """Position of the first date both of whose readings are dates (else the first)."""
+    a = pd.to_numeric(parts["a"]).to_numpy()
+    b = pd.to_numeric(parts["b"]).to_numpy()
+    both = np.flatnonzero((a >= 1) & (a <= 12) & (b >= 1) & (b <= 12) & (a != b))
+    return int(both[0]) if len(both) else 0
+
+
+def _parse_day_month(parts: pd.DataFrame, date_order: str) -> pd.Series:
+    """Day-month dates (groups of :data:`_DAY_MONTH`) in the declared order; NaT where that
+    order gives no date or the time of day is impossible."""
+    if date_order not in DATE_ORDERS:
+        raise ValueError(f"date_order {date_order!r} is not one of {', '.join(DATE_ORDERS)}")
+    a, b = pd.to_numeric(parts["a"]), pd.to_numeric(parts["b"])
+    day, month = (a, b) if date_order == "day_first" else (b, a)
+    year = pd.to_numeric(parts["y"])
+    year = year.where(year >= 100, year + 2000)
+    hour = pd.to_numeric(parts["H"]).fillna(0)
+    ampm = parts["ampm"].fillna("").str.lower()
+    bad_12h = (ampm != "") & ((hour < 1) | (hour > 12))
+    hour = hour.where(~(ampm == "am") | (hour != 12), 0)
+    hour = hour.where(~(ampm == "pm") | (hour == 12), hour + 12)
+    fields = pd.DataFrame(
+        {
+            "year": year, "month": month, "day": day, "hour": hour,
+            "minute": pd.to_numeric(parts["M"]).fillna(0),
+            "second": pd.to_numeric(parts["S"]).fillna(0),
+        }
+    )  # fmt: skip
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        out = pd.to_datetime(fields, errors="coerce")
+    fraction = parts["f"].fillna("").str.ljust(9, "0").replace("000000000", "0")
+    out = out + pd.to_timedelta(pd.to_numeric(fraction.where(fraction != "", "0")), unit="ns")
+    out[bad_12h.to_numpy()] = pd.NaT
+    return _ns(out)
 
 
 def _parse_other(text: pd.Series, dayfirst: bool) -> pd.Series:

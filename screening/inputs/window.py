@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import datetime as dt
+import re
+
 import numpy as np
 import pandas as pd
 
@@ -10,6 +13,28 @@ from screening.inputs.plant import Plant
 
 class WindowError(ValueError):
     """A screening window that cannot be used."""
+
+
+#: ISO 8601 calendar dates, optionally with a time (``T`` or, as RFC 3339 allows, a space) and
+#: an offset. Nothing else is accepted for a window: ``01.10.2026`` or ``10/01/2026`` can be
+#: read two ways, and a window read the wrong way screens the wrong month.
+_ISO = re.compile(
+    r"^\d{4}-\d{2}-\d{2}"
+    r"(?:[T ]\d{2}:\d{2}(?::\d{2}(?:\.\d{1,9})?)?)?"
+    r"(?:Z|[+-]\d{2}:?\d{2})?$"
+)
+ISO_EXAMPLES = "2026-10-01, 2026-10-01T06:00 or 2026-10-01T06:00+01:00"
+
+
+def check_iso(value: str, name: str = "date") -> str:
+    """``value`` unchanged when it is an ISO 8601 date or date and time; else a
+    :class:`WindowError` that gives the ISO form (ISO 8601-1:2019, calendar date and time)."""
+    if not _ISO.match(value.strip()):
+        raise WindowError(
+            f"{name} {value!r} is not an ISO 8601 date; write it as {ISO_EXAMPLES} "
+            "(year-month-day, so that it cannot be read two ways)"
+        )
+    return value.strip()
 
 
 def window_bounds(plant: Plant, start=None, end=None) -> tuple[pd.Timestamp, pd.Timestamp]:
@@ -27,6 +52,10 @@ def window_bounds(plant: Plant, start=None, end=None) -> tuple[pd.Timestamp, pd.
         raise WindowError("no window: give --from and --to, or [window] start and end")
     out = []
     for name, value in (("start", start), ("end", end)):
+        if isinstance(value, str):
+            value = check_iso(value, f"window {name}")
+        elif not isinstance(value, dt.date | pd.Timestamp):
+            raise WindowError(f"window {name} {value!r} is not a date such as 2026-10-01")
         try:
             ts = pd.Timestamp(value)
         except (ValueError, TypeError) as exc:
