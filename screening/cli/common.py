@@ -128,9 +128,10 @@ def cluster_choice(cluster: str | None, workers: int | None):
     return cluster or workers
 
 
-def finish(folder, problems, n_ok: int, quiet: bool) -> None:
+def finish(folder, problems, n_ok: int, quiet: bool, n_thin: int = 0) -> None:
     """The end of a screening command: pumps not screened (standard error), the report's
-    path, and the exit code (0 all screened, 3 some not, 4 none)."""
+    path, and the exit code (0 all screened with enough data, 3 some not screened or without
+    enough data, 4 none screened)."""
     if not quiet:
         for row in problems.itertuples(index=False):
             typer.echo(f"not screened: {row.pump_id}: {row.message}", err=True)
@@ -138,4 +139,4 @@ def finish(folder, problems, n_ok: int, quiet: bool) -> None:
     typer.echo(str((folder / "index.html").resolve()))
     if n_ok == 0:
         raise typer.Exit(EXIT_NOTHING)
-    raise typer.Exit(EXIT_PARTIAL if len(problems) else EXIT_OK)
+    raise typer.Exit(EXIT_PARTIAL if len(problems) or n_thin else EXIT_OK)

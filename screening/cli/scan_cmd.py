@@ -10,10 +10,12 @@ from screening.engine.plotdata import DEFAULT_BUCKETS
 from screening.engine.scan import scan
 from screening.inputs.plant import load_plant
 from screening.report.plant_report import write_report
+from screening.report.text import hours_text
 
 from .common import (
     CLUSTER_OPTION,
     DEBUG_OPTION,
+    EXIT_NOTHING,
     FROM_OPTION,
     PROCESSES_OPTION,
     PUMP_OPTION,
@@ -53,25 +55,47 @@ def scan_command(
             plant, start, end, pumps=pump or None, plot_buckets=DEFAULT_BUCKETS,
             processes=processes, cluster=cluster_choice(cluster, workers), progress=advance,
         )  # fmt: skip
+    empty = result.empty_message() if len(result.summary) else None
+    if empty:  # an empty report would read as an all-clear: say it and stop
+        typer.echo(f"pumpscreen: {empty}", err=True)
+        raise typer.Exit(EXIT_NOTHING)
     if out is None:
         tz = result.plant.timezone
         a = result.start.tz_convert(tz).strftime("%Y%m%d")
         b = result.end.tz_convert(tz).strftime("%Y%m%d")
         out = Path("reports") / f"{config.stem}_{a}_{b}"
     folder = write_report(result, out, units=units.lower(), compare_to=compare_to)
-    n_ok, n_bad = len(result.summary), len(result.problems)
     if not quiet:
-        rate = result.samples / result.elapsed_s if result.elapsed_s else 0.0
+        print_ranking(result)
+    finish(folder, result.problems, len(result.summary), quiet, len(result.not_enough_data))
+
+
+def print_ranking(result) -> None:
+    """The console's summary: samples, the most exposed pumps with enough data, and the pumps
+    without enough data, apart."""
+    n_ok, n_bad = len(result.summary), len(result.problems)
+    rate = result.samples / result.elapsed_s if result.elapsed_s else 0.0
+    typer.echo(
+        f"screened {n_ok} pump(s), {n_bad} not screened; {result.samples:,} samples in "
+        f"{result.elapsed_s:.1f} s ({rate:,.0f} samples/s)"
+    )
+    ranked, thin = result.ranked, result.not_enough_data
+    if len(ranked):
+        typer.echo("most exposed (time below NPSH3 / below guidance):")
+        for row in ranked.head(5).itertuples(index=False):
+            typer.echo(
+                f"  {row.pump_id:<12} {hours_text(row.below_npsh3_hours, True):>8} "
+                f"{hours_text(row.below_guidance_hours, True):>9}   {row.service}"
+            )
+    if len(thin):
+        share = result.plant.settings.data.min_coverage
         typer.echo(
-            f"screened {n_ok} pump(s), {n_bad} not screened; {result.samples:,} samples in "
-            f"{result.elapsed_s:.1f} s ({rate:,.0f} samples/s)"
+            f"not enough data to screen ({len(thin)} pump(s) with data for less than "
+            f"{100 * share:.0f} % of the window; not ranked):"
         )
-        if len(result.summary):
-            worst = result.summary.head(5)
-            typer.echo("most exposed (hours below NPSH3 / below guidance):")
-            for row in worst.itertuples(index=False):
-                typer.echo(
-                    f"  {row.pump_id:<12} {row.below_npsh3_hours:8.1f} h "
-                    f"{row.below_guidance_hours:8.1f} h   {row.service}"
-                )
-    finish(folder, result.problems, n_ok, quiet)
+        for row in thin.itertuples(index=False):
+            typer.echo(
+                f"  {row.pump_id:<12} {100 * row.coverage:5.1f} % covered   "
+                f"no data {hours_text(row.no_data_hours, True)}, "
+                f"bad data {hours_text(row.bad_data_hours, True)}"
+            )

@@ -135,6 +135,10 @@ def scan(
         p for p in index.file_problems if Path(p).is_file()
     ]
     out.samples = samples
+    if samples == 0 and selected:
+        span = index.data_span()
+        if span is not None:
+            out.data_span = (pd.Timestamp(span[0], tz="UTC"), pd.Timestamp(span[1], tz="UTC"))
     out.elapsed_s = time.perf_counter() - t0
     return out
 

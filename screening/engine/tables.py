@@ -29,7 +29,9 @@ class ScanResult:
     hours : DataFrame
         ``pump_id``, ``state``, ``hours``: one row per screened pump and state, zeros included.
     summary : DataFrame
-        One row per screened pump: hours running, worst ratio, hours below guidance, coverage.
+        One row per screened pump: hours running, worst ratio, hours below guidance, coverage
+        and whether it reaches ``[data] min_coverage`` (``enough_data``); pumps without
+        enough data come last, never ranked among the healthy.
     daily : DataFrame
         ``pump_id``, ``date``, ``state``, ``hours``: hours per local day and state.
     quality : DataFrame
@@ -57,6 +59,33 @@ class ScanResult:
     points: dict[str, dict] = field(default_factory=dict)
     elapsed_s: float = 0.0
     samples: int = 0
+    #: When no pump had a sample in the window: the first and last sample the exports hold
+    #: (UTC), or None when they hold none.
+    data_span: tuple[pd.Timestamp, pd.Timestamp] | None = None
+
+    @property
+    def not_enough_data(self) -> pd.DataFrame:
+        """Summary rows of pumps whose data cover less than ``[data] min_coverage``."""
+        return self.summary[~self.summary["enough_data"].astype(bool)]
+
+    @property
+    def ranked(self) -> pd.DataFrame:
+        """Summary rows of pumps with enough data, most exposed first."""
+        return self.summary[self.summary["enough_data"].astype(bool)]
+
+    def empty_message(self) -> str | None:
+        """One line when no pump had a sample inside the window (else None): the window and
+        what the exports hold."""
+        if self.samples:
+            return None
+        tz = self.plant.timezone
+        a, b = (x.tz_convert(tz).strftime("%Y-%m-%d %H:%M") for x in (self.start, self.end))
+        if self.data_span is None:
+            held = "the exports hold no readable sample"
+        else:
+            lo, hi = (x.tz_convert(tz).strftime("%Y-%m-%d %H:%M") for x in self.data_span)
+            held = f"the exports hold {lo} to {hi}"
+        return f"no samples between {a} and {b} ({tz}); {held}"
 
     @property
     def window_hours(self) -> float:
@@ -68,7 +97,7 @@ class ScanResult:
 SUMMARY_COLUMNS = [
     "pump_id", "service", "area", "fluid", "vapour_pressure_model", "window_hours",
     "running_hours", "below_npsh3_hours", "below_guidance_hours", "off_curve_hours",
-    "no_data_hours", "bad_data_hours", "coverage", "worst_ratio", "worst_time",
+    "no_data_hours", "bad_data_hours", "coverage", "enough_data", "worst_ratio", "worst_time",
     "guidance_ratio", "guidance_margin_m", "guidance_source", "suction_specific_speed_us",
     "suction_specific_speed_metric", "preferred_region_hours", "outside_preferred_hours",
     "below_min_flow_hours", "beyond_allowable_hours", "speed_outside_scaling_hours",
@@ -108,6 +137,7 @@ def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_
         rh = dict(zip(regions.REGIONS, r.region_hours, strict=True))
         s_us = pump_suction_specific_speed(plant, r.pump_id)
         running = sum(h[s] for s in states.RUNNING)
+        coverage = 1.0 - (h["no_data"] + h["bad_data"]) / r.window_hours
         summary_rows.append(
             {
                 "pump_id": r.pump_id,
@@ -124,7 +154,8 @@ def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_
                 "off_curve_hours": h["off_curve"],
                 "no_data_hours": h["no_data"],
                 "bad_data_hours": h["bad_data"],
-                "coverage": 1.0 - (h["no_data"] + h["bad_data"]) / r.window_hours,
+                "coverage": coverage,
+                "enough_data": bool(coverage >= plant.settings.data.min_coverage),
                 "worst_ratio": r.worst_ratio,
                 "worst_time": (
                     r.worst_time.tz_convert(plant.timezone) if r.worst_time is not None else None
@@ -146,10 +177,18 @@ def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_
     hours = pd.DataFrame(hours_rows, columns=["pump_id", "kind", "state", "hours"])
     summary = pd.DataFrame(summary_rows, columns=SUMMARY_COLUMNS)
     if len(summary):
-        summary = summary.sort_values(
-            ["below_npsh3_hours", "below_guidance_hours", "pump_id"],
-            ascending=[False, False, True],
-        ).reset_index(drop=True)
+        # pumps with enough data ranked by exposure; those without are listed after them,
+        # least covered first, never among the healthy
+        summary["_thin_coverage"] = np.where(summary["enough_data"], 0.0, summary["coverage"])
+        summary = (
+            summary.sort_values(
+                ["enough_data", "_thin_coverage", "below_npsh3_hours", "below_guidance_hours",
+                 "pump_id"],
+                ascending=[False, True, False, False, True],
+            )
+            .drop(columns="_thin_coverage")
+            .reset_index(drop=True)
+        )  # fmt: skip
     daily = pd.concat(
         [
             _daily(results, days, "margin", names, lambda r: r.daily),

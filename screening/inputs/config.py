@@ -119,6 +119,9 @@ class DataRules(_Strict):
     stale_limit: float = 300.0
     frozen_after: float | None = 6 * 3600.0
     good_quality: tuple[str, ...] = ("good",)
+    #: Share of the window a pump's data must cover (not no data, not bad data) for its hours
+    #: to be ranked; below it the pump is listed as "not enough data to screen" [-].
+    min_coverage: float = Field(0.9, ge=0.0, le=1.0)
 
     _dur = field_validator("stale_limit", "frozen_after", mode="before")(
         lambda v: None if v in (None, "", "none", "off") else _duration(v)

@@ -190,6 +190,17 @@ class ExportIndex:
             out += self._datasets[f.path].tag_files.get(tag, []) if f.fmt == "dataset" else [f.path]
         return out
 
+    def data_span(self) -> tuple[int, int] | None:
+        """First and last placed sample time of all export files [ns, UTC], or None when they
+        hold none. Reads every file's time column (or the Parquet statistics): for the message
+        of a window without samples, not for the scan."""
+        tags = sorted(self._by_tag)
+        series, _ = self.read(tags)
+        times = [s.times for s in series.values() if len(s.times)]
+        if not times:
+            return None
+        return int(min(t[0] for t in times)), int(max(t[-1] for t in times))
+
     def read(
         self, tags: list[str], span: tuple[int, int] | None = None
     ) -> tuple[dict[str, TagSeries], dict[str, str]]:

@@ -29,6 +29,7 @@ from screening.base.files import atomic_folder, page_names
 from screening.base.version import __version__
 from screening.engine.execution import default_processes
 from screening.engine.scan import ScanResult
+from screening.inputs.window import WindowError
 from screening.physics import regions
 from screening.physics.properties import fluid_table
 from screening.report import pump_pages
@@ -43,11 +44,13 @@ from screening.report.palette import (
     STATE_PATTERNS,
 )
 from screening.report.pump_pages import DISPLAY_UNITS
+from screening.report.text import hours_text
 
 _ENV = Environment(
     loader=PackageLoader("screening.report", "templates"),
     autoescape=select_autoescape(["html"]),
 )
+_ENV.filters["hours"] = hours_text
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
@@ -185,6 +188,9 @@ def write_report(
     -------
     Path of the report folder.
     """
+    empty = result.empty_message() if len(result.summary) else None
+    if empty:  # an empty report would read as an all-clear
+        raise WindowError(f"no report written: {empty}")
     out = Path(out)
     if units not in DISPLAY_UNITS:
         raise ValueError(f"display units {units!r} are not 'si' or 'us'")
@@ -344,6 +350,8 @@ def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
     hours_of = dict(list(result.hours.groupby("pump_id", sort=False)))
     margin_days = result.daily[result.daily.kind == "margin"]
     daily_of = dict(list(margin_days.groupby("pump_id", sort=False)))
+    thin = result.not_enough_data.set_index("pump_id")["coverage"].to_dict()
+    least = plant.settings.data.min_coverage
     for pid, name in pages.items():
         pump = plant.pumps[pid]
         g = plant.guidance[pid]
@@ -353,7 +361,7 @@ def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
         rows = []
         for kind, names in (("margin", states.STATES), ("region", regions.REGIONS)):
             part = h[h.kind == kind].set_index("state")["hours"]
-            rows.append([kind] + [f"{n}: {part.get(n, 0.0):.1f} h" for n in names])
+            rows.append([kind] + [f"{n}: {hours_text(part.get(n, 0.0), True)}" for n in names])
         figs = {"fig_npsh": "", "fig_ratio": "", "fig_process": "", "fig_points": ""}
         if plot is not None and len(plot):
             t = local_times(plot["time"], tz)  # the same time axis for the three plots
@@ -388,6 +396,14 @@ def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
             ample_ratio=f"{ample:.2f}",
             register=pump_pages.register_rows(pump, g, model, units),
             cautions=CAUTIONS,
+            thin_note=(
+                f"Not enough data to screen: usable data for {100 * thin[pid]:.1f} % of the "
+                f"window, less than the {100 * least:.0f} % asked ([data] min_coverage). The "
+                "hours here are those of the data there was; little time below the guidance "
+                "means little was seen, not that the margin was good."
+                if pid in thin
+                else ""
+            ),
             **figs,
         )
         pump_pages.write_pump_page(folder / "pumps" / name, html)
@@ -423,7 +439,7 @@ def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> 
     tz = result.plant.timezone
     site = result.plant.settings.site
     ranking = []
-    for row in result.summary.itertuples(index=False):
+    for row in result.ranked.itertuples(index=False):
         d = row._asdict()
         d["worst_ratio_text"] = "—" if pd.isna(row.worst_ratio) else f"{row.worst_ratio:.2f}"
         d["guidance_text"] = f"{row.guidance_ratio:.2f} or {row.guidance_margin_m:.2f} m"
@@ -460,6 +476,14 @@ def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> 
         version=meta["version"],
         written=meta["written_utc"],
         ranking=ranking,
+        thin=[
+            {
+                **r,
+                "page": f"pumps/{pages[r['pump_id']]}" if pages and r["pump_id"] in pages else None,
+            }
+            for r in result.not_enough_data.to_dict("records")
+        ],
+        min_coverage=result.plant.settings.data.min_coverage,
         legend=[{"label": STATE_LABELS[s], "colour": STATE_COLOURS[s]} for s in states.STATES],
         hours_figure=_hours_figure(result, "margin"),
         region_figure=_hours_figure(result, "region"),
