@@ -11,8 +11,8 @@ Python API (the command line uses the same functions)::
 
 from screening.base.states import BANDS, STATES
 from screening.base.version import __version__
+from screening.engine.preflight import check
 from screening.engine.scan import ScanResult, scan
-from screening.inputs.check import check
 from screening.inputs.config import ConfigError
 from screening.inputs.plant import Plant, load_plant
 from screening.inputs.window import WindowError

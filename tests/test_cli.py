@@ -81,17 +81,19 @@ def test_config_error_is_one_paragraph(tmp_path):
 def test_check_reports_tags_and_coverage(two_pumps):
     res = runner.invoke(app, ["check", str(two_pumps)])
     assert res.exit_code == 0, res.output
-    assert "P2.PS" in res.output and "1440 samples" in res.output
-    assert "ok: every pump can be screened" in res.output
+    assert "P1           can be screened     data for 100.0 % of the window" in res.output
+    assert "2 pump(s): 2 can be screened, 0 not enough data, 0 cannot be screened" in res.output
     result = screening.check(two_pumps)
     assert result.ok and len(result.tags) == 8
+    assert set(result.tags["samples"]) == {1440}
 
 
 def test_check_finds_missing_tag(tmp_path):
     path = make_plant(tmp_path, wide={"a.csv": steady_frame("P1")}, rows=[pump_row("P2")])
     res = runner.invoke(app, ["check", str(path)])
     assert res.exit_code == 3
-    assert "P2.PS (suction) not found" in res.output
+    assert "P2           cannot be screened" in res.output
+    assert "not found in any export file" in res.output and "P2.PS (suction)" in res.output
 
 
 def test_check_counts_malformed_rows(tmp_path):

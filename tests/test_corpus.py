@@ -37,7 +37,8 @@ CASES = [
     ),
     Case(
         "wide_dotted_dates.csv",
-        "'01.10.2026 03:00' read month first (10 January): no data, silently",
+        "'01.10.2026 03:00' read month first (10 January): no data, silently; now read only "
+        "with a declared date_order",
     ),
     Case(
         "wide_extra_field.csv", "a row with two extra fields read with its first fields, silently"
@@ -104,6 +105,16 @@ def _replay_export(tmp_path: Path, name: str) -> None:
     elif name == "wide_year_9999.csv":
         assert _q(r, "flow")["bad_timestamps"] == 1 and _q(r, "flow")["samples"] == 2
     elif name == "wide_dotted_dates.csv":
+        # '01.10.2026' reads as 1 October or 10 January: without a declared order the rows
+        # are not placed (never guessed), and the file is named with both readings
+        assert _q(r, "temperature")["bad_timestamps"] == 24
+        assert "1 October 2026 (day first) or 10 January 2026 (month first)" in files
+        assert "date_order" in files
+        plant = tmp_path / "plant.toml"
+        plant.write_text(
+            plant.read_text().replace("[[exports]]\n", '[[exports]]\ndate_order = "day_first"\n')
+        )
+        r = screening.scan(plant)
         assert _q(r, "temperature")["samples"] == 24  # 1 to 2 October, inside the window
         assert _margin(r)["ample_margin"] == pytest.approx(24 * 5 / 60)
     elif name == "wide_extra_field.csv":

@@ -6,11 +6,11 @@ from pathlib import Path
 
 import typer
 
+from screening.base.text import hours_text
 from screening.engine.plotdata import DEFAULT_BUCKETS
 from screening.engine.scan import scan
 from screening.inputs.plant import load_plant
 from screening.report.plant_report import write_report
-from screening.report.text import hours_text
 
 from .common import (
     CLUSTER_OPTION,

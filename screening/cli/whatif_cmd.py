@@ -7,12 +7,14 @@ from pathlib import Path
 
 import typer
 
+from screening.base.text import hours_text
 from screening.inputs.plant import load_plant
 from screening.report.whatif_page import write_whatif_report
 from screening.scenarios.whatif import whatif
 
 from .common import (
     DEBUG_OPTION,
+    EXIT_NOTHING,
     FROM_OPTION,
     PUMP_OPTION,
     QUIET_OPTION,
@@ -49,6 +51,10 @@ def whatif_command(
         result = whatif(plant, scenarios, start, end, pumps=pump or None, shares=shares,
                         progress=advance)  # fmt: skip
     scan = result.scan
+    empty = scan.empty_message() if len(scan.summary) else None
+    if empty:  # nothing recorded to replay: say it rather than write an empty report
+        typer.echo(f"pumpscreen: {empty}", err=True)
+        raise typer.Exit(EXIT_NOTHING)
     if out is None:
         tz = scan.plant.timezone
         a = scan.start.tz_convert(tz).strftime("%Y%m%d")
@@ -62,7 +68,10 @@ def whatif_command(
         below = h[(h.kind == "margin") & h.state.isin(["below_npsh3", "below_guidance"])]
         for (sc, pid), g in below.groupby(["scenario", "pump_id"], sort=False):
             before, after = g["before_h"].sum(), g["after_h"].sum()
-            typer.echo(f"  {sc}: {pid} below guidance {before:.1f} h -> {max(after, 0):.1f} h")
+            typer.echo(
+                f"  {sc}: {pid} below guidance {hours_text(before, True)} -> "
+                f"{hours_text(max(after, 0), True)}"
+            )
         for note in result.notes:
             typer.echo(f"note: {note}", err=True)
-    finish(folder, scan.problems, n_ok, quiet)
+    finish(folder, scan.problems, n_ok, quiet, len(scan.not_enough_data))

@@ -6,9 +6,11 @@ Shared by every place that runs pumps (this process, a worker process, a Dask wo
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 
 from screening.engine.calculator import Settings, calculate_pump, prepare_tag
 from screening.inputs.plant import Plant
+from screening.inputs.quality import sample_gaps
 from screening.inputs.tagdata import ExportError, TagQuality
 from screening.inputs.units import UnitError, to_si
 from screening.physics.properties import fluid_table
@@ -84,6 +86,12 @@ def screen_pump(
         except UnitError as exc:
             raise ExportError(f"tag {spec.tag} ({role}): {exc}") from exc
         n += int(np.searchsorted(s.times, end_ns) - np.searchsorted(s.times, start_ns))
+        limit = spec.stale_limit if spec.stale_limit is not None else settings.stale_limit
+        q = prepared[role].quality
+        q.gaps, missing, q.longest_gaps = sample_gaps(
+            s.times, start_ns, end_ns, int(round(limit * 1e9))
+        )
+        q.gap_hours = missing / 3.6e12
     result = calculate_pump(
         pump, plant.curves[pump.curve_id], plant.guidance[pump.pump_id], table, prepared,
         barometer if pump.needs_barometer else None, settings, start_ns, end_ns, edges, keep,
@@ -96,7 +104,7 @@ def screen_pump(
 QUALITY_COLUMNS = [
     "pump_id", "role", "tag", "samples", "text_values", "bad_quality", "not_finite", "frozen",
     "out_of_range", "bad_timestamps", "duplicates", "out_of_order", "malformed_rows", "words",
-    "first_problem",
+    "first_problem", "gaps", "gap_hours", "longest_gaps",
 ]  # fmt: skip
 
 
@@ -118,4 +126,10 @@ def quality_row(pid: str, role: str, q: TagQuality) -> dict:
         "malformed_rows": q.malformed_rows,
         "words": "; ".join(f"{w} ({c})" for w, c in sorted(q.words.items())),
         "first_problem": "; ".join(f"{k}: {v}" for k, v in q.first_problem.items()),
+        "gaps": q.gaps,
+        "gap_hours": q.gap_hours,
+        "longest_gaps": "; ".join(
+            f"{pd.Timestamp(a, tz='UTC'):%Y-%m-%dT%H:%MZ} for {n / 3.6e12:.1f} h"
+            for a, n in q.longest_gaps
+        ),
     }

@@ -85,7 +85,11 @@ class ScanResult:
         else:
             lo, hi = (x.tz_convert(tz).strftime("%Y-%m-%d %H:%M") for x in self.data_span)
             held = f"the exports hold {lo} to {hi}"
-        return f"no samples between {a} and {b} ({tz}); {held}"
+        text = f"no samples between {a} and {b} ({tz}); {held}"
+        if len(self.file_problems):
+            first = self.file_problems.iloc[0]["message"]
+            text += f". {len(self.file_problems)} file(s) not read or read only in part: {first}"
+        return text
 
     @property
     def window_hours(self) -> float:
@@ -119,12 +123,11 @@ def _daily(results, days, kind: str, names: list[str], get) -> pd.DataFrame:
 
 
 def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_problems):
+    """The tidy tables of a scan from the pumps' results (see :class:`ScanResult`)."""
     names = list(states.STATES)
     hours_rows, summary_rows = [], []
     days = pd.to_datetime(edges[:-1], utc=True).tz_convert(plant.timezone).date
     for r in results:
-        pump = plant.pumps[r.pump_id]
-        g = plant.guidance[r.pump_id]
         for name, h in zip(names, r.hours, strict=True):
             hours_rows.append(
                 {"pump_id": r.pump_id, "kind": "margin", "state": name, "hours": float(h)}
@@ -133,47 +136,7 @@ def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_
             hours_rows.append(
                 {"pump_id": r.pump_id, "kind": "region", "state": name, "hours": float(h)}
             )
-        h = dict(zip(names, r.hours, strict=True))
-        rh = dict(zip(regions.REGIONS, r.region_hours, strict=True))
-        s_us = pump_suction_specific_speed(plant, r.pump_id)
-        running = sum(h[s] for s in states.RUNNING)
-        coverage = 1.0 - (h["no_data"] + h["bad_data"]) / r.window_hours
-        summary_rows.append(
-            {
-                "pump_id": r.pump_id,
-                "service": pump.service,
-                "area": pump.area,
-                "fluid": pump.fluid,
-                "vapour_pressure_model": fluid_table(
-                    pump.fluid, pump.vapour_pressure
-                ).vapour_pressure_model,
-                "window_hours": r.window_hours,
-                "running_hours": running,
-                "below_npsh3_hours": h["below_npsh3"],
-                "below_guidance_hours": h["below_npsh3"] + h["below_guidance"],
-                "off_curve_hours": h["off_curve"],
-                "no_data_hours": h["no_data"],
-                "bad_data_hours": h["bad_data"],
-                "coverage": coverage,
-                "enough_data": bool(coverage >= plant.settings.data.min_coverage),
-                "worst_ratio": r.worst_ratio,
-                "worst_time": (
-                    r.worst_time.tz_convert(plant.timezone) if r.worst_time is not None else None
-                ),
-                "guidance_ratio": g.ratio,
-                "guidance_margin_m": g.margin,
-                "guidance_source": g.source,
-                "suction_specific_speed_us": s_us,
-                "suction_specific_speed_metric": s_us / US_PER_METRIC_S,
-                "preferred_region_hours": rh["preferred_region"],
-                "outside_preferred_hours": sum(rh[x] for x in regions.RUNNING_REGIONS)
-                - rh["preferred_region"],
-                "below_min_flow_hours": rh["below_min_flow"],
-                "beyond_allowable_hours": rh["beyond_allowable"],
-                "speed_outside_scaling_hours": r.speed_outside_hours,
-                "standard_atmosphere_hours": r.baro_fallback_hours,
-            }
-        )
+        summary_rows.append(_summary_row(plant, r))
     hours = pd.DataFrame(hours_rows, columns=["pump_id", "kind", "state", "hours"])
     summary = pd.DataFrame(summary_rows, columns=SUMMARY_COLUMNS)
     if len(summary):
@@ -202,3 +165,50 @@ def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_
         [{"file": k, "message": v} for k, v in file_problems.items()], columns=["file", "message"]
     )
     return ScanResult(plant, start, end, hours, summary, daily, quality, probs, files)
+
+
+def _summary_row(plant, r) -> dict:
+    """One pump's row of the summary table: hours [h] by kind of state, coverage [-], worst
+    ratio [-], guidance and suction specific speed."""
+    pump = plant.pumps[r.pump_id]
+    g = plant.guidance[r.pump_id]
+    names = list(states.STATES)
+    h = dict(zip(names, r.hours, strict=True))
+    rh = dict(zip(regions.REGIONS, r.region_hours, strict=True))
+    s_us = pump_suction_specific_speed(plant, r.pump_id)
+    running = sum(h[s] for s in states.RUNNING)
+    coverage = 1.0 - (h["no_data"] + h["bad_data"]) / r.window_hours
+    return {
+        "pump_id": r.pump_id,
+        "service": pump.service,
+        "area": pump.area,
+        "fluid": pump.fluid,
+        "vapour_pressure_model": fluid_table(
+            pump.fluid, pump.vapour_pressure
+        ).vapour_pressure_model,
+        "window_hours": r.window_hours,
+        "running_hours": running,
+        "below_npsh3_hours": h["below_npsh3"],
+        "below_guidance_hours": h["below_npsh3"] + h["below_guidance"],
+        "off_curve_hours": h["off_curve"],
+        "no_data_hours": h["no_data"],
+        "bad_data_hours": h["bad_data"],
+        "coverage": coverage,
+        "enough_data": bool(coverage >= plant.settings.data.min_coverage),
+        "worst_ratio": r.worst_ratio,
+        "worst_time": (
+            r.worst_time.tz_convert(plant.timezone) if r.worst_time is not None else None
+        ),
+        "guidance_ratio": g.ratio,
+        "guidance_margin_m": g.margin,
+        "guidance_source": g.source,
+        "suction_specific_speed_us": s_us,
+        "suction_specific_speed_metric": s_us / US_PER_METRIC_S,
+        "preferred_region_hours": rh["preferred_region"],
+        "outside_preferred_hours": sum(rh[x] for x in regions.RUNNING_REGIONS)
+        - rh["preferred_region"],
+        "below_min_flow_hours": rh["below_min_flow"],
+        "beyond_allowable_hours": rh["beyond_allowable"],
+        "speed_outside_scaling_hours": r.speed_outside_hours,
+        "standard_atmosphere_hours": r.baro_fallback_hours,
+    }

@@ -41,3 +41,53 @@ def frozen_samples(times: np.ndarray, values: np.ndarray, bad: np.ndarray, limit
     run_start_time = times[starts][run_id]
     out = (times - run_start_time) > limit_ns
     return out
+
+
+def sample_gaps(
+    times: np.ndarray, start_ns: int, end_ns: int, limit_ns: int, keep: int = 3
+) -> tuple[int, int, list[tuple[int, int]]]:
+    """Stretches of the window [start_ns, end_ns) in which a tag had no fresh sample: a
+    sample holds for ``limit_ns`` (the stale limit), so a gap is a stretch from a sample (or
+    the window start) to the next sample (or the window end) longer than that.
+
+    Parameters
+    ----------
+    times : numpy.ndarray
+        Sample times [ns], sorted ascending (any span; those before the window count as the
+        last sample before it).
+    start_ns, end_ns : int
+        The window [ns].
+    limit_ns : int
+        Stale limit [ns].
+    keep : int
+        How many of the longest gaps to return.
+
+    Returns
+    -------
+    (count, no_data_ns, longest)
+        Number of gaps, the time without a fresh sample in them [ns] (each gap less the
+        ``limit_ns`` its first sample holds), and the ``keep`` longest as (from [ns], length [ns]).
+    """
+    lo, hi = np.searchsorted(times, [start_ns, end_ns])
+    inside = times[lo:hi].astype(np.int64)
+    first = times[lo - 1] if lo > 0 else None
+    held = first is not None and first + limit_ns > start_ns
+    # points from which a stretch is measured, and where each stretch ends
+    begin = np.concatenate(([first if held else start_ns], inside))
+    stop = np.concatenate((inside, [end_ns]))
+    length = stop - begin
+    # a stretch from the window start with no sample behind it has no sample to hold: all of
+    # it is without data, but like any stretch it is a gap only when longer than the limit
+    hold = np.full(len(begin), limit_ns, dtype=np.int64)
+    if not held:
+        hold[0] = 0
+    over = length > limit_ns
+    if not over.any():
+        return 0, 0, []
+    missing = np.clip(np.minimum(stop, end_ns) - np.maximum(begin + hold, start_ns), 0, None)
+    idx = np.flatnonzero(over & (missing > 0))
+    order = idx[np.argsort(-length[idx], kind="stable")][:keep]
+    longest = [
+        (int(max(begin[i], start_ns)), int(stop[i] - max(begin[i], start_ns))) for i in order
+    ]
+    return len(idx), int(missing[idx].sum()), longest

@@ -323,8 +323,31 @@ class _Row:
         return value
 
 
+#: Cells a row needs besides :data:`REQUIRED`, by how its suction is measured.
+_NEEDED_BY_SOURCE = {
+    "transmitter": ("suction_pressure_tag", "suction_pressure_unit",
+                    "suction_pressure_reference", "tap_elevation", "tap_bore"),
+    "vessel": ("level_tag", "level_unit", "level_zero_elevation", "vessel_surface"),
+}  # fmt: skip
+
+
+def _empty_cells(r: _Row) -> None:
+    """Every empty cell the row needs, named in one message (not one per run)."""
+    source = (r.row.get("suction_source") or "transmitter").strip().lower()
+    needed = REQUIRED + _NEEDED_BY_SOURCE.get(source, ())
+    if source == "vessel" and str(r.row.get("vessel_surface", "")).strip().lower() == "pressure":
+        needed += ("vessel_pressure_tag", "vessel_pressure_unit", "vessel_pressure_reference")
+    empty = [c for c in needed if r.row.get(c) in ("", None)]
+    if len(empty) > 1:
+        raise ConfigError(
+            f"{r.path} line {r.line} (pump {r.row.get('pump_id') or '?'}): columns "
+            f"{', '.join(repr(c) for c in empty)} are empty; each needs a value"
+        )
+
+
 def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
     r = _Row(path, line, row, units)
+    _empty_cells(r)
     stale = r.quantity("stale_limit", "duration", required=False)
     if stale is not None and not 0 < stale <= MAX_STALE_LIMIT:
         r.fail("stale_limit", "must be a positive duration up to 366 days, such as '15 min'")

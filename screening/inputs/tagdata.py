@@ -52,6 +52,11 @@ class TagQuality:
     malformed_rows: int = 0
     words: dict[str, int] = field(default_factory=dict)
     first_problem: dict[str, str] = field(default_factory=dict)
+    #: Stretches of the window without a fresh sample (longer than the stale limit): how
+    #: many, the hours without data they leave [h], and the longest as (from [ns], length [ns]).
+    gaps: int = 0
+    gap_hours: float = 0.0
+    longest_gaps: list[tuple[int, int]] = field(default_factory=list)
 
     def note(self, kind: str, where: str) -> None:
         """Remember the first place a problem of ``kind`` was seen."""

@@ -51,6 +51,44 @@ class UnitError(ValueError):
     """A unit string that pint cannot parse or that has the wrong dimension."""
 
 
+#: Spellings met in registers and historian exports, in the case pint reads them.
+_CANONICAL = {
+    u.lower(): u
+    for u in ("Pa", "kPa", "MPa", "hPa", "bar", "mbar", "psi", "inHg", "mmHg", "degC", "degF",
+              "K", "m3/h", "m3/s", "L/s", "L/min", "gpm", "rpm", "m", "mm", "ft", "in")
+}  # fmt: skip
+#: Pressure units written with the reference in them ("psig", "bar(a)", "kPa g").
+_REFERENCED = re.compile(
+    r"^\s*(?P<unit>k?pa|mpa|hpa|m?bar|psi|kg/cm2|kgf/cm2)\s*[(\[]?\s*(?P<ref>[ga])\s*[)\]]?\s*$",
+    re.IGNORECASE,
+)
+_OTHER_HINTS = {
+    "c": "degC", "f": "degF", "deg c": "degC", "deg f": "degF", "celsius": "degC",
+    "fahrenheit": "degF", "usgpm": "gpm", "kg/cm2": "kgf/cm**2", "m3/hr": "m3/h", "lps": "L/s",
+}  # fmt: skip
+
+
+def unit_hint(text: str) -> str | None:
+    """What to write instead of a unit that is refused, or None: ``psig`` -> ``psi`` with the
+    reference column ``gauge``; ``kpa`` -> ``kPa`` (units are case-sensitive)."""
+    s = str(text).strip()
+    m = _REFERENCED.match(s)
+    if m:
+        unit = m.group("unit").lower()
+        unit = "kgf/cm**2" if unit.startswith("kg") else _CANONICAL.get(unit, unit)
+        ref = "gauge" if m.group("ref").lower() == "g" else "absolute"
+        return (
+            f"write {unit!r} and put the reference, {ref!r}, in the pressure's reference "
+            "column (e.g. suction_pressure_reference)"
+        )
+    low = s.lower()
+    if low in _OTHER_HINTS:
+        return f"write {_OTHER_HINTS[low]!r}"
+    if low in _CANONICAL and _CANONICAL[low] != s:
+        return f"write {_CANONICAL[low]!r} (units are case-sensitive)"
+    return None
+
+
 def _normalise(text: str) -> str:
     text = text.strip().replace("³", "**3").replace("²", "**2").replace("°", "deg")
     text = text.replace("degreesC", "degC").replace("degreesF", "degF")
@@ -82,16 +120,18 @@ def parse_unit(text: str, kind: str) -> pint.Unit:
         raise ValueError(f"unknown quantity kind {kind!r}")
     if text is None or not str(text).strip():
         raise UnitError(f"no unit given for a {kind} (valid examples: {EXAMPLES[kind]})")
+    hint = unit_hint(text)
+    hint = f"; {hint}" if hint else ""
     try:
         unit = ureg.parse_units(_normalise(str(text)))
     except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError, Exception) as exc:
         raise UnitError(
-            f"unit {text!r} is not known (valid {kind} units: {EXAMPLES[kind]})"
+            f"unit {text!r} is not known (valid {kind} units: {EXAMPLES[kind]}){hint}"
         ) from exc
     target = ureg.parse_units(SI_UNITS[kind])
     if unit.dimensionality != target.dimensionality:
         raise UnitError(
-            f"unit {text!r} is not a {kind} unit (valid {kind} units: {EXAMPLES[kind]})"
+            f"unit {text!r} is not a {kind} unit (valid {kind} units: {EXAMPLES[kind]}){hint}"
         )
     return unit
 

@@ -26,6 +26,7 @@ from plotly.offline import get_plotlyjs
 
 from screening.base import states
 from screening.base.files import atomic_folder, page_names
+from screening.base.text import hours_text
 from screening.base.version import __version__
 from screening.engine.execution import default_processes
 from screening.engine.scan import ScanResult
@@ -44,7 +45,6 @@ from screening.report.palette import (
     STATE_PATTERNS,
 )
 from screening.report.pump_pages import DISPLAY_UNITS
-from screening.report.text import hours_text
 
 _ENV = Environment(
     loader=PackageLoader("screening.report", "templates"),
