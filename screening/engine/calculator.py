@@ -97,6 +97,8 @@ def prepare_tag(
     else:
         with np.errstate(over="ignore"):  # an overflow is counted below
             values = to_si(series.values, spec.unit, spec.kind)
+            if spec.scale != 1.0:  # a drive frequency: n = n_rated·f/f_rated (register)
+                values = values * spec.scale
     bad = series.bad.copy()
     # a finite reading that overflows on conversion (1e308 kPa) is not a number either
     overflow = ~np.isfinite(values) & ~bad

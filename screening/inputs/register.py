@@ -18,7 +18,7 @@ import numpy as np
 import pandas as pd
 
 from screening.inputs.config import ConfigError
-from screening.inputs.units import UnitError, parse_quantity, parse_unit
+from screening.inputs.units import UnitError, is_bare_frequency, parse_quantity, parse_unit
 from screening.physics.curves import CurveError, Npsh3Curve
 
 REQUIRED = (
@@ -58,6 +58,8 @@ OPTIONAL = (
     "area",
     "speed_tag",
     "speed_unit",
+    "speed_signal",
+    "rated_frequency",
     "run_tag",
     "npsh3_exponent",
     "impeller_eyes",
@@ -87,6 +89,9 @@ class TagSpec:
     unit: str
     kind: str
     stale_limit: float | None = None  # [s]; None: the plant default
+    #: Factor applied after the SI conversion [-]: a drive's output frequency read as shaft
+    #: speed, n = n_rated · f / f_rated (slip neglected).
+    scale: float = 1.0
 
 
 @dataclass(frozen=True)
@@ -131,7 +136,7 @@ class PumpSpec:
     rated_speed: float
     bep_flow: float
     curve_id: str
-    npsh3_exponent: float = 2.0
+    npsh3_exponent: float | None = None  # None: 1.5 below rated speed, 2 above
     impeller_eyes: int = 1
     suction_specific_speed: float | None = None
     guidance_ratio: float | None = None
@@ -156,6 +161,10 @@ class PumpSpec:
     low_pressure_setpoint: float | None = None
     low_level_setpoint: float | None = None
     high_temperature_setpoint: float | None = None
+    #: How the speed tag was read: "" (rpm and the like), "shaft" (revolutions per second) or
+    #: "drive_frequency" (n = rated speed · f / rated_frequency [Hz], slip neglected).
+    speed_signal: str = ""
+    rated_frequency: float | None = None
 
     @property
     def needs_barometer(self) -> bool:
@@ -370,12 +379,12 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         application=r.text("application"),
         temperature=tag("temperature", "temperature"),
         flow=tag("flow", "flow"),
-        speed=tag("speed", "speed", required=False),
+        **_speed_fields(r, tag("speed", "speed", required=False), rated),
         run=TagSpec(run_name, "", "status", stale) if run_name else None,
         rated_speed=rated,
         bep_flow=bep,
         curve_id=r.text("curve_id"),
-        npsh3_exponent=r.number("npsh3_exponent", 2.0, 0.5, 3.0),
+        npsh3_exponent=r.number("npsh3_exponent", None, 0.5, 3.0),
         impeller_eyes=int(eyes),
         suction_specific_speed=r.number("suction_specific_speed", None, 1.0, 1e5),
         guidance_ratio=r.number("guidance_ratio", None, 1.0, 10.0),
@@ -395,6 +404,41 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         ),
         **suction_fields,
     )
+
+
+def _speed_fields(r: _Row, speed: TagSpec | None, rated: float) -> dict:
+    """The speed tag and how to read it [rpm]: a tag in Hz (or 1/s) is refused unless
+    ``speed_signal`` says whether it is the shaft's revolutions per second (``shaft``) or a
+    drive's output frequency (``drive_frequency``, with ``rated_frequency``: n = n_rated ·
+    f / f_rated, slip neglected; the affinity laws, Karassik *Pump Handbook* §2.2, need only
+    the ratio n/n_rated, and the slip changes it by a fraction of a percent)."""
+    signal = (r.text("speed_signal", required=False) or "").lower()
+    if signal not in ("", "shaft", "drive_frequency"):
+        r.fail("speed_signal", f"{signal!r} is not 'shaft' or 'drive_frequency'")
+    if speed is None:
+        if signal:
+            r.fail("speed_signal", "is given but the pump has no speed_tag")
+        return {"speed": None}
+    if signal == "" and is_bare_frequency(speed.unit):
+        r.fail(
+            "speed_unit",
+            f"{speed.unit!r} is a frequency: say in speed_signal whether tag {speed.tag} is the "
+            "shaft speed in revolutions per second ('shaft') or the drive's output frequency "
+            "('drive_frequency', with rated_frequency such as '50 Hz'); a 4-pole motor at "
+            "40 Hz turns about 1190 rpm, not 2400",
+        )
+    if signal != "drive_frequency":
+        if r.text("rated_frequency", required=False) is not None:
+            r.fail("rated_frequency", "applies only with speed_signal = 'drive_frequency'")
+        return {"speed": speed, "speed_signal": signal}
+    if not is_bare_frequency(speed.unit):
+        r.fail("speed_unit", f"a drive frequency is read in Hz, not {speed.unit!r}")
+    # the rated frequency as revolutions per minute of one pole pair (50 Hz -> 3000) [rpm]
+    f_rated = r.quantity("rated_frequency", "speed")
+    if f_rated <= 0:
+        r.fail("rated_frequency", "must be a positive frequency such as '50 Hz'")
+    spec = TagSpec(speed.tag, speed.unit, speed.kind, speed.stale_limit, rated / f_rated)
+    return {"speed": spec, "speed_signal": signal, "rated_frequency": f_rated / 60.0}
 
 
 def _transmitter_fields(r: _Row, tag, reference) -> dict:

@@ -16,6 +16,7 @@ import pandas as pd
 
 from screening.base import states
 from screening.inputs.units import si_to
+from screening.physics.curves import exponent_text
 from screening.report.figjson import figure_html, local_times, numbers
 from screening.report.palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
 
@@ -321,7 +322,7 @@ def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list
         ("rated speed", f"{pump.rated_speed:.0f} rpm"),
         ("BEP flow", f"{float(c(pump.bep_flow, 'flow')):.1f} {F}"),
         ("curve", pump.curve_id),
-        ("NPSH3 speed exponent", f"{pump.npsh3_exponent:g}"),
+        ("NPSH3 speed scaling", exponent_text(pump.npsh3_exponent, pump.speed is not None)),
         (
             "guidance",
             f"{guidance.ratio:.2f} or {float(c(guidance.margin, 'length')):.2f} {L} "
