@@ -33,6 +33,7 @@ def check_command(
             f"  {row.pump_id:<12} {row.role:<12} {row.tag:<24} {row.samples:>8} samples  "
             f"{span}{extra}"
         )
+    _print_notes(result.notes)
     for row in result.file_problems.itertuples(index=False):
         typer.echo(f"file not readable: {row.file}: {row.message}", err=True)
     for row in result.problems.itertuples(index=False):
@@ -44,3 +45,10 @@ def check_command(
         f"{len(result.problems)} pump problem(s), {len(result.file_problems)} file problem(s)"
     )
     raise typer.Exit(EXIT_PARTIAL)
+
+
+def _print_notes(notes: list[str]) -> None:
+    """Engineering notes (barometer offset, suction below vapour pressure): they do not change
+    the verdict."""
+    for note in notes:
+        typer.echo(f"note: {note}")

@@ -34,8 +34,6 @@ from screening.physics.regions import operating_region, pump_region_edges
 
 NS_PER_HOUR = 3_600_000_000_000
 _NEVER = np.iinfo(np.int64).min // 4
-#: Plausible barometric pressures [Pa]; a barometer reading outside is not used.
-BARO_RANGE = (50_000.0, 110_000.0)
 
 
 @dataclass
@@ -44,7 +42,9 @@ class Settings:
 
     Attributes: stale_limit [s] (plant default), frozen_after [s] or None, min_flow_fraction
     and min_speed_fraction [-], ample_ratio [-], site_elevation [m], barometer_stale_limit [s],
-    speed_scaling_range [-] (speed ratios inside which NPSH3 scaling is trusted).
+    speed_scaling_range [-] (speed ratios inside which NPSH3 scaling is trusted),
+    barometer_tolerance [Pa] (largest difference of a used barometer sample from the standard
+    atmosphere at the site elevation).
     """
 
     stale_limit: float
@@ -55,6 +55,7 @@ class Settings:
     site_elevation: float
     barometer_stale_limit: float = 1800.0
     speed_scaling_range: tuple[float, float] = (0.8, 1.2)
+    barometer_tolerance: float = 5000.0
 
 
 @dataclass
@@ -336,15 +337,18 @@ def _decide_running(pump: PumpSpec, held: dict, settings: Settings, n: int) -> _
 
 def _barometric(barometer, grid, settings: Settings) -> tuple[np.ndarray, np.ndarray]:
     """Barometric pressure [Pa] on each piece and whether the barometer gave it: the barometer
-    where fresh and plausible, else the standard atmosphere at the site elevation (U.S.
-    Standard Atmosphere 1976)."""
-    p_std = _standard_pressure(settings.site_elevation)
+    where fresh and within ``settings.barometer_tolerance`` [Pa] of the standard atmosphere at
+    the site elevation (U.S. Standard Atmosphere 1976), else that atmosphere. A reading
+    corrected to sea level (some historians store it so) at a site 1500 m up is 16.8 kPa too
+    high and would raise NPSHa by about 1.7 m of water: it is not used."""
+    p_std = _standard_pressure(settings.site_elevation)  # US Standard Atmosphere 1976
     baro = np.full(len(grid), p_std)
     baro_used = np.zeros(len(grid), dtype=bool)
     if barometer is not None and len(barometer.times):
         hb = _Held(barometer, grid, int(round(settings.barometer_stale_limit * 1e9)))
-        fresh = ~hb.bad & (hb.until > grid) & (hb.value >= BARO_RANGE[0])
-        fresh &= hb.value <= BARO_RANGE[1]
+        with np.errstate(invalid="ignore"):
+            near = np.abs(hb.value - p_std) <= settings.barometer_tolerance
+        fresh = ~hb.bad & (hb.until > grid) & near
         baro = np.where(fresh, hb.value, p_std)
         baro_used = fresh
     return baro, baro_used

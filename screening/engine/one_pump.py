@@ -26,6 +26,7 @@ def settings_for(plant: Plant) -> Settings:
         site_elevation=s.site.elevation,
         barometer_stale_limit=s.site.barometer_stale_limit,
         speed_scaling_range=tuple(s.running.speed_scaling_range),
+        barometer_tolerance=s.site.barometer_tolerance,
     )
 
 

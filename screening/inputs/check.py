@@ -2,13 +2,14 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import pandas as pd
 
 from screening.inputs.loader import ExportIndex
 from screening.inputs.plant import Plant, load_plant
+from screening.inputs.plausibility import review_notes
 
 
 @dataclass
@@ -23,12 +24,17 @@ class CheckResult:
         ``pump_id``, ``message``: pumps that cannot be screened as configured.
     file_problems : DataFrame
         ``file``, ``message``: export files that cannot be read.
+    notes : list of str
+        Engineering notes that do not stop a scan (a barometer away from the standard
+        atmosphere, suction pressures below the vapour pressure): see
+        :mod:`screening.inputs.plausibility`.
     """
 
     plant: Plant
     tags: pd.DataFrame
     problems: pd.DataFrame
     file_problems: pd.DataFrame
+    notes: list[str] = field(default_factory=list)
 
     @property
     def ok(self) -> bool:
@@ -96,4 +102,5 @@ def check(config: str | Path | Plant) -> CheckResult:
         pd.DataFrame(problems, columns=["pump_id", "message"]),
         pd.DataFrame([{"file": k, "message": v} for k, v in files.items()],
                      columns=["file", "message"]),
+        review_notes(plant, series),
     )  # fmt: skip

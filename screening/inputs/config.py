@@ -48,6 +48,16 @@ def _length(value) -> float:
     return length
 
 
+def _pressure(value) -> float:
+    try:
+        pressure = parse_quantity(value, "pressure", None)
+    except UnitError as exc:
+        raise ValueError(str(exc)) from exc
+    if not math.isfinite(pressure):
+        raise ValueError(f"{value!r} is not a finite pressure")
+    return pressure
+
+
 def _duration(value) -> float:
     try:
         seconds = parse_duration(value)
@@ -67,8 +77,23 @@ class Site(_Strict):
     barometer_tag: str | None = None
     barometer_unit: str | None = None
     barometer_stale_limit: float = Field(1800.0, description="hold of a barometer sample [s]")
+    #: Largest difference from the 1976 standard atmosphere at the site elevation [Pa] for
+    #: which a barometer sample is used: weather moves station pressure by a few kPa (a deep
+    #: low about 4-5 kPa below the mean, common practice), while a sea-level-corrected reading
+    #: at a site 1500 m up is about 17 kPa above the station pressure.
+    barometer_tolerance: float = Field(5000.0, description="[Pa]")
 
     _elev = field_validator("elevation", mode="before")(lambda v: _length(v))
+    _baro_tol = field_validator("barometer_tolerance", mode="before")(lambda v: _pressure(v))
+
+    @field_validator("barometer_tolerance")
+    @classmethod
+    def _tolerance_range(cls, v: float) -> float:
+        if not 0 < v <= 20_000.0:
+            raise ValueError(
+                f"barometer_tolerance {v:g} Pa is not between 0 and 20 kPa (such as '5 kPa')"
+            )
+        return v
 
     @field_validator("elevation")
     @classmethod
