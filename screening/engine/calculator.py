@@ -56,6 +56,7 @@ class Settings:
     barometer_stale_limit: float = 1800.0
     speed_scaling_range: tuple[float, float] = (0.8, 1.2)
     barometer_tolerance: float = 5000.0
+    min_stable_flow_fraction: float | None = None  # [-] of BEP flow, plant-wide; None: none
 
 
 @dataclass
@@ -72,6 +73,10 @@ class PumpResult:
     region_hours: np.ndarray | None = None  # [h] per region code
     region_daily: np.ndarray | None = None  # [h] per day and region code
     speed_outside_hours: float = 0.0  # running hours outside the speed scaling range
+    worst_margin_m: float = np.nan  # [m] least NPSHa − NPSH3 on the curve while running
+    worst_guidance_margin_m: float = np.nan  # [m] least NPSHa − guidance head
+    below_vapour_hours: float = 0.0  # [h] running with p_abs < p_v: impossible, a data fault
+    below_vapour_first: pd.Timestamp | None = None
     plot: pd.DataFrame | None = field(default=None, repr=False)  # min/max per time bucket
     points: dict | None = field(default=None, repr=False)  # operating-point histogram
     series: pd.DataFrame | None = field(default=None, repr=False)
@@ -225,7 +230,7 @@ def calculate_pump(
     run = _decide_running(pump, timeline.held, settings, len(timeline.grid))
     phys = _evaluate(pump, curve, table, timeline, barometer, settings)
     code, until, all_bad = _classify_margin(phys, run, guidance, settings)
-    rcode, r_until = _classify_region(pump, curve, timeline.held, phys, run)
+    rcode, r_until = _classify_region(pump, curve, timeline.held, phys, run, settings)
     return _summarise(
         pump, curve, guidance, settings, timeline, run, phys, (code, until, all_bad),
         (rcode, r_until), start_ns, end_ns, day_edges, keep_series, plot_buckets,
@@ -392,11 +397,11 @@ def _classify_margin(phys: _Physics, run: _Running, guidance: Guidance, settings
     return code, until, all_bad
 
 
-def _classify_region(pump, curve, held, phys: _Physics, run: _Running):
+def _classify_region(pump, curve, held, phys: _Physics, run: _Running, settings: Settings):
     """The operating region of each piece (flow [m³/s] against the region edges at the running
     speed) and the time until which it holds [ns]: needs only the run decision, flow and
     speed."""
-    edges = pump_region_edges(pump, curve.flow_max, phys.speed)
+    edges = pump_region_edges(pump, curve.flow_max, phys.speed, settings.min_stable_flow_fraction)
     with np.errstate(invalid="ignore"):
         rcode = operating_region(phys.flow, edges)
     r_bad = run.decide_bad.copy()
@@ -446,6 +451,8 @@ def _summarise(
         i = int(np.argmin(np.where(banded, ratio, np.inf)))
         result.worst_ratio = float(ratio[i])
         result.worst_time = pd.Timestamp(int(grid[i]), tz="UTC")
+        _worst_margins(result, phys, guidance, banded)
+    _below_vapour(result, grid, phys, code, fresh)
     if pump.needs_barometer:
         counted = run.running & ~all_bad & (code != states.STOPPED)
         result.baro_fallback_hours = float(fresh[counted & ~phys.baro_used].sum() / NS_PER_HOUR)
@@ -457,6 +464,27 @@ def _summarise(
     if keep_series:
         result.series = _series_frame(pump, timeline, run, phys, code, rcode, fresh, r_fresh, ratio)
     return result
+
+
+def _worst_margins(result: PumpResult, phys: _Physics, guidance: Guidance, banded) -> None:
+    """The least margins in metres on the pieces in a margin band: NPSHa − NPSH3 and NPSHa −
+    guidance head [m] (a ratio alone hides how little head is left on a small NPSH3)."""
+    npsha, npsh3 = phys.npsha[banded], phys.npsh3[banded]
+    result.worst_margin_m = float(np.min(npsha - npsh3))
+    result.worst_guidance_margin_m = float(np.min(npsha - guidance.head(npsh3)))
+
+
+def _below_vapour(result: PumpResult, grid, phys: _Physics, code, fresh) -> None:
+    """Hours [h] running in a margin band (or off the curve) with the absolute suction (or
+    vessel surface) pressure below the vapour pressure at the recorded temperature: the liquid
+    would be boiling, impossible in steady flow, so a transmitter, its reference or the
+    temperature is wrong. Counted in its margin state as computed (below NPSH3 as a rule) and
+    flagged."""
+    with np.errstate(invalid="ignore"):
+        below = (code <= states.OFF_CURVE) & (np.asarray(phys.p_abs) < phys.p_v) & (fresh > 0)
+    if below.any():
+        result.below_vapour_hours = float(fresh[below].sum() / NS_PER_HOUR)
+        result.below_vapour_first = pd.Timestamp(int(grid[np.argmax(below)]), tz="UTC")
 
 
 def _plot_data(

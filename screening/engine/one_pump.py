@@ -27,6 +27,7 @@ def settings_for(plant: Plant) -> Settings:
         barometer_stale_limit=s.site.barometer_stale_limit,
         speed_scaling_range=tuple(s.running.speed_scaling_range),
         barometer_tolerance=s.site.barometer_tolerance,
+        min_stable_flow_fraction=s.running.min_stable_flow_fraction,
     )
 
 
@@ -97,12 +98,26 @@ def screen_pump(
 QUALITY_COLUMNS = [
     "pump_id", "role", "tag", "samples", "text_values", "bad_quality", "not_finite", "frozen",
     "out_of_range", "bad_timestamps", "duplicates", "out_of_order", "malformed_rows", "words",
-    "first_problem",
+    "first_problem", "flags",
 ]  # fmt: skip
 
+#: The flag of a pump whose absolute suction pressure fell below the vapour pressure.
+BELOW_VAPOUR_FLAG = "suction pressure below vapour pressure: check transmitter and temperature"
 
-def quality_row(pid: str, role: str, q: TagQuality) -> dict:
-    """One row of the quality table."""
+
+def quality_flags(result, role: str) -> str:
+    """Engineering flags of a pump's tag in the quality table: the suction (or vessel
+    pressure) tag of a pump that ran with p_abs below p_v, with hours [h] and first time."""
+    if role not in ("suction", "vessel_pressure") or not result.below_vapour_hours:
+        return ""
+    return (
+        f"{BELOW_VAPOUR_FLAG} ({result.below_vapour_hours:.2f} h running, first at "
+        f"{result.below_vapour_first.isoformat()})"
+    )
+
+
+def quality_row(pid: str, role: str, q: TagQuality, flags: str = "") -> dict:
+    """One row of the quality table (``flags``: see :func:`quality_flags`)."""
     return {
         "pump_id": pid,
         "role": role,
@@ -119,4 +134,5 @@ def quality_row(pid: str, role: str, q: TagQuality) -> dict:
         "malformed_rows": q.malformed_rows,
         "words": "; ".join(f"{w} ({c})" for w, c in sorted(q.words.items())),
         "first_problem": "; ".join(f"{k}: {v}" for k, v in q.first_problem.items()),
+        "flags": flags,
     }

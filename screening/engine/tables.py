@@ -69,10 +69,11 @@ SUMMARY_COLUMNS = [
     "pump_id", "service", "area", "fluid", "vapour_pressure_model", "window_hours",
     "running_hours", "below_npsh3_hours", "below_guidance_hours", "off_curve_hours",
     "no_data_hours", "bad_data_hours", "coverage", "worst_ratio", "worst_time",
+    "worst_margin_m", "worst_margin_to_guidance_m",
     "guidance_ratio", "guidance_margin_m", "guidance_source", "suction_specific_speed_us",
     "suction_specific_speed_metric", "preferred_region_hours", "outside_preferred_hours",
     "below_min_flow_hours", "beyond_allowable_hours", "speed_outside_scaling_hours",
-    "standard_atmosphere_hours",
+    "standard_atmosphere_hours", "min_flow_source", "below_vapour_pressure_hours",
 ]  # fmt: skip
 
 
@@ -129,6 +130,8 @@ def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_
                 "worst_time": (
                     r.worst_time.tz_convert(plant.timezone) if r.worst_time is not None else None
                 ),
+                "worst_margin_m": r.worst_margin_m,
+                "worst_margin_to_guidance_m": r.worst_guidance_margin_m,
                 "guidance_ratio": g.ratio,
                 "guidance_margin_m": g.margin,
                 "guidance_source": g.source,
@@ -141,6 +144,10 @@ def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_
                 "beyond_allowable_hours": rh["beyond_allowable"],
                 "speed_outside_scaling_hours": r.speed_outside_hours,
                 "standard_atmosphere_hours": r.baro_fallback_hours,
+                "min_flow_source": regions.min_flow_source(
+                    pump, plant.settings.running.min_stable_flow_fraction
+                ),
+                "below_vapour_pressure_hours": r.below_vapour_hours,
             }
         )
     hours = pd.DataFrame(hours_rows, columns=["pump_id", "kind", "state", "hours"])

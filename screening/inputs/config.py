@@ -166,6 +166,11 @@ class Running(_Strict):
     #: hours outside are counted and shown (ISO 9906 converts test results only within about
     #: 80-120 % of the test speed, from memory).
     speed_scaling_range: tuple[float, float] = (0.8, 1.2)
+    #: Plant-wide minimum stable flow as a fraction of BEP flow [-] for pumps whose register
+    #: gives neither a minimum stable nor a thermal minimum flow. None by default: such pumps
+    #: are flagged "minimum flow not registered" (vendors state 25-40 % of BEP typically,
+    #: common practice; the vendor's figure governs).
+    min_stable_flow_fraction: float | None = Field(None, gt=0, lt=1)
 
     @field_validator("speed_scaling_range")
     @classmethod

@@ -344,6 +344,7 @@ def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
     hours_of = dict(list(result.hours.groupby("pump_id", sort=False)))
     margin_days = result.daily[result.daily.kind == "margin"]
     daily_of = dict(list(margin_days.groupby("pump_id", sort=False)))
+    summary_of = {row["pump_id"]: row for row in result.summary.to_dict("records")}
     for pid, name in pages.items():
         pump = plant.pumps[pid]
         g = plant.guidance[pid]
@@ -387,6 +388,7 @@ def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
             f"{units.label('length')}",
             ample_ratio=f"{ample:.2f}",
             register=pump_pages.register_rows(pump, g, model, units),
+            flags=pump_pages.pump_flags(summary_of.get(pid), units),
             cautions=CAUTIONS,
             **figs,
         )
@@ -426,6 +428,12 @@ def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> 
     for row in result.summary.itertuples(index=False):
         d = row._asdict()
         d["worst_ratio_text"] = "—" if pd.isna(row.worst_ratio) else f"{row.worst_ratio:.2f}"
+        d["worst_margin_text"] = "—" if pd.isna(row.worst_margin_m) else f"{row.worst_margin_m:.2f}"
+        d["worst_guidance_text"] = (
+            "—"
+            if pd.isna(row.worst_margin_to_guidance_m)
+            else f"{row.worst_margin_to_guidance_m:+.2f}"
+        )
         d["guidance_text"] = f"{row.guidance_ratio:.2f} or {row.guidance_margin_m:.2f} m"
         d["page"] = f"pumps/{pages[row.pump_id]}" if pages and row.pump_id in pages else None
         d["change"] = ""
@@ -469,6 +477,10 @@ def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> 
         barometer=baro,
         ample_ratio=result.plant.settings.policy.ample_ratio,
         coolprop_version=metadata.version("CoolProp"),
+        n_no_min_flow=int(
+            (result.summary["min_flow_source"] == regions.MIN_FLOW_NOT_REGISTERED).sum()
+        ),
+        plant_min_fraction=result.plant.settings.running.min_stable_flow_fraction,
         por_low=0.70,
         por_high=1.20,
         cautions=CAUTIONS,

@@ -15,8 +15,10 @@ import numpy as np
 import pandas as pd
 
 from screening.base import states
+from screening.engine.one_pump import BELOW_VAPOUR_FLAG
 from screening.inputs.units import si_to
 from screening.physics.curves import exponent_text
+from screening.physics.regions import MIN_FLOW_NOT_REGISTERED
 from screening.report.figjson import figure_html, local_times, numbers
 from screening.report.palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
 
@@ -355,6 +357,38 @@ def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list
         ]
     rows.append(("tags", ", ".join(f"{r}: {t.tag}" for r, t in pump.tags().items())))
     return rows
+
+
+def pump_flags(row: dict | None, units: DisplayUnits) -> list[str]:
+    """What the pump page points out from the pump's summary row: suction pressure below
+    vapour pressure, the worst margins in metres, hours on the standard atmosphere, an
+    unregistered minimum flow."""
+    if row is None:
+        return []
+    c, L = units.convert, units.label("length")  # noqa: N806
+    flags = []
+    if row["below_vapour_pressure_hours"] > 0:
+        flags.append(
+            f"{BELOW_VAPOUR_FLAG} ({row['below_vapour_pressure_hours']:.2f} h running; counted "
+            "below NPSH3, see data_quality.csv)"
+        )
+    if pd.notna(row["worst_margin_m"]):
+        flags.append(
+            f"worst margin NPSHa - NPSH3 {float(c(row['worst_margin_m'], 'length')):.2f} {L}, "
+            f"NPSHa - guidance {float(c(row['worst_margin_to_guidance_m'], 'length')):+.2f} {L} "
+            f"(worst ratio {row['worst_ratio']:.2f})"
+        )
+    if row["standard_atmosphere_hours"] > 0:
+        flags.append(
+            f"{row['standard_atmosphere_hours']:.1f} running hours on the standard atmosphere "
+            "(barometer missing, stale or away from the standard atmosphere at the site)"
+        )
+    if row["min_flow_source"] == MIN_FLOW_NOT_REGISTERED:
+        flags.append(
+            "minimum flow not registered: hours below the minimum flow cannot be counted "
+            "(give min_stable_flow or thermal_min_flow in the register)"
+        )
+    return flags
 
 
 def write_pump_page(path: Path, html: str) -> None:
