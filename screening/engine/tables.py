@@ -70,7 +70,8 @@ SUMMARY_COLUMNS = [
     "running_hours", "below_npsh3_hours", "below_guidance_hours", "off_curve_hours",
     "no_data_hours", "bad_data_hours", "coverage", "worst_ratio", "worst_time",
     "worst_margin_m", "worst_margin_to_guidance_m",
-    "guidance_ratio", "guidance_margin_m", "guidance_source", "suction_specific_speed_us",
+    "guidance_ratio", "guidance_margin_m", "guidance_source", "suction_energy_us",
+    "suction_energy_class", "suction_specific_speed_us",
     "suction_specific_speed_metric", "preferred_region_hours", "outside_preferred_hours",
     "below_min_flow_hours", "beyond_allowable_hours", "speed_outside_scaling_hours",
     "standard_atmosphere_hours", "min_flow_source", "below_vapour_pressure_hours",
@@ -90,6 +91,56 @@ def _daily(results, days, kind: str, names: list[str], get) -> pd.DataFrame:
     )
 
 
+def _summary_row(plant, r, pump, g) -> dict:
+    """One pump's row of the summary table (hours [h], ratios [-], metres [m])."""
+    names = list(states.STATES)
+    h = dict(zip(names, r.hours, strict=True))
+    rh = dict(zip(regions.REGIONS, r.region_hours, strict=True))
+    s_us = pump_suction_specific_speed(plant, r.pump_id)
+    running = sum(h[s] for s in states.RUNNING)
+    return {
+        "pump_id": r.pump_id,
+        "service": pump.service,
+        "area": pump.area,
+        "fluid": pump.fluid,
+        "vapour_pressure_model": fluid_table(
+            pump.fluid, pump.vapour_pressure
+        ).vapour_pressure_model,
+        "window_hours": r.window_hours,
+        "running_hours": running,
+        "below_npsh3_hours": h["below_npsh3"],
+        "below_guidance_hours": h["below_npsh3"] + h["below_guidance"],
+        "off_curve_hours": h["off_curve"],
+        "no_data_hours": h["no_data"],
+        "bad_data_hours": h["bad_data"],
+        "coverage": 1.0 - (h["no_data"] + h["bad_data"]) / r.window_hours,
+        "worst_ratio": r.worst_ratio,
+        "worst_time": (
+            r.worst_time.tz_convert(plant.timezone) if r.worst_time is not None else None
+        ),
+        "worst_margin_m": r.worst_margin_m,
+        "worst_margin_to_guidance_m": r.worst_guidance_margin_m,
+        "guidance_ratio": g.ratio,
+        "guidance_margin_m": g.margin,
+        "guidance_source": g.source,
+        "suction_energy_us": g.suction_energy,
+        "suction_energy_class": g.suction_energy_class,
+        "suction_specific_speed_us": s_us,
+        "suction_specific_speed_metric": s_us / US_PER_METRIC_S,
+        "preferred_region_hours": rh["preferred_region"],
+        "outside_preferred_hours": sum(rh[x] for x in regions.RUNNING_REGIONS)
+        - rh["preferred_region"],
+        "below_min_flow_hours": rh["below_min_flow"],
+        "beyond_allowable_hours": rh["beyond_allowable"],
+        "speed_outside_scaling_hours": r.speed_outside_hours,
+        "standard_atmosphere_hours": r.baro_fallback_hours,
+        "min_flow_source": regions.min_flow_source(
+            pump, plant.settings.running.min_stable_flow_fraction
+        ),
+        "below_vapour_pressure_hours": r.below_vapour_hours,
+    }
+
+
 def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_problems):
     names = list(states.STATES)
     hours_rows, summary_rows = [], []
@@ -105,51 +156,7 @@ def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_
             hours_rows.append(
                 {"pump_id": r.pump_id, "kind": "region", "state": name, "hours": float(h)}
             )
-        h = dict(zip(names, r.hours, strict=True))
-        rh = dict(zip(regions.REGIONS, r.region_hours, strict=True))
-        s_us = pump_suction_specific_speed(plant, r.pump_id)
-        running = sum(h[s] for s in states.RUNNING)
-        summary_rows.append(
-            {
-                "pump_id": r.pump_id,
-                "service": pump.service,
-                "area": pump.area,
-                "fluid": pump.fluid,
-                "vapour_pressure_model": fluid_table(
-                    pump.fluid, pump.vapour_pressure
-                ).vapour_pressure_model,
-                "window_hours": r.window_hours,
-                "running_hours": running,
-                "below_npsh3_hours": h["below_npsh3"],
-                "below_guidance_hours": h["below_npsh3"] + h["below_guidance"],
-                "off_curve_hours": h["off_curve"],
-                "no_data_hours": h["no_data"],
-                "bad_data_hours": h["bad_data"],
-                "coverage": 1.0 - (h["no_data"] + h["bad_data"]) / r.window_hours,
-                "worst_ratio": r.worst_ratio,
-                "worst_time": (
-                    r.worst_time.tz_convert(plant.timezone) if r.worst_time is not None else None
-                ),
-                "worst_margin_m": r.worst_margin_m,
-                "worst_margin_to_guidance_m": r.worst_guidance_margin_m,
-                "guidance_ratio": g.ratio,
-                "guidance_margin_m": g.margin,
-                "guidance_source": g.source,
-                "suction_specific_speed_us": s_us,
-                "suction_specific_speed_metric": s_us / US_PER_METRIC_S,
-                "preferred_region_hours": rh["preferred_region"],
-                "outside_preferred_hours": sum(rh[x] for x in regions.RUNNING_REGIONS)
-                - rh["preferred_region"],
-                "below_min_flow_hours": rh["below_min_flow"],
-                "beyond_allowable_hours": rh["beyond_allowable"],
-                "speed_outside_scaling_hours": r.speed_outside_hours,
-                "standard_atmosphere_hours": r.baro_fallback_hours,
-                "min_flow_source": regions.min_flow_source(
-                    pump, plant.settings.running.min_stable_flow_fraction
-                ),
-                "below_vapour_pressure_hours": r.below_vapour_hours,
-            }
-        )
+        summary_rows.append(_summary_row(plant, r, pump, g))
     hours = pd.DataFrame(hours_rows, columns=["pump_id", "kind", "state", "hours"])
     summary = pd.DataFrame(summary_rows, columns=SUMMARY_COLUMNS)
     if len(summary):

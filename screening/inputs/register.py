@@ -18,7 +18,14 @@ import numpy as np
 import pandas as pd
 
 from screening.inputs.config import ConfigError
-from screening.inputs.units import UnitError, is_bare_frequency, parse_quantity, parse_unit
+from screening.inputs.pumpspec import PumpSpec, SuctionLine, TagSpec
+from screening.inputs.register_fields import (
+    positive_length,
+    speed_fields,
+    transmitter_fields,
+    vessel_fields,
+)
+from screening.inputs.units import UnitError, parse_quantity, parse_unit
 from screening.physics.curves import CurveError, Npsh3Curve
 
 REQUIRED = (
@@ -63,6 +70,7 @@ OPTIONAL = (
     "run_tag",
     "npsh3_exponent",
     "impeller_eyes",
+    "impeller_eye_diameter",
     "stale_limit",
     "suction_specific_speed",
     "guidance_ratio",
@@ -79,116 +87,6 @@ OPTIONAL = (
 #: Longest stale limit a register row may give [s]: a sample held for a year is no sample.
 MAX_STALE_LIMIT = 366 * 86400.0
 _HEADER = re.compile(r"^\s*([A-Za-z0-9_]+)\s*(?:\[(.*)\])?\s*$")
-
-
-@dataclass(frozen=True)
-class TagSpec:
-    """A historian tag of a pump: its name, unit as written, and quantity kind."""
-
-    tag: str
-    unit: str
-    kind: str
-    stale_limit: float | None = None  # [s]; None: the plant default
-    #: Factor applied after the SI conversion [-]: a drive's output frequency read as shaft
-    #: speed, n = n_rated · f / f_rated (slip neglected).
-    scale: float = 1.0
-
-
-@dataclass(frozen=True)
-class SuctionLine:
-    """The suction line from the vessel to the pump, for the friction loss at each flow.
-
-    Either a loss coefficient ``k`` [s²/m⁵] (head = k·Q², from a design point) or the line
-    itself: ``length`` [m], ``bore`` [m], ``roughness`` [m], ``fittings_k`` [-] for
-    Darcy-Weisbach (see :mod:`screening.physics.suction`).
-    """
-
-    k: float | None = None
-    length: float | None = None
-    bore: float | None = None
-    roughness: float | None = None
-    fittings_k: float = 0.0
-
-
-@dataclass(frozen=True)
-class PumpSpec:
-    """One pump of the register, in SI units.
-
-    Attributes: tap_elevation [m], tap_bore [m], rated_speed [rpm], bep_flow [m³/s],
-    npsh3_exponent [-], impeller_eyes [-], guidance_margin [m], min_stable_flow,
-    thermal_min_flow and allowable_max_flow [m³/s] at rated speed, preferred_low and
-    preferred_high [-] as fractions of BEP flow.
-    """
-
-    pump_id: str
-    service: str
-    area: str
-    fluid: str
-    application: str
-    suction: TagSpec | None
-    gauge: bool
-    temperature: TagSpec
-    flow: TagSpec
-    speed: TagSpec | None
-    run: TagSpec | None
-    tap_elevation: float
-    tap_bore: float
-    rated_speed: float
-    bep_flow: float
-    curve_id: str
-    npsh3_exponent: float | None = None  # None: 1.5 below rated speed, 2 above
-    impeller_eyes: int = 1
-    suction_specific_speed: float | None = None
-    guidance_ratio: float | None = None
-    guidance_margin: float | None = None
-    min_stable_flow: float | None = None
-    thermal_min_flow: float | None = None
-    preferred_low: float = 0.70
-    preferred_high: float = 1.20
-    allowable_max_flow: float | None = None
-    vapour_pressure: str | None = None
-    source: str = "transmitter"
-    level: TagSpec | None = None
-    level_zero_elevation: float = 0.0
-    vessel_surface: str | None = None
-    vessel_pressure: TagSpec | None = None
-    vessel_gauge: bool = False
-    suction_line: SuctionLine | None = None
-    line: int = 0
-    #: Today's operating limits, for the what-if comparison: the low suction-pressure
-    #: setpoint [Pa, in the suction transmitter's reference], the low vessel-level setpoint
-    #: [m, in the level transmitter's frame] and the high liquid-temperature setpoint [K].
-    low_pressure_setpoint: float | None = None
-    low_level_setpoint: float | None = None
-    high_temperature_setpoint: float | None = None
-    #: How the speed tag was read: "" (rpm and the like), "shaft" (revolutions per second) or
-    #: "drive_frequency" (n = rated speed · f / rated_frequency [Hz], slip neglected).
-    speed_signal: str = ""
-    rated_frequency: float | None = None
-
-    @property
-    def needs_barometer(self) -> bool:
-        """True when the barometric pressure enters NPSHa (gauge readings, open vessels)."""
-        if self.source == "transmitter":
-            return self.gauge
-        if self.vessel_surface == "open":
-            return True
-        return self.vessel_surface == "pressure" and self.vessel_gauge
-
-    def tags(self) -> dict[str, TagSpec]:
-        """The pump's tags by role (suction, temperature, flow, speed, run)."""
-        roles = {"temperature": self.temperature, "flow": self.flow}
-        if self.suction is not None:
-            roles["suction"] = self.suction
-        if self.level is not None:
-            roles["level"] = self.level
-        if self.vessel_pressure is not None:
-            roles["vessel_pressure"] = self.vessel_pressure
-        if self.speed is not None:
-            roles["speed"] = self.speed
-        if self.run is not None:
-            roles["run"] = self.run
-        return roles
 
 
 @dataclass(frozen=True)
@@ -355,10 +253,10 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
     if source not in ("transmitter", "vessel"):
         r.fail("suction_source", f"{source!r} is not 'transmitter' or 'vessel'")
     if source == "transmitter":
-        suction_fields = _transmitter_fields(r, tag, reference)
+        suction_fields = transmitter_fields(r, tag, reference)
     else:
         suction_fields = {"suction": None, "gauge": False, "tap_elevation": 0.0, "tap_bore": 1.0}
-        suction_fields.update(_vessel_fields(r, tag, reference))
+        suction_fields.update(vessel_fields(r, tag, reference))
     run_name = r.text("run_tag", required=False)
     rated = r.quantity("rated_speed", "speed")
     if rated <= 0:
@@ -379,13 +277,14 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         application=r.text("application"),
         temperature=tag("temperature", "temperature"),
         flow=tag("flow", "flow"),
-        **_speed_fields(r, tag("speed", "speed", required=False), rated),
+        **speed_fields(r, tag("speed", "speed", required=False), rated),
         run=TagSpec(run_name, "", "status", stale) if run_name else None,
         rated_speed=rated,
         bep_flow=bep,
         curve_id=r.text("curve_id"),
         npsh3_exponent=r.number("npsh3_exponent", None, 0.5, 3.0),
         impeller_eyes=int(eyes),
+        impeller_eye_diameter=positive_length(r, "impeller_eye_diameter"),
         suction_specific_speed=r.number("suction_specific_speed", None, 1.0, 1e5),
         guidance_ratio=r.number("guidance_ratio", None, 1.0, 10.0),
         guidance_margin=r.quantity("guidance_margin", "length", required=False),
@@ -404,90 +303,6 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         ),
         **suction_fields,
     )
-
-
-def _speed_fields(r: _Row, speed: TagSpec | None, rated: float) -> dict:
-    """The speed tag and how to read it [rpm]: a tag in Hz (or 1/s) is refused unless
-    ``speed_signal`` says whether it is the shaft's revolutions per second (``shaft``) or a
-    drive's output frequency (``drive_frequency``, with ``rated_frequency``: n = n_rated ·
-    f / f_rated, slip neglected; the affinity laws, Karassik *Pump Handbook* §2.2, need only
-    the ratio n/n_rated, and the slip changes it by a fraction of a percent)."""
-    signal = (r.text("speed_signal", required=False) or "").lower()
-    if signal not in ("", "shaft", "drive_frequency"):
-        r.fail("speed_signal", f"{signal!r} is not 'shaft' or 'drive_frequency'")
-    if speed is None:
-        if signal:
-            r.fail("speed_signal", "is given but the pump has no speed_tag")
-        return {"speed": None}
-    if signal == "" and is_bare_frequency(speed.unit):
-        r.fail(
-            "speed_unit",
-            f"{speed.unit!r} is a frequency: say in speed_signal whether tag {speed.tag} is the "
-            "shaft speed in revolutions per second ('shaft') or the drive's output frequency "
-            "('drive_frequency', with rated_frequency such as '50 Hz'); a 4-pole motor at "
-            "40 Hz turns about 1190 rpm, not 2400",
-        )
-    if signal != "drive_frequency":
-        if r.text("rated_frequency", required=False) is not None:
-            r.fail("rated_frequency", "applies only with speed_signal = 'drive_frequency'")
-        return {"speed": speed, "speed_signal": signal}
-    if not is_bare_frequency(speed.unit):
-        r.fail("speed_unit", f"a drive frequency is read in Hz, not {speed.unit!r}")
-    # the rated frequency as revolutions per minute of one pole pair (50 Hz -> 3000) [rpm]
-    f_rated = r.quantity("rated_frequency", "speed")
-    if f_rated <= 0:
-        r.fail("rated_frequency", "must be a positive frequency such as '50 Hz'")
-    spec = TagSpec(speed.tag, speed.unit, speed.kind, speed.stale_limit, rated / f_rated)
-    return {"speed": spec, "speed_signal": signal, "rated_frequency": f_rated / 60.0}
-
-
-def _transmitter_fields(r: _Row, tag, reference) -> dict:
-    """The register fields of a pump with a suction pressure transmitter (tag, reference,
-    tap elevation [m] and bore [m])."""
-    out = {
-        "suction": tag("suction_pressure", "pressure"),
-        "gauge": reference("suction_pressure_reference"),
-        "tap_elevation": r.quantity("tap_elevation", "length"),
-        "tap_bore": r.quantity("tap_bore", "length"),
-    }
-    if out["tap_bore"] <= 0:
-        r.fail("tap_bore", "must be a positive pipe bore")
-    return out
-
-
-def _vessel_fields(r: _Row, tag, reference) -> dict:
-    """The register fields of a vessel-fed pump (level, surface pressure, suction line)."""
-    surface = (r.text("vessel_surface") or "").lower()
-    if surface not in ("open", "saturated", "pressure"):
-        r.fail("vessel_surface", f"{surface!r} is not 'open', 'saturated' or 'pressure'")
-    out = {
-        "level": tag("level", "length"),
-        "level_zero_elevation": r.quantity("level_zero_elevation", "length"),
-        "vessel_surface": surface,
-    }
-    if surface == "pressure":
-        out["vessel_pressure"] = tag("vessel_pressure", "pressure")
-        out["vessel_gauge"] = reference("vessel_pressure_reference")
-    head = r.quantity("line_loss_head", "length", required=False)
-    length = r.quantity("line_length", "length", required=False)
-    if head is not None and length is not None:
-        r.fail("line_loss_head", "give either line_loss_head/line_loss_flow or the line, not both")
-    if head is not None:
-        q = r.quantity("line_loss_flow", "flow")
-        if head < 0 or q <= 0:
-            r.fail("line_loss_flow", "needs a loss >= 0 at a flow > 0 (k = head / flow²)")
-        out["suction_line"] = SuctionLine(k=head / q**2)
-    elif length is not None:
-        bore = r.quantity("line_bore", "length")
-        rough = r.quantity("line_roughness", "length")
-        fittings = r.number("line_fittings_k", 0.0, 0.0, 1000.0)
-        if length < 0 or bore <= 0 or rough < 0 or rough / bore > 0.05:
-            r.fail(
-                "line_length",
-                "the line needs length >= 0, bore > 0 and 0 <= roughness/bore <= 0.05",
-            )
-        out["suction_line"] = SuctionLine(None, length, bore, rough, fittings)
-    return out
 
 
 def read_pump_register(
@@ -594,3 +409,6 @@ def read_curves(path: str | Path) -> tuple[dict[str, Npsh3Curve], dict[str, str]
         except CurveError as exc:
             problems[cid] = f"{path}: {exc}"
     return curves, problems
+
+
+__all__ = ["PumpSpec", "RowProblem", "SuctionLine", "TagSpec", "read_curves", "read_pump_register"]

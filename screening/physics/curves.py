@@ -186,3 +186,39 @@ def suction_specific_speed(speed: float, flow: float, npsh3: float, eyes: int = 
     q_gpm = flow * GPM_PER_M3S / eyes
     h_ft = npsh3 * FT_PER_M
     return speed * np.sqrt(q_gpm) / h_ft**0.75
+
+
+#: Inches per metre, for the suction energy's U.S. customary units.
+IN_PER_M = 1.0 / 0.0254
+
+
+def suction_energy(eye_diameter: float, speed: float, s_us: float, specific_gravity: float):
+    """Suction energy SE = De·n·S·SG in U.S. customary units (inch, rpm, S in rpm·gpm^0.5/
+    ft^0.75) [-] (ANSI/HI 9.6.1-1998, from memory: the method's definition as summarised in
+    secondary sources).
+
+    Parameters
+    ----------
+    eye_diameter : float
+        Impeller eye diameter De [m].
+    speed : float
+        Rated speed n [rpm].
+    s_us : float
+        Suction specific speed S in U.S. units [-].
+    specific_gravity : float
+        Liquid density over water's at 60 °F [-].
+    """
+    return eye_diameter * IN_PER_M * speed * s_us * specific_gravity
+
+
+def suction_energy_class(
+    energy: float, eyes: int, end_suction_high: float, double_suction_high: float, factor: float
+) -> str:
+    """``low``, ``high`` or ``very_high`` suction energy [-] for SE ``energy`` [US units]: high
+    from ``end_suction_high`` (single-suction impeller, ``eyes`` = 1) or ``double_suction_high``
+    (double suction, ``eyes`` = 2), very high from ``factor`` times that (ANSI/HI 9.6.1-1998,
+    from memory, medium confidence: about 160e6 and 120e6, factor 1.5)."""
+    high = end_suction_high if eyes == 1 else double_suction_high
+    if energy >= factor * high:
+        return "very_high"
+    return "high" if energy >= high else "low"
