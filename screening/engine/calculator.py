@@ -138,7 +138,9 @@ def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str):
         p_surface = suction.surface_pressure_from_tag(
             held["vessel_pressure"].value, baro, pump.vessel_gauge
         )
+    # the suction line's loss and a vertical can's, from its nozzle to the impeller eye
     loss = suction.line_loss(pump.suction_line, flow, rho, temp, fluid)
+    loss = loss + suction.can_loss(pump.can_loss_k, flow)
     npsha = suction.npsha_from_vessel(
         p_surface, p_v, rho, held["level"].value, pump.level_zero_elevation, loss
     )
@@ -372,6 +374,8 @@ def _evaluate(pump, curve, table, timeline: _Timeline, barometer, settings) -> _
     if pump.source == "transmitter":
         p_abs = npsh.absolute_pressure(held["suction"].value, baro, pump.gauge)
         npsha = npsh.npsha_from_pressure(p_abs, p_v, rho, flow, pump.tap_bore, pump.tap_elevation)
+        # a vertical can from its nozzle to the impeller eye (register; counted once)
+        npsha = npsha - suction.can_loss(pump.can_loss_k, flow)
     else:
         p_abs, npsha = _vessel_npsha(pump, held, baro, p_v, rho, flow, temp, table.fluid)
     speed = held["speed"].value if "speed" in held else None

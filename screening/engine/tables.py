@@ -74,7 +74,8 @@ SUMMARY_COLUMNS = [
     "suction_energy_class", "suction_specific_speed_us",
     "suction_specific_speed_metric", "preferred_region_hours", "outside_preferred_hours",
     "below_min_flow_hours", "beyond_allowable_hours", "speed_outside_scaling_hours",
-    "standard_atmosphere_hours", "min_flow_source", "below_vapour_pressure_hours",
+    "standard_atmosphere_hours", "min_flow_source", "below_vapour_pressure_hours", "npsh_datum",
+    "pressure_point_elevation_m", "datum_note",
 ]  # fmt: skip
 
 
@@ -138,6 +139,11 @@ def _summary_row(plant, r, pump, g) -> dict:
             pump, plant.settings.running.min_stable_flow_fraction
         ),
         "below_vapour_pressure_hours": r.below_vapour_hours,
+        "npsh_datum": pump.datum,
+        "pressure_point_elevation_m": pump.tap_elevation
+        if pump.source == "transmitter"
+        else np.nan,
+        "datum_note": pump.datum_note,
     }
 
 

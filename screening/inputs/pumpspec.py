@@ -41,7 +41,10 @@ class SuctionLine:
 class PumpSpec:
     """One pump of the register, in SI units.
 
-    Attributes: tap_elevation [m], tap_bore [m], rated_speed [rpm], bep_flow [m³/s],
+    Attributes: tap_elevation [m] (elevation above the NPSH datum of the point whose
+    pressure the transmitter reads: the tap, or the sensing element on a liquid-filled impulse
+    line; see ``pressure_point``), tap_bore [m], can_loss_k [s²/m⁵], rated_speed [rpm],
+    bep_flow [m³/s],
     npsh3_exponent [-], impeller_eyes [-], guidance_margin [m], min_stable_flow,
     thermal_min_flow and allowable_max_flow [m³/s] at rated speed, preferred_low and
     preferred_high [-] as fractions of BEP flow.
@@ -92,6 +95,14 @@ class PumpSpec:
     #: How the speed tag was read: "" (rpm and the like), "shaft" (revolutions per second) or
     #: "drive_frequency" (n = rated speed · f / rated_frequency [Hz], slip neglected).
     speed_signal: str = ""
+    #: The NPSH datum: orientation ("horizontal" or "vertical"), the datum's name, the point
+    #: whose pressure is read ("tap" or "sensor"), a note where the register was ambiguous,
+    #: and the loss coefficient of a vertical can from its nozzle to the impeller eye.
+    orientation: str = "horizontal"
+    datum: str = "shaft centreline"
+    pressure_point: str = "tap"
+    datum_note: str = ""
+    can_loss_k: float | None = None
     rated_frequency: float | None = None
 
     @property

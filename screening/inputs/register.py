@@ -20,6 +20,7 @@ import pandas as pd
 from screening.inputs.config import ConfigError
 from screening.inputs.pumpspec import PumpSpec, SuctionLine, TagSpec
 from screening.inputs.register_fields import (
+    datum_fields,
     positive_length,
     speed_fields,
     transmitter_fields,
@@ -47,6 +48,12 @@ OPTIONAL = (
     "suction_pressure_unit",
     "suction_pressure_reference",
     "tap_elevation",
+    "pressure_reference_point",
+    "pressure_point_elevation",
+    "orientation",
+    "npsh3_datum",
+    "can_loss_head",
+    "can_loss_flow",
     "tap_bore",
     "level_tag",
     "level_unit",
@@ -302,6 +309,7 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
             "high_temperature_setpoint", "temperature", required=False
         ),
         **suction_fields,
+        **datum_fields(r),
     )
 
 

@@ -324,6 +324,7 @@ def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list
         ("rated speed", f"{pump.rated_speed:.0f} rpm"),
         ("BEP flow", f"{float(c(pump.bep_flow, 'flow')):.1f} {F}"),
         ("curve", pump.curve_id),
+        ("NPSH datum", f"{pump.datum} ({pump.orientation} pump)"),
         ("NPSH3 speed scaling", exponent_text(pump.npsh3_exponent, pump.speed is not None)),
         (
             "guidance",
@@ -340,8 +341,11 @@ def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list
                 f"{'gauge' if pump.gauge else 'absolute'}]",
             ),
             (
-                "tap elevation / bore",
-                f"{float(c(pump.tap_elevation, 'length')):.2f} {L} / {pump.tap_bore * 1000:.0f} mm",
+                "pressure read at / elevation above datum / bore",
+                f"{_POINTS[pump.pressure_point]} / "
+                f"{float(c(pump.tap_elevation, 'length')):.2f} {L} / "
+                f"{pump.tap_bore * 1000:.0f} mm"
+                + (f" ({pump.datum_note})" if pump.datum_note else ""),
             ),
             ("method", "NPSHa = (p_abs - p_v)/(rho g) + v^2/(2g) + z (ISO 9906, ANSI/HI 1.3)"),
         ]
@@ -355,8 +359,25 @@ def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list
             ("level zero above datum", f"{float(c(pump.level_zero_elevation, 'length')):.2f} {L}"),
             ("method", "NPSHa = (p_surface - p_v)/(rho g) + level + offset - line loss"),
         ]
+    if pump.can_loss_k is not None:
+        rows.append(("can loss", f"{pump.can_loss_k:.4g} s2/m5 x Q^2, nozzle to impeller eye"))
+    if pump.speed_signal:
+        rows.append(("speed tag", _speed_text(pump)))
     rows.append(("tags", ", ".join(f"{r}: {t.tag}" for r, t in pump.tags().items())))
     return rows
+
+
+_POINTS = {"sensor": "transmitter sensing element (liquid-filled impulse line)", "tap": "tap"}
+
+
+def _speed_text(pump) -> str:
+    """How the speed tag was read."""
+    if pump.speed_signal == "drive_frequency":
+        return (
+            f"drive output frequency: n = {pump.rated_speed:.0f} rpm x f / "
+            f"{pump.rated_frequency:g} Hz (slip neglected)"
+        )
+    return "shaft revolutions per second"
 
 
 def pump_flags(row: dict | None, units: DisplayUnits) -> list[str]:
@@ -383,6 +404,8 @@ def pump_flags(row: dict | None, units: DisplayUnits) -> list[str]:
             f"{row['standard_atmosphere_hours']:.1f} running hours on the standard atmosphere "
             "(barometer missing, stale or away from the standard atmosphere at the site)"
         )
+    if row.get("datum_note"):
+        flags.append(row["datum_note"])
     if row["min_flow_source"] == MIN_FLOW_NOT_REGISTERED:
         flags.append(
             "minimum flow not registered: hours below the minimum flow cannot be counted "
