@@ -161,6 +161,8 @@ class Pump:
     thermal_min_flow: str = ""
     allowable_max_flow: str = ""
     vapour_pressure: str = ""  # register cell: "water" or "raoult", incompressible liquids only
+    eye_diameter: str = ""  # register cell (mm unless own unit): for the suction energy
+    orientation: str = ""  # register cell: "vertical" for the vertical can pump
 
     @property
     def stem(self) -> str:  # tag prefix: CW-101A -> CW101A
@@ -217,7 +219,8 @@ def vessel_pump(pump_id: str, service: str, area: str, fluid: str, application: 
 PUMPS = [
     *siblings(Pump("CW-101A", "Main cooling water (duty/standby)", "cooling water", "Water",
                    "power", KPA_G, 990, "1800", 8500, "-0.4", "600", "open", 2.6, 26, 0.6,
-                   "CWP-1800", eyes=2, shared_temperature_tag="CW.BASIN_TEMP"), "CW-101B"),
+                   "CWP-1800", eyes=2, shared_temperature_tag="CW.BASIN_TEMP",
+                   eye_diameter="560"), "CW-101B"),
     *siblings(Pump("CW-102A", "Process cooling water (duty/standby)", "cooling water", "Water",
                    "power", KPA_G, 1480, "650", 9500, "0.5", "350", "open", 2.2, 26, 0.8,
                    "CWP-650", curve_shape=(0.45, 2.2)), "CW-102B"),
@@ -237,7 +240,7 @@ PUMPS = [
     *siblings(Pump("CD-401A", "Condensate extraction", "boiler house", "Water", "power",
                    ("kPa", "absolute", "degC", "m3/h"), 1480, "220", 12000, "2.0", "250",
                    "saturated", 2.0, 42, 0.4, "CEP-220", curve_shape=(0.55, 2.0),
-                   fine_temperature=True), "CD-401B"),
+                   fine_temperature=True, eye_diameter="254"), "CD-401B"),
     *siblings(Pump("CH-701A", "Dilute caustic dosing (as water)", "dosing", "Water", "chemical",
                    ("bar", "gauge", "degC", "L/s"), 2900, "4.5 L/s", 5500, "0.2", "50", "open",
                    5.5, 20, 0.5, "DOS-4.5", curve_shape=(0.6, 2.0)), "CH-701B"),
@@ -246,7 +249,7 @@ PUMPS = [
          0.3, "DOS-1.2", curve_shape=(0.6, 2.0), run_tag=False),
     *siblings(Pump("RW-501", "Raw-water intake", "raw water", "Water", "water", US_PSIG, 1485,
                    "2200 gpm", 9000, "1.5 ft", "12 in", "open", 2.4, 14, 0.6, "RWP-2200",
-                   eyes=2), "RW-502", "RW-503"),
+                   eyes=2, eye_diameter="12 in"), "RW-502", "RW-503"),
     Pump("FW-601", "Fire-water jockey", "fire water", "Water", "building", US_PSIG, 2960,
          "25 gpm", 5200, "1 ft", "2 in", "open", 8.2, 12, 0.2, "JKY-25"),
     *siblings(Pump("FW-602", "Fire-water main pump (electric)", "fire water", "Water",
@@ -292,7 +295,7 @@ PUMPS = [
                 "Water", "water", US_PSIG, 1180, "8000 gpm", 8600, "RWV-8000",
                 Vessel("JETTY", "open", "ft", "-6.5 ft",
                        line=("150 ft", "24 in", "0.02 in", "3.2")),
-                allowable_max_flow="9600 gpm"),
+                allowable_max_flow="9600 gpm", orientation="vertical"),
     vessel_pump("DM-151", "Demineralised water forwarding (variable speed)", "water treatment",
                 "Water", "water", BAR_G, 2950, "60", 8500, "DMF-60",
                 Vessel("TK151", "open", "m", "1.5", loss_point=("0.6", "60")), speed_tag=True,
@@ -785,15 +788,21 @@ POLICY = {  # application: [(min S, max S, ratio, margin m)] as in configs/demo_
     "chemical": [(0, 11000, 1.1, 0.6), (11000, np.inf, 1.2, 1.0)],
     "power": [(0, 7500, 1.1, 0.6), (7500, np.inf, 1.2, 1.0)],
     "water": [(0, 7500, 1.1, 0.6), (7500, np.inf, 1.2, 1.0)],
-    "building": [(0, 7500, 1.0, 0.0), (7500, np.inf, 1.1, 0.6)],
+    "building": [(0, 7500, 1.05, 0.0), (7500, np.inf, 1.1, 0.6)],
 }
+#: Suction-energy rules of configs/demo_plant.toml (ratio, margin m) by class, and where high
+#: suction energy begins for single- and double-suction impellers (De in x rpm x S x SG).
+ENERGY_RULES = {"power": {"very_high": (2.0, 1.0), "high": (1.3, 1.0)},
+                "water": {"very_high": (2.0, 1.0), "high": (1.3, 1.0)}}
+HIGH_ENERGY = {1: 160e6, 2: 120e6}
 
 
 def npsh3_and_guidance(p: Pump, st: State, load: np.ndarray, speed: np.ndarray):
     """NPSH3 at the running point (NaN off curve or stopped), the guidance and S (US units)."""
     fractions, heads = curve_si(p)
     npsh3_bep = float(np.interp(1.0, fractions, heads))
-    exponent = float(p.exponent or 2.0)
+    # register k, else the conservative default: 1.5 below rated speed, 2 above
+    exponent = float(p.exponent) if p.exponent else np.where(speed < 1.0, 1.5, 2.0)
     with np.errstate(divide="ignore", invalid="ignore"):
         at_rated = load / speed
         npsh3 = np.interp(at_rated, fractions, heads) * speed**exponent
@@ -801,6 +810,11 @@ def npsh3_and_guidance(p: Pump, st: State, load: np.ndarray, speed: np.ndarray):
     bep = cell_si(p.bep_flow, "m3/h")
     s_us = p.rated_rpm * np.sqrt(bep / GPM / p.eyes) / (npsh3_bep / 0.3048) ** 0.75
     ratio, margin = next((r, m) for lo, hi, r, m in POLICY[p.application] if lo <= s_us < hi)
+    if p.eye_diameter:  # suction energy, water's SG taken as 1 for the demo's water pumps
+        energy = cell_si(p.eye_diameter, "mm") / 0.0254 * p.rated_rpm * s_us
+        high = HIGH_ENERGY[p.eyes]
+        grade = "very_high" if energy >= 1.5 * high else "high" if energy >= high else "low"
+        ratio, margin = ENERGY_RULES.get(p.application, {}).get(grade, (ratio, margin))
     return npsh3, np.maximum(ratio * npsh3, npsh3 + margin), s_us
 
 
@@ -1188,6 +1202,9 @@ def register_row(p: Pump) -> dict:
         "speed_unit": "rpm" if p.speed_tag else "",
         "run_tag": p.tag("RUN") if p.run_tag else "",
         "tap_elevation [m]": p.tap_elevation, "tap_bore [mm]": p.tap_bore,
+        # the demo's suction transmitters are close-coupled to their taps
+        "pressure_reference_point": "" if v else "tap", "orientation": p.orientation,
+        "impeller_eye_diameter [mm]": p.eye_diameter,
         "rated_speed [rpm]": p.rated_rpm, "bep_flow [m3/h]": p.bep_flow,
         "curve_id": p.curve_id, "npsh3_exponent": p.exponent, "impeller_eyes": p.eyes,
         "stale_limit": p.stale_limit,

@@ -110,6 +110,12 @@ def pump_row(pid: str = "P1", **kw) -> str:
     return ",".join(str(v) for v in row.values())
 
 
+def header_with(*extra: str) -> str:
+    """The register header with extra columns appended, in the order that the extra keyword
+    arguments of :func:`pump_row` are given (they are appended to the row in that order)."""
+    return ",".join([PUMP_HEADER, *extra])
+
+
 def make_plant(
     folder: Path,
     wide: dict[str, pd.DataFrame] | None = None,
@@ -123,6 +129,7 @@ def make_plant(
     timezone: str = "UTC",
     elevation: str = "0 m",
     barometer: str = "",
+    header: str = PUMP_HEADER,
 ) -> Path:
     """Write a plant file, register, curves and exports; return the plant file's path."""
     folder = Path(folder)
@@ -142,7 +149,7 @@ def make_plant(
         )  # fmt: skip
     )
     rows = rows if rows is not None else [pump_row("P1")]
-    (folder / "pumps.csv").write_text(PUMP_HEADER + "\n" + "\n".join(rows) + "\n")
+    (folder / "pumps.csv").write_text(header + "\n" + "\n".join(rows) + "\n")
     (folder / "curves.csv").write_text(curves)
     for name, frame in (wide or {}).items():
         frame.to_csv(folder / "exports" / name, index=False)

@@ -147,3 +147,62 @@ def test_guidance_override_from_register():
 def test_no_rule_for_the_application_raises():
     with pytest.raises(PolicyError, match="no policy rule for application 'chemical'"):
         guidance_for(hi_power_plant_policy(), "chemical", 6000.0)
+
+
+# --- suction energy and rules that could never be missed -----------------------------------
+
+
+def test_suction_energy_by_hand():
+    # SE = De·n·S·SG in US units (ANSI/HI 9.6.1-1998 method, from memory): a 10 in eye at
+    # 1480 rpm, S = 12000, SG 0.99 -> 10·1480·12000·0.99 = 175.8e6 (our arithmetic). High
+    # suction energy from 160e6 (end suction) and 120e6 (double suction), very high from 1.5
+    # times those, 240e6 and 180e6 (from memory, medium confidence; check-values.md).
+    from screening.physics.curves import suction_energy, suction_energy_class
+
+    se = suction_energy(0.254, 1480.0, 12000.0, 0.99)
+    assert se == pytest.approx(175.824e6, rel=1e-12)
+    assert suction_energy_class(se, 1, 160e6, 120e6, 1.5) == "high"
+    assert suction_energy_class(se, 2, 160e6, 120e6, 1.5) == "high"
+    assert suction_energy_class(239e6, 1, 160e6, 120e6, 1.5) == "high"
+    assert suction_energy_class(250e6, 1, 160e6, 120e6, 1.5) == "very_high"
+    assert suction_energy_class(150e6, 1, 160e6, 120e6, 1.5) == "low"
+    assert suction_energy_class(185e6, 2, 160e6, 120e6, 1.5) == "very_high"
+
+
+def _energy_policy():
+    return Policy(
+        rules=(
+            PolicyRule(application="power", suction_energy="very_high", ratio=2.0, margin="1 m"),
+            PolicyRule(application="power", suction_energy="high", ratio=1.3, margin="1 m"),
+            PolicyRule(
+                application="power", max_suction_specific_speed=7500, ratio=1.1, margin="0.6 m"
+            ),
+            PolicyRule(
+                application="power", min_suction_specific_speed=7500, ratio=1.2, margin="1 m"
+            ),
+        )
+    )
+
+
+def test_suction_energy_class_picks_the_rule_and_unknown_falls_back():
+    g = guidance_for(_energy_policy(), "power", 12000.0, suction_energy=175.8e6, eyes=1)
+    assert (g.ratio, g.margin, g.suction_energy_class) == (1.3, 1.0, "high")
+    assert "high suction energy" in g.source
+    g = guidance_for(_energy_policy(), "power", 12000.0, suction_energy=300e6, eyes=1)
+    assert (g.ratio, g.suction_energy_class) == (2.0, "very_high")
+    g = guidance_for(_energy_policy(), "power", 12000.0, suction_energy=100e6, eyes=1)
+    assert (g.ratio, g.margin, g.suction_energy_class) == (1.2, 1.0, "low")
+    g = guidance_for(_energy_policy(), "power", 12000.0)  # no eye diameter
+    assert (g.ratio, g.margin, g.suction_energy_class) == (1.2, 1.0, "unknown")
+    assert "suction energy unknown (no impeller_eye_diameter): fell back" in g.source
+
+
+def test_a_rule_equal_to_npsh3_is_refused():
+    # guidance = max(1.0·NPSH3, NPSH3 + 0) = NPSH3: "below guidance" could never be counted
+    with pytest.raises(ValueError, match="could never be counted"):
+        PolicyRule(application="building", ratio=1.0, margin="0 m")
+    with pytest.raises(ValueError, match="could never be counted"):
+        PolicyRule(application="building", ratio=0.9, margin="0 m")
+    PolicyRule(application="building", ratio=1.0, margin="0.3 m")  # a margin keeps a band
+    with pytest.raises(PolicyError, match="could never be counted"):
+        guidance_for(_energy_policy(), "power", 6000.0, ratio_override=1.0, margin_override=0.0)

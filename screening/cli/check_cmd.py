@@ -46,6 +46,7 @@ def check_command(
             typer.echo(f"      {t.role:<16} {t.tag:<20} {t.problems}")
     for t in tags[(tags.pump_id == "(site)") & (tags.problems != "")].itertuples():
         typer.echo(f"  (site)       {t.role:<16} {t.tag:<20} {t.problems}")
+    _print_notes(result.notes)
     for row in result.problems.itertuples(index=False):
         if row.message not in set(result.verdicts["reason"]):
             typer.echo(f"  problem: {row.pump_id}: {row.message}")
@@ -61,3 +62,10 @@ def check_command(
         "read only in part"
     )
     raise typer.Exit(EXIT_OK if result.ok else EXIT_PARTIAL)
+
+
+def _print_notes(notes: list[str]) -> None:
+    """Engineering notes (barometer offset, suction below vapour pressure): they do not change
+    the verdict."""
+    for note in notes:
+        typer.echo(f"  note: {note}")

@@ -34,8 +34,6 @@ from screening.physics.regions import operating_region, pump_region_edges
 
 NS_PER_HOUR = 3_600_000_000_000
 _NEVER = np.iinfo(np.int64).min // 4
-#: Plausible barometric pressures [Pa]; a barometer reading outside is not used.
-BARO_RANGE = (50_000.0, 110_000.0)
 
 
 @dataclass
@@ -44,7 +42,9 @@ class Settings:
 
     Attributes: stale_limit [s] (plant default), frozen_after [s] or None, min_flow_fraction
     and min_speed_fraction [-], ample_ratio [-], site_elevation [m], barometer_stale_limit [s],
-    speed_scaling_range [-] (speed ratios inside which NPSH3 scaling is trusted).
+    speed_scaling_range [-] (speed ratios inside which NPSH3 scaling is trusted),
+    barometer_tolerance [Pa] (largest difference of a used barometer sample from the standard
+    atmosphere at the site elevation).
     """
 
     stale_limit: float
@@ -55,6 +55,8 @@ class Settings:
     site_elevation: float
     barometer_stale_limit: float = 1800.0
     speed_scaling_range: tuple[float, float] = (0.8, 1.2)
+    barometer_tolerance: float = 5000.0
+    min_stable_flow_fraction: float | None = None  # [-] of BEP flow, plant-wide; None: none
 
 
 @dataclass
@@ -71,6 +73,10 @@ class PumpResult:
     region_hours: np.ndarray | None = None  # [h] per region code
     region_daily: np.ndarray | None = None  # [h] per day and region code
     speed_outside_hours: float = 0.0  # running hours outside the speed scaling range
+    worst_margin_m: float = np.nan  # [m] least NPSHa − NPSH3 on the curve while running
+    worst_guidance_margin_m: float = np.nan  # [m] least NPSHa − guidance head
+    below_vapour_hours: float = 0.0  # [h] running with p_abs < p_v: impossible, a data fault
+    below_vapour_first: pd.Timestamp | None = None
     plot: pd.DataFrame | None = field(default=None, repr=False)  # min/max per time bucket
     points: dict | None = field(default=None, repr=False)  # operating-point histogram
     series: pd.DataFrame | None = field(default=None, repr=False)
@@ -97,6 +103,8 @@ def prepare_tag(
     else:
         with np.errstate(over="ignore"):  # an overflow is counted below
             values = to_si(series.values, spec.unit, spec.kind)
+            if spec.scale != 1.0:  # a drive frequency: n = n_rated·f/f_rated (register)
+                values = values * spec.scale
     bad = series.bad.copy()
     # a finite reading that overflows on conversion (1e308 kPa) is not a number either
     overflow = ~np.isfinite(values) & ~bad
@@ -130,7 +138,9 @@ def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str):
         p_surface = suction.surface_pressure_from_tag(
             held["vessel_pressure"].value, baro, pump.vessel_gauge
         )
+    # the suction line's loss and a vertical can's, from its nozzle to the impeller eye
     loss = suction.line_loss(pump.suction_line, flow, rho, temp, fluid)
+    loss = loss + suction.can_loss(pump.can_loss_k, flow)
     npsha = suction.npsha_from_vessel(
         p_surface, p_v, rho, held["level"].value, pump.level_zero_elevation, loss
     )
@@ -222,7 +232,7 @@ def calculate_pump(
     run = _decide_running(pump, timeline.held, settings, len(timeline.grid))
     phys = _evaluate(pump, curve, table, timeline, barometer, settings)
     code, until, all_bad = _classify_margin(phys, run, guidance, settings)
-    rcode, r_until = _classify_region(pump, curve, timeline.held, phys, run)
+    rcode, r_until = _classify_region(pump, curve, timeline.held, phys, run, settings)
     return _summarise(
         pump, curve, guidance, settings, timeline, run, phys, (code, until, all_bad),
         (rcode, r_until), start_ns, end_ns, day_edges, keep_series, plot_buckets,
@@ -334,15 +344,18 @@ def _decide_running(pump: PumpSpec, held: dict, settings: Settings, n: int) -> _
 
 def _barometric(barometer, grid, settings: Settings) -> tuple[np.ndarray, np.ndarray]:
     """Barometric pressure [Pa] on each piece and whether the barometer gave it: the barometer
-    where fresh and plausible, else the standard atmosphere at the site elevation (U.S.
-    Standard Atmosphere 1976)."""
-    p_std = _standard_pressure(settings.site_elevation)
+    where fresh and within ``settings.barometer_tolerance`` [Pa] of the standard atmosphere at
+    the site elevation (U.S. Standard Atmosphere 1976), else that atmosphere. A reading
+    corrected to sea level (some historians store it so) at a site 1500 m up is 16.8 kPa too
+    high and would raise NPSHa by about 1.7 m of water: it is not used."""
+    p_std = _standard_pressure(settings.site_elevation)  # US Standard Atmosphere 1976
     baro = np.full(len(grid), p_std)
     baro_used = np.zeros(len(grid), dtype=bool)
     if barometer is not None and len(barometer.times):
         hb = _Held(barometer, grid, int(round(settings.barometer_stale_limit * 1e9)))
-        fresh = ~hb.bad & (hb.until > grid) & (hb.value >= BARO_RANGE[0])
-        fresh &= hb.value <= BARO_RANGE[1]
+        with np.errstate(invalid="ignore"):
+            near = np.abs(hb.value - p_std) <= settings.barometer_tolerance
+        fresh = ~hb.bad & (hb.until > grid) & near
         baro = np.where(fresh, hb.value, p_std)
         baro_used = fresh
     return baro, baro_used
@@ -361,6 +374,8 @@ def _evaluate(pump, curve, table, timeline: _Timeline, barometer, settings) -> _
     if pump.source == "transmitter":
         p_abs = npsh.absolute_pressure(held["suction"].value, baro, pump.gauge)
         npsha = npsh.npsha_from_pressure(p_abs, p_v, rho, flow, pump.tap_bore, pump.tap_elevation)
+        # a vertical can from its nozzle to the impeller eye (register; counted once)
+        npsha = npsha - suction.can_loss(pump.can_loss_k, flow)
     else:
         p_abs, npsha = _vessel_npsha(pump, held, baro, p_v, rho, flow, temp, table.fluid)
     speed = held["speed"].value if "speed" in held else None
@@ -386,11 +401,11 @@ def _classify_margin(phys: _Physics, run: _Running, guidance: Guidance, settings
     return code, until, all_bad
 
 
-def _classify_region(pump, curve, held, phys: _Physics, run: _Running):
+def _classify_region(pump, curve, held, phys: _Physics, run: _Running, settings: Settings):
     """The operating region of each piece (flow [m³/s] against the region edges at the running
     speed) and the time until which it holds [ns]: needs only the run decision, flow and
     speed."""
-    edges = pump_region_edges(pump, curve.flow_max, phys.speed)
+    edges = pump_region_edges(pump, curve.flow_max, phys.speed, settings.min_stable_flow_fraction)
     with np.errstate(invalid="ignore"):
         rcode = operating_region(phys.flow, edges)
     r_bad = run.decide_bad.copy()
@@ -440,6 +455,8 @@ def _summarise(
         i = int(np.argmin(np.where(banded, ratio, np.inf)))
         result.worst_ratio = float(ratio[i])
         result.worst_time = pd.Timestamp(int(grid[i]), tz="UTC")
+        _worst_margins(result, phys, guidance, banded)
+    _below_vapour(result, grid, phys, code, fresh)
     if pump.needs_barometer:
         counted = run.running & ~all_bad & (code != states.STOPPED)
         result.baro_fallback_hours = float(fresh[counted & ~phys.baro_used].sum() / NS_PER_HOUR)
@@ -451,6 +468,27 @@ def _summarise(
     if keep_series:
         result.series = _series_frame(pump, timeline, run, phys, code, rcode, fresh, r_fresh, ratio)
     return result
+
+
+def _worst_margins(result: PumpResult, phys: _Physics, guidance: Guidance, banded) -> None:
+    """The least margins in metres on the pieces in a margin band: NPSHa − NPSH3 and NPSHa −
+    guidance head [m] (a ratio alone hides how little head is left on a small NPSH3)."""
+    npsha, npsh3 = phys.npsha[banded], phys.npsh3[banded]
+    result.worst_margin_m = float(np.min(npsha - npsh3))
+    result.worst_guidance_margin_m = float(np.min(npsha - guidance.head(npsh3)))
+
+
+def _below_vapour(result: PumpResult, grid, phys: _Physics, code, fresh) -> None:
+    """Hours [h] running in a margin band (or off the curve) with the absolute suction (or
+    vessel surface) pressure below the vapour pressure at the recorded temperature: the liquid
+    would be boiling, impossible in steady flow, so a transmitter, its reference or the
+    temperature is wrong. Counted in its margin state as computed (below NPSH3 as a rule) and
+    flagged."""
+    with np.errstate(invalid="ignore"):
+        below = (code <= states.OFF_CURVE) & (np.asarray(phys.p_abs) < phys.p_v) & (fresh > 0)
+    if below.any():
+        result.below_vapour_hours = float(fresh[below].sum() / NS_PER_HOUR)
+        result.below_vapour_first = pd.Timestamp(int(grid[np.argmax(below)]), tz="UTC")
 
 
 def _plot_data(

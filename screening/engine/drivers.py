@@ -69,9 +69,10 @@ def npsh_pair(
     if pump.source == "transmitter":
         a = npsh.npsha_from_pressure(
             inputs["suction_pressure"], p_v, rho, flow, pump.tap_bore, pump.tap_elevation
-        )
+        ) - suction.can_loss(pump.can_loss_k, flow)
     else:
         loss = suction.line_loss(pump.suction_line, flow, rho, temp, table.fluid)
+        loss = loss + suction.can_loss(pump.can_loss_k, flow)
         surface = (
             suction.SATURATED if pump.vessel_surface == "saturated" else inputs["surface_pressure"]
         )

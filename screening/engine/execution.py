@@ -30,7 +30,7 @@ import pyarrow
 
 from screening.base.allocator import keep_freed_memory
 from screening.engine.calculator import PumpResult, Settings
-from screening.engine.one_pump import quality_row, screen_pump
+from screening.engine.one_pump import quality_flags, quality_row, screen_pump
 from screening.inputs.loader import ExportIndex
 from screening.inputs.plant import Plant
 from screening.inputs.tagdata import ExportError, TagSeries
@@ -97,7 +97,7 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
         out.samples += n
         out.results.append(result)
         for role, q in tag_quality.items():
-            out.quality_rows.append(quality_row(pid, role, q))
+            out.quality_rows.append(quality_row(pid, role, q, quality_flags(result, role)))
     return out
 
 

@@ -28,6 +28,8 @@ def settings_for(plant: Plant) -> Settings:
         site_elevation=s.site.elevation,
         barometer_stale_limit=s.site.barometer_stale_limit,
         speed_scaling_range=tuple(s.running.speed_scaling_range),
+        barometer_tolerance=s.site.barometer_tolerance,
+        min_stable_flow_fraction=s.running.min_stable_flow_fraction,
     )
 
 
@@ -104,12 +106,26 @@ def screen_pump(
 QUALITY_COLUMNS = [
     "pump_id", "role", "tag", "samples", "text_values", "bad_quality", "not_finite", "frozen",
     "out_of_range", "bad_timestamps", "duplicates", "out_of_order", "malformed_rows", "words",
-    "first_problem", "gaps", "gap_hours", "longest_gaps",
+    "first_problem", "gaps", "gap_hours", "longest_gaps", "flags",
 ]  # fmt: skip
 
+#: The flag of a pump whose absolute suction pressure fell below the vapour pressure.
+BELOW_VAPOUR_FLAG = "suction pressure below vapour pressure: check transmitter and temperature"
 
-def quality_row(pid: str, role: str, q: TagQuality) -> dict:
-    """One row of the quality table."""
+
+def quality_flags(result, role: str) -> str:
+    """Engineering flags of a pump's tag in the quality table: the suction (or vessel
+    pressure) tag of a pump that ran with p_abs below p_v, with hours [h] and first time."""
+    if role not in ("suction", "vessel_pressure") or not result.below_vapour_hours:
+        return ""
+    return (
+        f"{BELOW_VAPOUR_FLAG} ({result.below_vapour_hours:.2f} h running, first at "
+        f"{result.below_vapour_first.isoformat()})"
+    )
+
+
+def quality_row(pid: str, role: str, q: TagQuality, flags: str = "") -> dict:
+    """One row of the quality table (``flags``: see :func:`quality_flags`)."""
     return {
         "pump_id": pid,
         "role": role,
@@ -132,4 +148,5 @@ def quality_row(pid: str, role: str, q: TagQuality) -> dict:
             f"{pd.Timestamp(a, tz='UTC'):%Y-%m-%dT%H:%MZ} for {n / 3.6e12:.1f} h"
             for a, n in q.longest_gaps
         ),
+        "flags": flags,
     }

@@ -10,7 +10,7 @@ bad samples and the words found in place of numbers, and files whose dates canno
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import pandas as pd
@@ -20,6 +20,7 @@ from screening.engine.scan import scan
 from screening.engine.tables import ScanResult
 from screening.inputs.loader import open_exports
 from screening.inputs.plant import Plant, load_plant
+from screening.inputs.plausibility import barometer_notes
 
 #: Verdicts of :func:`check`, per pump.
 CAN_BE_SCREENED = "can be screened"
@@ -46,6 +47,10 @@ class CheckResult:
         ``file``, ``message``: export files not read, or read only in part.
     scan : ScanResult or None
         The scan behind the verdicts (None when the exports hold no sample at all).
+    notes : list of str
+        Engineering notes that do not change a verdict: a barometer away from the standard
+        atmosphere (:mod:`screening.inputs.plausibility`), suction pressure below the vapour
+        pressure.
     """
 
     plant: Plant
@@ -54,6 +59,7 @@ class CheckResult:
     problems: pd.DataFrame
     file_problems: pd.DataFrame
     scan: ScanResult | None = None
+    notes: list[str] = field(default_factory=list)
 
     @property
     def ok(self) -> bool:
@@ -93,7 +99,27 @@ def check(config: str | Path | Plant, start=None, end=None) -> CheckResult:
         pd.DataFrame(problems, columns=["pump_id", "message"]),
         result.file_problems.copy(),
         result,
+        _notes(plant, result),
     )
+
+
+def _notes(plant: Plant, result: ScanResult) -> list[str]:
+    """The barometer's offset from the standard atmosphere, and pumps whose suction pressure
+    fell below the vapour pressure (impossible in steady flow)."""
+    notes = []
+    tag = plant.settings.site.barometer_tag
+    if tag:
+        lo = result.start.value - int(plant.settings.site.barometer_stale_limit * 1e9)
+        series, _ = open_exports(plant).read([tag], (lo, result.end.value))
+        notes += barometer_notes(plant, series)
+    for s in result.summary.itertuples(index=False):
+        if s.below_vapour_pressure_hours > 0:
+            notes.append(
+                f"{s.pump_id}: suction pressure below vapour pressure for "
+                f"{hours_text(s.below_vapour_pressure_hours, True)} of the window: check "
+                "transmitter and temperature"
+            )
+    return notes
 
 
 def _nothing_to_read(plant: Plant) -> CheckResult:

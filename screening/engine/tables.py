@@ -102,10 +102,13 @@ SUMMARY_COLUMNS = [
     "pump_id", "service", "area", "fluid", "vapour_pressure_model", "window_hours",
     "running_hours", "below_npsh3_hours", "below_guidance_hours", "off_curve_hours",
     "no_data_hours", "bad_data_hours", "coverage", "enough_data", "worst_ratio", "worst_time",
-    "guidance_ratio", "guidance_margin_m", "guidance_source", "suction_specific_speed_us",
+    "worst_margin_m", "worst_margin_to_guidance_m",
+    "guidance_ratio", "guidance_margin_m", "guidance_source", "suction_energy_us",
+    "suction_energy_class", "suction_specific_speed_us",
     "suction_specific_speed_metric", "preferred_region_hours", "outside_preferred_hours",
     "below_min_flow_hours", "beyond_allowable_hours", "speed_outside_scaling_hours",
-    "standard_atmosphere_hours",
+    "standard_atmosphere_hours", "min_flow_source", "below_vapour_pressure_hours", "npsh_datum",
+    "pressure_point_elevation_m", "datum_note",
 ]  # fmt: skip
 
 
@@ -120,6 +123,66 @@ def _daily(results, days, kind: str, names: list[str], get) -> pd.DataFrame:
             "hours": np.concatenate([get(r).ravel() for r in results]) if results else [],
         }
     )
+
+
+def _summary_row(plant, r) -> dict:
+    """One pump's row of the summary table (hours [h], ratios [-], metres [m]), with whether
+    its data cover ``[data] min_coverage`` of the window."""
+    pump = plant.pumps[r.pump_id]
+    g = plant.guidance[r.pump_id]
+    names = list(states.STATES)
+    h = dict(zip(names, r.hours, strict=True))
+    rh = dict(zip(regions.REGIONS, r.region_hours, strict=True))
+    s_us = pump_suction_specific_speed(plant, r.pump_id)
+    running = sum(h[s] for s in states.RUNNING)
+    coverage = 1.0 - (h["no_data"] + h["bad_data"]) / r.window_hours
+    return {
+        "pump_id": r.pump_id,
+        "service": pump.service,
+        "area": pump.area,
+        "fluid": pump.fluid,
+        "vapour_pressure_model": fluid_table(
+            pump.fluid, pump.vapour_pressure
+        ).vapour_pressure_model,
+        "window_hours": r.window_hours,
+        "running_hours": running,
+        "below_npsh3_hours": h["below_npsh3"],
+        "below_guidance_hours": h["below_npsh3"] + h["below_guidance"],
+        "off_curve_hours": h["off_curve"],
+        "no_data_hours": h["no_data"],
+        "bad_data_hours": h["bad_data"],
+        "coverage": coverage,
+        "enough_data": bool(coverage >= plant.settings.data.min_coverage),
+        "worst_ratio": r.worst_ratio,
+        "worst_time": (
+            r.worst_time.tz_convert(plant.timezone) if r.worst_time is not None else None
+        ),
+        "worst_margin_m": r.worst_margin_m,
+        "worst_margin_to_guidance_m": r.worst_guidance_margin_m,
+        "guidance_ratio": g.ratio,
+        "guidance_margin_m": g.margin,
+        "guidance_source": g.source,
+        "suction_energy_us": g.suction_energy,
+        "suction_energy_class": g.suction_energy_class,
+        "suction_specific_speed_us": s_us,
+        "suction_specific_speed_metric": s_us / US_PER_METRIC_S,
+        "preferred_region_hours": rh["preferred_region"],
+        "outside_preferred_hours": sum(rh[x] for x in regions.RUNNING_REGIONS)
+        - rh["preferred_region"],
+        "below_min_flow_hours": rh["below_min_flow"],
+        "beyond_allowable_hours": rh["beyond_allowable"],
+        "speed_outside_scaling_hours": r.speed_outside_hours,
+        "standard_atmosphere_hours": r.baro_fallback_hours,
+        "min_flow_source": regions.min_flow_source(
+            pump, plant.settings.running.min_stable_flow_fraction
+        ),
+        "below_vapour_pressure_hours": r.below_vapour_hours,
+        "npsh_datum": pump.datum,
+        "pressure_point_elevation_m": pump.tap_elevation
+        if pump.source == "transmitter"
+        else np.nan,
+        "datum_note": pump.datum_note,
+    }
 
 
 def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_problems):
@@ -165,50 +228,3 @@ def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_
         [{"file": k, "message": v} for k, v in file_problems.items()], columns=["file", "message"]
     )
     return ScanResult(plant, start, end, hours, summary, daily, quality, probs, files)
-
-
-def _summary_row(plant, r) -> dict:
-    """One pump's row of the summary table: hours [h] by kind of state, coverage [-], worst
-    ratio [-], guidance and suction specific speed."""
-    pump = plant.pumps[r.pump_id]
-    g = plant.guidance[r.pump_id]
-    names = list(states.STATES)
-    h = dict(zip(names, r.hours, strict=True))
-    rh = dict(zip(regions.REGIONS, r.region_hours, strict=True))
-    s_us = pump_suction_specific_speed(plant, r.pump_id)
-    running = sum(h[s] for s in states.RUNNING)
-    coverage = 1.0 - (h["no_data"] + h["bad_data"]) / r.window_hours
-    return {
-        "pump_id": r.pump_id,
-        "service": pump.service,
-        "area": pump.area,
-        "fluid": pump.fluid,
-        "vapour_pressure_model": fluid_table(
-            pump.fluid, pump.vapour_pressure
-        ).vapour_pressure_model,
-        "window_hours": r.window_hours,
-        "running_hours": running,
-        "below_npsh3_hours": h["below_npsh3"],
-        "below_guidance_hours": h["below_npsh3"] + h["below_guidance"],
-        "off_curve_hours": h["off_curve"],
-        "no_data_hours": h["no_data"],
-        "bad_data_hours": h["bad_data"],
-        "coverage": coverage,
-        "enough_data": bool(coverage >= plant.settings.data.min_coverage),
-        "worst_ratio": r.worst_ratio,
-        "worst_time": (
-            r.worst_time.tz_convert(plant.timezone) if r.worst_time is not None else None
-        ),
-        "guidance_ratio": g.ratio,
-        "guidance_margin_m": g.margin,
-        "guidance_source": g.source,
-        "suction_specific_speed_us": s_us,
-        "suction_specific_speed_metric": s_us / US_PER_METRIC_S,
-        "preferred_region_hours": rh["preferred_region"],
-        "outside_preferred_hours": sum(rh[x] for x in regions.RUNNING_REGIONS)
-        - rh["preferred_region"],
-        "below_min_flow_hours": rh["below_min_flow"],
-        "beyond_allowable_hours": rh["beyond_allowable"],
-        "speed_outside_scaling_hours": r.speed_outside_hours,
-        "standard_atmosphere_hours": r.baro_fallback_hours,
-    }

@@ -49,6 +49,16 @@ def _length(value) -> float:
     return length
 
 
+def _pressure(value) -> float:
+    try:
+        pressure = parse_quantity(value, "pressure", None)
+    except UnitError as exc:
+        raise ValueError(str(exc)) from exc
+    if not math.isfinite(pressure):
+        raise ValueError(f"{value!r} is not a finite pressure")
+    return pressure
+
+
 def _duration(value) -> float:
     try:
         seconds = parse_duration(value)
@@ -68,8 +78,23 @@ class Site(_Strict):
     barometer_tag: str | None = None
     barometer_unit: str | None = None
     barometer_stale_limit: float = Field(1800.0, description="hold of a barometer sample [s]")
+    #: Largest difference from the 1976 standard atmosphere at the site elevation [Pa] for
+    #: which a barometer sample is used: weather moves station pressure by a few kPa (a deep
+    #: low about 4-5 kPa below the mean, common practice), while a sea-level-corrected reading
+    #: at a site 1500 m up is about 17 kPa above the station pressure.
+    barometer_tolerance: float = Field(5000.0, description="[Pa]")
 
     _elev = field_validator("elevation", mode="before")(lambda v: _length(v))
+    _baro_tol = field_validator("barometer_tolerance", mode="before")(lambda v: _pressure(v))
+
+    @field_validator("barometer_tolerance")
+    @classmethod
+    def _tolerance_range(cls, v: float) -> float:
+        if not 0 < v <= 20_000.0:
+            raise ValueError(
+                f"barometer_tolerance {v:g} Pa is not between 0 and 20 kPa (such as '5 kPa')"
+            )
+        return v
 
     @field_validator("elevation")
     @classmethod
@@ -159,6 +184,12 @@ class Running(_Strict):
         if both:
             raise ValueError(f"word(s) {', '.join(map(repr, both))} in both on_words and off_words")
         return self
+
+    #: Plant-wide minimum stable flow as a fraction of BEP flow [-] for pumps whose register
+    #: gives neither a minimum stable nor a thermal minimum flow. None by default: such pumps
+    #: are flagged "minimum flow not registered" (vendors state 25-40 % of BEP typically,
+    #: common practice; the vendor's figure governs).
+    min_stable_flow_fraction: float | None = Field(None, gt=0, lt=1)
 
     @field_validator("speed_scaling_range")
     @classmethod
@@ -254,35 +285,69 @@ class ExportSource(_Strict):
 
 
 class PolicyRule(_Strict):
-    """Minimum margin for an application class and suction-specific-speed range (US units).
+    """Minimum margin for an application class, a suction-specific-speed range (US units) and
+    optionally a suction-energy class.
 
     Guidance head = max(ratio · NPSH3, NPSH3 + margin): "ratio or margin, whichever is
-    greater" (ANSI/HI 9.6.1-2012, as summarised in secondary sources).
+    greater" (ANSI/HI 9.6.1-2012, as summarised in secondary sources). A rule with
+    ``suction_energy`` applies only to pumps whose suction energy is known (impeller eye
+    diameter in the register) and of that class (ANSI/HI 9.6.1-1998 method, from memory).
     """
 
     application: str
     min_suction_specific_speed: float | None = None
     max_suction_specific_speed: float | None = None
+    suction_energy: Literal["low", "high", "very_high"] | None = None
     ratio: float = Field(gt=0)
     margin: float = Field(description="margin above NPSH3 [m]")
 
     _m = field_validator("margin", mode="before")(lambda v: _length(v))
 
-    def matches(self, application: str, s: float) -> bool:
-        """True when this rule applies to ``application`` at suction specific speed ``s``."""
+    @model_validator(mode="after")
+    def _can_be_missed(self) -> PolicyRule:
+        # guidance = max(ratio·NPSH3, NPSH3 + margin) equals NPSH3 when ratio <= 1 and
+        # margin <= 0: no NPSHa could then be above NPSH3 and below the guidance
+        if self.ratio <= 1.0 and self.margin <= 0.0:
+            raise ValueError(
+                f"ratio {self.ratio:g} with margin {self.margin:g} m makes the guidance equal "
+                "NPSH3, so 'below guidance' could never be counted; give a ratio above 1 or a "
+                'margin above 0 m (e.g. ratio = 1.1, margin = "0.6 m")'
+            )
+        if self.margin < 0.0:
+            raise ValueError(f"margin {self.margin:g} m is negative: a margin is above NPSH3")
+        return self
+
+    def matches(self, application: str, s: float, energy_class: str = "unknown") -> bool:
+        """True when this rule applies to ``application`` at suction specific speed ``s`` [-]
+        and suction-energy class ``energy_class`` ("unknown" when no eye diameter)."""
         if application != self.application:
             return False
         if self.min_suction_specific_speed is not None and s < self.min_suction_specific_speed:
             return False
         if self.max_suction_specific_speed is not None and s >= self.max_suction_specific_speed:
             return False
+        if self.suction_energy is not None and self.suction_energy != energy_class:
+            return False
         return True
 
 
+class SuctionEnergyLimits(_Strict):
+    """Where high suction energy begins [US units: in·rpm·S·SG], for single-suction (end
+    suction) and double-suction impellers, and the factor from high to very high. Defaults
+    from ANSI/HI 9.6.1-1998 as summarised in secondary sources (from memory, medium
+    confidence): check against the standard your purchase specified."""
+
+    end_suction_high: float = Field(160e6, gt=0)
+    double_suction_high: float = Field(120e6, gt=0)
+    very_high_factor: float = Field(1.5, gt=1)
+
+
 class Policy(_Strict):
-    """The margin policy: guidance rules and the ratio from which margin is called ample."""
+    """The margin policy: guidance rules, suction-energy limits and the ratio from which
+    margin is called ample."""
 
     ample_ratio: float = Field(2.0, gt=1)
+    suction_energy: SuctionEnergyLimits = SuctionEnergyLimits()
     rules: tuple[PolicyRule, ...] = Field(min_length=1)
 
 

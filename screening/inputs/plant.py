@@ -14,7 +14,7 @@ from pathlib import Path
 from screening.inputs.config import ConfigError, PlantFile, read_plant_file
 from screening.inputs.policy import PolicyError, guidance_for
 from screening.inputs.register import PumpSpec, read_curves, read_pump_register
-from screening.physics.curves import Npsh3Curve, suction_specific_speed
+from screening.physics.curves import Npsh3Curve, suction_energy, suction_specific_speed
 from screening.physics.margin import Guidance
 from screening.physics.properties import FluidError, fluid_table
 
@@ -79,7 +79,7 @@ def _check_pump(pump: PumpSpec, curves, curve_problems, settings: PlantFile) -> 
         raise ConfigError(
             f"curve_id {pump.curve_id!r} is not in the curve table (curves there: {known})"
         )
-    fluid_table(pump.fluid, pump.vapour_pressure)  # raises FluidError for an unknown fluid
+    table = fluid_table(pump.fluid, pump.vapour_pressure)  # FluidError for an unknown fluid
     s = pump.suction_specific_speed
     if s is None:
         curve = curves[pump.curve_id]
@@ -90,9 +90,30 @@ def _check_pump(pump: PumpSpec, curves, curve_problems, settings: PlantFile) -> 
                 "speed cannot be computed; give suction_specific_speed in the register"
             )
         s = suction_specific_speed(pump.rated_speed, pump.bep_flow, npsh3_bep, pump.impeller_eyes)
+    energy = None
+    if pump.impeller_eye_diameter is not None:
+        energy = suction_energy(
+            pump.impeller_eye_diameter, pump.rated_speed, s, specific_gravity(table)
+        )
     return guidance_for(
-        settings.policy, pump.application, s, pump.guidance_ratio, pump.guidance_margin
-    )
+        settings.policy, pump.application, s, pump.guidance_ratio, pump.guidance_margin,
+        energy, pump.impeller_eyes,
+    )  # fmt: skip
+
+
+#: 60 °F [K], the reference temperature of the specific gravity (ASTM and trade convention).
+T_60F = 288.7055555555556
+
+
+def specific_gravity(table) -> float:
+    """Specific gravity [-]: the liquid's saturated density at 60 °F over water's (CoolProp;
+    water 999.0 kg/m³ by IAPWS-95). A fluid whose table does not reach 60 °F is taken at the
+    nearest temperature of its table."""
+    water = fluid_table("Water")
+    lo, hi = float(table.t_min), float(table.t_max)
+    t = min(max(T_60F, lo), hi)
+    rho = float(table.properties(t)[1])
+    return rho / float(water.properties(T_60F)[1])
 
 
 def pump_suction_specific_speed(plant: Plant, pump_id: str) -> float:

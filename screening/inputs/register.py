@@ -18,6 +18,14 @@ import numpy as np
 import pandas as pd
 
 from screening.inputs.config import ConfigError
+from screening.inputs.pumpspec import PumpSpec, SuctionLine, TagSpec
+from screening.inputs.register_fields import (
+    datum_fields,
+    positive_length,
+    speed_fields,
+    transmitter_fields,
+    vessel_fields,
+)
 from screening.inputs.units import UnitError, parse_quantity, parse_unit
 from screening.physics.curves import CurveError, Npsh3Curve
 
@@ -40,6 +48,12 @@ OPTIONAL = (
     "suction_pressure_unit",
     "suction_pressure_reference",
     "tap_elevation",
+    "pressure_reference_point",
+    "pressure_point_elevation",
+    "orientation",
+    "npsh3_datum",
+    "can_loss_head",
+    "can_loss_flow",
     "tap_bore",
     "level_tag",
     "level_unit",
@@ -58,9 +72,12 @@ OPTIONAL = (
     "area",
     "speed_tag",
     "speed_unit",
+    "speed_signal",
+    "rated_frequency",
     "run_tag",
     "npsh3_exponent",
     "impeller_eyes",
+    "impeller_eye_diameter",
     "stale_limit",
     "suction_specific_speed",
     "guidance_ratio",
@@ -77,109 +94,6 @@ OPTIONAL = (
 #: Longest stale limit a register row may give [s]: a sample held for a year is no sample.
 MAX_STALE_LIMIT = 366 * 86400.0
 _HEADER = re.compile(r"^\s*([A-Za-z0-9_]+)\s*(?:\[(.*)\])?\s*$")
-
-
-@dataclass(frozen=True)
-class TagSpec:
-    """A historian tag of a pump: its name, unit as written, and quantity kind."""
-
-    tag: str
-    unit: str
-    kind: str
-    stale_limit: float | None = None  # [s]; None: the plant default
-
-
-@dataclass(frozen=True)
-class SuctionLine:
-    """The suction line from the vessel to the pump, for the friction loss at each flow.
-
-    Either a loss coefficient ``k`` [s²/m⁵] (head = k·Q², from a design point) or the line
-    itself: ``length`` [m], ``bore`` [m], ``roughness`` [m], ``fittings_k`` [-] for
-    Darcy-Weisbach (see :mod:`screening.physics.suction`).
-    """
-
-    k: float | None = None
-    length: float | None = None
-    bore: float | None = None
-    roughness: float | None = None
-    fittings_k: float = 0.0
-
-
-@dataclass(frozen=True)
-class PumpSpec:
-    """One pump of the register, in SI units.
-
-    Attributes: tap_elevation [m], tap_bore [m], rated_speed [rpm], bep_flow [m³/s],
-    npsh3_exponent [-], impeller_eyes [-], guidance_margin [m], min_stable_flow,
-    thermal_min_flow and allowable_max_flow [m³/s] at rated speed, preferred_low and
-    preferred_high [-] as fractions of BEP flow.
-    """
-
-    pump_id: str
-    service: str
-    area: str
-    fluid: str
-    application: str
-    suction: TagSpec | None
-    gauge: bool
-    temperature: TagSpec
-    flow: TagSpec
-    speed: TagSpec | None
-    run: TagSpec | None
-    tap_elevation: float
-    tap_bore: float
-    rated_speed: float
-    bep_flow: float
-    curve_id: str
-    npsh3_exponent: float = 2.0
-    impeller_eyes: int = 1
-    suction_specific_speed: float | None = None
-    guidance_ratio: float | None = None
-    guidance_margin: float | None = None
-    min_stable_flow: float | None = None
-    thermal_min_flow: float | None = None
-    preferred_low: float = 0.70
-    preferred_high: float = 1.20
-    allowable_max_flow: float | None = None
-    vapour_pressure: str | None = None
-    source: str = "transmitter"
-    level: TagSpec | None = None
-    level_zero_elevation: float = 0.0
-    vessel_surface: str | None = None
-    vessel_pressure: TagSpec | None = None
-    vessel_gauge: bool = False
-    suction_line: SuctionLine | None = None
-    line: int = 0
-    #: Today's operating limits, for the what-if comparison: the low suction-pressure
-    #: setpoint [Pa, in the suction transmitter's reference], the low vessel-level setpoint
-    #: [m, in the level transmitter's frame] and the high liquid-temperature setpoint [K].
-    low_pressure_setpoint: float | None = None
-    low_level_setpoint: float | None = None
-    high_temperature_setpoint: float | None = None
-
-    @property
-    def needs_barometer(self) -> bool:
-        """True when the barometric pressure enters NPSHa (gauge readings, open vessels)."""
-        if self.source == "transmitter":
-            return self.gauge
-        if self.vessel_surface == "open":
-            return True
-        return self.vessel_surface == "pressure" and self.vessel_gauge
-
-    def tags(self) -> dict[str, TagSpec]:
-        """The pump's tags by role (suction, temperature, flow, speed, run)."""
-        roles = {"temperature": self.temperature, "flow": self.flow}
-        if self.suction is not None:
-            roles["suction"] = self.suction
-        if self.level is not None:
-            roles["level"] = self.level
-        if self.vessel_pressure is not None:
-            roles["vessel_pressure"] = self.vessel_pressure
-        if self.speed is not None:
-            roles["speed"] = self.speed
-        if self.run is not None:
-            roles["run"] = self.run
-        return roles
 
 
 @dataclass(frozen=True)
@@ -326,7 +240,7 @@ class _Row:
 #: Cells a row needs besides :data:`REQUIRED`, by how its suction is measured.
 _NEEDED_BY_SOURCE = {
     "transmitter": ("suction_pressure_tag", "suction_pressure_unit",
-                    "suction_pressure_reference", "tap_elevation", "tap_bore"),
+                    "suction_pressure_reference", "tap_bore"),
     "vessel": ("level_tag", "level_unit", "level_zero_elevation", "vessel_surface"),
 }  # fmt: skip
 
@@ -369,10 +283,10 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
     if source not in ("transmitter", "vessel"):
         r.fail("suction_source", f"{source!r} is not 'transmitter' or 'vessel'")
     if source == "transmitter":
-        suction_fields = _transmitter_fields(r, tag, reference)
+        suction_fields = transmitter_fields(r, tag, reference)
     else:
         suction_fields = {"suction": None, "gauge": False, "tap_elevation": 0.0, "tap_bore": 1.0}
-        suction_fields.update(_vessel_fields(r, tag, reference))
+        suction_fields.update(vessel_fields(r, tag, reference))
     run_name = r.text("run_tag", required=False)
     rated = r.quantity("rated_speed", "speed")
     if rated <= 0:
@@ -393,13 +307,14 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         application=r.text("application"),
         temperature=tag("temperature", "temperature"),
         flow=tag("flow", "flow"),
-        speed=tag("speed", "speed", required=False),
+        **speed_fields(r, tag("speed", "speed", required=False), rated),
         run=TagSpec(run_name, "", "status", stale) if run_name else None,
         rated_speed=rated,
         bep_flow=bep,
         curve_id=r.text("curve_id"),
-        npsh3_exponent=r.number("npsh3_exponent", 2.0, 0.5, 3.0),
+        npsh3_exponent=r.number("npsh3_exponent", None, 0.5, 3.0),
         impeller_eyes=int(eyes),
+        impeller_eye_diameter=positive_length(r, "impeller_eye_diameter"),
         suction_specific_speed=r.number("suction_specific_speed", None, 1.0, 1e5),
         guidance_ratio=r.number("guidance_ratio", None, 1.0, 10.0),
         guidance_margin=r.quantity("guidance_margin", "length", required=False),
@@ -417,56 +332,8 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
             "high_temperature_setpoint", "temperature", required=False
         ),
         **suction_fields,
+        **datum_fields(r),
     )
-
-
-def _transmitter_fields(r: _Row, tag, reference) -> dict:
-    """The register fields of a pump with a suction pressure transmitter (tag, reference,
-    tap elevation [m] and bore [m])."""
-    out = {
-        "suction": tag("suction_pressure", "pressure"),
-        "gauge": reference("suction_pressure_reference"),
-        "tap_elevation": r.quantity("tap_elevation", "length"),
-        "tap_bore": r.quantity("tap_bore", "length"),
-    }
-    if out["tap_bore"] <= 0:
-        r.fail("tap_bore", "must be a positive pipe bore")
-    return out
-
-
-def _vessel_fields(r: _Row, tag, reference) -> dict:
-    """The register fields of a vessel-fed pump (level, surface pressure, suction line)."""
-    surface = (r.text("vessel_surface") or "").lower()
-    if surface not in ("open", "saturated", "pressure"):
-        r.fail("vessel_surface", f"{surface!r} is not 'open', 'saturated' or 'pressure'")
-    out = {
-        "level": tag("level", "length"),
-        "level_zero_elevation": r.quantity("level_zero_elevation", "length"),
-        "vessel_surface": surface,
-    }
-    if surface == "pressure":
-        out["vessel_pressure"] = tag("vessel_pressure", "pressure")
-        out["vessel_gauge"] = reference("vessel_pressure_reference")
-    head = r.quantity("line_loss_head", "length", required=False)
-    length = r.quantity("line_length", "length", required=False)
-    if head is not None and length is not None:
-        r.fail("line_loss_head", "give either line_loss_head/line_loss_flow or the line, not both")
-    if head is not None:
-        q = r.quantity("line_loss_flow", "flow")
-        if head < 0 or q <= 0:
-            r.fail("line_loss_flow", "needs a loss >= 0 at a flow > 0 (k = head / flow²)")
-        out["suction_line"] = SuctionLine(k=head / q**2)
-    elif length is not None:
-        bore = r.quantity("line_bore", "length")
-        rough = r.quantity("line_roughness", "length")
-        fittings = r.number("line_fittings_k", 0.0, 0.0, 1000.0)
-        if length < 0 or bore <= 0 or rough < 0 or rough / bore > 0.05:
-            r.fail(
-                "line_length",
-                "the line needs length >= 0, bore > 0 and 0 <= roughness/bore <= 0.05",
-            )
-        out["suction_line"] = SuctionLine(None, length, bore, rough, fittings)
-    return out
 
 
 def read_pump_register(
@@ -573,3 +440,6 @@ def read_curves(path: str | Path) -> tuple[dict[str, Npsh3Curve], dict[str, str]
         except CurveError as exc:
             problems[cid] = f"{path}: {exc}"
     return curves, problems
+
+
+__all__ = ["PumpSpec", "RowProblem", "SuctionLine", "TagSpec", "read_curves", "read_pump_register"]

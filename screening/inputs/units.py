@@ -187,6 +187,16 @@ def _speed_factor(unit: pint.Unit) -> float:
     return float(per_second * 60.0)
 
 
+def is_bare_frequency(unit: str) -> bool:
+    """True when a speed ``unit`` is a frequency without an angle other than per minute (Hz,
+    1/s, kHz): such a tag may be the shaft's revolutions per second or a drive's output
+    frequency, which differ by the number of pole pairs (a 4-pole motor at 40 Hz turns about
+    1200 rpm, not 2400). 1/min (min⁻¹ on nameplates) and rpm, rad/s carry their meaning."""
+    src = parse_unit(unit, "speed")
+    _, root = ureg.get_root_units(src)
+    return "radian" not in str(root) and abs(_speed_factor(src) - 1.0) > 1e-12
+
+
 def scalar_to_si(value: float, unit: str, kind: str) -> float:
     """Convert one number in ``unit`` to the SI unit of ``kind`` [see :func:`to_si`]."""
     return float(to_si(np.array([value]), unit, kind)[0])

@@ -4,8 +4,11 @@ NPSH3 is the NPSH at which the first-stage head falls by 3 % (ANSI/HI 1.6, ISO 9
 The vendor curve is given at the rated (test) speed; at another running speed it is scaled by
 the affinity laws on both axes: NPSH3(Q, n) = NPSH3_ref(Q·n_ref/n) · (n/n_ref)^k, with k = 2 in
 theory (Karassik et al., *Pump Handbook*, 4th ed. (2008), §2.2; ISO 9906:2012 §6.1.2 converts
-NPSH with the speed ratio squared). Outside the curve's flow range nothing is extrapolated:
-the result is NaN and the caller counts such samples as off the curve.
+NPSH with the speed ratio squared) and about 1.5 from field experience when the speed falls
+(Henshaw, Pumps & Systems 2009). Unless the register gives k, the conservative (larger NPSH3)
+choice is made in each direction: k = 1.5 below rated speed, k = 2 above it. Outside the
+curve's flow range nothing is extrapolated: the result is NaN and the caller counts such
+samples as off the curve.
 """
 
 from __future__ import annotations
@@ -20,6 +23,11 @@ from screening.base.kernels import pchip_eval
 #: U.S. customary conversion for the suction specific speed: gpm per m³/s and ft per m.
 GPM_PER_M3S = 1.0 / (3.785411784e-3 / 60.0)
 FT_PER_M = 1.0 / 0.3048
+#: Default affinity exponents of NPSH3 below and above rated speed [-]: with n/n_ref < 1 a
+#: smaller k gives the larger NPSH3, with n/n_ref > 1 a larger k does (Henshaw, Pumps & Systems
+#: 2009, for about 1.5 when the speed falls; 2 by the affinity laws, Karassik §2.2).
+EXPONENT_BELOW_RATED = 1.5
+EXPONENT_ABOVE_RATED = 2.0
 
 
 class CurveError(ValueError):
@@ -79,7 +87,7 @@ class Npsh3Curve:
         out = pchip_eval(self._interp.x, np.ascontiguousarray(self._interp.c), flat)
         return out.reshape(q.shape)
 
-    def at_speed(self, flow, speed, reference_speed: float, exponent: float = 2.0):
+    def at_speed(self, flow, speed, reference_speed: float, exponent: float | None = None):
         """NPSH3 [m] at ``flow`` [m³/s] and running ``speed`` [rpm], by the affinity laws.
 
         NPSH3(Q, n) = NPSH3_ref(Q·n_ref/n)·(n/n_ref)^k (Karassik, *Pump Handbook* §2.2;
@@ -94,15 +102,43 @@ class Npsh3Curve:
             Running speed [rpm]; None means the reference speed.
         reference_speed : float
             Speed of the vendor curve [rpm].
-        exponent : float
-            Affinity exponent k of NPSH3 [-].
+        exponent : float or None
+            Affinity exponent k of NPSH3 [-]; None (the default) takes the conservative
+            choice in each direction, see :func:`speed_exponent`.
         """
         if speed is None:
             return self.at_reference_speed(flow)
         ratio = np.asarray(speed, dtype=np.float64) / reference_speed
+        k = speed_exponent(ratio, exponent)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             q_ref = np.asarray(flow, dtype=np.float64) / ratio
-            return self.at_reference_speed(q_ref) * ratio**exponent
+            # affinity laws on both axes (Karassik §2.2; Henshaw 2009 for k = 1.5)
+            return self.at_reference_speed(q_ref) * ratio**k
+
+
+def speed_exponent(speed_ratio, exponent: float | None = None):
+    """Affinity exponent k of NPSH3 [-] at ``speed_ratio`` n/n_ref [-].
+
+    A register value applies in both directions. Without one, the larger NPSH3 is taken in
+    each direction: k = 1.5 below rated speed (field experience, Henshaw, Pumps & Systems
+    2009) and k = 2 at and above it (affinity laws, Karassik §2.2).
+    """
+    if exponent is not None:
+        return exponent
+    ratio = np.asarray(speed_ratio, dtype=np.float64)
+    return np.where(ratio < 1.0, EXPONENT_BELOW_RATED, EXPONENT_ABOVE_RATED)
+
+
+def exponent_text(exponent: float | None, has_speed: bool) -> str:
+    """How NPSH3 was scaled with speed, for the pump page (k [-] from the register or not)."""
+    if not has_speed:
+        return "not used (no speed tag: the curve at rated speed)"
+    if exponent is not None:
+        return f"k = {exponent:g} in both directions (register)"
+    return (
+        f"k = {EXPONENT_BELOW_RATED:g} below rated speed, {EXPONENT_ABOVE_RATED:g} above "
+        "(default: the larger NPSH3 in each direction)"
+    )
 
 
 def _check_shape(curve_id: str, flow: np.ndarray, npsh3: np.ndarray) -> None:
@@ -150,3 +186,39 @@ def suction_specific_speed(speed: float, flow: float, npsh3: float, eyes: int = 
     q_gpm = flow * GPM_PER_M3S / eyes
     h_ft = npsh3 * FT_PER_M
     return speed * np.sqrt(q_gpm) / h_ft**0.75
+
+
+#: Inches per metre, for the suction energy's U.S. customary units.
+IN_PER_M = 1.0 / 0.0254
+
+
+def suction_energy(eye_diameter: float, speed: float, s_us: float, specific_gravity: float):
+    """Suction energy SE = De·n·S·SG in U.S. customary units (inch, rpm, S in rpm·gpm^0.5/
+    ft^0.75) [-] (ANSI/HI 9.6.1-1998, from memory: the method's definition as summarised in
+    secondary sources).
+
+    Parameters
+    ----------
+    eye_diameter : float
+        Impeller eye diameter De [m].
+    speed : float
+        Rated speed n [rpm].
+    s_us : float
+        Suction specific speed S in U.S. units [-].
+    specific_gravity : float
+        Liquid density over water's at 60 °F [-].
+    """
+    return eye_diameter * IN_PER_M * speed * s_us * specific_gravity
+
+
+def suction_energy_class(
+    energy: float, eyes: int, end_suction_high: float, double_suction_high: float, factor: float
+) -> str:
+    """``low``, ``high`` or ``very_high`` suction energy [-] for SE ``energy`` [US units]: high
+    from ``end_suction_high`` (single-suction impeller, ``eyes`` = 1) or ``double_suction_high``
+    (double suction, ``eyes`` = 2), very high from ``factor`` times that (ANSI/HI 9.6.1-1998,
+    from memory, medium confidence: about 160e6 and 120e6, factor 1.5)."""
+    high = end_suction_high if eyes == 1 else double_suction_high
+    if energy >= factor * high:
+        return "very_high"
+    return "high" if energy >= high else "low"

@@ -24,6 +24,10 @@ class Guidance:
     ratio: float
     margin: float
     source: str
+    #: Suction energy [US units: in·rpm·S·SG] and its class, where the register gives the
+    #: impeller eye diameter (NaN and "unknown" otherwise).
+    suction_energy: float = float("nan")
+    suction_energy_class: str = "unknown"
 
     def head(self, npsh3):
         """Guidance NPSHa [m] for ``npsh3`` [m]: max(ratio·NPSH3, NPSH3 + margin)."""

@@ -87,7 +87,7 @@ def region_edges(
     return q_min, preferred_low * bep, preferred_high * bep, q_max
 
 
-def pump_region_edges(pump, curve_flow_max: float, speed):
+def pump_region_edges(pump, curve_flow_max: float, speed, min_flow_fraction: float | None = None):
     """Region edges [m³/s] of a register pump at its running speed.
 
     Parameters
@@ -99,13 +99,39 @@ def pump_region_edges(pump, curve_flow_max: float, speed):
         register gives none.
     speed : array_like or None
         Running speed [rpm]; None for a fixed-speed pump (rated speed).
+    min_flow_fraction : float, optional
+        Plant-wide minimum stable flow as a fraction of BEP flow [-], for a pump whose register
+        gives neither a minimum stable nor a thermal minimum flow (none by default: such a
+        pump is flagged "minimum flow not registered", see :func:`min_flow_source`).
     """
     ratio = 1.0 if speed is None else np.asarray(speed, dtype=np.float64) / pump.rated_speed
+    stable = pump.min_stable_flow
+    if stable is None and pump.thermal_min_flow is None and min_flow_fraction is not None:
+        stable = min_flow_fraction * pump.bep_flow
     return region_edges(
-        pump.bep_flow, ratio, pump.preferred_low, pump.preferred_high, pump.min_stable_flow,
+        pump.bep_flow, ratio, pump.preferred_low, pump.preferred_high, stable,
         pump.thermal_min_flow,
         pump.allowable_max_flow if pump.allowable_max_flow is not None else curve_flow_max,
     )  # fmt: skip
+
+
+#: The note of a pump whose minimum flow is unknown: its ``below_min_flow`` hours are zero by
+#: construction, not because it never ran below its minimum.
+MIN_FLOW_NOT_REGISTERED = "minimum flow not registered"
+
+
+def min_flow_source(pump, min_flow_fraction: float | None = None) -> str:
+    """Where a pump's minimum flow comes from, for the overview and the tables."""
+    parts = []
+    if pump.min_stable_flow is not None:
+        parts.append("minimum stable flow (register)")
+    if pump.thermal_min_flow is not None:
+        parts.append("thermal minimum flow (register)")
+    if parts:
+        return " and ".join(parts)
+    if min_flow_fraction is not None:
+        return f"plant-wide {min_flow_fraction:.0%} of BEP flow"
+    return MIN_FLOW_NOT_REGISTERED
 
 
 def operating_region(flow, edges) -> np.ndarray:

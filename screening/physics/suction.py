@@ -503,3 +503,14 @@ def liquid_viscosity(fluid: str, temperature: ArrayLike) -> np.ndarray:
         As :func:`viscosity_table`.
     """
     return viscosity_table(fluid).viscosity(temperature)
+
+
+def can_loss(k: float | None, flow):
+    """Loss [m] in a vertical can from its suction nozzle to the first-stage impeller eye,
+    h = k·Q² (turbulent flow: loss with the square of flow, Darcy–Weisbach at a constant
+    friction factor; Karassik et al., *Pump Handbook*, §2.3), with ``k`` [s²/m⁵] from a
+    design point and ``flow`` [m³/s]; 0 without a can loss (``k`` None)."""
+    q = np.asarray(flow, dtype=np.float64)
+    if k is None:
+        return np.zeros_like(q)
+    return k * q * q

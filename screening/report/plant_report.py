@@ -352,6 +352,7 @@ def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
     daily_of = dict(list(margin_days.groupby("pump_id", sort=False)))
     thin = result.not_enough_data.set_index("pump_id")["coverage"].to_dict()
     least = plant.settings.data.min_coverage
+    summary_of = {row["pump_id"]: row for row in result.summary.to_dict("records")}
     for pid, name in pages.items():
         pump = plant.pumps[pid]
         g = plant.guidance[pid]
@@ -395,6 +396,7 @@ def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
             f"{units.label('length')}",
             ample_ratio=f"{ample:.2f}",
             register=pump_pages.register_rows(pump, g, model, units),
+            flags=pump_pages.pump_flags(summary_of.get(pid), units),
             cautions=CAUTIONS,
             thin_note=(
                 f"Not enough data to screen: usable data for {100 * thin[pid]:.1f} % of the "
@@ -442,6 +444,12 @@ def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> 
     for row in result.ranked.itertuples(index=False):
         d = row._asdict()
         d["worst_ratio_text"] = "—" if pd.isna(row.worst_ratio) else f"{row.worst_ratio:.2f}"
+        d["worst_margin_text"] = "—" if pd.isna(row.worst_margin_m) else f"{row.worst_margin_m:.2f}"
+        d["worst_guidance_text"] = (
+            "—"
+            if pd.isna(row.worst_margin_to_guidance_m)
+            else f"{row.worst_margin_to_guidance_m:+.2f}"
+        )
         d["guidance_text"] = f"{row.guidance_ratio:.2f} or {row.guidance_margin_m:.2f} m"
         d["page"] = f"pumps/{pages[row.pump_id]}" if pages and row.pump_id in pages else None
         d["change"] = ""
@@ -493,6 +501,10 @@ def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> 
         barometer=baro,
         ample_ratio=result.plant.settings.policy.ample_ratio,
         coolprop_version=metadata.version("CoolProp"),
+        n_no_min_flow=int(
+            (result.summary["min_flow_source"] == regions.MIN_FLOW_NOT_REGISTERED).sum()
+        ),
+        plant_min_fraction=result.plant.settings.running.min_stable_flow_fraction,
         por_low=0.70,
         por_high=1.20,
         cautions=CAUTIONS,

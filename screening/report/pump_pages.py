@@ -15,7 +15,10 @@ import numpy as np
 import pandas as pd
 
 from screening.base import states
+from screening.engine.one_pump import BELOW_VAPOUR_FLAG
 from screening.inputs.units import si_to
+from screening.physics.curves import exponent_text
+from screening.physics.regions import MIN_FLOW_NOT_REGISTERED
 from screening.report.figjson import figure_html, local_times, numbers
 from screening.report.palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
 
@@ -321,7 +324,8 @@ def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list
         ("rated speed", f"{pump.rated_speed:.0f} rpm"),
         ("BEP flow", f"{float(c(pump.bep_flow, 'flow')):.1f} {F}"),
         ("curve", pump.curve_id),
-        ("NPSH3 speed exponent", f"{pump.npsh3_exponent:g}"),
+        ("NPSH datum", f"{pump.datum} ({pump.orientation} pump)"),
+        ("NPSH3 speed scaling", exponent_text(pump.npsh3_exponent, pump.speed is not None)),
         (
             "guidance",
             f"{guidance.ratio:.2f} or {float(c(guidance.margin, 'length')):.2f} {L} "
@@ -337,8 +341,11 @@ def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list
                 f"{'gauge' if pump.gauge else 'absolute'}]",
             ),
             (
-                "tap elevation / bore",
-                f"{float(c(pump.tap_elevation, 'length')):.2f} {L} / {pump.tap_bore * 1000:.0f} mm",
+                "pressure read at / elevation above datum / bore",
+                f"{_POINTS[pump.pressure_point]} / "
+                f"{float(c(pump.tap_elevation, 'length')):.2f} {L} / "
+                f"{pump.tap_bore * 1000:.0f} mm"
+                + (f" ({pump.datum_note})" if pump.datum_note else ""),
             ),
             ("method", "NPSHa = (p_abs - p_v)/(rho g) + v^2/(2g) + z (ISO 9906, ANSI/HI 1.3)"),
         ]
@@ -352,8 +359,59 @@ def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list
             ("level zero above datum", f"{float(c(pump.level_zero_elevation, 'length')):.2f} {L}"),
             ("method", "NPSHa = (p_surface - p_v)/(rho g) + level + offset - line loss"),
         ]
+    if pump.can_loss_k is not None:
+        rows.append(("can loss", f"{pump.can_loss_k:.4g} s2/m5 x Q^2, nozzle to impeller eye"))
+    if pump.speed_signal:
+        rows.append(("speed tag", _speed_text(pump)))
     rows.append(("tags", ", ".join(f"{r}: {t.tag}" for r, t in pump.tags().items())))
     return rows
+
+
+_POINTS = {"sensor": "transmitter sensing element (liquid-filled impulse line)", "tap": "tap"}
+
+
+def _speed_text(pump) -> str:
+    """How the speed tag was read."""
+    if pump.speed_signal == "drive_frequency":
+        return (
+            f"drive output frequency: n = {pump.rated_speed:.0f} rpm x f / "
+            f"{pump.rated_frequency:g} Hz (slip neglected)"
+        )
+    return "shaft revolutions per second"
+
+
+def pump_flags(row: dict | None, units: DisplayUnits) -> list[str]:
+    """What the pump page points out from the pump's summary row: suction pressure below
+    vapour pressure, the worst margins in metres, hours on the standard atmosphere, an
+    unregistered minimum flow."""
+    if row is None:
+        return []
+    c, L = units.convert, units.label("length")  # noqa: N806
+    flags = []
+    if row["below_vapour_pressure_hours"] > 0:
+        flags.append(
+            f"{BELOW_VAPOUR_FLAG} ({row['below_vapour_pressure_hours']:.2f} h running; counted "
+            "below NPSH3, see data_quality.csv)"
+        )
+    if pd.notna(row["worst_margin_m"]):
+        flags.append(
+            f"worst margin NPSHa - NPSH3 {float(c(row['worst_margin_m'], 'length')):.2f} {L}, "
+            f"NPSHa - guidance {float(c(row['worst_margin_to_guidance_m'], 'length')):+.2f} {L} "
+            f"(worst ratio {row['worst_ratio']:.2f})"
+        )
+    if row["standard_atmosphere_hours"] > 0:
+        flags.append(
+            f"{row['standard_atmosphere_hours']:.1f} running hours on the standard atmosphere "
+            "(barometer missing, stale or away from the standard atmosphere at the site)"
+        )
+    if row.get("datum_note"):
+        flags.append(row["datum_note"])
+    if row["min_flow_source"] == MIN_FLOW_NOT_REGISTERED:
+        flags.append(
+            "minimum flow not registered: hours below the minimum flow cannot be counted "
+            "(give min_stable_flow or thermal_min_flow in the register)"
+        )
+    return flags
 
 
 def write_pump_page(path: Path, html: str) -> None:

@@ -202,7 +202,9 @@ def evaluate_pump(
         ridx = flow_changed & r_running
         if ridx.any():
             speed = inputs["speed"][ridx] if "speed" in inputs else None
-            edges = regions.pump_region_edges(pump, curve.flow_max, speed)
+            edges = regions.pump_region_edges(
+                pump, curve.flow_max, speed, plant.settings.running.min_stable_flow_fraction
+            )
             rcode_after[ridx] = regions.operating_region(inputs["flow"][ridx], edges)
         for kind, b, a_, w, names_ in (
             ("margin", code, code_after, hours, states.STATES),
