@@ -12,6 +12,8 @@ def hours_text(hours: float, unit: bool = False) -> str:
     appended to the decimal form."""
     if hours is None or (isinstance(hours, float) and math.isnan(hours)):
         return "—"
+    if abs(hours) < 1e-9:  # below a few microseconds: the rounding of sums, not exposure
+        hours = 0.0
     if 0 < hours < 0.1:
         minutes = hours * 60.0
         return "<1 min" if minutes < 1.0 else f"{minutes:.0f} min"
