@@ -11,9 +11,13 @@ screened with the reason. No other exception may escape.
 
 from __future__ import annotations
 
+import io
 import tempfile
 from pathlib import Path
 
+import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
 from fuzzkit import (
     EXPORTS,
     Outcome,
@@ -38,6 +42,19 @@ SCAN_FUZZ = settings(
     max_examples=30, deadline=None, suppress_health_check=[HealthCheck.too_slow], database=None
 )
 
+
+def _timestamp_column(data: bytes) -> bool:
+    """Whether a Parquet file (that pyarrow reads) has a time column of a timestamp type."""
+    try:
+        schema = pq.read_schema(io.BytesIO(data))
+    except (pa.ArrowException, OSError):
+        return False
+    for name in ("timestamp", "time"):
+        if name in schema.names and pa.types.is_timestamp(schema.field(name).type):
+            return True
+    return False
+
+
 STRATEGIES = {
     "wide-csv": wide_csv(),
     "wide-csv-gz": wide_csv(),
@@ -58,9 +75,19 @@ def _check_index(kind: str, data: bytes) -> None:
         series, problems = index.read(sorted(index.known_tags()))
         unread = {**index.file_problems, **problems}
         oracle = parquet_oracle(data, layout) if "parquet" in kind else csv_oracle(data, layout)
+        if "parquet" in kind and _timestamp_column(data):
+            # a Parquet time column of a timestamp type (any unit, any zone) is always read
+            assert path not in unread, unread.get(path)
         if path in unread:
             assert unread[path].startswith(path), unread[path]  # names the file
             return
+        # a file read in full is read for a window too (the time filter of Parquet files)
+        span = (
+            pd.Timestamp("2026-10-01", tz="UTC").value,
+            pd.Timestamp("2026-10-02", tz="UTC").value,
+        )
+        _, problems = index.read(sorted(index.known_tags()), span)
+        assert path not in problems, problems.get(path)
         assert oracle is not None, f"{kind} file read although not readable: {data[:80]!r}"
         for tag, s in series.items():
             q = s.quality

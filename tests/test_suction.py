@@ -22,21 +22,21 @@ from fluids.friction import friction_factor, one_phase_dP
 from iapws import IAPWS97
 
 from screening.inputs.units import to_si
+from screening.physics.coolprop_fluids import _coolprop, _state
 from screening.physics.npsh import G
 from screening.physics.properties import FluidError, fluid_table
 from screening.physics.suction import (
     LAMINAR_LIMIT,
     SATURATED,
     darcy_friction_factor,
-    liquid_viscosity,
     loss_darcy_weisbach,
     loss_from_coefficient,
     npsha_from_vessel,
     reynolds_number,
     surface_pressure_from_tag,
     surface_pressure_open,
-    viscosity_table,
 )
+from screening.physics.viscosity import liquid_viscosity, viscosity_table
 
 FT = 0.3048  # [m] international foot, exact (1959 agreement; NIST SP 811)
 
@@ -381,9 +381,35 @@ def test_viscosity_unknown_fluid():
         liquid_viscosity("NoSuchFluid", 300.0)
 
 
-def test_viscosity_incompressible_fluid():
-    with pytest.raises(FluidError, match="incompressible solution"):
-        liquid_viscosity("INCOMP::MEG-30%", 300.0)
+def test_viscosity_of_an_incompressible_solution_is_coolprops():
+    # CoolProp gives its incompressible solutions' viscosity (fits to published data, as its
+    # bibliography lists them): the table agrees with direct PropsSI calls at 1 atm within the
+    # table's interpolation target (factor two as above), over the solution's own range
+    # intersected with water's table (whose vapour pressure such a liquid uses).
+    table = viscosity_table("INCOMP::MEG-30%")
+    assert "incompressible" in table.source and "K to" in table.source
+    temps = np.linspace(table.t_min, table.t_max, 50)
+    ref = np.array([PropsSI("V", "T", t, "P", 101325.0, "INCOMP::MEG-30%") for t in temps])
+    np.testing.assert_allclose(liquid_viscosity("INCOMP::MEG-30%", temps), ref, rtol=2e-6)
+    assert table.t_min >= fluid_table("Water").t_min
+
+
+def test_viscosity_of_a_mixture_covers_where_coolprop_converges():
+    # A propane/n-butane LPG at its bubble point (invented composition): CoolProp's mixture
+    # viscosity fails at the lowest temperatures of the property table; the viscosity table
+    # starts where it converges, says so, and agrees with CoolProp there.
+    fluid = "Propane[0.6]&n-Butane[0.4]"
+    table = viscosity_table(fluid)
+    props = fluid_table(fluid)
+    assert props.t_min <= table.t_min < table.t_max <= props.t_max
+    assert "where CoolProp's viscosity converges" in table.source
+    state = _state(fluid)
+    temps = np.linspace(table.t_min, table.t_max, 40)
+    ref = []
+    for t in temps:
+        state.update(_coolprop().QT_INPUTS, 0.0, float(t))
+        ref.append(state.viscosity())
+    np.testing.assert_allclose(liquid_viscosity(fluid, temps), ref, rtol=2e-6)
 
 
 def test_viscosity_fluid_without_viscosity_model():

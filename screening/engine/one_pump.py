@@ -14,6 +14,7 @@ from screening.inputs.quality import sample_gaps
 from screening.inputs.tagdata import ExportError, TagQuality
 from screening.inputs.units import UnitError, to_si
 from screening.physics.properties import fluid_table
+from screening.physics.viscosity import viscosity_table
 
 
 def settings_for(plant: Plant) -> Settings:
@@ -36,6 +37,10 @@ def settings_for(plant: Plant) -> Settings:
 def check_range(role: str, pump, table):
     """Physically impossible values of a role (SI): flagged as bad data."""
     if role == "temperature":
+        line = pump.suction_line
+        if line is not None and line.k is None:  # Darcy-Weisbach: the viscosity is needed too
+            mu = viscosity_table(pump.fluid)
+            return lambda v: ~(table.in_range(v) & mu.in_range(v))
         return lambda v: ~table.in_range(v)
     if role == "suction":
         if pump.gauge:

@@ -27,6 +27,8 @@ class FileInfo:
     tags: frozenset[str]
     timestamp_typed: bool = False  # Parquet time column of a timestamp type (filterable)
     time_range: tuple[int, int] | None = None  # [ns] from the Parquet statistics
+    time_unit: str = "ns"  # unit of a typed Parquet time column (s, ms, us, ns)
+    time_zone: str | None = None  # its time zone as stored
 
 
 def format_of(path: Path, source: ExportSource) -> str:

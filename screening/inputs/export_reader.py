@@ -20,10 +20,14 @@ from screening.inputs.tagdata import (
     TagQuality,
     TagSeries,
     add_chunk,
+    as_text,
     assemble,
     unexpected,
 )
 from screening.inputs.timestamps import DateNotes, parse_times
+
+#: Nanoseconds per unit of an Arrow timestamp.
+_NS_PER_UNIT = {"s": 1_000_000_000, "ms": 1_000_000, "us": 1_000, "ns": 1}
 
 
 class TagReader:
@@ -117,8 +121,12 @@ class TagReader:
             if hi_t < span[0] or lo_t >= span[1]:
                 return None  # nothing of the file is inside
         col = info.source.time_column
-        lo = pa.scalar(span[0], type=pa.timestamp("ns", tz="UTC"))
-        hi = pa.scalar(span[1], type=pa.timestamp("ns", tz="UTC"))
+        # in the column's own unit and zone (Arrow compares timestamps only within one type);
+        # the bounds widened to whole units, the exact span is applied to every sample later
+        per = _NS_PER_UNIT[info.time_unit]
+        kind = pa.timestamp(info.time_unit, tz=info.time_zone)
+        lo = pa.scalar(span[0] // per, type=kind)
+        hi = pa.scalar(-(-span[1] // per), type=kind)
         return [(col, ">=", lo), (col, "<", hi)]
 
     def _read_wide(self, info, tags, chunks, quality, span=None) -> None:
@@ -193,14 +201,23 @@ class TagReader:
                 time_filters = self._time_filter(info, span)
                 if time_filters is None:
                     return
-                filters = [(src.tag_column, "in", list(tags)), *time_filters]
-                table = pq.read_table(info.path, columns=cols, filters=filters)
+                tag_type = pq.read_schema(info.path).field(src.tag_column).type
+                textual = pa.types.is_string(tag_type) or pa.types.is_large_string(tag_type)
+                # tags stored as numbers are matched as text (as the index names them)
+                filters = [(src.tag_column, "in", list(tags))] if textual else []
+                table = pq.read_table(
+                    info.path, columns=cols, filters=(filters + time_filters) or None
+                )
             except (pa.ArrowException, OSError) as exc:
                 raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
             frame = table.to_pandas()
             rows = np.arange(len(frame))
             label = "row"
             malformed = np.zeros(len(frame), dtype=bool)
+            if not textual:
+                keep = frame[src.tag_column].map(as_text).isin(tags).to_numpy()
+                frame, rows, malformed = frame[keep], rows[keep], malformed[keep]
+                frame[src.tag_column] = frame[src.tag_column].map(as_text)
         else:
             frame, rows, malformed = read_csv_rows(info.path, src, cols)
             label = "line"

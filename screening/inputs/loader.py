@@ -138,16 +138,17 @@ class ExportIndex:
                 tags = frozenset(stripped.dropna().unique())
                 blank = (stripped.isna() | (stripped == "")).to_numpy()
                 self._untagged(path, source, blank, "data row", 1)
-        typed, time_range = False, None
+        typed, time_range, unit, zone = False, None, "ns", None
         if fmt == "parquet":
             try:
                 field_type = pq.read_schema(path).field(source.time_column).type
                 typed = pa.types.is_timestamp(field_type) and field_type.tz is not None
                 if typed:
+                    unit, zone = field_type.unit, field_type.tz
                     time_range = parquet_time_range(path, source.time_column)
             except (KeyError, pa.ArrowException, OSError):
                 typed = False
-        return FileInfo(path, source, fmt, tags, typed, time_range)
+        return FileInfo(path, source, fmt, tags, typed, time_range, unit, zone)
 
     def _untagged(self, path: Path, source, blank: np.ndarray, label: str, first: int) -> None:
         """Note the rows of a long file that name no tag: they belong to no pump and are not

@@ -27,15 +27,14 @@ IAPWS 2008 formulation (Huber et al., J. Phys. Chem. Ref. Data 38 (2009) 101).
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
 from functools import lru_cache
 
 import numpy as np
 from fluids.friction import friction_factor as fluids_friction_factor
 from numpy.typing import ArrayLike
 
-from screening.physics.coolprop_fluids import CRITICAL_FRACTION, FluidError, PropsSI
 from screening.physics.npsh import G, absolute_pressure
+from screening.physics.viscosity import viscosity_table
 
 #: Reynolds number below which the flow is taken as laminar, f = 64/Re [-] (Avila et al.
 #: 2011; the same limit as ``fluids.friction.LAMINAR_TRANSITION_PIPE``).
@@ -44,10 +43,6 @@ LAMINAR_LIMIT = 2040.0
 #: over which the Colebrook equation was fitted and checked. Rougher lines are refused, not
 #: extrapolated.
 MAX_RELATIVE_ROUGHNESS = 0.05
-#: Target relative interpolation error of the viscosity table at grid mid-points.
-VISCOSITY_TARGET_REL_ERROR = 1e-6
-_VISC_FIRST_STEP = 0.2  # [K]
-_VISC_SMALLEST_STEP = 0.005  # [K]
 
 
 class _Saturated:
@@ -364,145 +359,6 @@ def loss_darcy_weisbach(
     f = darcy_friction_factor(re, roughness / bore)
     # Darcy–Weisbach: h_f = (f·L/D + ΣK)·v²/(2g)
     return (f * (length / bore) + fittings_k) * speed * speed / (2.0 * G)
-
-
-# --- liquid viscosity -----------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class ViscosityTable:
-    """Saturated-liquid dynamic viscosity of one fluid on a uniform temperature grid.
-
-    ln μ is interpolated linearly in T (μ of a liquid falls nearly exponentially with T).
-
-    Attributes
-    ----------
-    fluid : str
-        CoolProp name.
-    t_min, t_max : float
-        Valid temperature range [K]: CoolProp's minimum temperature to
-        :data:`screening.physics.properties.CRITICAL_FRACTION` of the critical temperature.
-    step : float
-        Grid step [K].
-    ln_mu : numpy.ndarray
-        Natural logarithm of the viscosity [ln Pa·s] at the nodes.
-    max_rel_error : float
-        Largest relative error at the grid mid-points against direct CoolProp calls [-].
-    """
-
-    fluid: str
-    t_min: float
-    t_max: float
-    step: float
-    ln_mu: np.ndarray = field(repr=False)
-    max_rel_error: float
-
-    def in_range(self, temperature: ArrayLike) -> np.ndarray:
-        """True where the temperature [K] lies in the table's valid range."""
-        t = np.asarray(temperature, dtype=np.float64)
-        return (t >= self.t_min) & (t <= self.t_max)
-
-    def viscosity(self, temperature: ArrayLike) -> np.ndarray:
-        """Dynamic viscosity [Pa·s] at ``temperature`` [K]; NaN outside the valid range."""
-        t = np.asarray(temperature, dtype=np.float64)
-        ok = self.in_range(t)
-        pos = np.where(ok, (t - self.t_min) / self.step, 0.0)
-        idx = np.minimum(pos.astype(np.int64), len(self.ln_mu) - 2)
-        frac = pos - idx
-        ln_mu = self.ln_mu[idx] * (1.0 - frac) + self.ln_mu[idx + 1] * frac
-        return np.where(ok, np.exp(ln_mu), np.nan)
-
-
-def _direct_viscosity(fluid: str, temperature: np.ndarray) -> np.ndarray:
-    """Saturated-liquid viscosity [Pa·s] by direct CoolProp calls (the reference, slow)."""
-    try:
-        mu = np.asarray(PropsSI("V", "T", temperature, "Q", 0.0, fluid), dtype=np.float64)
-    except ValueError as exc:
-        raise FluidError(f"CoolProp gives no liquid viscosity for {fluid!r}: {exc}") from exc
-    if not np.all(np.isfinite(mu) & (mu > 0)):
-        bad = temperature[~(np.isfinite(mu) & (mu > 0))]
-        raise FluidError(
-            f"CoolProp gives no liquid viscosity for {fluid!r} at {bad.size} temperatures "
-            f"between {bad.min():.2f} K and {bad.max():.2f} K"
-        )
-    return mu
-
-
-@lru_cache(maxsize=64)
-def viscosity_table(fluid: str) -> ViscosityTable:
-    """The saturated-liquid viscosity table of ``fluid``, built once per process and cached.
-
-    The grid step is halved from 0.2 K until the interpolation error at every mid-point is
-    below :data:`VISCOSITY_TARGET_REL_ERROR` against direct calls of
-    ``CoolProp.CoolProp.PropsSI('V', 'T', T, 'Q', 0, fluid)`` (or the step reaches 0.005 K);
-    the reached error is stored in the table.
-
-    Parameters
-    ----------
-    fluid : str
-        CoolProp fluid name (pure fluid or predefined mixture with a viscosity model).
-
-    Raises
-    ------
-    FluidError
-        If CoolProp does not know the fluid, it is an incompressible solution (no saturation
-        state), or it has no viscosity model for the saturated liquid.
-    """
-    if fluid.upper().startswith("INCOMP::"):
-        raise FluidError(
-            f"fluid {fluid!r} is a CoolProp incompressible solution, which has no saturated "
-            "liquid in CoolProp; use a pure fluid or predefined mixture"
-        )
-    try:
-        t_min = float(PropsSI("Tmin", fluid))
-        t_max = CRITICAL_FRACTION * float(PropsSI("Tcrit", fluid))
-    except ValueError as exc:
-        raise FluidError(f"fluid {fluid!r} is not known to CoolProp: {exc}") from exc
-    step = _VISC_FIRST_STEP
-    while True:
-        n = int(np.ceil((t_max - t_min) / step))
-        grid_step = (t_max - t_min) / n
-        temps = t_min + grid_step * np.arange(n + 1)
-        temps[-1] = t_max
-        mids = temps[:-1] + 0.5 * grid_step
-        ln_mu = np.log(_direct_viscosity(fluid, temps))
-        table = ViscosityTable(fluid, t_min, t_max, grid_step, ln_mu, 0.0)
-        error = float(np.max(np.abs(table.viscosity(mids) / _direct_viscosity(fluid, mids) - 1)))
-        if error <= VISCOSITY_TARGET_REL_ERROR or step / 2 < _VISC_SMALLEST_STEP:
-            break
-        step /= 2
-    return ViscosityTable(fluid, t_min, t_max, grid_step, ln_mu, error)
-
-
-def liquid_viscosity(fluid: str, temperature: ArrayLike) -> np.ndarray:
-    """Saturated-liquid dynamic viscosity [Pa·s] of ``fluid`` at ``temperature`` [K].
-
-    From CoolProp (``PropsSI('V', 'T', T, 'Q', 0, fluid)``; for water the IAPWS 2008
-    viscosity formulation), tabulated once per fluid (:func:`viscosity_table`) and interpolated
-    (ln μ linear in T), with a measured relative error below 1e-6: a direct CoolProp call costs
-    about 16 µs per temperature, too slow for a month of one-minute samples.
-
-    The liquid is taken at saturation: the rise of viscosity with pressure above it is
-    neglected. Measured with CoolProp, 1 MPa above saturation changes μ of water by 0.03 % at
-    20 °C and 0.14 % at 150 °C, and of n-butane, propane or toluene at 0.8·T_crit by about
-    2 %. In turbulent flow the friction factor varies at most as Re^−0.25 (Blasius), so the
-    loss moves by a quarter of that or less (by all of it in laminar flow). NaN outside the
-    valid range (CoolProp's minimum temperature to 98 % of the critical temperature) and for
-    NaN temperatures.
-
-    Parameters
-    ----------
-    fluid : str
-        CoolProp fluid name, e.g. ``"Water"``, ``"n-Butane"``.
-    temperature : array_like
-        Liquid temperature [K].
-
-    Raises
-    ------
-    FluidError
-        As :func:`viscosity_table`.
-    """
-    return viscosity_table(fluid).viscosity(temperature)
 
 
 def can_loss(k: float | None, flow):
