@@ -6,6 +6,7 @@ from pathlib import Path
 
 import typer
 
+from screening.base.files import check_out
 from screening.engine.plotdata import DEFAULT_BUCKETS
 from screening.engine.scan import scan
 from screening.inputs.plant import load_plant
@@ -47,6 +48,8 @@ def scan_command(
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Screen every pump over a window: hours in each NPSH margin band, with every hour counted."""
+    if out is not None:
+        check_out(out, "report")  # refuse a folder not ours before the scan, not after it
     plant = load_plant(config)
     with progress_bar(len(pump) if pump else len(plant.pumps), quiet) as advance:
         result = scan(

@@ -7,6 +7,7 @@ from pathlib import Path
 
 import typer
 
+from screening.base.files import check_out
 from screening.inputs.plant import load_plant
 from screening.report.whatif_page import write_whatif_report
 from screening.scenarios.whatif import whatif
@@ -44,6 +45,8 @@ def whatif_command(
 ) -> None:
     """Replay history with each scenario's changes; report hours moved and required setpoints."""
     shares = tuple(sorted(set(share))) if share else (0.99, 1.0)
+    if out is not None:
+        check_out(out, "whatif")  # refuse a folder not ours before the work, not after it
     plant = load_plant(config)
     with progress_bar(len(pump) if pump else len(plant.pumps), quiet) as advance:
         result = whatif(plant, scenarios, start, end, pumps=pump or None, shares=shares,

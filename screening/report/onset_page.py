@@ -10,6 +10,7 @@ import plotly.graph_objects as go
 from jinja2 import Environment, PackageLoader, select_autoescape
 from plotly.offline import get_plotlyjs
 
+from screening.base.files import atomic_folder
 from screening.engine.drivers import DRIVERS
 from screening.onset.investigate import OnsetResult
 from screening.report.cautions import CAUTIONS
@@ -187,9 +188,17 @@ def _estimates(result) -> list[dict]:
 
 
 def write_onset_report(result: OnsetResult, out: str | Path) -> Path:
-    """Write the onset tables (CSV and Parquet) and an HTML page into ``out``."""
+    """Write the onset tables (CSV and Parquet) and an HTML page into the folder ``out``,
+    replaced whole when complete (only a folder the tool wrote: see
+    :func:`screening.base.files.check_out`); returns the page's path."""
     out = Path(out)
-    out.mkdir(parents=True, exist_ok=True)
+    with atomic_folder(out, "onset") as tmp:
+        _write_onset_folder(result, tmp)
+    return out / "onset.html"
+
+
+def _write_onset_folder(result: OnsetResult, out: Path) -> None:
+    """The onset tables and page, written into the (new) folder ``out``."""
     tables = {"onset_hours": result.hours, "episodes": result.episodes,
               "drivers": result.drivers}  # fmt: skip
     if result.before_failure is not None:
@@ -201,4 +210,4 @@ def write_onset_report(result: OnsetResult, out: str | Path) -> Path:
                 f[c] = f[c].astype("string")
         f.to_csv(out / f"{name}.csv", index=False)
         f.to_parquet(out / f"{name}.parquet", index=False)
-    return write_onset_page(result, out)
+    write_onset_page(result, out)

@@ -128,7 +128,7 @@ def write_whatif_report(result: WhatIfResult, out: str | Path) -> Path:
     plant = result.scan.plant
     summary = _summary(result.hours) if len(result.hours) else pd.DataFrame()
     pages = page_names([f"scenario_{s.name}" for s in result.scenarios])
-    with atomic_folder(out) as tmp:
+    with atomic_folder(out, "whatif") as tmp:
         write_table(result.hours, tmp, "whatif_hours")
         write_table(result.moves, tmp, "whatif_moves")
         write_table(result.changes, tmp, "whatif_changes")
