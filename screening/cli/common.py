@@ -8,6 +8,7 @@ import traceback
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from functools import wraps
+from typing import NoReturn
 
 import typer
 from rich.console import Console
@@ -93,11 +94,25 @@ def progress_bar(total_pumps: int, quiet: bool) -> Iterator[Callable | None]:
         yield advance
 
 
-def cluster_choice(cluster: str | None, workers: int | None):
-    """The ``cluster`` argument of :func:`screening.scan` from the command-line options."""
-    if cluster and workers:
-        raise typer.BadParameter("give --cluster or --workers, not both")
-    return cluster or workers
+def usage_error(message: str) -> NoReturn:
+    """Wrong command-line use: one line on standard error and exit code 2, at once."""
+    print(f"pumpscreen: usage error: {message}", file=sys.stderr)
+    raise typer.Exit(EXIT_USAGE)
+
+
+def cluster_choice(processes: int | None, cluster: str | None, workers: int | None):
+    """The ``cluster`` argument of :func:`screening.scan` from the command-line options,
+    checked before any work: ``--processes`` and ``--workers`` at least 1, ``--cluster`` and
+    ``--workers`` not together (each a usage error, exit code 2)."""
+    if cluster is not None and workers is not None:
+        usage_error("give --cluster or --workers, not both")
+    if processes is not None and processes < 1:
+        usage_error(f"--processes must be 1 or more (1: no worker processes), got {processes}")
+    if workers is not None and workers < 1:
+        usage_error(f"--workers must be 1 or more, got {workers}")
+    if processes is not None and (cluster is not None or workers is not None):
+        usage_error("give --processes, or --cluster / --workers, not both")
+    return cluster if cluster is not None else workers
 
 
 def finish(folder, problems, n_ok: int, quiet: bool) -> None:

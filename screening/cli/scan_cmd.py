@@ -48,13 +48,15 @@ def scan_command(
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Screen every pump over a window: hours in each NPSH margin band, with every hour counted."""
+    chosen = cluster_choice(processes, cluster, workers)
     if out is not None:
         check_out(out, "report")  # refuse a folder not ours before the scan, not after it
     plant = load_plant(config)
-    with progress_bar(len(pump) if pump else len(plant.pumps), quiet) as advance:
+    pump = list(dict.fromkeys(pump)) if pump else None  # an id given twice is screened once
+    with progress_bar(len(pump or plant.pumps), quiet) as advance:
         result = scan(
-            plant, start, end, pumps=pump or None, plot_buckets=DEFAULT_BUCKETS,
-            processes=processes, cluster=cluster_choice(cluster, workers), progress=advance,
+            plant, start, end, pumps=pump, plot_buckets=DEFAULT_BUCKETS,
+            processes=processes, cluster=chosen, progress=advance,
         )  # fmt: skip
     if out is None:
         tz = result.plant.timezone

@@ -48,8 +48,9 @@ def whatif_command(
     if out is not None:
         check_out(out, "whatif")  # refuse a folder not ours before the work, not after it
     plant = load_plant(config)
-    with progress_bar(len(pump) if pump else len(plant.pumps), quiet) as advance:
-        result = whatif(plant, scenarios, start, end, pumps=pump or None, shares=shares,
+    pump = list(dict.fromkeys(pump)) if pump else None  # an id given twice is screened once
+    with progress_bar(len(pump or plant.pumps), quiet) as advance:
+        result = whatif(plant, scenarios, start, end, pumps=pump, shares=shares,
                         progress=advance)  # fmt: skip
     scan = result.scan
     if out is None:
