@@ -14,6 +14,7 @@ from screening.base.files import atomic_folder
 from screening.engine.drivers import DRIVERS
 from screening.onset.investigate import OnsetResult
 from screening.report.cautions import CAUTIONS
+from screening.report.figjson import plain_figure
 from screening.report.palette import STATE_COLOURS
 
 _ENV = Environment(loader=PackageLoader("screening.report", "templates"),
@@ -29,6 +30,7 @@ DRIVER_COLOURS = {
 
 
 def _html(fig: go.Figure, div_id: str) -> str:
+    plain_figure(fig)  # plotly.js reads HTML in trace texts: show them as written
     return fig.to_html(full_html=False, include_plotlyjs=False, div_id=div_id)
 
 
