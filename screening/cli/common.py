@@ -5,6 +5,7 @@ from __future__ import annotations
 import sys
 import time
 import traceback
+import warnings
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from functools import wraps
@@ -24,14 +25,23 @@ DEBUG_OPTION = typer.Option(False, "--debug", help="Show the full traceback on a
 QUIET_OPTION = typer.Option(False, "--quiet", "-q", help="Print only the report path.")
 
 
+def _one_line_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """Show a Python warning as one line on standard error (no source line, no path)."""
+    text = " ".join(str(message).split())
+    print(f"pumpscreen: note: {text}", file=sys.stderr)
+
+
 def friendly_errors(func: Callable) -> Callable:
-    """Turn any exception into one clear paragraph and exit code 1 (``--debug``: traceback)."""
+    """Turn any exception into one clear paragraph and exit code 1 (``--debug``: traceback);
+    Python warnings are shown as one line each, ``pumpscreen: note: ...``."""
 
     @wraps(func)
     def wrapper(*args, **kwargs):
         debug = kwargs.get("debug", False)
         try:
-            return func(*args, **kwargs)
+            with warnings.catch_warnings():
+                warnings.showwarning = _one_line_warning
+                return func(*args, **kwargs)
         except typer.Exit:
             raise
         except Exception as exc:  # noqa: BLE001 - the command line's last line of defence
