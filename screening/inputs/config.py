@@ -205,6 +205,9 @@ class ExportSource(_Strict):
     delimiter: str = ","
     decimal: str = "."
     encoding: str = "utf-8"
+    max_csv_mb: float = Field(
+        2000.0, gt=0, le=1e7, description="largest CSV file read [MB, uncompressed]"
+    )
 
     @model_validator(mode="after")
     def _keys_of_layout(self) -> ExportSource:
