@@ -85,6 +85,7 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
             result, tag_quality, n = screen_pump(
                 plant, pump, index, raw, ctx.barometer, ctx.settings, ctx.start_ns, ctx.end_ns,
                 ctx.edges, ctx.keep_series or ctx.each_pump is not None, ctx.plot_buckets,
+                read_problems,
             )  # fmt: skip
             if ctx.each_pump is not None:
                 out.extras[pid] = ctx.each_pump(plant, result)
