@@ -147,3 +147,29 @@ def test_worker_options_are_usage_errors_before_any_work(tmp_path, args, message
 def test_scan_refuses_no_workers(two_pumps, kw, name):
     with pytest.raises(ValueError, match=f"{name} must be a whole number of 1 or more"):
         screening.scan(two_pumps, **kw)
+
+
+def test_a_register_of_only_its_header_says_so(tmp_path):
+    path = make_plant(tmp_path, wide={"a.csv": steady_frame("P1")}, rows=[])
+    res = runner.invoke(app, ["scan", str(path), "--out", str(tmp_path / "r")])
+    assert res.exit_code == 4, res.output
+    assert f"no pump screened: the register {tmp_path / 'pumps.csv'} lists no pump" in res.output
+
+
+@pytest.mark.parametrize(
+    ("column", "value", "message"),
+    [
+        ("rated_speed", "1e308", "1e+308 rpm is outside the valid range 1 to 60000 rpm"),
+        ("rated_speed", "0.5", "0.5 rpm is outside the valid range 1 to 60000 rpm"),
+        ("bep_flow", "1e9", "is outside the valid range 0.0036 to 360000 m³/h"),
+        ("tap_bore", "1e6", "is outside the valid range 1 to 10000 mm"),
+        ("tap_elevation", "-1e300", "is outside the valid range -500 to 500 m"),
+    ],
+)
+def test_implausible_register_values_are_refused_with_the_range(tmp_path, column, value, message):
+    rows = [pump_row("P1"), pump_row("P2", **{column: value})]
+    frame = steady_frame("P1").merge(steady_frame("P2"), on="timestamp")
+    result = screening.scan(make_plant(tmp_path, wide={"a.csv": frame}, rows=rows))
+    assert list(result.summary["pump_id"]) == ["P1"]  # the rest of the plant is screened
+    reason = result.problems.set_index("pump_id")["message"]["P2"]
+    assert f"(pump P2), column '{column}': " in reason and message in reason, reason

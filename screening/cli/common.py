@@ -125,12 +125,15 @@ def cluster_choice(processes: int | None, cluster: str | None, workers: int | No
     return cluster if cluster is not None else workers
 
 
-def finish(folder, problems, n_ok: int, quiet: bool) -> None:
+def finish(folder, problems, n_ok: int, quiet: bool, plant=None) -> None:
     """The end of a screening command: pumps not screened (standard error), the report's
-    path, and the exit code (0 all screened, 3 some not, 4 none)."""
+    path, and the exit code (0 all screened, 3 some not, 4 none: always with a reason)."""
     if not quiet:
         for row in problems.itertuples(index=False):
             typer.echo(f"not screened: {row.pump_id}: {row.message}", err=True)
+    if n_ok == 0 and len(problems) == 0:
+        where = f" {plant.base / plant.settings.register_files.pumps}" if plant is not None else ""
+        typer.echo(f"pumpscreen: no pump screened: the register{where} lists no pump", err=True)
         typer.echo("report:")
     typer.echo(str((folder / "index.html").resolve()))
     if n_ok == 0:

@@ -79,4 +79,4 @@ def scan_command(
                     f"  {row.pump_id:<12} {row.below_npsh3_hours:8.1f} h "
                     f"{row.below_guidance_hours:8.1f} h   {row.service}"
                 )
-    finish(folder, result.problems, n_ok, quiet)
+    finish(folder, result.problems, n_ok, quiet, result.plant)

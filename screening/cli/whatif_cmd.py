@@ -69,4 +69,4 @@ def whatif_command(
             typer.echo(f"  {sc}: {pid} below guidance {before:.1f} h -> {max(after, 0):.1f} h")
         for note in result.notes:
             typer.echo(f"note: {note}", err=True)
-    finish(folder, scan.problems, n_ok, quiet)
+    finish(folder, scan.problems, n_ok, quiet, scan.plant)

@@ -357,6 +357,8 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
     bep = r.quantity("bep_flow", "flow")
     if bep <= 0:
         r.fail("bep_flow", "must be a positive flow")
+    _plausible(r, "rated_speed", rated)
+    _plausible(r, "bep_flow", bep)
     por_low = r.number("preferred_low", 0.70, 0.1, 1.0)
     por_high = r.number("preferred_high", 1.20, 1.0, 2.0)
     eyes = r.number("impeller_eyes", 1, 1, 2)
@@ -397,6 +399,29 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
     )
 
 
+#: Plausible ranges of register values (SI, and how the message shows them): a value outside
+#: is a typing or unit slip (``1e308``, a flow in l/s given as m3/s), refused with the range.
+#: Wide on purpose: the fastest process pumps run near 30 000 rpm, the largest move about
+#: 60 m³/s; a suction tap is not a kilometre above or below the pump.
+_PLAUSIBLE = {
+    "rated_speed": (1.0, 60_000.0, 1.0, "rpm"),
+    "bep_flow": (1e-6, 100.0, 3600.0, "m³/h"),
+    "tap_elevation": (-500.0, 500.0, 1.0, "m"),
+    "tap_bore": (1e-3, 10.0, 1000.0, "mm"),
+}
+
+
+def _plausible(r: _Row, column: str, value: float) -> None:
+    """Refuse a register value outside :data:`_PLAUSIBLE`, naming the valid range."""
+    low, high, scale, unit = _PLAUSIBLE[column]
+    if not (low <= value <= high):
+        r.fail(
+            column,
+            f"{value * scale:.6g} {unit} is outside the valid range "
+            f"{low * scale:g} to {high * scale:g} {unit}",
+        )
+
+
 def _transmitter_fields(r: _Row, tag, reference) -> dict:
     """The register fields of a pump with a suction pressure transmitter (tag, reference,
     tap elevation [m] and bore [m])."""
@@ -408,6 +433,8 @@ def _transmitter_fields(r: _Row, tag, reference) -> dict:
     }
     if out["tap_bore"] <= 0:
         r.fail("tap_bore", "must be a positive pipe bore")
+    _plausible(r, "tap_elevation", out["tap_elevation"])
+    _plausible(r, "tap_bore", out["tap_bore"])
     return out
 
 
