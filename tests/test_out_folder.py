@@ -230,3 +230,20 @@ def test_pump_id_of_300_characters_is_screened_reported_and_ingested(tmp_path):
     again = screening.scan(path)
     assert again.problems.empty
     assert again.hours["hours"].sum() == pytest.approx(result.hours["hours"].sum(), rel=1e-12)
+
+
+@pytest.mark.parametrize("command", ["onset", "whatif", "ingest"])
+def test_other_commands_refuse_a_folder_not_theirs_before_any_work(plant, tmp_path, command):
+    exports = plant.parent / "exports"
+    before = _snapshot(plant.parent)
+    scenarios = tmp_path / "s.toml"
+    scenarios.write_text('[[scenario]]\nname = "x"\n')
+    args = {
+        "onset": ["onset", str(plant), "P1", "--from", "2026-10-01", "--to", "2026-10-02"],
+        "whatif": ["whatif", str(plant), str(scenarios)],
+        "ingest": ["ingest", str(plant)],
+    }[command]
+    res = runner.invoke(app, [*args, "--out", str(exports)])
+    assert res.exit_code == 1, res.output
+    assert "exports: exists and was not written by pumpscreen" in res.output
+    assert _snapshot(plant.parent) == before
