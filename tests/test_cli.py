@@ -105,3 +105,73 @@ def test_check_counts_malformed_rows(tmp_path):
     result = screening.check(path)
     suction = result.tags.set_index("role").loc["suction"]
     assert "1 rows with a wrong number of fields" in suction["problems"]
+
+
+def test_a_pump_named_twice_is_screened_once(two_pumps, tmp_path):
+    once = screening.scan(two_pumps, pumps=["P1"])
+    twice = screening.scan(two_pumps, pumps=["P1", "P1", "nope", "nope"])
+    assert list(twice.summary["pump_id"]) == ["P1"]
+    pd.testing.assert_frame_equal(twice.hours, once.hours)
+    assert twice.hours["hours"].sum() == pytest.approx(2 * 24.0, rel=1e-12)
+    assert list(twice.problems["pump_id"]) == ["nope"]
+    out = tmp_path / "r"
+    res = runner.invoke(app, ["scan", str(two_pumps), "--out", str(out), "--pump", "P1",
+                              "--pump", "P1"])  # fmt: skip
+    assert res.exit_code == 0, res.output
+    assert "screened 1 pump(s), 0 not screened" in res.output
+    table = pd.read_csv(out / "hours.csv")
+    assert table.groupby("kind")["hours"].sum().to_numpy() == pytest.approx([24.0, 24.0])
+
+
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [
+        (["--workers", "0"], "--workers must be 1 or more, got 0"),
+        (["--workers", "-3"], "--workers must be 1 or more, got -3"),
+        (["--processes", "0"], "--processes must be 1 or more"),
+        (["--processes", "-1"], "--processes must be 1 or more"),
+        (["--cluster", "tcp://192.0.2.1:8786", "--workers", "2"], "give --cluster or --workers"),
+        (["--processes", "2", "--workers", "2"], "give --processes, or --cluster / --workers"),
+    ],
+)
+def test_worker_options_are_usage_errors_before_any_work(tmp_path, args, message):
+    # the plant file does not exist: the options are refused before it is even read
+    res = runner.invoke(app, ["scan", str(tmp_path / "missing.toml"), *args])
+    assert res.exit_code == 2, res.output
+    lines = [line for line in res.output.splitlines() if line.strip()]
+    assert lines == [f"pumpscreen: usage error: {message}" + lines[0].split(message, 1)[1]]
+    assert "Traceback" not in res.output
+
+
+@pytest.mark.parametrize(("kw", "name"), [({"processes": 0}, "processes"),
+                                          ({"processes": -2}, "processes"),
+                                          ({"cluster": 0}, "workers")])  # fmt: skip
+def test_scan_refuses_no_workers(two_pumps, kw, name):
+    with pytest.raises(ValueError, match=f"{name} must be a whole number of 1 or more"):
+        screening.scan(two_pumps, **kw)
+
+
+def test_a_register_of_only_its_header_says_so(tmp_path):
+    path = make_plant(tmp_path, wide={"a.csv": steady_frame("P1")}, rows=[])
+    res = runner.invoke(app, ["scan", str(path), "--out", str(tmp_path / "r")])
+    assert res.exit_code == 4, res.output
+    assert f"no pump screened: the register {tmp_path / 'pumps.csv'} lists no pump" in res.output
+
+
+@pytest.mark.parametrize(
+    ("column", "value", "message"),
+    [
+        ("rated_speed", "1e308", "1e+308 rpm is outside the valid range 1 to 60000 rpm"),
+        ("rated_speed", "0.5", "0.5 rpm is outside the valid range 1 to 60000 rpm"),
+        ("bep_flow", "1e9", "is outside the valid range 0.0036 to 360000 m³/h"),
+        ("tap_bore", "1e6", "is outside the valid range 1 to 10000 mm"),
+        ("tap_elevation", "-1e300", "is outside the valid range -500 to 500 m"),
+    ],
+)
+def test_implausible_register_values_are_refused_with_the_range(tmp_path, column, value, message):
+    rows = [pump_row("P1"), pump_row("P2", **{column: value})]
+    frame = steady_frame("P1").merge(steady_frame("P2"), on="timestamp")
+    result = screening.scan(make_plant(tmp_path, wide={"a.csv": frame}, rows=rows))
+    assert list(result.summary["pump_id"]) == ["P1"]  # the rest of the plant is screened
+    reason = result.problems.set_index("pump_id")["message"]["P2"]
+    assert f"(pump P2), column '{column}': " in reason and message in reason, reason

@@ -134,9 +134,13 @@ def test_scan_killed_while_writing_keeps_the_previous_report(previous_report, tm
         proc.wait()
     assert proc.returncode == -signal.SIGKILL
     assert _snapshot(out) == before
-    # the killed run's temporary folder is a hidden sibling; the next run replaces the report
+    # the killed run's temporary folder is a hidden sibling, left behind by the kill
+    left = [p.name for p in out.parent.iterdir() if p.name.startswith(".")]
+    assert len(left) == 1 and left[0].startswith(".october.tmp-")
+    # the next run replaces the report and clears the killed run's temporary folder
     screening.write_report(screening.scan(path), out)
     assert (out / "index.html").exists() and (out / "pumps" / "P1.html").exists()
+    assert [p.name for p in out.parent.iterdir()] == ["october"]
 
 
 def test_previous_report_moved_aside_is_put_back(previous_report, monkeypatch):

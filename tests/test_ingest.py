@@ -235,8 +235,9 @@ def test_output_folder_rules(tmp_path):
     plant = make_plant(tmp_path, wide={"a.csv": steady_frame()})
     (tmp_path / "busy").mkdir()
     (tmp_path / "busy" / "notes.txt").write_text("keep me")
-    with pytest.raises(IngestError, match="is not a dataset"):
+    with pytest.raises(IngestError, match="busy: exists and was not written by pumpscreen"):
         ingest(plant, tmp_path / "busy")
+    assert (tmp_path / "busy" / "notes.txt").read_text() == "keep me"
     ingest(plant, tmp_path / "ds")
     again = ingest(plant, tmp_path / "ds", "2026-10-01 06:00", "2026-10-01 12:00")  # replaced
     assert again.outside_window > 0

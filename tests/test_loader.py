@@ -77,6 +77,9 @@ def test_duplicates_and_out_of_order_rows_are_counted(tmp_path):
     r = screening.scan(make_plant(tmp_path, wide={"a.csv": frame}))
     q = r.quality.set_index("role").loc["suction"]
     assert q["duplicates"] == 4
+    # the first instant held twice (row 5, 00:05) is named where it first appears and again
+    a = tmp_path / "exports" / "a.csv"
+    assert f"duplicate time: {a} line 7, again at {a} line 1443" in q["first_problem"]
     assert q["out_of_order"] >= 2
     assert hours(r).sum() == pytest.approx(24.0)
     assert hours(r)["ample_margin"] == pytest.approx(24.0)

@@ -48,7 +48,8 @@ def test_a_damaged_file_is_rebuilt_and_choices_do_not_mix(tmp_path, monkeypatch)
     for f in tmp_path.glob("*.npz"):
         f.write_bytes(b"not a table")
     properties._fluid_table.cache_clear()
-    again = properties.fluid_table("INCOMP::MEG-30%", "raoult")
+    with pytest.warns(tablecache.CacheWarning, match="is damaged"):
+        again = properties.fluid_table("INCOMP::MEG-30%", "raoult")
     np.testing.assert_array_equal(again.ln_pv, raoult.ln_pv)
     assert again.vapour_pressure_choice == "raoult" != water.vapour_pressure_choice
 
@@ -72,3 +73,57 @@ def test_keys_change_with_what_decides_the_numbers():
 def _clear_after():
     yield
     properties._fluid_table.cache_clear()
+
+
+@pytest.mark.parametrize("damage", ["empty", "truncated", "zip of other arrays"])
+def test_an_empty_or_truncated_file_is_named_rebuilt_and_replaced(tmp_path, monkeypatch, damage):
+    _fresh(monkeypatch, tmp_path)
+    built = properties.fluid_table("Water")
+    (path,) = tmp_path.glob("fluid-table-*.npz")
+    good = path.read_bytes()
+    if damage == "empty":
+        path.write_bytes(b"")
+    elif damage == "truncated":
+        path.write_bytes(good[: len(good) // 3])
+    else:
+        np.savez(path, something=np.arange(3))
+    properties._fluid_table.cache_clear()
+    with pytest.warns(tablecache.CacheWarning, match=f"cache file {path} is damaged") as caught:
+        again = properties.fluid_table("Water")
+    assert len(caught) == 1 and "\n" not in str(caught[0].message)
+    np.testing.assert_array_equal(again.ln_pv, built.ln_pv)
+    assert path.read_bytes() == good  # replaced by the rebuilt table
+    properties._fluid_table.cache_clear()
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # the replaced file loads without a note
+        properties.fluid_table("Water")
+
+
+def test_a_damaged_file_is_one_line_in_the_command_line(tmp_path, monkeypatch):
+    from plantmaker import make_plant, steady_frame
+    from typer.testing import CliRunner
+
+    from screening.cli.main import app
+
+    cache = tmp_path / "cache"
+    _fresh(monkeypatch, cache)
+    path = make_plant(tmp_path / "plant", wide={"a.csv": steady_frame("P1")})
+    runner = CliRunner()
+    res = runner.invoke(app, ["scan", str(path), "--out", str(tmp_path / "r1")])
+    assert res.exit_code == 0, res.output
+    files = list(cache.glob("fluid-table-*.npz"))
+    assert files
+    for f in files:
+        f.write_bytes(b"")  # a disk that filled up while the cache was written
+    properties._fluid_table.cache_clear()
+    res = runner.invoke(app, ["scan", str(path), "--out", str(tmp_path / "r2")])
+    assert res.exit_code == 0, res.output
+    notes = [line for line in res.output.splitlines() if "cache file" in line]
+    assert notes and all(
+        line.startswith("pumpscreen: note: fluid-table cache file ") and "is damaged" in line
+        for line in notes
+    ), res.output
+    assert "warnings.warn" not in res.output and "CacheWarning" not in res.output
+    assert all(f.stat().st_size > 0 for f in files)  # replaced by rebuilt tables

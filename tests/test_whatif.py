@@ -293,3 +293,25 @@ def test_demo_scenarios_on_the_demo_plant():
     cd = sp.loc[("CD-412", "level", 1.0)]
     assert cd["today_setpoint"] == pytest.approx(0.8)  # 800 mm in the register
     assert cd["required"] > cd["today_setpoint"]  # today's low level is too low
+
+
+def test_a_pump_named_twice_is_replayed_once(tmp_path):
+    path = _wavy(tmp_path, pressure=lambda i: -35.0 + 35.0 * np.sin(2 * np.pi * i / 480))
+    scenarios = _scenarios(tmp_path, """
+[[scenario]]
+name = "more pressure"
+  [[scenario.change]]
+  pumps = ["P1"]
+  suction_pressure_add = "30 kPa"
+""")  # fmt: skip
+    once = screening.whatif(path, scenarios, pumps=["P1"])
+    twice = screening.whatif(path, scenarios, pumps=["P1", "P1"])
+    pd.testing.assert_frame_equal(twice.hours, once.hours)
+    pd.testing.assert_frame_equal(twice.setpoints, once.setpoints)
+    margin = twice.hours[twice.hours.kind == "margin"]
+    assert margin["before_h"].sum() == pytest.approx(24.0, rel=1e-12)
+    out = tmp_path / "wi"
+    args = ["whatif", str(path), str(scenarios), "--out", str(out), "--pump", "P1", "--pump", "P1"]
+    res = CliRunner().invoke(app, args)
+    assert res.exit_code == 0, res.output
+    assert "on 1 pump(s)" in res.output

@@ -5,9 +5,11 @@ from __future__ import annotations
 import sys
 import time
 import traceback
+import warnings
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from functools import wraps
+from typing import NoReturn
 
 import typer
 from rich.console import Console
@@ -25,14 +27,23 @@ DEBUG_OPTION = typer.Option(False, "--debug", help="Show the full traceback on a
 QUIET_OPTION = typer.Option(False, "--quiet", "-q", help="Print only the report path.")
 
 
+def _one_line_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """Show a Python warning as one line on standard error (no source line, no path)."""
+    text = " ".join(str(message).split())
+    print(f"pumpscreen: note: {text}", file=sys.stderr)
+
+
 def friendly_errors(func: Callable) -> Callable:
-    """Turn any exception into one clear paragraph and exit code 1 (``--debug``: traceback)."""
+    """Turn any exception into one clear paragraph and exit code 1 (``--debug``: traceback);
+    Python warnings are shown as one line each, ``pumpscreen: note: ...``."""
 
     @wraps(func)
     def wrapper(*args, **kwargs):
         debug = kwargs.get("debug", False)
         try:
-            return func(*args, **kwargs)
+            with warnings.catch_warnings():
+                warnings.showwarning = _one_line_warning
+                return func(*args, **kwargs)
         except typer.Exit:
             raise
         except Exception as exc:  # noqa: BLE001 - the command line's last line of defence
@@ -121,20 +132,38 @@ def progress_bar(total_pumps: int, quiet: bool) -> Iterator[Callable | None]:
         yield advance
 
 
-def cluster_choice(cluster: str | None, workers: int | None):
-    """The ``cluster`` argument of :func:`screening.scan` from the command-line options."""
-    if cluster and workers:
-        raise typer.BadParameter("give --cluster or --workers, not both")
-    return cluster or workers
+def usage_error(message: str) -> NoReturn:
+    """Wrong command-line use: one line on standard error and exit code 2, at once."""
+    print(f"pumpscreen: usage error: {message}", file=sys.stderr)
+    raise typer.Exit(EXIT_USAGE)
 
 
-def finish(folder, problems, n_ok: int, quiet: bool, n_thin: int = 0) -> None:
+def cluster_choice(processes: int | None, cluster: str | None, workers: int | None):
+    """The ``cluster`` argument of :func:`screening.scan` from the command-line options,
+    checked before any work: ``--processes`` and ``--workers`` at least 1, ``--cluster`` and
+    ``--workers`` not together (each a usage error, exit code 2)."""
+    if cluster is not None and workers is not None:
+        usage_error("give --cluster or --workers, not both")
+    if processes is not None and processes < 1:
+        usage_error(f"--processes must be 1 or more (1: no worker processes), got {processes}")
+    if workers is not None and workers < 1:
+        usage_error(f"--workers must be 1 or more, got {workers}")
+    if processes is not None and (cluster is not None or workers is not None):
+        usage_error("give --processes, or --cluster / --workers, not both")
+    return cluster if cluster is not None else workers
+
+
+def finish(folder, problems, n_ok: int, quiet: bool, plant=None, n_thin: int = 0) -> None:
     """The end of a screening command: pumps not screened (standard error), the report's
     path, and the exit code (0 all screened with enough data, 3 some not screened or without
-    enough data, 4 none screened)."""
+    enough data, 4 none screened: always with a reason)."""
     if not quiet:
         for row in problems.itertuples(index=False):
             typer.echo(f"not screened: {row.pump_id}: {row.message}", err=True)
+    if n_ok == 0 and len(problems) == 0:
+        where = f" {plant.base / plant.settings.register_files.pumps}" if plant is not None else ""
+        typer.echo(f"pumpscreen: no pump screened: the register{where} lists no pump", err=True)
+    if not quiet:
         typer.echo("report:")
     typer.echo(str((folder / "index.html").resolve()))
     if n_ok == 0:

@@ -6,6 +6,7 @@ from pathlib import Path
 
 import typer
 
+from screening.base.files import check_out
 from screening.inputs.ingest import ingest
 
 from .common import (
@@ -43,6 +44,7 @@ def ingest_command(
 ) -> None:
     """Convert raw exports into a Parquet dataset by pump and month, for faster scans."""
     out = out or Path("datasets") / config.stem
+    check_out(out, "dataset")  # refuse a folder not ours before reading, not after it
     s = ingest(config, out, start, end)
     if not quiet:
         typer.echo(

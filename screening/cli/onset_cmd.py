@@ -6,6 +6,7 @@ from pathlib import Path
 
 import typer
 
+from screening.base.files import check_out, safe_name
 from screening.onset.investigate import investigate
 from screening.report.onset_page import write_onset_report
 
@@ -51,12 +52,14 @@ def onset_command(
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Find when a pump's suction margin began to shrink, in which episodes, driven by what."""
+    default = safe_name("".join(c if c.isalnum() else "_" for c in pump))
+    out = out or Path("reports") / f"onset_{default}"
+    check_out(out, "onset")  # refuse a folder not ours before the work, not after it
     result = investigate(
         config, pump, start, end, failed_on=failed_on, baseline=baseline,
         enter_below=enter_below, leave_above=leave_above, min_duration_h=min_hours,
         bridge_gap_h=bridge_hours,
     )  # fmt: skip
-    out = out or Path("reports") / f"onset_{''.join(c if c.isalnum() else '_' for c in pump)}"
     page = write_onset_report(result, out)
     typer.echo(result.finding)
     typer.echo(str(page.resolve()))

@@ -6,6 +6,7 @@ from pathlib import Path
 
 import typer
 
+from screening.base.files import check_out
 from screening.base.text import hours_text
 from screening.engine.plotdata import DEFAULT_BUCKETS
 from screening.engine.scan import scan
@@ -49,11 +50,15 @@ def scan_command(
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Screen every pump over a window: hours in each NPSH margin band, with every hour counted."""
+    chosen = cluster_choice(processes, cluster, workers)
+    if out is not None:
+        check_out(out, "report")  # refuse a folder not ours before the scan, not after it
     plant = load_plant(config)
-    with progress_bar(len(pump) if pump else len(plant.pumps), quiet) as advance:
+    pump = list(dict.fromkeys(pump)) if pump else None  # an id given twice is screened once
+    with progress_bar(len(pump or plant.pumps), quiet) as advance:
         result = scan(
-            plant, start, end, pumps=pump or None, plot_buckets=DEFAULT_BUCKETS,
-            processes=processes, cluster=cluster_choice(cluster, workers), progress=advance,
+            plant, start, end, pumps=pump, plot_buckets=DEFAULT_BUCKETS,
+            processes=processes, cluster=chosen, progress=advance,
         )  # fmt: skip
     empty = result.empty_message() if len(result.summary) else None
     if empty:  # an empty report would read as an all-clear: say it and stop
@@ -67,7 +72,10 @@ def scan_command(
     folder = write_report(result, out, units=units.lower(), compare_to=compare_to)
     if not quiet:
         print_ranking(result)
-    finish(folder, result.problems, len(result.summary), quiet, len(result.not_enough_data))
+    finish(
+        folder, result.problems, len(result.summary), quiet, result.plant,
+        len(result.not_enough_data),
+    )  # fmt: skip
 
 
 def print_ranking(result) -> None:

@@ -7,6 +7,7 @@ from pathlib import Path
 
 import typer
 
+from screening.base.files import check_out
 from screening.base.text import hours_text
 from screening.inputs.plant import load_plant
 from screening.report.whatif_page import write_whatif_report
@@ -46,9 +47,12 @@ def whatif_command(
 ) -> None:
     """Replay history with each scenario's changes; report hours moved and required setpoints."""
     shares = tuple(sorted(set(share))) if share else (0.99, 1.0)
+    if out is not None:
+        check_out(out, "whatif")  # refuse a folder not ours before the work, not after it
     plant = load_plant(config)
-    with progress_bar(len(pump) if pump else len(plant.pumps), quiet) as advance:
-        result = whatif(plant, scenarios, start, end, pumps=pump or None, shares=shares,
+    pump = list(dict.fromkeys(pump)) if pump else None  # an id given twice is screened once
+    with progress_bar(len(pump or plant.pumps), quiet) as advance:
+        result = whatif(plant, scenarios, start, end, pumps=pump, shares=shares,
                         progress=advance)  # fmt: skip
     scan = result.scan
     empty = scan.empty_message() if len(scan.summary) else None
@@ -74,4 +78,4 @@ def whatif_command(
             )
         for note in result.notes:
             typer.echo(f"note: {note}", err=True)
-    finish(folder, scan.problems, n_ok, quiet, len(scan.not_enough_data))
+    finish(folder, scan.problems, n_ok, quiet, scan.plant, len(scan.not_enough_data))

@@ -86,6 +86,7 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
             result, tag_quality, n = screen_pump(
                 plant, pump, index, raw, ctx.barometer, ctx.settings, ctx.start_ns, ctx.end_ns,
                 ctx.edges, ctx.keep_series or ctx.each_pump is not None, ctx.plot_buckets,
+                read_problems,
             )  # fmt: skip
             if ctx.each_pump is not None:
                 out.extras[pid] = ctx.each_pump(plant, result)
@@ -142,6 +143,19 @@ def _in_order(done: dict[int, BatchOutput], n: int) -> Iterator[BatchOutput]:
         yield done.pop(i)
 
 
+def check_workers(processes: int | None, cluster: Any) -> None:
+    """Refuse a number of processes or of Dask workers [-] below 1 (or not a whole number)."""
+    for name, value in (("processes", processes), ("workers", cluster)):
+        if value is None or isinstance(value, str) or (name == "workers" and not _is_int(value)):
+            continue
+        if not _is_int(value) or value < 1:
+            raise ValueError(f"{name} must be a whole number of 1 or more, got {value!r}")
+
+
+def _is_int(value: Any) -> bool:
+    return isinstance(value, int | np.integer) and not isinstance(value, bool)
+
+
 def run_batches(
     ctx: BatchContext,
     batches: list[list[str]],
@@ -165,7 +179,13 @@ def run_batches(
         workers for a local Dask cluster started for this run. Overrides ``processes``.
     progress : callable, optional
         Called with each batch's output as it completes (in completion order).
+
+    Raises
+    ------
+    ValueError
+        ``processes`` or a number of workers below 1 (checked by :func:`check_workers`).
     """
+    check_workers(processes, cluster)
     if cluster is not None:
         return _run_dask(ctx, batches, cluster, progress)
     n = min(processes or default_processes(), len(batches))

@@ -5,6 +5,8 @@ Shared by every place that runs pumps (this process, a worker process, a Dask wo
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 
@@ -69,24 +71,44 @@ def read_barometer(plant, index, settings, span):
     return s, s.quality
 
 
+def _files_not_read(messages: list[str], most: int = 3) -> str:
+    """The messages of files that could not be read, at most ``most`` of them, as one text."""
+    shown = "; ".join(messages[:most])
+    more = len(messages) - most
+    return shown + (f"; and {more} more (see files_not_read)" if more > 0 else "")
+
+
 def screen_pump(
-    plant, pump, index, raw, barometer, settings, start_ns, end_ns, edges, keep, buckets
-):
-    """Read, check and calculate one pump; returns its result, tag quality and samples."""
+    plant, pump, index, raw, barometer, settings, start_ns, end_ns, edges, keep, buckets,
+    read_problems=None,
+):  # fmt: skip
+    """Read, check and calculate one pump; returns its result, tag quality and samples.
+    ``read_problems`` (path -> message) are the files that failed while the tags were read:
+    a tag that could not be read is reported with its files' reasons."""
     roles = pump.tags()
     known = index.known_tags()
     missing = [f"{spec.tag} ({role})" for role, spec in roles.items() if spec.tag not in known]
     if missing:
-        raise ExportError(f"tag(s) not found in any export file: {', '.join(missing)}")
+        message = f"tag(s) not found in any export file: {', '.join(missing)}"
+        unread = [m for p, m in index.file_problems.items() if Path(p).is_file()]
+        if unread:
+            # the tags may be in a file that could not be read: say which and why
+            message += (
+                f"; {len(unread)} export file(s) could not be read and may hold them: "
+                + _files_not_read(unread)
+            )
+        raise ExportError(message)
     table = fluid_table(pump.fluid, pump.vapour_pressure)
     prepared = {}
     n = 0
     for role, spec in roles.items():
         s = raw.get(spec.tag)
         if s is None:
+            files = [str(f) for f in index.files_for(spec.tag)]
+            why = [(read_problems or {}).get(f) for f in files]
             raise ExportError(
-                f"tag {spec.tag} ({role}) could not be read from "
-                f"{', '.join(map(str, index.files_for(spec.tag)))}"
+                f"tag {spec.tag} ({role}) could not be read from {', '.join(files)}"
+                + (f": {_files_not_read([w for w in why if w])}" if any(why) else "")
             )
         try:
             prepared[role] = prepare_tag(s, spec, settings, role, check_range(role, pump, table))

@@ -15,7 +15,13 @@ import pandas as pd
 
 from screening.base.allocator import keep_freed_memory
 from screening.engine.calculator import PumpResult
-from screening.engine.execution import BatchContext, BatchOutput, fluid_tables_for, run_batches
+from screening.engine.execution import (
+    BatchContext,
+    BatchOutput,
+    check_workers,
+    fluid_tables_for,
+    run_batches,
+)
 from screening.engine.one_pump import quality_row, read_barometer, settings_for
 from screening.engine.tables import ScanResult, scan_tables
 from screening.inputs.loader import ExportIndex, open_exports
@@ -45,7 +51,7 @@ def scan(
         Window [start, end); dates without an offset are in the site time zone; default from
         the plant file.
     pumps : list of str, optional
-        Screen only these pump ids.
+        Screen only these pump ids (an id given twice is screened once).
     keep_series : bool
         Keep each pump's time series (NPSHa, NPSH3, ratio, state) in ``ScanResult.series``.
     plot_buckets : int
@@ -76,6 +82,7 @@ def scan(
     ScanResult
     """
     t0 = time.perf_counter()
+    check_workers(processes, cluster)  # before any work
     keep_freed_memory()
     plant = config if isinstance(config, Plant) else load_plant(config)
     start_ts, end_ts = window_bounds(plant, start, end)
@@ -86,6 +93,8 @@ def scan(
     problems: list[dict] = [
         {"pump_id": pid, "stage": "config", "message": msg} for pid, msg in plant.problems.items()
     ]
+    if pumps is not None:
+        pumps = list(dict.fromkeys(pumps))  # a pump named twice is screened once
     selected = list(plant.pumps) if pumps is None else pumps
     unknown = [p for p in selected if p not in plant.pumps and p not in plant.problems]
     for pid in unknown:

@@ -257,6 +257,9 @@ class ExportSource(_Strict):
     #: Order of day and month in dates such as 03/04/2026 (see the README, "Dates"): read only
     #: when declared, never guessed.
     date_order: Literal["day_first", "month_first"] | None = None
+    max_csv_mb: float = Field(
+        2000.0, gt=0, le=1e7, description="largest CSV file read [MB, uncompressed]"
+    )
 
     @model_validator(mode="after")
     def _keys_of_layout(self) -> ExportSource:

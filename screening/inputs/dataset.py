@@ -294,4 +294,4 @@ def _count(q, chunk_list, where, ok, times, values, is_text, text, bad_q, rows, 
             x[ok] for x in (times, values, is_text, text, bad_q, rows, malformed)
         )
     bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed, words)
-    chunk_list.append((times, values.astype(np.float64, copy=False), bad))
+    chunk_list.append((times, values.astype(np.float64, copy=False), bad, (where, rows)))

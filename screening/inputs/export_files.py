@@ -3,9 +3,11 @@ columns with the line of each row, and the time range of a Parquet file."""
 
 from __future__ import annotations
 
+import codecs
 import csv
 import gzip
 import io
+import stat
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -31,6 +33,24 @@ class FileInfo:
     time_zone: str | None = None  # its time zone as stored
 
 
+def not_regular(path: Path) -> str | None:
+    """Why ``path`` is not read when it is not a regular file (a named pipe, a device, a
+    socket or a folder: reading a pipe or a device could wait forever), else None."""
+    try:
+        mode = path.stat().st_mode
+    except OSError as exc:
+        return f"{path}: cannot be read ({exc.strerror or exc})"
+    if stat.S_ISREG(mode):
+        return None
+    kinds = (
+        (stat.S_ISDIR, "a folder"), (stat.S_ISFIFO, "a named pipe"),
+        (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"),
+        (stat.S_ISSOCK, "a socket"),
+    )  # fmt: skip
+    kind = next((word for test, word in kinds if test(mode)), "not a regular file")
+    return f"{path}: {kind}, not a regular file; not read"
+
+
 def format_of(path: Path, source: ExportSource) -> str:
     if source.format:
         return source.format
@@ -42,45 +62,114 @@ def format_of(path: Path, source: ExportSource) -> str:
     raise ExportError(f"{path}: cannot tell the format from the name; set 'format' in [[exports]]")
 
 
+#: Longest line of a CSV export that is read [bytes]. A longer line (a real export line is far
+#: shorter: a wide row of 2000 tags is about 30 kB) is bad data, counted, and never held in
+#: memory whole.
+MAX_LINE = 1 << 20
+
+#: Bytes read at a time while a CSV file's lines are counted (memory stays bounded by this,
+#: not by the file).
+_BLOCK = 1 << 21
+
+_GZIP_MAGIC = b"\x1f\x8b"
+_UTF16_BOMS = {b"\xff\xfe": "UTF-16 (little-endian)", b"\xfe\xff": "UTF-16 (big-endian)"}
+
+
+def open_binary(path: Path):
+    """The file's bytes as a stream, uncompressed when its name ends in .gz."""
+    return gzip.open(path, "rb") if path.name.lower().endswith(".gz") else open(path, "rb")
+
+
+def size_limit(source: ExportSource) -> int:
+    """The largest CSV file read for ``source`` [bytes, uncompressed]."""
+    return int(source.max_csv_mb * 1e6)
+
+
+def _what_it_is(path: Path, source: ExportSource) -> str | None:
+    """A message when the file's first bytes say it is not text in ``source.encoding``:
+    UTF-16 with a byte-order mark, or gzip data in a file whose name does not end in .gz."""
+    try:
+        with open(path, "rb") as fh:
+            head = fh.read(4)
+    except OSError:
+        return None
+    enc = source.encoding.lower().replace("-", "").replace("_", "")
+    if head[:2] in _UTF16_BOMS and not enc.startswith("utf16"):
+        return (
+            f"{path}: {_UTF16_BOMS[head[:2]]} text (it begins with the byte-order mark "
+            f'{head[0]:02X} {head[1]:02X}); save it as UTF-8, or set encoding = "utf-16" in '
+            "its [[exports]] block"
+        )
+    if head[:2] == _GZIP_MAGIC and not path.name.lower().endswith(".gz"):
+        return (
+            f"{path}: gzip-compressed data in a file whose name does not end in .gz; rename it "
+            f"{path.name}.gz (or uncompress it)"
+        )
+    return None
+
+
 def csv_header(path: Path, source: ExportSource) -> list[str]:
+    """The column names of a CSV file's first line (at most :data:`MAX_LINE` long)."""
+    what = _what_it_is(path, source)
+    if what:
+        raise ExportError(what)
+    try:
+        if not path.name.lower().endswith(".gz") and path.stat().st_size > size_limit(source):
+            raise _too_large(path, source)  # compressed files are measured as they are read
+    except OSError as exc:
+        raise ExportError(f"{path}: cannot be read ({exc})") from exc
     opener = gzip.open if path.name.lower().endswith(".gz") else open
     try:
         with opener(path, "rt", encoding=source.encoding, newline="") as fh:
-            line = fh.readline()
+            line = fh.readline(MAX_LINE + 1)
     except UnicodeDecodeError as exc:
         raise ExportError(encoding_message(path, source.encoding)) from exc
     except (OSError, EOFError, gzip.BadGzipFile) as exc:
         raise ExportError(f"{path}: cannot be read ({exc})") from exc
+    if len(line) > MAX_LINE:
+        raise ExportError(
+            f"{path} line 1: the header is longer than {MAX_LINE // 1024} KiB (no line break); "
+            "not a CSV export"
+        )
+    if "\x00" in line:
+        raise ExportError(f"{path} line 1: the header holds NUL bytes; not a CSV export")
     line = line.lstrip("\ufeff").rstrip("\r\n")
     if not line:
         raise ExportError(f"{path}: empty file (no header line)")
     return [c.strip().strip('"') for c in line.split(source.delimiter)]
 
 
-def raw_bytes(path: Path) -> bytes:
-    """The bytes of a file, uncompressed when its name ends in .gz."""
-    if path.name.lower().endswith(".gz"):
-        with gzip.open(path, "rb") as fh:
-            return fh.read()
-    return path.read_bytes()
-
-
 def encoding_message(path: Path, encoding: str) -> str:
-    """Where a file stops being text in ``encoding``: its first undecodable line and byte."""
+    """Where a file stops being text in ``encoding``: its first undecodable line and byte
+    (read a block at a time), or what the file is when its first bytes say so."""
+    source = ExportSource(layout="wide", files="-", encoding=encoding)
+    what = _what_it_is(path, source)
+    if what:
+        return what
     try:
-        data = raw_bytes(path)
+        decoder = codecs.getincrementaldecoder(encoding)()
+    except LookupError:
+        return f"{path}: {encoding!r} is not an encoding Python knows; set encoding in [[exports]]"
+    number = 1
+    try:
+        with open_binary(path) as fh:
+            while True:
+                raw = fh.readline(MAX_LINE)
+                if not raw:
+                    break
+                try:
+                    decoder.decode(raw)
+                except UnicodeDecodeError as exc:
+                    byte = raw[min(exc.start, len(raw) - 1)]
+                    return (
+                        f"{path} line {number}: not {encoding} text (byte 0x{byte:02x} at column "
+                        f"{exc.start + 1}; a Latin-1 or Windows-1252 character such as '°'?). "
+                        'Save the file as UTF-8, or set encoding = "latin-1" in its [[exports]] '
+                        "block"
+                    )
+                number += raw.endswith(b"\n")
     except (OSError, EOFError, gzip.BadGzipFile) as exc:
         return f"{path}: cannot be read ({exc})"
-    for number, raw in enumerate(data.split(b"\n"), start=1):
-        try:
-            raw.decode(encoding)
-        except UnicodeDecodeError as exc:
-            byte = raw[exc.start]
-            return (
-                f"{path} line {number}: not {encoding} text (byte 0x{byte:02x} at column "
-                f"{exc.start + 1}; a Latin-1 or Windows-1252 character such as '°'?). Save "
-                'the file as UTF-8, or set encoding = "latin-1" in its [[exports]] block'
-            )
     return f"{path}: not {encoding} text; save it as UTF-8 or set encoding in [[exports]]"
 
 
@@ -101,46 +190,145 @@ _BLANK = np.zeros(256, dtype=bool)
 _BLANK[[9, 13, 32]] = True  # tab, carriage return, space: pandas skips lines of only these
 
 
-def record_layout(path: Path, source: ExportSource) -> tuple[np.ndarray, np.ndarray]:
-    """Line number [-] and number of fields of every non-blank record of a CSV file.
+def record_layout(path: Path, source: ExportSource) -> tuple[np.ndarray, ...]:
+    """Line number [-], number of fields, badness and length of every non-blank record of a
+    CSV file.
 
-    The first record is the header. Quote-free files in an ASCII-compatible encoding are
-    counted with numpy; others through :mod:`csv`, which follows quoting.
+    The first record is the header. A record is bad when it holds NUL bytes (the zeros of a
+    sparse or preallocated file) or is longer than :data:`MAX_LINE` (the fourth array): a bad
+    record is a malformed row, and a long one is not read at all. The file is read a block at
+    a time, so memory is bounded by the block and the number of lines, whatever the file
+    holds. Quote-free files in an ASCII-compatible encoding are counted with numpy; others
+    through :mod:`csv`, which follows quoting.
+
+    Raises
+    ------
+    ExportError
+        The file is larger than ``max_csv_mb`` of its ``[[exports]]`` block, or (quoted or
+        not ASCII-compatible) has a line longer than :data:`MAX_LINE`.
     """
-    data = raw_bytes(path)
     enc = source.encoding.lower().replace("-", "").replace("_", "")
     delim = source.delimiter.encode(source.encoding)
-    simple = (
-        enc in _ASCII_LIKE
-        and len(delim) == 1
-        and b'"' not in data
-        and data.count(b"\r") == data.count(b"\r\n")
+    if enc in _ASCII_LIKE and len(delim) == 1:
+        with open_binary(path) as fh:
+            found = _simple_layout(fh, path, source, delim[0])
+        if found is not None:
+            return found
+    return _csv_layout(path, source)
+
+
+def _too_large(path: Path, source: ExportSource) -> ExportError:
+    return ExportError(
+        f"{path}: larger than {source.max_csv_mb:g} MB (uncompressed), the limit of its "
+        "[[exports]] block (max_csv_mb); not read. Split the export, convert it to Parquet, or "
+        "raise max_csv_mb if the machine's memory allows"
     )
-    if simple:
-        buf = np.frombuffer(data, dtype=np.uint8)
+
+
+def _simple_layout(fh, path: Path, source: ExportSource, delim: int):
+    """:func:`record_layout` of a quote-free file, a block at a time with numpy; None when
+    the file turns out to hold quotes or lone carriage returns (the csv module's work)."""
+    lines_out, fields_out, bad_out, long_out = [], [], [], []
+    line, total, limit = 1, 0, size_limit(source)
+    open_d = open_c = open_z = open_len = 0  # the line still open at the end of a block
+    last = b""
+    while True:
+        block = fh.read(_BLOCK)
+        if not block:
+            break
+        total += len(block)
+        if total > limit:
+            raise _too_large(path, source)
+        if b'"' in block:
+            return None
+        both = last + block  # a CR at the end of the last block may pair with this LF
+        if both.count(b"\r") != both.count(b"\r\n") + (both.endswith(b"\r")):
+            return None
+        last = block[-1:]
+        buf = np.frombuffer(block, dtype=np.uint8)
         nl = np.flatnonzero(buf == 10)
         starts = np.concatenate(([0], nl + 1))
         ends = np.concatenate((nl, [len(buf)]))
-        delims = np.concatenate(([0], np.cumsum(buf == delim[0])))
-        content = np.concatenate(([0], np.cumsum(~_BLANK[buf])))
-        keep = content[ends] > content[starts]
-        lines = np.flatnonzero(keep) + 1
-        return lines, (delims[ends] - delims[starts] + 1)[keep]
-    text = data.decode(source.encoding)
-    reader = csv.reader(io.StringIO(text, newline=""), delimiter=source.delimiter)
-    lines, fields, line = [], [], 1
-    for record in reader:
-        if any(c.strip() for c in record) or len(record) > 1:
-            lines.append(line)
-            fields.append(len(record))
-        line = reader.line_num + 1
-    return np.array(lines, dtype=np.int64), np.array(fields, dtype=np.int64)
+        counts = []
+        for mask in (buf == delim, ~_BLANK[buf], buf == 0):
+            c = np.concatenate(([0], np.cumsum(mask, dtype=np.int64)))
+            counts.append(c[ends] - c[starts])
+        d, c, z = counts
+        length = ends - starts
+        d[0] += open_d
+        c[0] += open_c
+        z[0] += open_z
+        length[0] += open_len
+        done = len(nl)  # segments ended by a line feed
+        keep = c[:done] > 0
+        lines_out.append(line + np.flatnonzero(keep))
+        fields_out.append(d[:done][keep] + 1)
+        bad_out.append((z[:done] > 0)[keep])
+        long_out.append((length[:done] > MAX_LINE)[keep])
+        line += done
+        open_d, open_c, open_z, open_len = int(d[-1]), int(c[-1]), int(z[-1]), int(length[-1])
+    if open_c > 0:  # a last line without a line feed
+        lines_out.append(np.array([line]))
+        fields_out.append(np.array([open_d + 1]))
+        bad_out.append(np.array([open_z > 0]))
+        long_out.append(np.array([open_len > MAX_LINE]))
+    if not lines_out:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0, bool), np.zeros(0, bool)
+    long = np.concatenate(long_out).astype(bool)
+    return (
+        np.concatenate(lines_out).astype(np.int64),
+        np.concatenate(fields_out).astype(np.int64),
+        np.concatenate(bad_out).astype(bool) | long,
+        long,
+    )
 
 
-def read_csv(path: Path, source: ExportSource, columns: list[str]) -> pd.DataFrame:
+def _csv_layout(path: Path, source: ExportSource):
+    """:func:`record_layout` through the csv module (quotes, other encodings), streamed."""
+    limit = size_limit(source)
+    lines, fields, bad, line = [], [], [], 1
+    with open_binary(path) as raw:
+        text = io.TextIOWrapper(raw, encoding=source.encoding, newline="")
+
+        def pieces():
+            number = 1
+            while True:
+                piece = text.readline(MAX_LINE + 1)
+                if not piece:
+                    return
+                if len(piece) > MAX_LINE:
+                    raise ExportError(
+                        f"{path} line {number}: longer than {MAX_LINE // 1024} KiB; not read"
+                    )
+                if raw.tell() > limit:
+                    raise _too_large(path, source)
+                number += 1
+                yield piece
+
+        reader = csv.reader(pieces(), delimiter=source.delimiter)
+        for record in reader:
+            if any(c.strip() for c in record) or len(record) > 1:
+                lines.append(line)
+                fields.append(len(record))
+                bad.append(any("\x00" in c for c in record))
+            line = reader.line_num + 1
+    return (
+        np.array(lines, dtype=np.int64),
+        np.array(fields, dtype=np.int64),
+        np.array(bad, dtype=bool),
+        np.zeros(len(lines), dtype=bool),  # a long line stopped the reading (above)
+    )
+
+
+def read_csv(
+    path: Path, source: ExportSource, columns: list[str], skip: set[int] | None = None
+) -> pd.DataFrame:
+    """The ``columns`` of a CSV file as text, leaving out the lines in ``skip`` (0-based line
+    indices; the bad lines :func:`record_layout` found)."""
     try:
         return pd.read_csv(
             path,
+            skiprows=skip or None,
             usecols=lambda c: c.strip().strip('"').lstrip("\ufeff") in columns,
             index_col=False,  # never take a row with extra fields as an index
             dtype=str,
@@ -160,18 +348,31 @@ def read_csv_rows(
     path: Path, source: ExportSource, columns: list[str]
 ) -> tuple[pd.DataFrame, np.ndarray, np.ndarray]:
     """Read CSV columns with the line number of each row and whether the row is malformed
-    (more or fewer fields than the header: a truncated copy or a garbled line)."""
-    frame = read_csv(path, source, columns)
+    (more or fewer fields than the header: a truncated copy or a garbled line; or a line
+    holding NUL bytes; a line longer than :data:`MAX_LINE` is not read and comes back as an
+    empty malformed row). Memory is bounded by the rows read, never by a long line."""
     try:
-        lines, fields = record_layout(path, source)
-    except (csv.Error, UnicodeDecodeError, OSError, EOFError, ValueError) as exc:
+        lines, fields, bad, long = record_layout(path, source)
+    except UnicodeDecodeError as exc:
+        raise ExportError(encoding_message(path, source.encoding)) from exc
+    except ExportError:
+        raise
+    except (csv.Error, OSError, EOFError, ValueError) as exc:
         raise ExportError(f"{path}: cannot be read as CSV ({exc})") from exc
-    if len(lines) != len(frame) + 1:
+    if len(lines) and bad[0]:
+        raise ExportError(f"{path} line {lines[0]}: the header is not text; not a CSV export")
+    skip = {int(n) - 1 for n in lines[long]}
+    frame = read_csv(path, source, columns, skip)
+    good = ~long[1:]
+    if int(good.sum()) != len(frame):
         raise ExportError(
-            f"{path}: {len(frame)} rows read but {max(len(lines) - 1, 0)} data lines "
+            f"{path}: {len(frame)} rows read but {int(good.sum())} data lines "
             "counted; check the quoting and the line endings of the file"
         )
-    malformed = fields[1:] != fields[0]
+    if skip:
+        # the bad lines come back as empty rows flagged malformed: counted, never dropped
+        frame = frame.set_axis(np.flatnonzero(good)).reindex(np.arange(len(good)))
+    malformed = (fields[1:] != fields[0]) | bad[1:]
     return frame, lines[1:], malformed
 
 

@@ -19,8 +19,8 @@ from __future__ import annotations
 import hashlib
 import json
 import shutil
-import tempfile
 import time
+from contextlib import ExitStack
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
@@ -30,7 +30,14 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from screening.base.files import atomic_folder, page_names
+from screening.base.files import (
+    FolderRefused,
+    atomic_folder,
+    check_out,
+    claimed_folder,
+    clear_leftovers,
+    page_names,
+)
 from screening.base.version import __version__
 from screening.inputs import dataset as ds
 from screening.inputs.export_files import FileInfo, read_csv_rows
@@ -137,20 +144,21 @@ def ingest(
                 f"{plant.path}: [exports[{i}]] is a dataset; ingest reads raw exports only "
                 "(give a plant file whose [[exports]] name the historian files)"
             )
-    if (
-        out.exists()
-        and not (out / ds.MANIFEST).is_file()
-        and (not out.is_dir() or any(out.iterdir()))
-    ):
-        raise IngestError(f"{out}: exists and is not a dataset; give a new or empty folder")
+    try:
+        out = check_out(out, "dataset")
+    except FolderRefused as exc:
+        raise IngestError(str(exc)) from None
     kept, window = _kept_span(plant, start, end)
     index = ExportIndex(plant.settings, plant.base)
     homes = _homes(plant, index)
     summary = IngestSummary(out, files_not_read={**index.file_problems, **index.partly_read})
     summary.other_tags = sorted(t for t, f in homes.items() if f == ds.OTHER_FOLDER)
     sources: list[dict] = []
-    staging = Path(tempfile.mkdtemp(prefix=f".{out.name}.staging.", dir=_parent(out)))
-    try:
+    prefix = f".{out.name}.staging-"
+    clear_leftovers(_parent(out), prefix)  # the staging folders of killed runs
+    with ExitStack() as stack:
+        staging = stack.enter_context(claimed_folder(out.parent, prefix, "staging"))
+        stack.callback(shutil.rmtree, staging, ignore_errors=True)
         for info in index.files:
             try:
                 table, label = _read_file(index, info, len(sources), kept, summary)
@@ -164,14 +172,12 @@ def ingest(
                 "no export file could be read: "
                 + "; ".join(f"{k}: {v}" for k, v in summary.files_not_read.items())
             )
-        with atomic_folder(out) as tmp:
+        with atomic_folder(out, "dataset") as tmp:
             for part in sorted(staging.glob("*/*")):
                 summary.rows += _write_partition(part, tmp / part.parent.name / part.name)
                 summary.partitions += 1
             manifest = _manifest(plant, sources, homes, summary, kept, window)
             (tmp / ds.MANIFEST).write_text(json.dumps(manifest, indent=1), encoding="utf-8")
-    finally:
-        shutil.rmtree(staging, ignore_errors=True)
     summary.sources = len(sources)
     summary.bytes_read = sum(s["bytes"] for s in sources)
     summary.bytes_written = sum(p.stat().st_size for p in out.rglob("*") if p.is_file())

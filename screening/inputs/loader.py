@@ -28,8 +28,9 @@ from screening.inputs.export_files import (
     check_unique,
     csv_header,
     format_of,
+    not_regular,
     parquet_time_range,
-    read_csv,
+    read_csv_rows,
 )
 from screening.inputs.export_reader import TagReader
 from screening.inputs.tagdata import FILE_FAULTS, ExportError, TagSeries, status_words, unexpected
@@ -74,6 +75,10 @@ class ExportIndex:
                 self.file_problems[pattern] = "no file matches this pattern"
             for name in matches:
                 path = Path(name)
+                special = not_regular(path)
+                if special:
+                    self.file_problems[str(path)] = special
+                    continue
                 try:
                     info = self._inspect(path, source)
                 except ExportError as exc:
@@ -133,7 +138,7 @@ class ExportIndex:
                         f"{path}: missing column(s) {', '.join(missing)} (found: "
                         f"{', '.join(names)})"
                     )
-                frame = read_csv(path, source, [source.tag_column])
+                frame, _, _ = read_csv_rows(path, source, [source.tag_column])
                 stripped = frame[source.tag_column].str.strip()
                 tags = frozenset(stripped.dropna().unique())
                 blank = (stripped.isna() | (stripped == "")).to_numpy()
@@ -151,8 +156,9 @@ class ExportIndex:
         return FileInfo(path, source, fmt, tags, typed, time_range, unit, zone)
 
     def _untagged(self, path: Path, source, blank: np.ndarray, label: str, first: int) -> None:
-        """Note the rows of a long file that name no tag: they belong to no pump and are not
-        read, which the report says rather than dropping them without a word."""
+        """Note the rows of a long file that name no tag (or could not be read: NUL bytes,
+        an over-long line): they belong to no pump and are not read, which the report says
+        rather than dropping them without a word."""
         n = int(np.count_nonzero(blank))
         if n:
             at = int(np.flatnonzero(blank)[0]) + first

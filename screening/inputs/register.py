@@ -21,6 +21,7 @@ from screening.inputs.config import ConfigError
 from screening.inputs.pumpspec import PumpSpec, SuctionLine, TagSpec
 from screening.inputs.register_fields import (
     datum_fields,
+    plausible,
     positive_length,
     speed_fields,
     transmitter_fields,
@@ -294,6 +295,8 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
     bep = r.quantity("bep_flow", "flow")
     if bep <= 0:
         r.fail("bep_flow", "must be a positive flow")
+    plausible(r, "rated_speed", rated)
+    plausible(r, "bep_flow", bep)
     por_low = r.number("preferred_low", 0.70, 0.1, 1.0)
     por_high = r.number("preferred_high", 1.20, 1.0, 2.0)
     eyes = r.number("impeller_eyes", 1, 1, 2)

@@ -101,6 +101,30 @@ def datum_fields(r) -> dict:
     }
 
 
+#: Plausible ranges of register values (SI, and how the message shows them): a value outside
+#: is a typing or unit slip (``1e308``, a flow in l/s given as m3/s), refused with the range.
+#: Wide on purpose: the fastest process pumps run near 30 000 rpm, the largest move about
+#: 60 m³/s; a suction tap is not a kilometre above or below the pump.
+_PLAUSIBLE = {
+    "rated_speed": (1.0, 60_000.0, 1.0, "rpm"),
+    "bep_flow": (1e-6, 100.0, 3600.0, "m³/h"),
+    "tap_elevation": (-500.0, 500.0, 1.0, "m"),
+    "pressure_point_elevation": (-500.0, 500.0, 1.0, "m"),
+    "tap_bore": (1e-3, 10.0, 1000.0, "mm"),
+}
+
+
+def plausible(r, column: str, value: float) -> None:
+    """Refuse a register value outside :data:`_PLAUSIBLE`, naming the valid range."""
+    low, high, scale, unit = _PLAUSIBLE[column]
+    if not (low <= value <= high):
+        r.fail(
+            column,
+            f"{value * scale:.6g} {unit} is outside the valid range "
+            f"{low * scale:g} to {high * scale:g} {unit}",
+        )
+
+
 def transmitter_fields(r, tag, reference) -> dict:
     """The register fields of a pump with a suction pressure transmitter: tag, reference, the
     point whose pressure it reads and that point's elevation above the NPSH datum [m], bore
@@ -148,6 +172,9 @@ def transmitter_fields(r, tag, reference) -> dict:
     }
     if out["tap_bore"] <= 0:
         r.fail("tap_bore", "must be a positive pipe bore")
+    plausible(r, "pressure_point_elevation" if new is not None else "tap_elevation",
+              out["tap_elevation"])  # fmt: skip
+    plausible(r, "tap_bore", out["tap_bore"])
     return out
 
 

@@ -130,7 +130,7 @@ def add_chunk(
         words = qual.astype("string").str.strip().str.lower().fillna("")
         bad_q = (~words.isin(good) & (words != "")).to_numpy()
     bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed, status)
-    chunks[tag].append((times, values, bad))
+    chunks[tag].append((times, values, bad, (where, rows)))
 
 
 #: Words a run-status tag may be exported as (any case, surrounding spaces ignored): running.
@@ -201,10 +201,28 @@ def count_samples(
     return is_text | not_finite | malformed | bad_q
 
 
+def _place(parts: list[tuple], position: int) -> str | None:
+    """Where the sample at ``position`` of the concatenated chunks came from ("file line n"),
+    when the chunks carry their places (a 4th element ``(where, rows)``)."""
+    for part in parts:
+        n = len(part[0])
+        if position < n:
+            if len(part) < 4:
+                return None
+            where, rows = part[3]
+            return where + str(rows[position])
+        position -= n
+    return None
+
+
 def assemble(tag: str, parts: list[tuple], q: TagQuality) -> TagSeries:
-    """Merge a tag's chunks: sort by time (stable) and keep the last of duplicate times."""
+    """Merge a tag's chunks: sort by time (stable) and keep the last of duplicate times.
+
+    ``parts`` are ``(times, values, bad)``, optionally with ``(where, rows)`` to name the
+    place of the first duplicate in the quality table."""
+    order = None
     if len(parts) == 1:
-        times, values, bad = parts[0]
+        times, values, bad = parts[0][:3]
     elif parts:
         times = np.concatenate([p[0] for p in parts])
         values = np.concatenate([p[1] for p in parts])
@@ -223,5 +241,11 @@ def assemble(tag: str, parts: list[tuple], q: TagQuality) -> TagSeries:
             # Several samples at one instant: the last in file order stands (a historian's
             # later correction); the others are counted as duplicates.
             q.duplicates += dup
+            # the first instant held twice: where it first appears, and where again
+            i = int(np.flatnonzero(~last)[0])
+            a, b = (int(order[i]), int(order[i + 1])) if order is not None else (i, i + 1)
+            place, again = _place(parts, a), _place(parts, b)
+            if place is not None:
+                q.note("duplicate time", f"{place}, again at {again}")
             times, values, bad = times[last], values[last], bad[last]
     return TagSeries(tag, times, values, bad, q)

@@ -74,12 +74,47 @@ def window_bounds(plant: Plant, start=None, end=None) -> tuple[pd.Timestamp, pd.
     return out[0], out[1]
 
 
+def local_midnights(dates: pd.DatetimeIndex, tz: str) -> np.ndarray:
+    """The instants at which local calendar days begin [ns since the epoch, UTC].
+
+    ``dates`` are naive calendar dates (midnight wall-clock times). A day begins at its local
+    midnight; where the clock jumps over midnight (a nonexistent midnight, as at the clock
+    changes of America/Santiago, Atlantic/Azores, America/Havana or Africa/Cairo) it begins at
+    the first instant that exists after the jump, and where midnight occurs twice (the clock
+    set back over it) at the first of the two.
+    """
+    n = len(dates)
+    if n == 0:
+        return np.empty(0, dtype=np.int64)
+    edges = [
+        dates.tz_localize(tz, ambiguous=np.full(n, flag), nonexistent="shift_forward")
+        .as_unit("ns")
+        .asi8
+        for flag in (True, False)
+    ]
+    return np.minimum(edges[0], edges[1]).astype(np.int64)
+
+
+def local_day_starts(times: pd.Series, tz: str) -> pd.Series:
+    """The start of each instant's local day (a time-zone-aware Series in ``tz``), by
+    :func:`local_midnights`: never an error at a clock change over midnight."""
+    wall = times.dt.tz_convert(tz).dt.tz_localize(None).dt.normalize()
+    codes, days = pd.factorize(wall)
+    starts = pd.to_datetime(local_midnights(pd.DatetimeIndex(days), tz), utc=True)
+    out = starts.tz_convert(tz)[codes]
+    return pd.Series(out, index=times.index)
+
+
 def day_edges(start: pd.Timestamp, end: pd.Timestamp, tz: str) -> np.ndarray:
     """Edges of the window's local days [ns since the epoch, UTC]: the window start, every
-    local midnight inside the window and the window end."""
-    local_start = start.tz_convert(tz)
-    first = local_start.normalize()
-    days = pd.date_range(first, end.tz_convert(tz).normalize() + pd.Timedelta(days=1), freq="D")
-    edges = days.tz_convert("UTC").as_unit("ns").asi8
+    local midnight inside the window and the window end.
+
+    Local days begin as :func:`local_midnights` says, so a window across a clock change at
+    midnight has one day edge per local day, never an error.
+    """
+    first = start.tz_convert(tz)
+    last = end.tz_convert(tz) + pd.Timedelta(days=1)
+    dates = pd.date_range(first.date(), last.date(), freq="D")  # naive calendar dates
+    edges = local_midnights(dates, tz)
     inner = edges[(edges > start.value) & (edges < end.value)]
     return np.concatenate(([start.value], inner, [end.value])).astype(np.int64)

@@ -19,7 +19,7 @@ from screening.base.states import BANDS
 from screening.engine.drivers import driver_shares, drivers_for
 from screening.engine.scan import scan
 from screening.inputs.plant import Plant, load_plant
-from screening.inputs.window import window_bounds
+from screening.inputs.window import local_day_starts, window_bounds
 from screening.onset import changepoint as cp
 from screening.onset import episodes as ep
 from screening.physics.properties import fluid_table
@@ -230,7 +230,7 @@ def _drivers_by_day(plant: Plant, pump, curve, series: pd.DataFrame, base: np.nd
     # drivers over time: one input at a time put back at its baseline value
     names = drivers_for(pump)
     shares = driver_shares(series, pump, curve, fluid_table(pump.fluid, pump.vapour_pressure), base)
-    shares["date"] = shares["time"].dt.tz_convert(plant.timezone).dt.floor("D")
+    shares["date"] = local_day_starts(shares["time"], plant.timezone)
     w = shares["hours"]
     cols = ["change_m"] + [f"{k}_m" for k in names] + ["interaction_m"]
     weighted = shares[cols].mul(w, axis=0).assign(date=shares["date"], hours=w)
@@ -246,7 +246,7 @@ def _onset_series(
     # onset: change point in the flow-normalised suction condition and in the exposure rate
     times = series["time"]
     resid = _residual(series, base)
-    rs = pd.DataFrame({"date": times.dt.tz_convert(plant.timezone).dt.floor("D"), "r": resid})
+    rs = pd.DataFrame({"date": local_day_starts(times, plant.timezone), "r": resid})
     daily_resid = rs.dropna().groupby("date")["r"].median()
     exposure = daily.set_index("date")["below_guidance_h"]
     if failed_on is not None:

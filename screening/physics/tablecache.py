@@ -5,8 +5,9 @@ A table is stored as a NumPy ``.npz`` file (arrays, and the scalar fields as JSO
 pickle, so reading never executes anything) under a key hashed from what decides the table's
 numbers: its kind, the fluid, the vapour-pressure choice, the tabulation settings, the
 CoolProp version (read from the installed package's metadata, without importing it) and
-:data:`FORMAT`. Any change of these makes a new key; a file that cannot be read is ignored
-and rebuilt. Files are written to a temporary name and moved into place, so processes that
+:data:`FORMAT`. Any change of these makes a new key; a file that cannot be read (empty,
+truncated, not a table: :class:`CacheWarning` names it in one line) is ignored, rebuilt and
+replaced. Files are written to a temporary name and moved into place, so processes that
 build the same table at once never see half a file.
 
 Where: ``$PUMPSCREEN_CACHE`` if set (``off`` turns the cache off), else
@@ -20,6 +21,7 @@ import hashlib
 import json
 import os
 import tempfile
+import warnings
 from importlib import metadata
 from pathlib import Path
 from typing import Any
@@ -28,6 +30,10 @@ import numpy as np
 
 #: Bump when the stored layout or the tabulation code changes the numbers.
 FORMAT = 1
+
+
+class CacheWarning(UserWarning):
+    """A damaged cache file, ignored and replaced (the message names it)."""
 
 
 def folder() -> Path | None:
@@ -60,12 +66,25 @@ def load(name: str, cls: type) -> Any | None:
     if where is None:
         return None
     path = where / f"{name}.npz"
+    if not path.is_file():
+        return None
     try:
-        with np.load(path, allow_pickle=False) as data:
+        # opened here so that the file is closed whatever np.load makes of it
+        with open(path, "rb") as fh, np.load(fh, allow_pickle=False) as data:
             fields = json.loads(str(data["__fields__"]))
             arrays = {k: np.array(data[k]) for k in data.files if k != "__fields__"}
         return cls(**fields, **arrays)
-    except (OSError, ValueError, KeyError, TypeError):
+    except Exception as exc:  # noqa: BLE001 - any damage (empty, truncated, foreign) is the same
+        reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        warnings.warn(
+            f"fluid-table cache file {path} is damaged ({reason}); ignored, rebuilt and replaced",
+            CacheWarning,
+            stacklevel=2,
+        )
+        try:
+            path.unlink()
+        except OSError:
+            pass
         return None
 
 

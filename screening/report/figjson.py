@@ -10,7 +10,14 @@ JSON lists with ``null`` for NaN (a gap in a line, an empty heatmap cell); :func
 turns timestamps into ISO strings of the wall-clock time in the site's time zone (plotly.js
 draws dates without a zone).
 
-Safety: the JSON sits inside a ``<script>`` element, so every ``<``, ``>`` and ``&`` in it is
+Safety: plotly.js reads a subset of HTML in every text it draws (``<a href>``, ``<b>``,
+``<br>``, ``<span style>``...), in trace names, category labels on the axes and hover text. So
+every text of a trace (:data:`TEXT_KEYS`) is escaped (:func:`plain_texts`: ``&``, ``<`` and
+``>`` as entities, which plotly.js shows as the characters) before it is drawn: a pump id
+``<a href="...">x</a>`` shows as written, never as a link. Layout texts (titles, notes, hover
+templates) are the report's own.
+
+The JSON sits inside a ``<script>`` element, so every ``<``, ``>`` and ``&`` in it is
 written as a ``\\u`` escape; text from the plant's files (pump ids, tag names) can then never
 close the script or open a comment, and the JSON still parses to the same strings.
 """
@@ -105,6 +112,43 @@ _ESCAPES = (
 _OPTIONS = orjson.OPT_SERIALIZE_NUMPY
 
 
+#: Keys of a trace whose strings plotly.js draws as (a subset of) HTML.
+TEXT_KEYS = ("x", "y", "z", "text", "hovertext", "name", "customdata", "labels", "ids")
+
+
+def plain_texts(value: Any) -> Any:
+    """``value`` with every string in it (in lists, tuples, arrays of objects, nested) made
+    plain text for plotly.js: ``&``, ``<`` and ``>`` as HTML entities. Numbers, numeric
+    arrays and None are returned as they are."""
+    if isinstance(value, str):
+        return html.escape(value, quote=False)
+    if isinstance(value, np.ndarray | pd.Series | pd.Index):
+        a = np.asarray(value)
+        return [plain_texts(v) for v in a.tolist()] if a.dtype.kind in "OUS" else value
+    if isinstance(value, list | tuple):
+        if value and all(type(v) is str for v in value):
+            joined = "".join(value)  # fast path: long lists of times hold nothing to escape
+            if "&" not in joined and "<" not in joined and ">" not in joined:
+                return value
+        return [plain_texts(v) for v in value]
+    return value
+
+
+def plain_trace(trace: dict) -> dict:
+    """A copy of a trace dict with its texts (:data:`TEXT_KEYS`) made plain text."""
+    return {k: plain_texts(v) if k in TEXT_KEYS else v for k, v in trace.items()}
+
+
+def plain_figure(fig) -> None:
+    """Make the texts of every trace of a plotly Python figure plain text, in place (the
+    onset and what-if pages, drawn with plotly's figure objects)."""
+    for trace in fig.data:
+        for key in TEXT_KEYS:
+            if key in trace and trace[key] is not None:
+                value = trace[key]
+                trace[key] = plain_texts(list(value) if isinstance(value, tuple) else value)
+
+
 def numbers(values) -> np.ndarray:
     """Numbers as a C-contiguous float64 array (any shape) that :func:`dumps` writes as a
     (nested) JSON list, with ``null`` where a value is NaN or infinite."""
@@ -142,11 +186,12 @@ def dumps(obj: Any) -> str:
 def figure_html(fig: dict, div_id: str) -> str:
     """The ``<div>`` of a figure and the scripts that draw it with ``Plotly.newPlot``.
 
-    ``fig`` is ``{"data": [...], "layout": {...}}``; the report's look (:data:`TEMPLATE`) and
-    :data:`CONFIG` are added here. Needs plotly.min.js loaded before it.
+    ``fig`` is ``{"data": [...], "layout": {...}}``; the texts of its traces are made plain
+    text (:func:`plain_trace`), the report's look (:data:`TEMPLATE`) and :data:`CONFIG` are
+    added here. Needs plotly.min.js loaded before it.
     """
     payload = {
-        "data": fig["data"],
+        "data": [plain_trace(t) for t in fig["data"]],
         "layout": {**fig["layout"], "template": TEMPLATE},
         "config": CONFIG,
     }

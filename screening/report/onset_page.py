@@ -10,9 +10,11 @@ import plotly.graph_objects as go
 from jinja2 import Environment, PackageLoader, select_autoescape
 from plotly.offline import get_plotlyjs
 
+from screening.base.files import atomic_folder
 from screening.engine.drivers import DRIVERS
 from screening.onset.investigate import OnsetResult
 from screening.report.cautions import CAUTIONS
+from screening.report.figjson import plain_figure
 from screening.report.palette import STATE_COLOURS
 
 _ENV = Environment(loader=PackageLoader("screening.report", "templates"),
@@ -28,6 +30,7 @@ DRIVER_COLOURS = {
 
 
 def _html(fig: go.Figure, div_id: str) -> str:
+    plain_figure(fig)  # plotly.js reads HTML in trace texts: show them as written
     return fig.to_html(full_html=False, include_plotlyjs=False, div_id=div_id)
 
 
@@ -187,9 +190,17 @@ def _estimates(result) -> list[dict]:
 
 
 def write_onset_report(result: OnsetResult, out: str | Path) -> Path:
-    """Write the onset tables (CSV and Parquet) and an HTML page into ``out``."""
+    """Write the onset tables (CSV and Parquet) and an HTML page into the folder ``out``,
+    replaced whole when complete (only a folder the tool wrote: see
+    :func:`screening.base.files.check_out`); returns the page's path."""
     out = Path(out)
-    out.mkdir(parents=True, exist_ok=True)
+    with atomic_folder(out, "onset") as tmp:
+        _write_onset_folder(result, tmp)
+    return out / "onset.html"
+
+
+def _write_onset_folder(result: OnsetResult, out: Path) -> None:
+    """The onset tables and page, written into the (new) folder ``out``."""
     tables = {"onset_hours": result.hours, "episodes": result.episodes,
               "drivers": result.drivers}  # fmt: skip
     if result.before_failure is not None:
@@ -201,4 +212,4 @@ def write_onset_report(result: OnsetResult, out: str | Path) -> Path:
                 f[c] = f[c].astype("string")
         f.to_csv(out / f"{name}.csv", index=False)
         f.to_parquet(out / f"{name}.parquet", index=False)
-    return write_onset_page(result, out)
+    write_onset_page(result, out)

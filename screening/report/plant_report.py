@@ -195,7 +195,7 @@ def write_report(
     if units not in DISPLAY_UNITS:
         raise ValueError(f"display units {units!r} are not 'si' or 'us'")
     changes = _changes(result, Path(compare_to)) if compare_to is not None else None
-    with atomic_folder(out) as tmp, ExitStack() as stack:
+    with atomic_folder(out, "report") as tmp, ExitStack() as stack:
         write_table(result.hours, tmp, "hours")
         summary = result.summary.copy()
         if "worst_time" in summary:

@@ -15,6 +15,7 @@ from plotly.offline import get_plotlyjs
 from screening.base.files import atomic_folder, page_names
 from screening.base.states import BANDS
 from screening.report.cautions import CAUTIONS
+from screening.report.figjson import plain_figure
 from screening.report.palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
 from screening.report.plant_report import write_table
 from screening.scenarios.whatif import WhatIfResult
@@ -116,6 +117,7 @@ def _before_after_figure(hours: pd.DataFrame, div_id: str) -> str:
         )  # fmt: skip
     fig.update_layout(barmode="stack", height=360, yaxis_title="running hours in each band",
                       margin={"l": 60, "r": 20, "t": 20, "b": 60})  # fmt: skip
+    plain_figure(fig)  # plotly.js reads HTML in trace texts: show pump ids as written
     return fig.to_html(full_html=False, include_plotlyjs=False, div_id=div_id)
 
 
@@ -128,7 +130,7 @@ def write_whatif_report(result: WhatIfResult, out: str | Path) -> Path:
     plant = result.scan.plant
     summary = _summary(result.hours) if len(result.hours) else pd.DataFrame()
     pages = page_names([f"scenario_{s.name}" for s in result.scenarios])
-    with atomic_folder(out) as tmp:
+    with atomic_folder(out, "whatif") as tmp:
         write_table(result.hours, tmp, "whatif_hours")
         write_table(result.moves, tmp, "whatif_moves")
         write_table(result.changes, tmp, "whatif_changes")
