@@ -128,6 +128,7 @@ class Vessel:
     pressure_unit: str = ""  # vessel pressure tag, gauge ("pressure" surface only)
     loss_point: tuple[str, str] = ("", "")  # line_loss_head, line_loss_flow (register cells)
     line: tuple[str, str, str, str] = ("", "", "", "")  # length, bore, roughness, fittings K
+    shared_line: str = ""  # register suction_line_id: a suction header shared with other pumps
 
 
 @dataclass(frozen=True)
@@ -214,6 +215,12 @@ def vessel_pump(pump_id: str, service: str, area: str, fluid: str, application: 
                 "vessel", np.nan, np.nan, 0.0, curve_id, vessel=vessel, **changes)
 
 
+#: The turbine 2 hotwell: CD-412 and its assist pump CD-413 draw from it through one suction
+#: header, HW410-SUCTION (design point 0.35 m at 180 m3/h: the loss at the header's total flow).
+HOTWELL_410 = Vessel("HW410", "saturated", "mm", "1.1", loss_point=("0.35", "180"),
+                     shared_line="HW410-SUCTION")
+ASSIST_413 = ("06:00", "10:00")  # CD-413 runs with CD-412 on weekday mornings (local time)
+
 # positional: id, service, area, fluid, application, units, rated rpm, BEP flow, S, tap elevation,
 # tap bore, source, design ratio, design temperature (degC), suction loss at BEP (m), curve id
 PUMPS = [
@@ -288,9 +295,8 @@ PUMPS = [
                 fine_temperature=True, min_stable_flow="105", thermal_min_flow="90"),
     vessel_pump("CD-412", "Condensate extraction (turbine 2 hotwell)", "boiler house", "Water",
                 "power", BAR_G, 980, "180", 13000, "CEV-180",
-                Vessel("HW410", "saturated", "mm", "1.1", loss_point=("0.35", "180")),
-                curve_shape=(0.55, 2.0), fine_temperature=True, min_stable_flow="45",
-                thermal_min_flow="20"),
+                HOTWELL_410, curve_shape=(0.55, 2.0), fine_temperature=True,
+                min_stable_flow="45", thermal_min_flow="20"),
     vessel_pump("RW-504", "Raw-water intake, tidal jetty (vertical can pump)", "raw water",
                 "Water", "water", US_PSIG, 1180, "8000 gpm", 8600, "RWV-8000",
                 Vessel("JETTY", "open", "ft", "-6.5 ft",
@@ -309,6 +315,12 @@ PUMPS = [
     Pump("RT-951", "Refrigerant transfer from receiver RV-950", "refrigeration", "R407C",
          "chemical", ("bar", "absolute", "degC", "m3/h"), 2900, "40", 8500, "0.4", "100",
          "saturated", 2.0, 16, 0.5, "RTP-40", fine_temperature=True),
+    # the assist pump of CD-412 on the same hotwell suction header, last so that every pump
+    # above keeps its random stream
+    vessel_pump("CD-413", "Condensate extraction assist (turbine 2 hotwell)", "boiler house",
+                "Water", "power", BAR_G, 980, "180", 13000, "CEV-180", HOTWELL_410,
+                curve_shape=(0.55, 2.0), fine_temperature=True, min_stable_flow="45",
+                thermal_min_flow="20"),
 ]
 BY_ID = {p.pump_id: p for p in PUMPS}
 
@@ -376,6 +388,7 @@ class State:
     level: np.ndarray | float = 0.0  # change of static head, m (vessel pumps: the level, m)
     extra_loss: np.ndarray | float = 0.0  # extra suction loss at BEP flow, m (scales with Q^2)
     surface_pressure: np.ndarray | None = None  # Pa absolute, vessels with a pressure tag
+    line_others: np.ndarray | float = 0.0  # m3/s of the other pumps on a shared suction line
 
 
 def lag(x: np.ndarray, minutes: float) -> np.ndarray:
@@ -667,6 +680,22 @@ def vessel_operation(clock: Clock, ops: dict[str, State]) -> dict[str, State]:
     planted("DM-151", "low flow at night", "DM151.FLOW", "2026-10-01 00:00", "2026-11-01 00:00",
             "~30 % of BEP flow 22:00-05:30 every night at ~93 % speed, below the minimum stable "
             "flow (35 % of BEP at rated speed, scaled with speed): hours below minimum flow")
+
+    # CD-413, the assist pump on CD-412's suction header: weekday mornings (the load ramp) at
+    # ~45 % of BEP flow; while both run the header carries both flows, and its loss (k Q^2 at
+    # the header's total flow) is taken from both pumps' NPSHa
+    assist = batches(clock, [(f"{d} {ASSIST_413[0]}", f"{d} {ASSIST_413[1]}")
+                             for d in days(weekdays_only=True)])
+    out["CD-413"] = State(assist, 0.45 + wander(rng, 0.02), hotwell, level=level)
+    bep = cell_si(BY_ID["CD-412"].bep_flow, "m3/h") / 3600.0  # both pumps: 180 m3/h
+    q412 = np.where(out["CD-412"].run, out["CD-412"].load, 0.0) * bep
+    q413 = np.where(assist, out["CD-413"].load, 0.0) * bep
+    out["CD-412"] = replace(out["CD-412"], line_others=q413)
+    out["CD-413"] = replace(out["CD-413"], line_others=q412)
+    planted("CD-413", "assist pump on the shared suction header HW410-SUCTION", "CD413.RUN",
+            f"2026-10-01 {ASSIST_413[0]}", "2026-11-01 00:00",
+            f"runs with CD-412 on weekdays {ASSIST_413[0]}-{ASSIST_413[1]} at ~45 % of BEP "
+            "flow: the header's loss rises from ~0.2 m (CD-412 alone) to ~0.6 m for both pumps")
     return out
 
 
@@ -933,7 +962,8 @@ def simulate_vessel(p: Pump, st: State, clock: Clock, baro: np.ndarray,
     else:
         p_surface = baro if v.surface == "open" else st.surface_pressure
         pressure_head = (p_surface - pv) / (rho * G)
-    loss = line_loss(v, load * bep / 3600.0, rho, mu)
+    # a shared suction header carries the other pumps' flows too (State.line_others)
+    loss = line_loss(v, load * bep / 3600.0 + st.line_others, rho, mu)
     npsha = pressure_head + st.level + cell_si(v.zero_elevation, "m") - loss
     npsh3, required, s_us = npsh3_and_guidance(p, st, load, speed)
     truth = Truth(st.run, npsha, npsh3, required, s_us, below_min_flow(p, st, load, speed))
@@ -1220,6 +1250,7 @@ def register_row(p: Pump) -> dict:
         "line_loss_flow [m3/h]": v.loss_point[1] if v else "",
         "line_length [m]": v.line[0] if v else "", "line_bore [mm]": v.line[1] if v else "",
         "line_roughness [mm]": v.line[2] if v else "", "line_fittings_k": v.line[3] if v else "",
+        "suction_line_id": v.shared_line if v else "",
         # operating region (empty: no minimum flow, POR 70-120 % of BEP, AOR to the curve's end)
         "min_stable_flow [m3/h]": p.min_stable_flow, "thermal_min_flow [m3/h]": p.thermal_min_flow,
         "preferred_low": "", "preferred_high": "",
@@ -1279,7 +1310,7 @@ def summary(truths: dict[str, Truth], clock: Clock) -> pd.DataFrame:
 # ----------------------------------------------------------------------------- main
 WIDE_CSV = {"dosing": ["CH-701A", "CH-701B", "CH-702"],
             "raw_and_fire_water": ["RW-501", "RW-502", "RW-503", "FW-601", "FW-602", "FW-603"],
-            "vessels": ["BF-311", "CD-412", "RW-504", "DM-151"]}
+            "vessels": ["BF-311", "CD-412", "RW-504", "DM-151", "CD-413"]}
 WEEKLY_WIDE_CSV = {"cooling_water": ["CW-101A", "CW-101B", "CW-102A", "CW-102B", "CW-103"]}
 WIDE_PARQUET = {"district_heating": ["DH-201A", "DH-201B", "DH-202"],
                 "condensate": ["CD-401A", "CD-401B"], "building_services": ["BS-111", "BS-112"],
@@ -1299,6 +1330,8 @@ def main() -> None:
     for number, p in enumerate(PUMPS):
         pump_rng = np.random.default_rng([RANDOM_STATE, number])
         truth, readings, places, bands = simulate(p, ops[p.pump_id], clock, baro_pa, pump_rng)
+        if p.vessel and p.tag("LEVEL") in measured:  # a shared vessel: its level is read once
+            del readings[p.tag("LEVEL")]
         truths[p.pump_id] = truth
         measured.update(readings)
         decimals.update(places)

@@ -10,7 +10,7 @@ and its path printed (shown with `pytest -s`, or under the failure report).
 
 Pump pages opened: the first three by name, RW-502 and CD-412, and the first page of each
 pump-id prefix (one per service family), which keeps the test well under a minute; set
-PUMPSCREEN_BROWSER_ALL=1 to open every pump page (about a minute for the 36 demo pumps).
+PUMPSCREEN_BROWSER_ALL=1 to open every pump page (about a minute for the 37 demo pumps).
 
 Skipped, with the reason, when playwright is not installed or Chromium is not found. Set
 PUMPSCREEN_CHROMIUM to use another Chromium binary (a path that does not exist skips).

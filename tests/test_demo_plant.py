@@ -36,9 +36,9 @@ def _summary(out: Path) -> pd.DataFrame:
 
 def test_every_pump_screened_and_every_hour_counted(demo_report):
     hours = pd.read_csv(demo_report / "hours.csv")
-    assert hours["pump_id"].nunique() == 36
+    assert hours["pump_id"].nunique() == 37
     per_pump = hours.groupby(["pump_id", "kind"])["hours"].sum()
-    assert len(per_pump) == 72  # each kind of state adds up on its own
+    assert len(per_pump) == 74  # each kind of state adds up on its own
     assert per_pump.to_numpy() == pytest.approx(WINDOW_H, rel=1e-12)
     assert pd.read_csv(demo_report / "not_screened.csv").empty
 
@@ -91,5 +91,23 @@ def test_cli_and_api_agree_on_demo(demo_report):
     api = screening.scan(CONFIG)
     cli = pd.read_parquet(demo_report / "hours.parquet")
     merged = cli.merge(api.hours, on=["pump_id", "kind", "state"], suffixes=("_cli", "_api"))
-    assert len(merged) == 36 * (len(screening.STATES) + len(screening.REGIONS))
+    assert len(merged) == 37 * (len(screening.STATES) + len(screening.REGIONS))
     assert merged["hours_cli"].to_numpy() == pytest.approx(merged["hours_api"].to_numpy())
+
+
+def test_the_hotwell_pumps_share_their_suction_header():
+    # CD-412 and CD-413 on the header HW410-SUCTION (design point 0.35 m at 180 m3/h): where
+    # both run, each loses k·(Q412 + Q413)² (hand calculation from the register's design
+    # point), not the loss at its own flow
+    plant = screening.load_plant(CONFIG)
+    line = plant.pumps["CD-412"].shared_line
+    assert line is not None and {m.pump_id for m in line.members} == {"CD-412", "CD-413"}
+    r = screening.scan(plant, pumps=["CD-412", "CD-413"], keep_series=True)
+    k = 0.35 / (180.0 / 3600.0) ** 2
+    s412, s413 = r.series["CD-412"], r.series["CD-413"]
+    ran = s413["state"].isin(screening.BANDS) & (s413["hours"] > 0)
+    assert s413.loc[ran, "hours"].sum() == pytest.approx(88.0, abs=0.5)  # weekday mornings
+    both = s412.set_index("time").loc[s413.loc[ran, "time"]]
+    total = both["flow_m3_s"].to_numpy() + s413.loc[ran, "flow_m3_s"].to_numpy()
+    assert both["line_flow_m3_s"].to_numpy() == pytest.approx(total, rel=1e-12)
+    assert (k * total**2).mean() > 2 * (k * both["flow_m3_s"].to_numpy() ** 2).mean()

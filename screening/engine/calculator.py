@@ -5,8 +5,9 @@ of any of its tags, at the window's start and at every local midnight. On each p
 holds its last sample, for at most that tag's stale limit. A piece therefore has one state for
 as long as all the tags it needs are fresh, and is ``no_data`` for the rest of it. Which tags a
 piece needs depends on what it is: the run status (or flow and speed, without a run tag) to
-decide running or stopped; all process tags when running. Time is kept in integer nanoseconds
-until the very end, so the hours of all states add up to the window.
+decide running or stopped; all process tags when running, and for a pump on a shared suction
+line the line's total flow (:mod:`screening.engine.lineflow`). Time is kept in integer
+nanoseconds until the very end, so the hours of all states add up to the window.
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ import pandas as pd
 
 from screening.base import states
 from screening.base.kernels import hold, union_sorted
-from screening.engine import plotdata
+from screening.engine import lineflow, plotdata
 from screening.inputs.quality import frozen_samples
 from screening.inputs.register import PumpSpec, TagSpec
 from screening.inputs.tagdata import TagSeries
@@ -128,8 +129,10 @@ def prepare_tag(
     return TagSeries(series.tag, series.times, values, bad, q)
 
 
-def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str):
-    """Surface pressure [Pa] and NPSHa [m] of a vessel-fed pump (see screening.suction)."""
+def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str, line_q=None):
+    """Surface pressure [Pa] and NPSHa [m] of a vessel-fed pump (see screening.suction); the
+    suction line's loss at ``line_q`` [m³/s], the total flow of a shared line, else at the
+    pump's own ``flow`` [m³/s]."""
     if pump.vessel_surface == "open":
         p_surface = suction.surface_pressure_open(baro)
     elif pump.vessel_surface == "saturated":
@@ -138,8 +141,10 @@ def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str):
         p_surface = suction.surface_pressure_from_tag(
             held["vessel_pressure"].value, baro, pump.vessel_gauge
         )
-    # the suction line's loss and a vertical can's, from its nozzle to the impeller eye
-    loss = suction.line_loss(pump.suction_line, flow, rho, temp, fluid)
+    # the suction line's loss (at the line's total flow where it is shared) and a vertical
+    # can's, from its nozzle to the impeller eye (at the pump's own flow)
+    loss = suction.line_loss(pump.suction_line, flow if line_q is None else line_q, rho, temp,
+                             fluid)  # fmt: skip
     loss = loss + suction.can_loss(pump.can_loss_k, flow)
     npsha = suction.npsha_from_vessel(
         p_surface, p_v, rho, held["level"].value, pump.level_zero_elevation, loss
@@ -204,7 +209,8 @@ def calculate_pump(
     Parameters
     ----------
     pump : PumpSpec
-        Register row (SI).
+        Register row (SI). A pump on a shared suction line needs the other members' tags and
+        the header flow (see :mod:`screening.engine.lineflow`).
     curve : Npsh3Curve
         Vendor NPSH3 curve at ``pump.rated_speed``.
     guidance : Guidance
@@ -213,7 +219,9 @@ def calculate_pump(
         Saturated-liquid properties of the pump's fluid.
     tags : dict
         Prepared (SI) series by role: suction [Pa], temperature [K], flow [m³/s], and optional
-        speed [rpm] and run [-]; see :func:`prepare_tag`.
+        speed [rpm] and run [-]; see :func:`prepare_tag`. On a shared suction line also
+        ``header_flow`` [m³/s] (if registered) and the other members' ``<pump_id>:flow``,
+        ``<pump_id>:run`` and ``<pump_id>:speed`` (see :meth:`PumpSpec.peer_tags`).
     barometer : TagSeries or None
         Prepared barometer series [Pa], or None to use the standard atmosphere.
     settings : Settings
@@ -229,8 +237,8 @@ def calculate_pump(
         the operating-point histogram (see :mod:`screening.engine.plotdata`).
     """
     timeline = _align(pump, tags, barometer, settings, start_ns, end_ns, day_edges)
-    run = _decide_running(pump, timeline.held, settings, len(timeline.grid))
-    phys = _evaluate(pump, curve, table, timeline, barometer, settings)
+    run = _decide_running(pump, timeline, settings)
+    phys = _evaluate(pump, curve, table, timeline, barometer, settings, run)
     code, until, all_bad = _classify_margin(phys, run, guidance, settings)
     rcode, r_until = _classify_region(pump, curve, timeline.held, phys, run, settings)
     return _summarise(
@@ -259,6 +267,7 @@ class _Running:
     decide_until: np.ndarray
     all_bad: np.ndarray
     all_until: np.ndarray
+    line_flow: np.ndarray | None = None  # [m³/s] a shared suction line's total flow
 
 
 @dataclass
@@ -277,6 +286,11 @@ class _Physics:
     speed: np.ndarray | None
     baro: np.ndarray
     baro_used: np.ndarray
+    line_flow: np.ndarray | None = None
+
+
+#: The roles of a pump's own process tags: every one is needed on a running piece.
+OWN_ROLES = ("suction", "temperature", "flow", "speed", "run", "level", "vessel_pressure")
 
 
 def _align(pump, tags, barometer, settings, start_ns, end_ns, day_edges) -> _Timeline:
@@ -299,6 +313,12 @@ def _align(pump, tags, barometer, settings, start_ns, end_ns, day_edges) -> _Tim
             # tags of one wide file share their times: add each distinct time axis once
             if not any(len(x) == len(piece) and np.array_equal(x, piece) for x in seen):
                 seen.append(piece)
+    header = tags.get("header_flow") if pump.header_flow is not None else None
+    if header is not None and len(header.times):
+        # a shared line's header flow: where its samples go stale the line's flow falls back
+        # to the members' sum, so those instants cut the pieces too
+        expiry = header.times + stale_ns(pump.header_flow)
+        parts.append(expiry[(expiry > start_ns) & (expiry < end_ns)])
     # every part is sorted: merge them one by one into the sorted unique grid
     grid = np.unique(np.concatenate(parts))
     for piece in seen:
@@ -313,33 +333,34 @@ def _align(pump, tags, barometer, settings, start_ns, end_ns, day_edges) -> _Tim
         "level": pump.level,
         "vessel_pressure": pump.vessel_pressure,
     }
+    roles.update({"header_flow": pump.header_flow, **pump.peer_tags()})
     held = {r: _Held(tags.get(r), grid, stale_ns(spec)) for r, spec in roles.items() if spec}
     return _Timeline(grid, t_next, held)
 
 
-def _decide_running(pump: PumpSpec, held: dict, settings: Settings, n: int) -> _Running:
+def _decide_running(pump: PumpSpec, timeline: _Timeline, settings: Settings) -> _Running:
     """Running or stopped: the run status, else flow [m³/s] (and speed [rpm]) against their
-    fractions of BEP flow and rated speed."""
-    bep = pump.bep_flow
-    if "run" in held:
-        decide = ["run"]
-        running = held["run"].value > 0.5
-    else:
-        decide = ["flow"] + (["speed"] if "speed" in held else [])
-        running = held["flow"].value > settings.min_flow_fraction * bep
-        if "speed" in held:
-            running &= held["speed"].value > settings.min_speed_fraction * pump.rated_speed
-    decide_bad = np.zeros(n, dtype=bool)
-    decide_until = np.full(n, np.iinfo(np.int64).max, dtype=np.int64)
-    for r in decide:
-        decide_bad |= held[r].bad
-        decide_until = np.minimum(decide_until, held[r].until)
+    fractions of BEP flow and rated speed. A running piece needs all the pump's own tags, and
+    on a shared suction line the line's total flow (:mod:`screening.engine.lineflow`)."""
+    held = timeline.held
+    running, decide_bad, decide_until = lineflow.decide(
+        held.get("run"), held["flow"], held.get("speed"), pump.bep_flow, pump.rated_speed,
+        settings.min_flow_fraction, settings.min_speed_fraction,
+    )  # fmt: skip
     all_bad = decide_bad.copy()
     all_until = decide_until.copy()
-    for h in held.values():
-        all_bad |= h.bad
-        all_until = np.minimum(all_until, h.until)
-    return _Running(running, decide_bad, decide_until, all_bad, all_until)
+    for r in OWN_ROLES:
+        if r in held:
+            all_bad |= held[r].bad
+            all_until = np.minimum(all_until, held[r].until)
+    line_q = None
+    if pump.shared_line is not None:
+        line_q, bad, until = lineflow.line_flow(
+            pump, held, timeline.grid, settings.min_flow_fraction, settings.min_speed_fraction
+        )
+        all_bad |= bad
+        all_until = np.minimum(all_until, until)
+    return _Running(running, decide_bad, decide_until, all_bad, all_until, line_q)
 
 
 def _barometric(barometer, grid, settings: Settings) -> tuple[np.ndarray, np.ndarray]:
@@ -361,7 +382,7 @@ def _barometric(barometer, grid, settings: Settings) -> tuple[np.ndarray, np.nda
     return baro, baro_used
 
 
-def _evaluate(pump, curve, table, timeline: _Timeline, barometer, settings) -> _Physics:
+def _evaluate(pump, curve, table, timeline: _Timeline, barometer, settings, run) -> _Physics:
     """NPSHa and NPSH3 [m] on each piece (pure functions of SI arrays): NPSHa by ISO 9906 from a
     transmitter or ANSI/HI 1.3 from a vessel, NPSH3 by the affinity laws (see
     :mod:`screening.physics.npsh`, :mod:`screening.physics.suction`,
@@ -377,10 +398,14 @@ def _evaluate(pump, curve, table, timeline: _Timeline, barometer, settings) -> _
         # a vertical can from its nozzle to the impeller eye (register; counted once)
         npsha = npsha - suction.can_loss(pump.can_loss_k, flow)
     else:
-        p_abs, npsha = _vessel_npsha(pump, held, baro, p_v, rho, flow, temp, table.fluid)
+        p_abs, npsha = _vessel_npsha(
+            pump, held, baro, p_v, rho, flow, temp, table.fluid, run.line_flow
+        )
     speed = held["speed"].value if "speed" in held else None
     npsh3 = curve.at_speed(flow, speed, pump.rated_speed, pump.npsh3_exponent)
-    return _Physics(temp, p_v, rho, flow, p_abs, npsha, npsh3, speed, baro, baro_used)
+    return _Physics(
+        temp, p_v, rho, flow, p_abs, npsha, npsh3, speed, baro, baro_used, run.line_flow
+    )
 
 
 def _classify_margin(phys: _Physics, run: _Running, guidance: Guidance, settings: Settings):
@@ -549,4 +574,6 @@ def _series_frame(pump, timeline, run, phys, code, rcode, fresh, r_fresh, ratio)
         # surface pressure (p_v for a saturated vessel) and level of a vessel-fed pump
         frame["surface_pressure_abs_pa"] = phys.p_abs
         frame["level_m"] = timeline.held["level"].value
+    if phys.line_flow is not None:
+        frame["line_flow_m3_s"] = phys.line_flow  # a shared suction line's total flow
     return frame

@@ -10,7 +10,10 @@ baseline's running samples), all other inputs as recorded:
 
 Temperature acts through vapour pressure and density (and, with a Darcy–Weisbach suction line,
 viscosity); flow through NPSH3, the velocity head or the suction-line loss; speed through NPSH3
-(affinity laws); suction pressure, a vessel's surface pressure and its level directly. A
+(affinity laws); suction pressure, a vessel's surface pressure and its level directly. On a
+shared suction line the line's loss is driven by the line's total flow (``line_flow``: the
+header flow, or the sum of the running members' flows), the pump's own flow acting through
+NPSH3 only. A
 saturated vessel has no surface-pressure driver: its pressure term is zero whatever the
 pressure. The shares do not add up exactly to the total change against the baseline's median
 margin when inputs interact; the remainder is reported as ``interaction``.
@@ -28,7 +31,9 @@ from screening.physics.curves import Npsh3Curve
 from screening.physics.properties import FluidTable
 
 #: Every driver name, in report order; :func:`drivers_for` picks a pump's own.
-DRIVERS = ("suction_pressure", "surface_pressure", "level", "temperature", "flow", "speed")
+DRIVERS = (
+    "suction_pressure", "surface_pressure", "level", "temperature", "flow", "line_flow", "speed",
+)  # fmt: skip
 #: Series column of each driver's input (SI units, see calculator ``keep_series``).
 COLUMNS = {
     "suction_pressure": "suction_pressure_abs_pa",
@@ -36,6 +41,7 @@ COLUMNS = {
     "level": "level_m",
     "temperature": "temperature_k",
     "flow": "flow_m3_s",
+    "line_flow": "line_flow_m3_s",
     "speed": "speed_rpm",
 }
 
@@ -48,7 +54,8 @@ def drivers_for(pump: PumpSpec) -> tuple[str, ...]:
         names = ["level"]
     else:
         names = ["surface_pressure", "level"]
-    names += ["temperature", "flow"] + (["speed"] if pump.speed is not None else [])
+    names += ["temperature", "flow"] + (["line_flow"] if pump.shared_line is not None else [])
+    names += ["speed"] if pump.speed is not None else []
     return tuple(names)
 
 
@@ -59,10 +66,13 @@ def npsh_pair(
 
     ``inputs`` holds arrays by driver name (see :data:`COLUMNS`): ``suction_pressure`` [Pa
     absolute] for a transmitter pump, ``surface_pressure`` [Pa absolute] and ``level`` [m] for
-    a vessel-fed pump, ``temperature`` [K], ``flow`` [m³/s] and ``speed`` [rpm] (absent:
-    rated speed). NPSHa as in :func:`screening.physics.npsh.npsha_from_pressure` (ISO 9906:2012) or
-    :func:`screening.physics.suction.npsha_from_vessel` (ANSI/HI 1.3); NPSH3 from the vendor curve
-    scaled by the affinity laws (:meth:`Npsh3Curve.at_speed`).
+    a vessel-fed pump, ``temperature`` [K], ``flow`` [m³/s], ``speed`` [rpm] (absent:
+    rated speed) and, for a pump on a shared suction line, ``line_flow`` [m³/s], the line's
+    total flow at which its loss is taken (as the calculator does; the pump's own flow then
+    sets NPSH3 and a can's loss). NPSHa as in
+    :func:`screening.physics.npsh.npsha_from_pressure` (ISO 9906:2012) or
+    :func:`screening.physics.suction.npsha_from_vessel` (ANSI/HI 1.3); NPSH3 from the vendor
+    curve scaled by the affinity laws (:meth:`Npsh3Curve.at_speed`).
     """
     temp, flow = inputs["temperature"], inputs["flow"]
     p_v, rho = table.properties(temp)
@@ -71,7 +81,10 @@ def npsh_pair(
             inputs["suction_pressure"], p_v, rho, flow, pump.tap_bore, pump.tap_elevation
         ) - suction.can_loss(pump.can_loss_k, flow)
     else:
-        loss = suction.line_loss(pump.suction_line, flow, rho, temp, table.fluid)
+        if pump.shared_line is not None and "line_flow" not in inputs:
+            raise ValueError(f"pump {pump.pump_id} is on a shared suction line: give line_flow")
+        line_q = inputs["line_flow"] if pump.shared_line is not None else flow
+        loss = suction.line_loss(pump.suction_line, line_q, rho, temp, table.fluid)
         loss = loss + suction.can_loss(pump.can_loss_k, flow)
         surface = (
             suction.SATURATED if pump.vessel_surface == "saturated" else inputs["surface_pressure"]

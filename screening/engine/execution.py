@@ -76,7 +76,7 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
     adopt_fluid_tables(ctx.tables)
     plant, index = ctx.plant, ctx.index
     known = index.known_tags()
-    tags = [t.tag for pid in batch for t in plant.pumps[pid].tags().values() if t.tag in known]
+    tags = [t.tag for pid in batch for t in plant.pumps[pid].all_tags() if t.tag in known]
     raw, read_problems = index.read(tags, ctx.span)
     # files read in part (dates without a declared order): the worker's index says so
     out = BatchOutput([], {}, [], [], {**index.partly_read, **read_problems}, 0, len(batch))

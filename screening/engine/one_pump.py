@@ -121,6 +121,7 @@ def screen_pump(
             s.times, start_ns, end_ns, int(round(limit * 1e9))
         )
         q.gap_hours = missing / 3.6e12
+    prepared.update(_peer_tags(pump, index, raw, settings))
     result = calculate_pump(
         pump, plant.curves[pump.curve_id], plant.guidance[pump.pump_id], table, prepared,
         barometer if pump.needs_barometer else None, settings, start_ns, end_ns, edges, keep,
@@ -128,6 +129,27 @@ def screen_pump(
     )  # fmt: skip
     quality = {role: prepared[role].quality for role in roles}
     return result, quality, n
+
+
+def _peer_tags(pump, index, raw, settings) -> dict:
+    """The other members' flow, run and speed tags of a pump's shared suction line, in SI
+    (counted under their own pumps, not here); a tag that cannot be read leaves the line's
+    flow unknown, so the pump cannot be screened."""
+    out = {}
+    for key, spec in pump.peer_tags().items():
+        s = raw.get(spec.tag)
+        if s is None:
+            raise ExportError(
+                f"suction line {pump.suction_line_id!r}: tag {spec.tag} ({key}) of a pump on "
+                "the same line was not found in any export file; the line's total flow is "
+                "unknown"
+            )
+        role = key.rpartition(":")[2]
+        try:
+            out[key] = prepare_tag(s, spec, settings, role, check_range(role, pump, None))
+        except UnitError as exc:
+            raise ExportError(f"tag {spec.tag} ({key}): {exc}") from exc
+    return out
 
 
 QUALITY_COLUMNS = [

@@ -109,7 +109,7 @@ def scan(
     # which pumps share a batch: the longest hold or frozen allowance of any tag.
     longest = max(
         [settings.stale_limit, settings.frozen_after or 0.0]
-        + [t.stale_limit or 0.0 for p in selected for t in plant.pumps[p].tags().values()]
+        + [t.stale_limit or 0.0 for p in selected for t in plant.pumps[p].all_tags()]
     )
     span = (start_ns - int(longest * 1e9) - 1, end_ns)
     batches = _batches(plant, index, selected, end_ts - start_ts)
@@ -163,16 +163,27 @@ def _batches(
 ) -> list[list[str]]:
     """Pumps grouped by the files holding their tags, in batches of at most BATCH_PUMPS pumps
     and BATCH_PUMP_DAYS pump-days, so that a batch's memory stays about the same whatever the
-    window's length (a year-long window: two pumps per batch)."""
+    window's length (a year-long window: two pumps per batch). The selected members of a
+    shared suction line stay in one batch (which may then exceed the size): each reads the
+    others' flow and run tags, so they are read once."""
     size = BATCH_PUMPS
     if window is not None:
         days = max(window / pd.Timedelta(days=1), 1.0)
         size = int(min(BATCH_PUMPS, max(1, BATCH_PUMP_DAYS // days)))
 
     def key(pid: str):
-        files = sorted({str(f) for t in plant.pumps[pid].tags().values()
+        files = sorted({str(f) for t in plant.pumps[pid].all_tags()
                         for f in index.files_for(t.tag)})  # fmt: skip
         return (files, pid)
 
-    ordered = sorted(selected, key=key)
-    return [ordered[i : i + size] for i in range(0, len(ordered), size)]
+    # a unit of work: a pump alone, or the selected members of one shared suction line
+    units: dict[tuple[str, str], list[str]] = {}
+    for pid in sorted(selected, key=key):
+        line = plant.pumps[pid].suction_line_id
+        units.setdefault(("pump", pid) if line is None else ("line", line), []).append(pid)
+    batches: list[list[str]] = [[]]
+    for unit in units.values():
+        if batches[-1] and len(batches[-1]) + len(unit) > size:
+            batches.append([])
+        batches[-1].extend(unit)
+    return [b for b in batches if b]

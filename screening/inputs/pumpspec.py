@@ -38,6 +38,36 @@ class SuctionLine:
 
 
 @dataclass(frozen=True)
+class LineMember:
+    """A pump on a shared suction line, as much of it as the line's flow needs: its flow,
+    run-status and speed tags, BEP flow [m³/s] and rated speed [rpm] (to decide running
+    without a run tag, as for the pump itself)."""
+
+    pump_id: str
+    flow: TagSpec
+    run: TagSpec | None
+    speed: TagSpec | None
+    bep_flow: float
+    rated_speed: float
+
+
+@dataclass(frozen=True)
+class SharedLine:
+    """A suction line shared by several vessel-fed pumps (a common suction header).
+
+    Its loss is computed from the line's total flow: the ``header_flow`` tag (a flow
+    transmitter on the common line) where fresh and good, else the sum of the flows of the
+    ``members`` that are running. The line's geometry or design point is the members'
+    ``PumpSpec.suction_line`` (the same in every member's row; see
+    :mod:`screening.inputs.lines`).
+    """
+
+    line_id: str
+    members: tuple[LineMember, ...]
+    header_flow: TagSpec | None = None
+
+
+@dataclass(frozen=True)
 class PumpSpec:
     """One pump of the register, in SI units.
 
@@ -86,6 +116,11 @@ class PumpSpec:
     vessel_gauge: bool = False
     suction_line: SuctionLine | None = None
     line: int = 0
+    #: The suction line this pump shares with others (register ``suction_line_id``), its
+    #: header flow tag, and the joined line (set by :mod:`screening.inputs.lines`).
+    suction_line_id: str | None = None
+    header_flow: TagSpec | None = None
+    shared_line: SharedLine | None = None
     #: Today's operating limits, for the what-if comparison: the low suction-pressure
     #: setpoint [Pa, in the suction transmitter's reference], the low vessel-level setpoint
     #: [m, in the level transmitter's frame] and the high liquid-temperature setpoint [K].
@@ -115,7 +150,8 @@ class PumpSpec:
         return self.vessel_surface == "pressure" and self.vessel_gauge
 
     def tags(self) -> dict[str, TagSpec]:
-        """The pump's tags by role (suction, temperature, flow, speed, run)."""
+        """The pump's tags by role (suction, temperature, flow, speed, run, level, vessel
+        pressure, and the header flow of a shared suction line)."""
         roles = {"temperature": self.temperature, "flow": self.flow}
         if self.suction is not None:
             roles["suction"] = self.suction
@@ -127,4 +163,27 @@ class PumpSpec:
             roles["speed"] = self.speed
         if self.run is not None:
             roles["run"] = self.run
+        if self.header_flow is not None:
+            roles["header_flow"] = self.header_flow
         return roles
+
+    def all_tags(self) -> list[TagSpec]:
+        """Every tag read to screen this pump: its own and its line's other members'."""
+        return list(self.tags().values()) + list(self.peer_tags().values())
+
+    def peers(self) -> tuple[LineMember, ...]:
+        """The other pumps on this pump's shared suction line (none without one)."""
+        if self.shared_line is None:
+            return ()
+        return tuple(m for m in self.shared_line.members if m.pump_id != self.pump_id)
+
+    def peer_tags(self) -> dict[str, TagSpec]:
+        """The other line members' flow, run and speed tags, keyed ``<pump_id>:<role>``:
+        read with this pump so that the line's total flow is known at every instant."""
+        out: dict[str, TagSpec] = {}
+        for m in self.peers():
+            for role in ("flow", "run", "speed"):
+                spec = getattr(m, role)
+                if spec is not None:
+                    out[f"{m.pump_id}:{role}"] = spec
+        return out

@@ -18,9 +18,11 @@ import numpy as np
 import pandas as pd
 
 from screening.inputs.config import ConfigError
+from screening.inputs.lines import join_lines
 from screening.inputs.pumpspec import PumpSpec, SuctionLine, TagSpec
 from screening.inputs.register_fields import (
     datum_fields,
+    line_fields,
     plausible,
     positive_length,
     speed_fields,
@@ -69,6 +71,9 @@ OPTIONAL = (
     "line_bore",
     "line_roughness",
     "line_fittings_k",
+    "suction_line_id",
+    "header_flow_tag",
+    "header_flow_unit",
     "service",
     "area",
     "speed_tag",
@@ -335,6 +340,7 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
             "high_temperature_setpoint", "temperature", required=False
         ),
         **suction_fields,
+        **line_fields(r, tag, source),
         **datum_fields(r),
     )
 
@@ -374,26 +380,26 @@ def read_pump_register(
         )
     pumps: dict[str, PumpSpec] = {}
     problems: list[RowProblem] = []
+    failed: dict[str, list[tuple[int, str]]] = {}  # shared line -> rows naming it, not read
     for (_, row), (line, fault) in zip(frame.iterrows(), lines, strict=True):
         pid = row.get("pump_id", "") or f"(line {line})"
+        if fault is None:
+            try:
+                spec = _pump_from_row(path, line, row, units, default_stale)
+                if spec.pump_id in pumps:
+                    fault = (
+                        f"{path} line {line}, column 'pump_id': {pid!r} already used on line "
+                        f"{pumps[spec.pump_id].line}"
+                    )
+            except ConfigError as exc:
+                fault = str(exc)
         if fault is not None:
             problems.append(RowProblem(pid, fault))
-            continue
-        try:
-            spec = _pump_from_row(path, line, row, units, default_stale)
-        except ConfigError as exc:
-            problems.append(RowProblem(pid, str(exc)))
-            continue
-        if spec.pump_id in pumps:
-            problems.append(
-                RowProblem(
-                    pid,
-                    f"{path} line {line}, column 'pump_id': {pid!r} already used on line "
-                    f"{pumps[spec.pump_id].line}",
-                )
-            )
+            if row.get("suction_line_id"):
+                failed.setdefault(row["suction_line_id"], []).append((line, pid))
             continue
         pumps[spec.pump_id] = spec
+    problems += [RowProblem(pid, msg) for pid, msg in join_lines(path, pumps, failed)]
     return pumps, problems
 
 

@@ -211,3 +211,29 @@ def vessel_fields(r, tag, reference) -> dict:
             )
         out["suction_line"] = SuctionLine(None, length, bore, rough, fittings)
     return out
+
+
+def line_fields(r, tag, source: str) -> dict:
+    """A shared suction line: ``suction_line_id`` names the line a vessel-fed pump shares with
+    others (its loss then comes from the line's total flow), ``header_flow_tag`` and
+    ``header_flow_unit`` an optional flow transmitter on the common line. The line's own data
+    (design point or geometry) stays in the ``line_*`` columns, the same in every member's row
+    (checked by :mod:`screening.inputs.lines`)."""
+    line_id = r.text("suction_line_id", required=False)
+    header = r.text("header_flow_tag", required=False)
+    if source != "vessel":
+        for column, value in (("suction_line_id", line_id), ("header_flow_tag", header)):
+            if value is not None:
+                r.fail(
+                    column,
+                    "applies to vessel-fed pumps only (suction_source = vessel): a suction "
+                    "transmitter reads the pressure after the line's loss",
+                )
+        return {}
+    if header is None and r.text("header_flow_unit", required=False) is not None:
+        r.fail("header_flow_unit", "is given but the row has no header_flow_tag")
+    if header is not None and line_id is None:
+        r.fail("header_flow_tag", "needs suction_line_id: it measures a shared suction line")
+    if line_id is None:
+        return {}
+    return {"suction_line_id": line_id, "header_flow": tag("header_flow", "flow", required=False)}

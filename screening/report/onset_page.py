@@ -25,6 +25,7 @@ DRIVER_COLOURS = {
     "level": "#3d7a4a",
     "temperature": "#c7761c",
     "flow": "#5c2a00",
+    "line_flow": "#a8673a",
     "speed": "#7d7d7d",
 }
 

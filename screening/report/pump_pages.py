@@ -359,6 +359,16 @@ def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list
             ("level zero above datum", f"{float(c(pump.level_zero_elevation, 'length')):.2f} {L}"),
             ("method", "NPSHa = (p_surface - p_v)/(rho g) + level + offset - line loss"),
         ]
+        if pump.shared_line is not None:
+            line = pump.shared_line
+            others = ", ".join(m.pump_id for m in pump.peers()) or "no other pump"
+            rows.append((
+                "shared suction line",
+                f"{line.line_id} with {others}: loss at the line's total flow ("
+                + (f"header flow {line.header_flow.tag} where fresh, else " if line.header_flow
+                   else "")
+                + "the sum of the running members' flows)",
+            ))  # fmt: skip
     if pump.can_loss_k is not None:
         rows.append(("can loss", f"{pump.can_loss_k:.4g} s2/m5 x Q^2, nozzle to impeller eye"))
     if pump.speed_signal:

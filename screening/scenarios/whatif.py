@@ -18,6 +18,8 @@ Rules (documented in the README):
   pump, not its schedule.
 * A piece none of whose inputs changed keeps its state exactly, so a scenario that changes
   nothing reproduces the scan's hours exactly.
+* A flow change on a pump with a shared suction line changes the line's total flow by as
+  much (the other members' flows as recorded).
 * A change to an input the pump does not have (a level on a pump read by a suction pressure
   transmitter, a speed cap on a fixed-speed pump, a pressure on a saturated vessel) is not
   applied, and the tables say why. A flow or speed cap that acts means the process did not get
@@ -133,6 +135,10 @@ def apply_changes(
                 acts = evaluated & (new != old) & np.isfinite(old)
             row["acts_h"] = float(hours[acts].sum())
             inputs[c.input] = new
+            if c.input == "flow" and "line_flow" in inputs:
+                # a shared suction line carries the pump's flow: it changes by as much (the
+                # other members' flows as recorded)
+                inputs["line_flow"] = inputs["line_flow"] + np.where(acts, new - old, 0.0)
             if c.input in ("flow", "speed") and row["acts_h"] > 0:
                 row["note"] = (
                     f"the process asked for more {c.input} than the cap during "
