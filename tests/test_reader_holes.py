@@ -146,3 +146,62 @@ def test_darcy_line_on_a_mixture_is_screened_and_its_range_stated(tmp_path):
     assert r.problems.empty, r.problems
     assert _margin(r)["bad_data"] == pytest.approx(24.0)
     assert r.quality.set_index("role").loc["temperature", "out_of_range"] > 0
+
+
+# --- level transmitters in per cent of span --------------------------------------------------
+
+LEVEL_COLUMNS = ",suction_source,level_tag,level_unit,level_zero_elevation,vessel_surface"
+
+
+def _level_plant(tmp_path, level, unit: str, span: str = ""):
+    from plantmaker import PUMP_HEADER, make_plant, pump_row
+
+    times = pd.date_range("2026-10-01", periods=1440, freq="1min")
+    frame = pd.DataFrame(
+        {"timestamp": times.strftime("%Y-%m-%d %H:%M:%S"), "P1.LT": level, "P1.TT": 20.0,
+         "P1.FT": 80.0, "P1.RUN": 1}
+    )  # fmt: skip
+    row = pump_row("P1", suction_pressure_tag="", suction_pressure_unit="",
+                   suction_pressure_reference="", tap_elevation="", tap_bore="")  # fmt: skip
+    extra = f",vessel,P1.LT,{unit},-2 m,open"
+    header = PUMP_HEADER + LEVEL_COLUMNS
+    if span:
+        header += ",level_span_low,level_span_high"
+        extra += span
+    path = make_plant(tmp_path, wide={"a.csv": frame}, rows=[row + extra])
+    (tmp_path / "pumps.csv").write_text(header + "\n" + row + extra + "\n")
+    return path
+
+
+def test_level_in_per_cent_of_span_is_the_level_in_metres(tmp_path):
+    # A transmitter ranged 0.5 m (0 %) to 4.5 m (100 %) reading 62.5 % stands at
+    # 0.5 + 0.625 · 4.0 = 3.0 m (linear scaling of the span, common practice): NPSHa equals
+    # that of the same vessel with the level given as 3.0 m.
+    pct = screening.scan(_level_plant(tmp_path / "a", 62.5, "%", ",0.5 m,4.5 m"), keep_series=True)
+    metres = screening.scan(_level_plant(tmp_path / "b", 3.0, "m"), keep_series=True)
+    assert pct.problems.empty, pct.problems
+    a, b = pct.series["P1"]["npsha_m"], metres.series["P1"]["npsha_m"]
+    assert a.to_numpy() == pytest.approx(b.to_numpy(), abs=1e-12)
+
+
+def test_level_in_per_cent_needs_its_span(tmp_path):
+    r = screening.scan(_level_plant(tmp_path / "a", 50.0, "%"))
+    message = r.problems.set_index("pump_id").loc["P1", "message"]
+    assert "level_span_low" in message
+    r = screening.scan(_level_plant(tmp_path / "b", 50.0, "percent", ",4 m,1 m"))
+    message = r.problems.set_index("pump_id").loc["P1", "message"]
+    assert "level_span_high" in message and "must be above level_span_low" in message
+
+
+# --- the run status threshold ----------------------------------------------------------------
+
+
+def test_run_status_is_running_above_one_half(tmp_path):
+    # README: a run tag is running above 0.5 (1), stopped at or below (0); 0.4 and 0.5 are
+    # stopped, 0.6 and 2 running (6 h each)
+    frame = steady_frame()
+    frame["P1.RUN"] = np.repeat([0.4, 0.5, 0.6, 2.0], 360)
+    r = screening.scan(plant_with_export(tmp_path, "wide-csv", frame.to_csv(index=False).encode()))
+    h = _margin(r)
+    assert h["stopped"] == pytest.approx(12.0)
+    assert h["ample_margin"] == pytest.approx(12.0)

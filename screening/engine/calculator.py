@@ -101,6 +101,9 @@ def prepare_tag(
     )
     if spec.kind == "status":
         values = series.values.copy()
+    elif spec.kind == "percent":  # a level in % of span: low + %·(high − low)/100 [m]
+        with np.errstate(over="ignore", invalid="ignore"):
+            values = series.values * spec.scale + spec.offset
     else:
         with np.errstate(over="ignore"):  # an overflow is counted below
             values = to_si(series.values, spec.unit, spec.kind)

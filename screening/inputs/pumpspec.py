@@ -19,6 +19,9 @@ class TagSpec:
     #: Factor applied after the SI conversion [-]: a drive's output frequency read as shaft
     #: speed, n = n_rated · f / f_rated (slip neglected).
     scale: float = 1.0
+    #: Added after the scale [SI]: a level in per cent of span becomes metres,
+    #: span_low + % / 100 · (span_high − span_low).
+    offset: float = 0.0
 
 
 @dataclass(frozen=True)

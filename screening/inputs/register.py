@@ -61,6 +61,8 @@ OPTIONAL = (
     "level_tag",
     "level_unit",
     "level_zero_elevation",
+    "level_span_low",
+    "level_span_high",
     "vessel_surface",
     "vessel_pressure_tag",
     "vessel_pressure_unit",
@@ -276,6 +278,8 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         name = r.text(f"{role}_tag", required)
         if name is None:
             return None
+        if kind == "percent":  # per cent of a span, scaled by the caller
+            return TagSpec(name, "%", kind, stale)
         unit = r.unit(f"{role}_unit", kind)
         return TagSpec(name, unit, kind, stale)
 

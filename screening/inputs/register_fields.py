@@ -8,6 +8,8 @@ Each function takes the row reader of :mod:`screening.inputs.register` (``r``: `
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from screening.inputs.pumpspec import SuctionLine, TagSpec
 from screening.inputs.units import is_bare_frequency
 
@@ -178,13 +180,32 @@ def transmitter_fields(r, tag, reference) -> dict:
     return out
 
 
+#: Unit words of a level transmitter exported in per cent of its span.
+PERCENT_UNITS = ("%", "percent", "pct", "% of span")
+
+
+def _level_tag(r, tag) -> TagSpec:
+    """The level tag: a length unit, or per cent of span with the elevations [m] of 0 % and
+    100 % (``level_span_low``, ``level_span_high``, in the level's own frame, above
+    ``level_zero_elevation``): level = low + % / 100 · (high − low), the transmitter's linear
+    scaling (common practice for a level transmitter ranged over its span)."""
+    unit = (r.text("level_unit", required=False) or "").strip().lower()
+    if unit not in PERCENT_UNITS:
+        return tag("level", "length")
+    low = r.quantity("level_span_low", "length")
+    high = r.quantity("level_span_high", "length")
+    if not high > low:
+        r.fail("level_span_high", f"must be above level_span_low ({low:g} m)")
+    return replace(tag("level", "percent"), scale=(high - low) / 100.0, offset=low)
+
+
 def vessel_fields(r, tag, reference) -> dict:
     """The register fields of a vessel-fed pump (level, surface pressure, suction line)."""
     surface = (r.text("vessel_surface") or "").lower()
     if surface not in ("open", "saturated", "pressure"):
         r.fail("vessel_surface", f"{surface!r} is not 'open', 'saturated' or 'pressure'")
     out = {
-        "level": tag("level", "length"),
+        "level": _level_tag(r, tag),
         "level_zero_elevation": r.quantity("level_zero_elevation", "length"),
         "vessel_surface": surface,
     }
