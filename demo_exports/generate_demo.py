@@ -85,6 +85,7 @@ import gzip
 from dataclasses import dataclass, replace
 from pathlib import Path
 
+import generate_field  # the field-evidence tags, written after everything else
 import numpy as np
 import pandas as pd
 import pyarrow as pa
@@ -1260,6 +1261,8 @@ def register_row(p: Pump) -> dict:
         # today's operating limits, for the what-if comparison (empty: not known)
         **dict(zip(("low_pressure_setpoint", "low_level_setpoint", "high_temperature_setpoint"),
                    TODAY_SETPOINTS.get(p.pump_id, ("", "", "")), strict=True)),
+        # field evidence: discharge pressure and vibration tags (generate_field.py)
+        **generate_field.register_cells(p.pump_id),
     }
 
 
@@ -1374,6 +1377,9 @@ def main() -> None:
         write_long_csv(EXPORTS / "long_csv" / f"{name}_2026-10.csv.gz", records, decimals)
     write_long_csv(EXPORTS / "weather" / "barometer_2026-10.csv.gz", baro_records,
                    {BAROMETER_TAG: 1}, utc=True, quality=False)
+    # the field-evidence tags last, from their own random stream: nothing above changes
+    generate_field.write(EXPORTS / "wide_parquet", clock, ops, truths, BY_ID, baro_pa,
+                         RATED_HEAD_M, (fluid_tables, cell_si, write_wide_parquet, planted))
     write_configs()
     events = pd.DataFrame(PLANTED).sort_values(["pump_id", "start_local"], kind="stable")
     (EXPORTS / "planted_events.csv").write_text(events.to_csv(index=False, lineterminator="\n"))

@@ -21,7 +21,7 @@ import pandas as pd
 
 from screening.base import states
 from screening.base.kernels import hold, union_sorted
-from screening.engine import lineflow, plotdata
+from screening.engine import field_head, lineflow, plotdata
 from screening.inputs.quality import frozen_samples
 from screening.inputs.register import PumpSpec, TagSpec
 from screening.inputs.tagdata import TagSeries
@@ -81,6 +81,7 @@ class PumpResult:
     plot: pd.DataFrame | None = field(default=None, repr=False)  # min/max per time bucket
     points: dict | None = field(default=None, repr=False)  # operating-point histogram
     series: pd.DataFrame | None = field(default=None, repr=False)
+    evidence: field_head.FieldEvidence | None = field(default=None, repr=False)
 
 
 def _at(time_ns: int, what: str) -> str:
@@ -206,6 +207,7 @@ def calculate_pump(
     day_edges: np.ndarray,
     keep_series: bool = False,
     plot_buckets: int = 0,
+    field_inputs: field_head.FieldInputs | None = None,
 ) -> PumpResult:
     """Screen one pump over the window [start_ns, end_ns).
 
@@ -238,16 +240,24 @@ def calculate_pump(
     plot_buckets : int
         When positive, keep the report's plot data: minimum and maximum per time bucket and
         the operating-point histogram (see :mod:`screening.engine.plotdata`).
+    field_inputs : FieldInputs or None
+        The pump's discharge pressure and vibration tags, for the field evidence
+        (:mod:`screening.engine.field_head`); None (no such tags) costs nothing.
     """
     timeline = _align(pump, tags, barometer, settings, start_ns, end_ns, day_edges)
     run = _decide_running(pump, timeline, settings)
     phys = _evaluate(pump, curve, table, timeline, barometer, settings, run)
     code, until, all_bad = _classify_margin(phys, run, guidance, settings)
     rcode, r_until = _classify_region(pump, curve, timeline.held, phys, run, settings)
-    return _summarise(
+    result = _summarise(
         pump, curve, guidance, settings, timeline, run, phys, (code, until, all_bad),
         (rcode, r_until), start_ns, end_ns, day_edges, keep_series, plot_buckets,
     )  # fmt: skip
+    if field_inputs is not None:  # on the same pieces and states: nothing added to the hours
+        result.evidence = field_head.field_evidence(
+            pump, curve, timeline.grid, timeline.t_next, code, until, phys, field_inputs
+        )
+    return result
 
 
 @dataclass

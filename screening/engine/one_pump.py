@@ -11,6 +11,7 @@ import numpy as np
 import pandas as pd
 
 from screening.engine.calculator import Settings, calculate_pump, prepare_tag
+from screening.engine.field_head import FieldInputs
 from screening.inputs.plant import Plant
 from screening.inputs.quality import sample_gaps
 from screening.inputs.tagdata import ExportError, TagQuality
@@ -53,6 +54,12 @@ def check_range(role: str, pump, table):
             return lambda v: v < -110_000.0
         return lambda v: v <= 0.0
     if role == "speed":
+        return lambda v: v < 0.0
+    if role == "discharge_pressure":
+        if pump.discharge_gauge:
+            return lambda v: v < -110_000.0
+        return lambda v: v <= 0.0
+    if role == "vibration":
         return lambda v: v < 0.0
     return None
 
@@ -115,20 +122,52 @@ def screen_pump(
         except UnitError as exc:
             raise ExportError(f"tag {spec.tag} ({role}): {exc}") from exc
         n += int(np.searchsorted(s.times, end_ns) - np.searchsorted(s.times, start_ns))
-        limit = spec.stale_limit if spec.stale_limit is not None else settings.stale_limit
-        q = prepared[role].quality
-        q.gaps, missing, q.longest_gaps = sample_gaps(
-            s.times, start_ns, end_ns, int(round(limit * 1e9))
-        )
-        q.gap_hours = missing / 3.6e12
+        _count_gaps(prepared[role], spec, settings, start_ns, end_ns)
     prepared.update(_peer_tags(pump, index, raw, settings))
+    field = _field_inputs(pump, raw, settings, table, start_ns, end_ns)
     result = calculate_pump(
         pump, plant.curves[pump.curve_id], plant.guidance[pump.pump_id], table, prepared,
         barometer if pump.needs_barometer else None, settings, start_ns, end_ns, edges, keep,
-        buckets,
+        buckets, field,
     )  # fmt: skip
     quality = {role: prepared[role].quality for role in roles}
+    if field is not None:
+        quality.update({role: s.quality for role, s in field.tags.items()})
     return result, quality, n
+
+
+def _count_gaps(series, spec, settings, start_ns: int, end_ns: int) -> None:
+    """Gaps longer than the tag's stale limit [s] in the window [ns], into its quality."""
+    limit = spec.stale_limit if spec.stale_limit is not None else settings.stale_limit
+    q = series.quality
+    q.gaps, missing, q.longest_gaps = sample_gaps(
+        series.times, start_ns, end_ns, int(round(limit * 1e9))
+    )
+    q.gap_hours = missing / 3.6e12
+
+
+def _field_inputs(pump, raw, settings, table, start_ns: int, end_ns: int):
+    """The pump's field-evidence tags (discharge pressure, vibration) prepared in SI, or
+    None for a pump without them (no cost). A tag that is missing or in a wrong unit leaves
+    only the evidence out, with a note: the pump is screened all the same."""
+    specs = pump.field_tags()
+    if not specs:
+        return None
+    out = FieldInputs({}, {})
+    for role, spec in specs.items():
+        s = raw.get(spec.tag)
+        if s is None:
+            out.notes.append(f"tag {spec.tag} ({role}) not found or not read: no {role} evidence")
+            continue
+        try:
+            out.tags[role] = prepare_tag(s, spec, settings, role, check_range(role, pump, table))
+        except UnitError as exc:
+            out.notes.append(f"tag {spec.tag} ({role}): {exc}")
+            continue
+        _count_gaps(out.tags[role], spec, settings, start_ns, end_ns)
+        limit = spec.stale_limit if spec.stale_limit is not None else settings.stale_limit
+        out.stale_ns[role] = int(round(limit * 1e9))
+    return out
 
 
 def _peer_tags(pump, index, raw, settings) -> dict:

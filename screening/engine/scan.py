@@ -140,6 +140,7 @@ def scan(
     out.extras = extras
     out.plots = {r.pump_id: r.plot for r in results if r.plot is not None}
     out.points = {r.pump_id: r.points for r in results if r.points is not None}
+    out.evidence = {r.pump_id: r.evidence for r in results if r.evidence is not None}
     out.export_files = [str(f.path) for f in index.files] + [
         p for p in index.file_problems if Path(p).is_file()
     ]

@@ -10,6 +10,7 @@ import numpy as np
 import pandas as pd
 
 from screening.base import states
+from screening.engine.field_tables import FIELD_SUMMARY_COLUMNS, field_summary
 from screening.engine.one_pump import QUALITY_COLUMNS
 from screening.inputs.plant import Plant, pump_suction_specific_speed
 from screening.physics import regions
@@ -62,6 +63,9 @@ class ScanResult:
     #: When no pump had a sample in the window: the first and last sample the exports hold
     #: (UTC), or None when they hold none.
     data_span: tuple[pd.Timestamp, pd.Timestamp] | None = None
+    #: Field evidence (discharge pressure, vibration) of the pumps that have such tags
+    #: (:mod:`screening.engine.field_head`; tables by :func:`field_tables.field_tables`).
+    evidence: dict[str, Any] = field(default_factory=dict)
 
     @property
     def not_enough_data(self) -> pd.DataFrame:
@@ -109,6 +113,7 @@ SUMMARY_COLUMNS = [
     "below_min_flow_hours", "beyond_allowable_hours", "speed_outside_scaling_hours",
     "standard_atmosphere_hours", "min_flow_source", "below_vapour_pressure_hours", "npsh_datum",
     "pressure_point_elevation_m", "datum_note",
+    *FIELD_SUMMARY_COLUMNS,
 ]  # fmt: skip
 
 
@@ -182,6 +187,7 @@ def _summary_row(plant, r) -> dict:
         if pump.source == "transmitter"
         else np.nan,
         "datum_note": pump.datum_note,
+        **field_summary(r.evidence),
     }
 
 

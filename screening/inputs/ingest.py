@@ -197,7 +197,7 @@ def _kept_span(plant: Plant, start, end) -> tuple[tuple[int | None, int | None],
     a, b = window_bounds(plant, start, end)
     s = plant.settings
     holds = [s.data.stale_limit, s.data.frozen_after or 0.0, s.site.barometer_stale_limit]
-    holds += [t.stale_limit or 0.0 for p in plant.pumps.values() for t in p.tags().values()]
+    holds += [t.stale_limit or 0.0 for p in plant.pumps.values() for t in p.all_tags()]
     # the scan reads from start - longest hold - 1 ns (screening.scan)
     return (a.value - int(max(holds) * 1e9) - 1, b.value), (a, b)
 
@@ -212,7 +212,7 @@ def _homes(plant: Plant, index: ExportIndex) -> dict[str, str]:
         homes[baro] = ds.SITE_FOLDER
     for pid, pump in plant.pumps.items():
         folder = "pump=" + names[pid].removesuffix(".html")
-        for spec in pump.tags().values():
+        for spec in [*pump.tags().values(), *pump.field_tags().values()]:
             if spec.tag in found:
                 homes.setdefault(spec.tag, folder)
     for tag in sorted(found):

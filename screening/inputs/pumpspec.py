@@ -142,6 +142,16 @@ class PumpSpec:
     datum_note: str = ""
     can_loss_k: float | None = None
     rated_frequency: float | None = None
+    #: Field evidence (optional; :mod:`screening.inputs.field_register`): the discharge
+    #: pressure tag and its reference, the elevation of the point it reads above the NPSH datum
+    #: [m] and the bore at its tap [m]; the head baseline ("fitted" or "vendor"); a vibration
+    #: tag (velocity [m/s]).
+    discharge: TagSpec | None = None
+    discharge_gauge: bool = False
+    discharge_elevation: float = 0.0
+    discharge_bore: float = 1.0
+    head_baseline: str = "fitted"
+    vibration: TagSpec | None = None
 
     @property
     def needs_barometer(self) -> bool:
@@ -170,9 +180,24 @@ class PumpSpec:
             roles["header_flow"] = self.header_flow
         return roles
 
+    def field_tags(self) -> dict[str, TagSpec]:
+        """The field-evidence tags by role (discharge pressure, vibration): read with the
+        pump, never needed to screen it (a missing one leaves only the evidence out)."""
+        roles = {}
+        if self.discharge is not None:
+            roles["discharge_pressure"] = self.discharge
+        if self.vibration is not None:
+            roles["vibration"] = self.vibration
+        return roles
+
     def all_tags(self) -> list[TagSpec]:
-        """Every tag read to screen this pump: its own and its line's other members'."""
-        return list(self.tags().values()) + list(self.peer_tags().values())
+        """Every tag read for this pump: its own, its field evidence's and its line's other
+        members'."""
+        return (
+            list(self.tags().values())
+            + list(self.field_tags().values())
+            + list(self.peer_tags().values())
+        )
 
     def peers(self) -> tuple[LineMember, ...]:
         """The other pumps on this pump's shared suction line (none without one)."""

@@ -18,6 +18,7 @@ import numpy as np
 import pandas as pd
 
 from screening.inputs.config import ConfigError
+from screening.inputs.field_register import FIELD_COLUMNS, curve_heads, field_fields
 from screening.inputs.lines import join_lines
 from screening.inputs.pumpspec import PumpSpec, SuctionLine, TagSpec
 from screening.inputs.register_fields import (
@@ -98,6 +99,7 @@ OPTIONAL = (
     "low_pressure_setpoint",
     "low_level_setpoint",
     "high_temperature_setpoint",
+    *FIELD_COLUMNS,
 )
 #: Longest stale limit a register row may give [s]: a sample held for a year is no sample.
 MAX_STALE_LIMIT = 366 * 86400.0
@@ -346,6 +348,7 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         **suction_fields,
         **line_fields(r, tag, source),
         **datum_fields(r),
+        **field_fields(r, tag, reference),
     )
 
 
@@ -426,6 +429,7 @@ def read_curves(path: str | Path) -> tuple[dict[str, Npsh3Curve], dict[str, str]
     problems: dict[str, str] = {}
     flows: dict[str, list[float]] = {}
     heads: dict[str, list[float]] = {}
+    developed: dict[str, list[float | None]] = {}  # the vendor's developed head, optional
     for (_, row), (line, fault) in zip(frame.iterrows(), lines, strict=True):
         cid = row["curve_id"]
         if not cid:
@@ -445,11 +449,24 @@ def read_curves(path: str | Path) -> tuple[dict[str, Npsh3Curve], dict[str, str]
             continue
         flows.setdefault(cid, []).append(q)
         heads.setdefault(cid, []).append(h)
+        try:
+            developed.setdefault(cid, []).append(curve_heads(path, line, row, units))
+        except ConfigError as exc:
+            problems.setdefault(cid, str(exc))
     for cid in flows:
         if cid in problems:
             continue
         try:
-            curves[cid] = Npsh3Curve(cid, np.array(flows[cid]), np.array(heads[cid]))
+            vendor = developed.get(cid, [])
+            known = [v for v in vendor if v is not None]
+            if known and len(known) != len(vendor):
+                raise CurveError(
+                    f"curve {cid!r}: the head column is given on some rows only; give the "
+                    "vendor's head at every flow of the curve or at none"
+                )
+            curves[cid] = Npsh3Curve(
+                cid, np.array(flows[cid]), np.array(heads[cid]), np.array(known) if known else None
+            )
         except CurveError as exc:
             problems[cid] = f"{path}: {exc}"
     return curves, problems

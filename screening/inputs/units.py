@@ -29,6 +29,7 @@ SI_UNITS: dict[str, str] = {
     "speed": "rpm",
     "duration": "s",
     "density": "kg/m**3",
+    "velocity": "m/s",
 }
 
 #: Example units shown in error messages, per kind.
@@ -40,6 +41,7 @@ EXAMPLES: dict[str, str] = {
     "speed": "rpm, 1/min, Hz",
     "duration": "s, min, h",
     "density": "kg/m3, lb/ft3",
+    "velocity": "mm/s, in/s, m/s",
 }
 
 _DIMENSIONS: dict[str, str] = {}

@@ -45,11 +45,15 @@ class Npsh3Curve:
         Flow points [m³/s], strictly increasing.
     npsh3 : numpy.ndarray
         NPSH3 at those flows [m], positive.
+    head : numpy.ndarray or None
+        The vendor's developed head at those flows [m] where the curve table gives it
+        (optional ``head`` column), else None.
     """
 
     curve_id: str
     flow: np.ndarray
     npsh3: np.ndarray
+    head: np.ndarray | None = None
     _interp: PchipInterpolator = field(init=False, repr=False, compare=False)
 
     def __post_init__(self):
@@ -66,6 +70,11 @@ class Npsh3Curve:
         _check_shape(self.curve_id, flow, npsh3)
         object.__setattr__(self, "flow", flow)
         object.__setattr__(self, "npsh3", npsh3)
+        if self.head is not None:
+            head = np.asarray(self.head, dtype=np.float64)
+            if head.shape != flow.shape or not np.all(np.isfinite(head)) or np.any(head <= 0):
+                raise CurveError(f"curve {self.curve_id!r}: heads must be positive numbers")
+            object.__setattr__(self, "head", head)
         # PCHIP keeps the curve monotone between points where the data are monotone
         # (Fritsch and Carlson, SIAM J. Numer. Anal. 17 (1980) 238-246).
         object.__setattr__(self, "_interp", PchipInterpolator(flow, npsh3, extrapolate=False))
