@@ -33,7 +33,7 @@ from screening.engine.scan import ScanResult
 from screening.inputs.window import WindowError
 from screening.physics import regions
 from screening.physics.properties import fluid_table
-from screening.report import pump_pages
+from screening.report import field_page, pump_pages
 from screening.report.cautions import CAUTIONS
 from screening.report.figjson import figure_html, local_times, numbers
 from screening.report.palette import (
@@ -240,6 +240,7 @@ def write_report(
             buckets = buckets[["pump_id"] + [c for c in buckets.columns if c != "pump_id"]]
             write_table(buckets, tmp, "plot_buckets", CSV_MAX_ROWS)
             write_table(_points_table(result.points), tmp, "operating_points", CSV_MAX_ROWS)
+        field_page.write_tables(result, tmp, write_table)
         _write_workbook(tmp / "summary.xlsx", result, changes)
         stack.close()  # every pump page written
         (tmp / "index.html").write_text(
@@ -398,6 +399,9 @@ def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
             register=pump_pages.register_rows(pump, g, model, units),
             flags=pump_pages.pump_flags(summary_of.get(pid), units),
             cautions=CAUTIONS,
+            field_section=field_page.section(
+                result.evidence.get(pid), pump, plant.curves[pump.curve_id], units
+            ),
             thin_note=(
                 f"Not enough data to screen: usable data for {100 * thin[pid]:.1f} % of the "
                 f"window, less than the {100 * least:.0f} % asked ([data] min_coverage). The "
@@ -453,6 +457,7 @@ def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> 
         d["guidance_text"] = f"{row.guidance_ratio:.2f} or {row.guidance_margin_m:.2f} m"
         d["page"] = f"pumps/{pages[row.pump_id]}" if pages and row.pump_id in pages else None
         d["change"] = ""
+        d.update(field_page.overview_cells(d))
         if changes is not None:
             c = changes.set_index("pump_id")
             if row.pump_id in c.index:
