@@ -81,12 +81,12 @@ def test_weighted_quantiles():
 
 
 def _synthetic_bin(
-    lowest: float, x3: float = 1.3, knee: float = 1.6, power: float = 1.0, seed: int = 7
+    lowest: float, x3: float = 1.3, knee: float = 1.6, power: float = 1.0, random_state: int = 7
 ):
     """A month of one-minute pieces whose margin ratio sweeps slowly from 2.5 down to
     ``lowest`` and back each day; the head ratio is flat (1) above the knee and 3 % down at
     ``x3`` (planted truth), with transmitter noise of 0.4 %."""
-    rng = np.random.default_rng(seed)
+    rng = np.random.default_rng(random_state)
     minutes = np.arange(30 * 1440)
     phase = (minutes % 1440) / 1440
     sigma = lowest + (2.5 - lowest) * (0.5 + 0.5 * np.cos(2 * np.pi * phase))

@@ -154,12 +154,12 @@ def broken_stick(x, y, w, hinges=None) -> StickFit:
     return StickFit(a1, s1, b1, x3, sse0, float(sse[best]), n)
 
 
-def block_bootstrap_counts(n_blocks: int, replicates: int, seed: int) -> np.ndarray:
+def block_bootstrap_counts(n_blocks: int, replicates: int, random_state: int) -> np.ndarray:
     """How often each block is drawn in each bootstrap replicate [-], shape (replicates,
     n_blocks): blocks drawn with replacement, as many as there are (the moving-block bootstrap
     with fixed, non-overlapping blocks; Künsch 1989, Ann. Stat. 17, 1217-1241; Carlstein 1986).
-    A fixed seed: the same data give the same interval."""
-    rng = np.random.default_rng(seed)
+    A fixed random state: the same data give the same interval."""
+    rng = np.random.default_rng(random_state)
     draws = rng.integers(0, n_blocks, size=(replicates, n_blocks))
     counts = np.zeros((replicates, n_blocks))
     np.add.at(counts, (np.repeat(np.arange(replicates), n_blocks), draws.ravel()), 1.0)

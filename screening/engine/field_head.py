@@ -59,9 +59,9 @@ RATIO_CELL = 0.02
 RATIO_MAX = 3.0
 #: Hours a cell needs to count as reached [h]: a single stray sample does not.
 MIN_CELL_HOURS = 0.25
-#: Bootstrap replicates and the fixed seed (the same data give the same interval).
+#: Bootstrap replicates and the fixed random state (the same data give the same interval).
 REPLICATES = 200
-SEED = 20261001
+RANDOM_STATE = 20261001
 #: Head-ratio cells of the figure [-].
 HEAD_RATIO_EDGES = np.round(np.arange(0.85, 1.0501, 0.005), 4)
 
@@ -399,7 +399,7 @@ def field_npsh3_bin(sigma, ratio, w, blocks) -> dict:
     used = hours > 0
     fit = broken_stick(centres[used], hours_y[used] / hours[used], hours[used])
     x3 = _drop_point(hours, hours_y, centres, lowest)
-    counts = block_bootstrap_counts(mw.shape[0], REPLICATES, SEED)
+    counts = block_bootstrap_counts(mw.shape[0], REPLICATES, RANDOM_STATE)
     boot_h, boot_hy = counts @ mw, counts @ mwy
     reps = np.array([_drop_point(boot_h[i], boot_hy[i], centres, lowest)
                      for i in range(REPLICATES)])  # fmt: skip

@@ -23,7 +23,7 @@ TREND_RATIO_MAX = 3.0
 MIN_TREND_HOURS = 12.0
 MIN_TREND_SPREAD = 0.2
 REPLICATES = 400
-SEED = 20261002
+RANDOM_STATE = 20261002
 VIBRATION_COLUMNS = [
     "pump_id", "ratio_low", "ratio_high", "hours", "p05_m_s", "p25_m_s", "median_m_s",
     "p75_m_s", "p95_m_s",
@@ -87,7 +87,7 @@ def by_margin(pid: str, vib, sigma, w, blocks) -> tuple[pd.DataFrame, dict]:
     per_block = np.zeros((n_blocks, 5))
     np.add.at(per_block, blk, parts)
     trend["slope_m_s"] = float(_slopes(per_block.sum(axis=0)))
-    counts = block_bootstrap_counts(n_blocks, REPLICATES, SEED)
+    counts = block_bootstrap_counts(n_blocks, REPLICATES, RANDOM_STATE)
     boot = _slopes(counts @ per_block)
     boot = boot[np.isfinite(boot)]
     if boot.size:
