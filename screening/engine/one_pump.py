@@ -5,6 +5,7 @@ Shared by every place that runs pumps (this process, a worker process, a Dask wo
 
 from __future__ import annotations
 
+import dataclasses
 from pathlib import Path
 
 import numpy as np
@@ -33,6 +34,7 @@ def settings_for(plant: Plant) -> Settings:
         speed_scaling_range=tuple(s.running.speed_scaling_range),
         barometer_tolerance=s.site.barometer_tolerance,
         min_stable_flow_fraction=s.running.min_stable_flow_fraction,
+        settle_after_start=s.running.settle_after_start,
     )
 
 
@@ -110,12 +112,15 @@ def screen_pump(
                 f"tag {spec.tag} ({role}) could not be read from {', '.join(files)}"
                 + (f": {_files_not_read([w for w in why if w])}" if any(why) else "")
             )
+        s = _drawn(s, spec, index)
         try:
             prepared[role] = prepare_tag(s, spec, settings, role, check_range(role, pump, table))
         except UnitError as exc:
             raise ExportError(f"tag {spec.tag} ({role}): {exc}") from exc
         n += int(np.searchsorted(s.times, end_ns) - np.searchsorted(s.times, start_ns))
         limit = spec.stale_limit if spec.stale_limit is not None else settings.stale_limit
+        if s.max_interval is not None:  # a compressed record: gaps beyond the longest interval
+            limit = s.max_interval
         q = prepared[role].quality
         q.gaps, missing, q.longest_gaps = sample_gaps(
             s.times, start_ns, end_ns, int(round(limit * 1e9))
@@ -129,6 +134,16 @@ def screen_pump(
     )  # fmt: skip
     quality = {role: prepared[role].quality for role in roles}
     return result, quality, n
+
+
+def _drawn(series, spec, index):
+    """``series`` marked with how it is drawn between samples: run status always as steps,
+    analog tags as their export family (or the register) says (see
+    :meth:`ExportIndex.max_interval_of`)."""
+    if spec.kind == "status":
+        return series
+    interval = index.max_interval_of(spec.tag, spec.reconstruction)
+    return series if interval is None else dataclasses.replace(series, max_interval=interval)
 
 
 def _peer_tags(pump, index, raw, settings) -> dict:
@@ -145,6 +160,7 @@ def _peer_tags(pump, index, raw, settings) -> dict:
                 "unknown"
             )
         role = key.rpartition(":")[2]
+        s = _drawn(s, spec, index)
         try:
             out[key] = prepare_tag(s, spec, settings, role, check_range(role, pump, None))
         except UnitError as exc:

@@ -19,6 +19,8 @@ class TagSpec:
     #: Factor applied after the SI conversion [-]: a drive's output frequency read as shaft
     #: speed, n = n_rated · f / f_rated (slip neglected).
     scale: float = 1.0
+    #: "step" or "linear" for this tag whatever its export family says; None: the family's.
+    reconstruction: str | None = None
 
 
 @dataclass(frozen=True)

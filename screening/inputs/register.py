@@ -85,6 +85,7 @@ OPTIONAL = (
     "impeller_eyes",
     "impeller_eye_diameter",
     "stale_limit",
+    "reconstruction",
     "suction_specific_speed",
     "guidance_ratio",
     "guidance_margin",
@@ -265,19 +266,48 @@ def _empty_cells(r: _Row) -> None:
         )
 
 
+def _reconstruction(r) -> dict[str, str]:
+    """The ``reconstruction`` cell: one word for all the row's analog tags ("step" or
+    "linear"), or ``role=word`` pairs separated by ';' (``temperature=step; flow=linear``);
+    role "" stands for all."""
+    text = r.text("reconstruction", required=False)
+    if not text:
+        return {}
+    out = {}
+    for part in text.split(";"):
+        role, _, word = part.rpartition("=")
+        role, word = role.strip().lower(), word.strip().lower()
+        if word not in ("step", "linear") or (role and role not in _ANALOG_ROLES):
+            r.fail(
+                "reconstruction",
+                f"{part.strip()!r} is not 'step', 'linear' or role=step|linear with a role of "
+                f"{', '.join(_ANALOG_ROLES)}",
+            )
+        out[role] = word
+    return out
+
+
+#: Roles whose tags may be drawn as lines (run status is always a step).
+_ANALOG_ROLES = (
+    "suction", "temperature", "flow", "speed", "level", "vessel_pressure", "header_flow",
+)  # fmt: skip
+
+
 def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
     r = _Row(path, line, row, units)
     _empty_cells(r)
     stale = r.quantity("stale_limit", "duration", required=False)
     if stale is not None and not 0 < stale <= MAX_STALE_LIMIT:
         r.fail("stale_limit", "must be a positive duration up to 366 days, such as '15 min'")
+    recon = _reconstruction(r)
 
     def tag(role: str, kind: str, required: bool = True) -> TagSpec | None:
         name = r.text(f"{role}_tag", required)
         if name is None:
             return None
         unit = r.unit(f"{role}_unit", kind)
-        return TagSpec(name, unit, kind, stale)
+        key = "suction" if role == "suction_pressure" else role
+        return TagSpec(name, unit, kind, stale, reconstruction=recon.get(key, recon.get("")))
 
     def reference(column: str) -> bool:
         value = r.text(column)
