@@ -243,7 +243,7 @@ def calculate_pump(
     if settings.settle_after_start > 0:
         _mark_starting(timeline.grid, run, code, rcode, int(settings.settle_after_start * 1e9))
     # the pieces' right ends (just before the next piece) where inputs are drawn by lines
-    ends = probe(timeline.t_next - 1)[1] if any_linear(tags) else None
+    ends = probe(timeline.t_next - 1)[2] if any_linear(tags) else None
     return _summarise(
         pump, curve, guidance, settings, timeline, run, phys, (code, until, all_bad),
         (rcode, r_until), start_ns, end_ns, day_edges, keep_series, plot_buckets, ends,
