@@ -138,7 +138,7 @@ def test_hours_add_up_with_lines_and_starts(
     edges = _day_edges(start, end, "Europe/Berlin")
     s = Settings(stale_min * 60.0, None, 0.05, 0.2, 2.0, 0.0, settle_after_start=settle_min * 60.0)
     tags = {"suction": ps, "temperature": tt, "flow": ft, "speed": sp}
-    for (role, series), drawn in zip(list(tags.items()), linear, strict=True):
+    for series, drawn in zip(tags.values(), linear, strict=True):
         if drawn:
             series.max_interval = interval_min * 60.0
     result = calculate_pump(

@@ -219,8 +219,9 @@ def test_a_recorded_values_export_is_drawn_by_lines_through_the_loader(tmp_path)
     # (PCHIP between points; the crossing is where NPSHa meets it, between 0.25 h and 0.75 h)
     assert 0.25 < h["below_npsh3"] < 0.75
     assert h.sum() == pytest.approx(1.0, rel=1e-12)
-    step = screening.scan(make_plant(tmp_path / "s", long={"a.csv": "\n".join(lines)},
-                                     rows=[pump_row("P1")], stale="2 h", end="2026-10-01T01:00"))  # fmt: skip
+    step_plant = make_plant(tmp_path / "s", long={"a.csv": "\n".join(lines)},
+                            rows=[pump_row("P1")], stale="2 h", end="2026-10-01T01:00")  # fmt: skip
+    step = screening.scan(step_plant)
     hs = step.hours[step.hours.kind == "margin"].set_index("state")["hours"]
     assert hs["below_npsh3"] == 0.0
 
