@@ -110,13 +110,15 @@ def one_sample(
     return int(np.flatnonzero(over)[0]), near
 
 
-def _one_sample_note(found, times, w, sign: float = 1.0) -> tuple[str, float]:
-    """The note and the 99.9 % value [SI] (``sign`` -1 for a high limit) of :func:`one_sample`."""
-    if found is None:
-        return "", np.nan
-    i, near = found
-    when = pd.Timestamp(times[i]).tz_convert("UTC").isoformat()
-    return f"set by one sample at {when} ({w[i] * 3600:.0f} s)", sign * near
+def _note_one_sample(row: dict, found, times, w, sign: float = 1.0) -> None:
+    """Write into ``row`` when its 100 % limit is set by one sample (:func:`one_sample`) and
+    the 99.9 % value [SI] beside it (``sign`` -1 for a high limit)."""
+    if found is not None:
+        i, near = found
+        t = pd.Timestamp(times[i])
+        when = (t.tz_localize("UTC") if t.tzinfo is None else t.tz_convert("UTC")).isoformat()
+        row["set_by_one_sample"] = f"set by one sample at {when} ({w[i] * 3600:.0f} s)"
+        row["required_99_9"] = sign * near
 
 
 def cap_needed(limit: np.ndarray, ok: np.ndarray, w: np.ndarray, share: float) -> float:
@@ -222,9 +224,7 @@ def required_setpoints(
         rows.append(_row(pump, key, "low", share, req, unit, today, recorded_low, achieved, 0.0,
                          note))  # fmt: skip
         if share == 1.0:
-            rows[-1]["set_by_one_sample"], rows[-1]["required_99_9"] = _one_sample_note(
-                one_sample(need, ok, w, times), times, w
-            )
+            _note_one_sample(rows[-1], one_sample(need, ok, w, times), times, w)
 
     if pump.vessel_surface != "saturated":
         t_max = np.full(len(w), np.inf)
@@ -253,9 +253,7 @@ def required_setpoints(
                              pump.high_temperature_setpoint, recorded_high, achieved, cannot,
                              note))  # fmt: skip
             if share == 1.0 and np.isfinite(cap):
-                rows[-1]["set_by_one_sample"], rows[-1]["required_99_9"] = _one_sample_note(
-                    one_sample(-t_max, ok, w, times), times, w, -1.0
-                )
+                _note_one_sample(rows[-1], one_sample(-t_max, ok, w, times), times, w, -1.0)
     return rows, _sensitivity(pump, curve, table, guidance, inputs, w)
 
 
