@@ -491,9 +491,9 @@ def _summarise(
         result.worst_time = pd.Timestamp(int(grid[i]), tz="UTC")
         _worst_margins(result, phys, guidance, banded)
     _below_vapour(result, grid, phys, code, fresh)
-    right = None if ends is None else (ends.npsha, ends.npsh3, guidance.head(ends.npsh3))
+    right = None if ends is None else (ends.npsha, ends.npsh3)
     result.severity = severity.severity(
-        grid, t_next, fresh, code, (phys.npsha, phys.npsh3, guidance.head(phys.npsh3)), right
+        grid, t_next, fresh, code, (phys.npsha, phys.npsh3), guidance, right
     )
     if pump.needs_barometer:
         counted = run.running & ~all_bad & (code != states.STOPPED)

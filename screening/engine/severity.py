@@ -48,8 +48,9 @@ def severity(
     t_next: np.ndarray,
     fresh: np.ndarray,
     code: np.ndarray,
-    left: tuple[np.ndarray, np.ndarray, np.ndarray],
-    right: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None,
+    left: tuple[np.ndarray, np.ndarray],
+    guidance,
+    right: tuple[np.ndarray, np.ndarray] | None = None,
 ) -> Severity:
     """The severity measures of one pump over its pieces.
 
@@ -62,31 +63,39 @@ def severity(
     code : numpy.ndarray
         Margin state of each piece (:mod:`screening.base.states`).
     left : tuple of numpy.ndarray
-        NPSHa, NPSH3 and the guidance head [m] at each piece's start.
+        NPSHa and NPSH3 [m] at each piece's start.
+    guidance : Guidance
+        The pump's guidance (:meth:`Guidance.head` [m] of NPSH3 [m]).
     right : tuple of numpy.ndarray, optional
         The same just before the next piece (pieces drawn by lines); None for steps.
     """
     out = Severity()
-    banded = (code <= states.AMPLE_MARGIN) & (fresh > 0)
-    if not banded.any():
+    # only pieces below the guidance have a depth (NPSHa < guidance head <=> band code <= 1)
+    short = (code <= states.BELOW_GUIDANCE) & (fresh > 0)
+    if not short.any():
         return out
-    full = fresh == (t_next - grid)
-    hours = np.where(banded, fresh, 0) / NS_PER_HOUR
-    for attr, upper in (("below_npsh3_m_h", 1), ("below_guidance_m_h", 2)):
-        d = _depth(left[upper], left[0])
+    idx = np.flatnonzero(short)
+    g, f, span = grid[idx], fresh[idx], t_next[idx] - grid[idx]
+    full = f == span
+    hours = f / NS_PER_HOUR
+    a, n3 = left[0][idx], left[1][idx]
+    for attr, upper in (("below_npsh3_m_h", n3), ("below_guidance_m_h", guidance.head(n3))):
+        d = _depth(upper, a)
         if right is not None:
-            d_r = _depth(right[upper], right[0])
+            a_r, n3_r = right[0][idx], right[1][idx]
+            up_r = n3_r if attr == "below_npsh3_m_h" else guidance.head(n3_r)
             # trapezoid rule on a fully fresh piece drawn by lines
-            d = np.where(full & np.isfinite(right[0]), 0.5 * (d + d_r), d)
-        setattr(out, attr, float(np.sum(np.where(banded, d, 0.0) * hours)))
-    below = banded & (code == states.BELOW_NPSH3)
+            d = np.where(full & np.isfinite(a_r), 0.5 * (d + _depth(up_r, a_r)), d)
+        setattr(out, attr, float(np.sum(d * hours)))
+    below = code[idx] == states.BELOW_NPSH3
     if below.any():
-        cont = np.zeros(len(grid), dtype=bool)
-        cont[1:] = below[1:] & below[:-1] & full[:-1]
-        run_id = np.cumsum(~cont)
-        sums = np.bincount(run_id[below], weights=fresh[below])
+        # a stretch continues while the next piece follows on directly, fresh to its end
+        follows = np.zeros(len(idx), dtype=bool)
+        follows[1:] = (idx[1:] == idx[:-1] + 1) & below[1:] & below[:-1] & full[:-1]
+        run_id = np.cumsum(~follows)
+        sums = np.bincount(run_id[below], weights=f[below])
         best = int(np.argmax(sums))
         out.longest_below_npsh3_h = float(sums[best] / NS_PER_HOUR)
-        first = int(np.flatnonzero(run_id == best)[0])
-        out.longest_start = pd.Timestamp(int(grid[first]), tz="UTC")
+        first = int(np.flatnonzero((run_id == best) & below)[0])
+        out.longest_start = pd.Timestamp(int(g[first]), tz="UTC")
     return out
