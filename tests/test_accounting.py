@@ -112,3 +112,43 @@ def test_identity_holds_through_the_loader(tmp_path_factory, data):
         assert by_kind.to_numpy() == pytest.approx([48.0, 48.0], rel=1e-12)
     else:  # a tag absent from every file: the pump is listed as not screened, with the reason
         assert "not found" in r.problems["message"].iloc[0]
+
+
+@settings(max_examples=100, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(
+    ps=tag_series("PS", -1e4, 5e5),
+    tt=tag_series("TT", 250.0, 700.0),
+    ft=tag_series("FT", -0.01, 0.05),
+    sp=tag_series("ST", 0.0, 2000.0),
+    run=tag_series("RUN", 0.0, 1.0),
+    linear=st.lists(st.booleans(), min_size=4, max_size=4),
+    interval_min=st.integers(1, 600),
+    stale_min=st.integers(1, 240),
+    settle_min=st.integers(0, 30),
+    window_min=st.integers(1, 3 * 1440),
+    start_offset=st.integers(0, 600),
+)
+def test_hours_add_up_with_lines_and_starts(
+    ps, tt, ft, sp, run, linear, interval_min, stale_min, settle_min, window_min, start_offset
+):
+    """The same identity with compressed records drawn by lines (band crossings cut into the
+    pieces, see screening.engine.timeline) and a settling time after each start."""
+    start = START + pd.Timedelta(minutes=start_offset)
+    end = start + pd.Timedelta(minutes=window_min)
+    edges = _day_edges(start, end, "Europe/Berlin")
+    s = Settings(stale_min * 60.0, None, 0.05, 0.2, 2.0, 0.0, settle_after_start=settle_min * 60.0)
+    tags = {"suction": ps, "temperature": tt, "flow": ft, "speed": sp}
+    for series, drawn in zip(tags.values(), linear, strict=True):
+        if drawn:
+            series.max_interval = interval_min * 60.0
+    result = calculate_pump(
+        PUMP, CURVE, Guidance(1.1, 0.6, "test"), fluid_table("Water"), {**tags, "run": run},
+        None, s, start.value, end.value, edges,
+    )  # fmt: skip
+    window_h = (end.value - start.value) / NS_PER_HOUR
+    assert result.hours.sum() == pytest.approx(window_h, rel=1e-12, abs=1e-12)
+    assert np.all(result.hours >= 0)
+    assert result.region_hours.sum() == pytest.approx(window_h, rel=1e-12, abs=1e-12)
+    np.testing.assert_allclose(result.daily.sum(axis=1), per_day_h(edges), rtol=1e-12, atol=1e-12)
+    assert result.severity.below_npsh3_m_h >= 0
+    assert result.severity.longest_below_npsh3_h <= result.hours[0] + 1e-12

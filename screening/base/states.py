@@ -12,6 +12,9 @@ Other states:
 - ``stopped``: the pump was not running.
 - ``no_data``: a needed tag had no sample, or its last sample was older than its stale limit.
 - ``bad_data``: a needed tag held a bad sample (text, bad quality, frozen, impossible value).
+- ``starting``: running, within the settling time after a start (``[running]
+  settle_after_start``): the short low-margin moments of a start are counted here, apart from
+  the bands, and left out of the required setpoints.
 
 Cavitation can begin well above NPSH3; the names say where the margin stood against the
 policy, not that the pump did or did not cavitate.
@@ -27,6 +30,7 @@ OFF_CURVE = 4
 STOPPED = 5
 NO_DATA = 6
 BAD_DATA = 7
+STARTING = 8
 
 #: State names, indexed by state code.
 STATES: tuple[str, ...] = (
@@ -38,8 +42,10 @@ STATES: tuple[str, ...] = (
     "stopped",
     "no_data",
     "bad_data",
+    "starting",
 )
 #: The margin bands (running with a known NPSH3).
 BANDS: tuple[str, ...] = STATES[:4]
-#: States in which the pump was running.
+#: States in which the pump was running with its margin screened (the bands and off_curve);
+#: ``starting`` is running too, but not screened.
 RUNNING: tuple[str, ...] = STATES[:5]

@@ -12,7 +12,6 @@ nanoseconds until the very end, so the hours of all states add up to the window.
 
 from __future__ import annotations
 
-import dataclasses
 import functools
 from dataclasses import dataclass, field
 
@@ -20,12 +19,18 @@ import numpy as np
 import pandas as pd
 
 from screening.base import states
-from screening.base.kernels import hold, union_sorted
-from screening.engine import field_head, lineflow, plotdata
-from screening.inputs.quality import frozen_samples
-from screening.inputs.register import PumpSpec, TagSpec
+from screening.engine import field_head, lineflow, plotdata, severity
+from screening.engine.timeline import (
+    NEVER,
+    Held,
+    Timeline,
+    align,
+    any_linear,
+    crossings,
+    held_at,
+)
+from screening.inputs.register import PumpSpec
 from screening.inputs.tagdata import TagSeries
-from screening.inputs.units import to_si
 from screening.physics import npsh, regions, suction
 from screening.physics.atmosphere import standard_pressure
 from screening.physics.curves import Npsh3Curve
@@ -34,7 +39,6 @@ from screening.physics.properties import FluidTable
 from screening.physics.regions import operating_region, pump_region_edges
 
 NS_PER_HOUR = 3_600_000_000_000
-_NEVER = np.iinfo(np.int64).min // 4
 
 
 @dataclass
@@ -58,6 +62,7 @@ class Settings:
     speed_scaling_range: tuple[float, float] = (0.8, 1.2)
     barometer_tolerance: float = 5000.0
     min_stable_flow_fraction: float | None = None  # [-] of BEP flow, plant-wide; None: none
+    settle_after_start: float = 0.0  # [s] after each start counted as starting; 0: none
 
 
 @dataclass
@@ -78,59 +83,12 @@ class PumpResult:
     worst_guidance_margin_m: float = np.nan  # [m] least NPSHa − guidance head
     below_vapour_hours: float = 0.0  # [h] running with p_abs < p_v: impossible, a data fault
     below_vapour_first: pd.Timestamp | None = None
+    #: metre-hours below NPSH3 and guidance, longest time below NPSH3 (engine/severity.py)
+    severity: severity.Severity = field(default_factory=severity.Severity)
     plot: pd.DataFrame | None = field(default=None, repr=False)  # min/max per time bucket
     points: dict | None = field(default=None, repr=False)  # operating-point histogram
     series: pd.DataFrame | None = field(default=None, repr=False)
     evidence: field_head.FieldEvidence | None = field(default=None, repr=False)
-
-
-def _at(time_ns: int, what: str) -> str:
-    return f"sample at {pd.Timestamp(int(time_ns), tz='UTC').isoformat()}: {what}"
-
-
-def prepare_tag(
-    series: TagSeries | None, spec: TagSpec, settings: Settings, role: str, check=None
-) -> TagSeries | None:
-    """Convert a tag's raw values to SI, flag frozen and impossible samples (counted)."""
-    if series is None:
-        return None
-    # a tag may serve several pumps (a shared basin temperature): count per pump
-    q = dataclasses.replace(
-        series.quality,
-        words=dict(series.quality.words),
-        first_problem=dict(series.quality.first_problem),
-    )
-    if spec.kind == "status":
-        values = series.values.copy()
-    elif spec.kind == "percent":  # a level in % of span: low + %·(high − low)/100 [m]
-        with np.errstate(over="ignore", invalid="ignore"):
-            values = series.values * spec.scale + spec.offset
-    else:
-        with np.errstate(over="ignore"):  # an overflow is counted below
-            values = to_si(series.values, spec.unit, spec.kind)
-            if spec.scale != 1.0:  # a drive frequency: n = n_rated·f/f_rated (register)
-                values = values * spec.scale
-    bad = series.bad.copy()
-    # a finite reading that overflows on conversion (1e308 kPa) is not a number either
-    overflow = ~np.isfinite(values) & ~bad
-    if overflow.any():
-        q.not_finite += int(overflow.sum())
-        bad |= overflow
-        q.note("not_finite", _at(series.times[overflow][0], "too large to convert to SI"))
-    if settings.frozen_after is not None and role != "run":
-        frozen = frozen_samples(series.times, values, bad, int(settings.frozen_after * 1e9))
-        frozen &= ~bad
-        if frozen.any():
-            q.frozen = int(frozen.sum())
-            bad |= frozen
-    if check is not None:
-        with np.errstate(invalid="ignore"):
-            impossible = check(values) & ~bad
-        if impossible.any():
-            q.out_of_range = int(impossible.sum())
-            bad |= impossible
-            q.note("out_of_range", _at(series.times[impossible][0], "physically impossible"))
-    return TagSeries(series.tag, series.times, values, bad, q)
 
 
 def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str, line_q=None):
@@ -178,20 +136,6 @@ def _weigh(code, until, grid, t_next, day, n_days: int, n_states: int):
 @functools.lru_cache(maxsize=16)
 def _standard_pressure(elevation: float) -> float:
     return standard_pressure(elevation)
-
-
-class _Held:
-    """A tag's last sample at each grid point, with the time until which it stays fresh."""
-
-    def __init__(self, s: TagSeries | None, grid: np.ndarray, stale_ns: int):
-        if s is None or len(s.times) == 0:
-            self.value = np.full(len(grid), np.nan)
-            self.bad = np.zeros(len(grid), dtype=bool)
-            self.until = np.full(len(grid), _NEVER, dtype=np.int64)
-            return
-        self.value, self.bad, self.until = hold(
-            s.times, s.values, s.bad, grid, np.int64(stale_ns), np.int64(_NEVER)
-        )
 
 
 def calculate_pump(
@@ -244,14 +188,21 @@ def calculate_pump(
         The pump's discharge pressure and vibration tags, for the field evidence
         (:mod:`screening.engine.field_head`); None (no such tags) costs nothing.
     """
-    timeline = _align(pump, tags, barometer, settings, start_ns, end_ns, day_edges)
+    probe = functools.partial(_probe, pump, curve, table, tags, barometer, settings)
+    timeline = _timeline(
+        pump, curve, guidance, tags, barometer, settings, start_ns, end_ns, day_edges, probe
+    )
     run = _decide_running(pump, timeline, settings)
     phys = _evaluate(pump, curve, table, timeline, barometer, settings, run)
     code, until, all_bad = _classify_margin(phys, run, guidance, settings)
     rcode, r_until = _classify_region(pump, curve, timeline.held, phys, run, settings)
+    if settings.settle_after_start > 0:
+        _mark_starting(timeline.grid, run, code, rcode, int(settings.settle_after_start * 1e9))
+    # the pieces' right ends (just before the next piece) where inputs are drawn by lines
+    ends = probe(timeline.t_next - 1)[2] if any_linear(tags) else None
     result = _summarise(
         pump, curve, guidance, settings, timeline, run, phys, (code, until, all_bad),
-        (rcode, r_until), start_ns, end_ns, day_edges, keep_series, plot_buckets,
+        (rcode, r_until), start_ns, end_ns, day_edges, keep_series, plot_buckets, ends,
     )  # fmt: skip
     if field_inputs is not None:  # on the same pieces and states: nothing added to the hours
         result.evidence = field_head.field_evidence(
@@ -260,14 +211,65 @@ def calculate_pump(
     return result
 
 
-@dataclass
-class _Timeline:
-    """The pump's pieces: their start times [ns], the next piece's start [ns] and every tag
-    held on them."""
+def _probe(pump, curve, table, tags, barometer, settings, times: np.ndarray):
+    """The running decision and the physics at sorted instants ``times`` [ns], every tag
+    held or drawn as on the timeline."""
+    tl = Timeline(times, times, held_at(pump, tags, times, settings.stale_limit))
+    run = _decide_running(pump, tl, settings)
+    return tl, run, _evaluate(pump, curve, table, tl, barometer, settings, run)
 
-    grid: np.ndarray
-    t_next: np.ndarray
-    held: dict[str, _Held]
+
+def _codes_at(pump, curve, guidance, settings, probe, times: np.ndarray) -> np.ndarray:
+    """Margin and region state at the instants ``times`` [ns], as one code (16·margin +
+    region) whose changes are the cuts of :func:`screening.engine.timeline.crossings`."""
+    tl, run, phys = probe(times)
+    code, _, _ = _classify_margin(phys, run, guidance, settings)
+    rcode, _ = _classify_region(pump, curve, tl.held, phys, run, settings)
+    return code.astype(np.int64) * 16 + rcode
+
+
+def _timeline(pump, curve, guidance, tags, barometer, settings, start_ns, end_ns, day_edges, probe):
+    """The pump's pieces: cut at every sample, and where inputs are drawn by lines also at
+    every change of state inside a piece; with a settling time also where each start's
+    settling time ends (see :mod:`screening.engine.timeline`)."""
+
+    def cut(extra=None) -> Timeline:
+        return align(pump, tags, barometer, settings.stale_limit, start_ns, end_ns, day_edges,
+                     extra)  # fmt: skip
+
+    tl = cut()
+    extra = np.empty(0, dtype=np.int64)
+    if any_linear(tags):
+        codes = functools.partial(_codes_at, pump, curve, guidance, settings, probe)
+        extra = crossings(tl.grid, tl.t_next, codes)
+        if len(extra):
+            tl = cut(extra)
+    if settings.settle_after_start > 0:
+        run = _decide_running(pump, tl, settings)
+        settled = tl.grid[_starts(tl.grid, run)] + int(settings.settle_after_start * 1e9)
+        settled = settled[(settled > start_ns) & (settled < end_ns)]
+        if len(settled):
+            tl = cut(np.union1d(extra, settled))
+    return tl
+
+
+def _starts(grid: np.ndarray, run) -> np.ndarray:
+    """Pieces where the pump starts: running after a piece in which it was stopped."""
+    on = run.running & ~run.decide_bad
+    off = ~run.running & ~run.decide_bad
+    start = np.zeros(len(grid), dtype=bool)
+    start[1:] = on[1:] & off[:-1]
+    return start
+
+
+def _mark_starting(grid, run, code, rcode, settle_ns: int) -> None:
+    """Running pieces less than ``settle_ns`` [ns] after the pump's latest start are counted
+    as starting (margin and region), unless their data are bad; in place."""
+    begun = _starts(grid, run)
+    last = np.maximum.accumulate(np.where(begun, grid, NEVER))
+    starting = run.running & ~run.decide_bad & (grid < last + settle_ns)
+    code[starting & (code <= states.OFF_CURVE)] = states.STARTING
+    rcode[starting & (rcode <= regions.BEYOND_ALLOWABLE)] = regions.STARTING
 
 
 @dataclass
@@ -306,52 +308,7 @@ class _Physics:
 OWN_ROLES = ("suction", "temperature", "flow", "speed", "run", "level", "vessel_pressure")
 
 
-def _align(pump, tags, barometer, settings, start_ns, end_ns, day_edges) -> _Timeline:
-    """Cut the window at every sample time of any tag, the window start and local midnights
-    [ns]; hold every tag on the pieces up to its stale limit."""
-
-    def stale_ns(spec: TagSpec | None) -> int:
-        limit = (
-            settings.stale_limit if spec is None or spec.stale_limit is None else (spec.stale_limit)
-        )
-        return int(round(limit * 1e9))
-
-    # --- the grid: every sample time in the window, the window start and local midnights
-    parts = [np.array([start_ns], dtype=np.int64), day_edges[:-1]]
-    seen: list[np.ndarray] = []
-    for s in list(tags.values()) + [barometer]:
-        if s is not None and len(s.times):
-            lo, hi = np.searchsorted(s.times, [start_ns, end_ns])
-            piece = s.times[lo:hi]
-            # tags of one wide file share their times: add each distinct time axis once
-            if not any(len(x) == len(piece) and np.array_equal(x, piece) for x in seen):
-                seen.append(piece)
-    header = tags.get("header_flow") if pump.header_flow is not None else None
-    if header is not None and len(header.times):
-        # a shared line's header flow: where its samples go stale the line's flow falls back
-        # to the members' sum, so those instants cut the pieces too
-        expiry = header.times + stale_ns(pump.header_flow)
-        parts.append(expiry[(expiry > start_ns) & (expiry < end_ns)])
-    # every part is sorted: merge them one by one into the sorted unique grid
-    grid = np.unique(np.concatenate(parts))
-    for piece in seen:
-        grid = union_sorted(grid, np.ascontiguousarray(piece))
-    t_next = np.append(grid[1:], end_ns)
-    roles = {
-        "suction": pump.suction,
-        "temperature": pump.temperature,
-        "flow": pump.flow,
-        "speed": pump.speed,
-        "run": pump.run,
-        "level": pump.level,
-        "vessel_pressure": pump.vessel_pressure,
-    }
-    roles.update({"header_flow": pump.header_flow, **pump.peer_tags()})
-    held = {r: _Held(tags.get(r), grid, stale_ns(spec)) for r, spec in roles.items() if spec}
-    return _Timeline(grid, t_next, held)
-
-
-def _decide_running(pump: PumpSpec, timeline: _Timeline, settings: Settings) -> _Running:
+def _decide_running(pump: PumpSpec, timeline: Timeline, settings: Settings) -> _Running:
     """Running or stopped: the run status, else flow [m³/s] (and speed [rpm]) against their
     fractions of BEP flow and rated speed. A running piece needs all the pump's own tags, and
     on a shared suction line the line's total flow (:mod:`screening.engine.lineflow`)."""
@@ -386,7 +343,7 @@ def _barometric(barometer, grid, settings: Settings) -> tuple[np.ndarray, np.nda
     baro = np.full(len(grid), p_std)
     baro_used = np.zeros(len(grid), dtype=bool)
     if barometer is not None and len(barometer.times):
-        hb = _Held(barometer, grid, int(round(settings.barometer_stale_limit * 1e9)))
+        hb = Held(barometer, grid, int(round(settings.barometer_stale_limit * 1e9)))
         with np.errstate(invalid="ignore"):
             near = np.abs(hb.value - p_std) <= settings.barometer_tolerance
         fresh = ~hb.bad & (hb.until > grid) & near
@@ -395,7 +352,7 @@ def _barometric(barometer, grid, settings: Settings) -> tuple[np.ndarray, np.nda
     return baro, baro_used
 
 
-def _evaluate(pump, curve, table, timeline: _Timeline, barometer, settings, run) -> _Physics:
+def _evaluate(pump, curve, table, timeline: Timeline, barometer, settings, run) -> _Physics:
     """NPSHa and NPSH3 [m] on each piece (pure functions of SI arrays): NPSHa by ISO 9906 from a
     transmitter or ANSI/HI 1.3 from a vessel, NPSH3 by the affinity laws (see
     :mod:`screening.physics.npsh`, :mod:`screening.physics.suction`,
@@ -461,7 +418,7 @@ def _classify_region(pump, curve, held, phys: _Physics, run: _Running, settings:
 
 def _summarise(
     pump, curve, guidance, settings, timeline, run, phys, margin, region, start_ns, end_ns,
-    day_edges, keep_series, plot_buckets,
+    day_edges, keep_series, plot_buckets, ends=None,
 ) -> PumpResult:  # fmt: skip
     """Time weighting: the fresh part of each piece has its state, the rest has no data;
     hours [h] per state, day and region, the worst ratio and the optional plot data and
@@ -495,6 +452,10 @@ def _summarise(
         result.worst_time = pd.Timestamp(int(grid[i]), tz="UTC")
         _worst_margins(result, phys, guidance, banded)
     _below_vapour(result, grid, phys, code, fresh)
+    right = None if ends is None else (ends.npsha, ends.npsh3)
+    result.severity = severity.severity(
+        grid, t_next, fresh, code, (phys.npsha, phys.npsh3), guidance, right
+    )
     if pump.needs_barometer:
         counted = run.running & ~all_bad & (code != states.STOPPED)
         result.baro_fallback_hours = float(fresh[counted & ~phys.baro_used].sum() / NS_PER_HOUR)

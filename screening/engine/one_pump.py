@@ -5,13 +5,15 @@ Shared by every place that runs pumps (this process, a worker process, a Dask wo
 
 from __future__ import annotations
 
+import dataclasses
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from screening.engine.calculator import Settings, calculate_pump, prepare_tag
+from screening.engine.calculator import Settings, calculate_pump
 from screening.engine.field_head import FieldInputs
+from screening.engine.prepare import prepare_tag
 from screening.inputs.plant import Plant
 from screening.inputs.quality import sample_gaps
 from screening.inputs.tagdata import ExportError, TagQuality
@@ -34,6 +36,7 @@ def settings_for(plant: Plant) -> Settings:
         speed_scaling_range=tuple(s.running.speed_scaling_range),
         barometer_tolerance=s.site.barometer_tolerance,
         min_stable_flow_fraction=s.running.min_stable_flow_fraction,
+        settle_after_start=s.running.settle_after_start,
     )
 
 
@@ -117,12 +120,13 @@ def screen_pump(
                 f"tag {spec.tag} ({role}) could not be read from {', '.join(files)}"
                 + (f": {_files_not_read([w for w in why if w])}" if any(why) else "")
             )
+        s = _drawn(s, spec, index)
         try:
             prepared[role] = prepare_tag(s, spec, settings, role, check_range(role, pump, table))
         except UnitError as exc:
             raise ExportError(f"tag {spec.tag} ({role}): {exc}") from exc
         n += int(np.searchsorted(s.times, end_ns) - np.searchsorted(s.times, start_ns))
-        _count_gaps(prepared[role], spec, settings, start_ns, end_ns)
+        _count_gaps(prepared[role], spec, settings, start_ns, end_ns, s.max_interval)
     prepared.update(_peer_tags(pump, index, raw, settings))
     field = _field_inputs(pump, raw, settings, table, start_ns, end_ns)
     result = calculate_pump(
@@ -136,9 +140,12 @@ def screen_pump(
     return result, quality, n
 
 
-def _count_gaps(series, spec, settings, start_ns: int, end_ns: int) -> None:
-    """Gaps longer than the tag's stale limit [s] in the window [ns], into its quality."""
+def _count_gaps(series, spec, settings, start_ns: int, end_ns: int, max_interval=None) -> None:
+    """Gaps longer than the tag's stale limit [s] (a compressed record's longest interval
+    [s]) in the window [ns], into its quality."""
     limit = spec.stale_limit if spec.stale_limit is not None else settings.stale_limit
+    if max_interval is not None:  # a compressed record: gaps beyond the longest interval
+        limit = max_interval
     q = series.quality
     q.gaps, missing, q.longest_gaps = sample_gaps(
         series.times, start_ns, end_ns, int(round(limit * 1e9))
@@ -170,6 +177,16 @@ def _field_inputs(pump, raw, settings, table, start_ns: int, end_ns: int):
     return out
 
 
+def _drawn(series, spec, index):
+    """``series`` marked with how it is drawn between samples: run status always as steps,
+    analog tags as their export family (or the register) says (see
+    :meth:`ExportIndex.max_interval_of`)."""
+    if spec.kind == "status":
+        return series
+    interval = index.max_interval_of(spec.tag, spec.reconstruction)
+    return series if interval is None else dataclasses.replace(series, max_interval=interval)
+
+
 def _peer_tags(pump, index, raw, settings) -> dict:
     """The other members' flow, run and speed tags of a pump's shared suction line, in SI
     (counted under their own pumps, not here); a tag that cannot be read leaves the line's
@@ -184,6 +201,7 @@ def _peer_tags(pump, index, raw, settings) -> dict:
                 "unknown"
             )
         role = key.rpartition(":")[2]
+        s = _drawn(s, spec, index)
         try:
             out[key] = prepare_tag(s, spec, settings, role, check_range(role, pump, None))
         except UnitError as exc:

@@ -111,7 +111,12 @@ def scan(
         [settings.stale_limit, settings.frozen_after or 0.0]
         + [t.stale_limit or 0.0 for p in selected for t in plant.pumps[p].all_tags()]
     )
-    span = (start_ns - int(longest * 1e9) - 1, end_ns)
+    # a compressed record also needs the stored point after the window's end to draw the
+    # line up to it, and the point before its start within the longest interval
+    linear = [s.max_interval or plant.settings.data.max_interval for s in plant.settings.exports
+              if s.reconstruction == "linear"] or [0.0]  # fmt: skip
+    span = (start_ns - int(max(longest, max(linear)) * 1e9) - 1,
+            end_ns + int(max(linear) * 1e9))  # fmt: skip
     batches = _batches(plant, index, selected, end_ts - start_ts)
     ctx = BatchContext(
         plant, index, settings, barometer, start_ns, end_ns, edges, span, keep_series,

@@ -104,8 +104,10 @@ class ScanResult:
 #: Columns of the summary and quality tables (also when no pump could be screened).
 SUMMARY_COLUMNS = [
     "pump_id", "service", "area", "fluid", "vapour_pressure_model", "window_hours",
-    "running_hours", "below_npsh3_hours", "below_guidance_hours", "off_curve_hours",
-    "no_data_hours", "bad_data_hours", "coverage", "enough_data", "worst_ratio", "worst_time",
+    "running_hours", "below_npsh3_hours", "below_guidance_hours",
+    "below_npsh3_metre_hours", "below_guidance_metre_hours", "longest_below_npsh3_hours",
+    "longest_below_npsh3_start", "starting_hours", "off_curve_hours", "no_data_hours",
+    "bad_data_hours", "coverage", "enough_data", "worst_ratio", "worst_time",
     "worst_margin_m", "worst_margin_to_guidance_m",
     "guidance_ratio", "guidance_margin_m", "guidance_source", "suction_energy_us",
     "suction_energy_class", "suction_specific_speed_us",
@@ -139,7 +141,8 @@ def _summary_row(plant, r) -> dict:
     h = dict(zip(names, r.hours, strict=True))
     rh = dict(zip(regions.REGIONS, r.region_hours, strict=True))
     s_us = pump_suction_specific_speed(plant, r.pump_id)
-    running = sum(h[s] for s in states.RUNNING)
+    running = sum(h[s] for s in states.RUNNING) + h["starting"]
+    sev = r.severity
     coverage = 1.0 - (h["no_data"] + h["bad_data"]) / r.window_hours
     return {
         "pump_id": r.pump_id,
@@ -153,6 +156,14 @@ def _summary_row(plant, r) -> dict:
         "running_hours": running,
         "below_npsh3_hours": h["below_npsh3"],
         "below_guidance_hours": h["below_npsh3"] + h["below_guidance"],
+        # severity: depth times duration [m·h] and the longest stretch below NPSH3 [h]
+        "below_npsh3_metre_hours": sev.below_npsh3_m_h,
+        "below_guidance_metre_hours": sev.below_guidance_m_h,
+        "longest_below_npsh3_hours": sev.longest_below_npsh3_h,
+        "longest_below_npsh3_start": (
+            sev.longest_start.tz_convert(plant.timezone) if sev.longest_start is not None else None
+        ),
+        "starting_hours": h["starting"],
         "off_curve_hours": h["off_curve"],
         "no_data_hours": h["no_data"],
         "bad_data_hours": h["bad_data"],
@@ -209,14 +220,17 @@ def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_
     hours = pd.DataFrame(hours_rows, columns=["pump_id", "kind", "state", "hours"])
     summary = pd.DataFrame(summary_rows, columns=SUMMARY_COLUMNS)
     if len(summary):
-        # pumps with enough data ranked by exposure; those without are listed after them,
-        # least covered first, never among the healthy
+        # pumps with enough data ranked by severity (depth times duration below NPSH3, then
+        # below guidance: a string of short dips weighs less than one long deep stretch); those
+        # without enough data are listed after them, least covered first, never among the
+        # healthy
         summary["_thin_coverage"] = np.where(summary["enough_data"], 0.0, summary["coverage"])
         summary = (
             summary.sort_values(
-                ["enough_data", "_thin_coverage", "below_npsh3_hours", "below_guidance_hours",
+                ["enough_data", "_thin_coverage", "below_npsh3_metre_hours",
+                 "below_guidance_metre_hours", "below_npsh3_hours", "below_guidance_hours",
                  "pump_id"],
-                ascending=[False, True, False, False, True],
+                ascending=[False, True, False, False, False, False, True],
             )
             .drop(columns="_thin_coverage")
             .reset_index(drop=True)

@@ -147,16 +147,22 @@ class DataRules(_Strict):
     #: Share of the window a pump's data must cover (not no data, not bad data) for its hours
     #: to be ranked; below it the pump is listed as "not enough data to screen" [-].
     min_coverage: float = Field(0.9, ge=0.0, le=1.0)
+    #: Longest interval between two stored points of a compressed ("recorded values") export
+    #: [s]: the historian's maximum archive interval. Between two points closer than this the
+    #: value is a straight line; a point with no successor within it stands for at most this
+    #: long, and the rest of the gap is no data. 8 h is a common setting; the historian's own
+    #: setting governs. Per export family in ``[[exports]] max_interval``.
+    max_interval: float = 8 * 3600.0
 
-    _dur = field_validator("stale_limit", "frozen_after", mode="before")(
+    _dur = field_validator("stale_limit", "frozen_after", "max_interval", mode="before")(
         lambda v: None if v in (None, "", "none", "off") else _duration(v)
     )
 
-    @field_validator("stale_limit")
+    @field_validator("stale_limit", "max_interval")
     @classmethod
-    def _positive(cls, v: float) -> float:
-        if v <= 0:
-            raise ValueError("stale_limit must be a positive duration such as '5 min'")
+    def _positive(cls, v: float, info) -> float:
+        if v is None or v <= 0:
+            raise ValueError(f"{info.field_name} must be a positive duration such as '5 min'")
         return v
 
 
@@ -190,6 +196,11 @@ class Running(_Strict):
     #: are flagged "minimum flow not registered" (vendors state 25-40 % of BEP typically,
     #: common practice; the vendor's figure governs).
     min_stable_flow_fraction: float | None = Field(None, gt=0, lt=1)
+    #: Time after each start (stopped to running) counted as "starting" [s]: left out of the
+    #: margin bands, the operating regions and the required setpoints. 0: none.
+    settle_after_start: float = 0.0
+
+    _settle = field_validator("settle_after_start", mode="before")(lambda v: _duration(v))
 
     @field_validator("speed_scaling_range")
     @classmethod
@@ -260,6 +271,22 @@ class ExportSource(_Strict):
     max_csv_mb: float = Field(
         2000.0, gt=0, le=1e7, description="largest CSV file read [MB, uncompressed]"
     )
+    #: How the values between two samples are drawn: "step" (a sample holds up to the stale
+    #: limit: sampled exports) or "linear" (straight lines between stored points, up to
+    #: ``max_interval``: compressed "recorded values" exports). Run-status tags are steps.
+    reconstruction: Literal["step", "linear"] = "step"
+    #: Longest interval between stored points of this family [s]; None: ``[data]``'s.
+    max_interval: float | None = None
+
+    @field_validator("max_interval", mode="before")
+    @classmethod
+    def _interval(cls, v):
+        if v is None:
+            return None
+        seconds = _duration(v)
+        if seconds <= 0:
+            raise ValueError("max_interval must be a positive duration such as '8 h'")
+        return seconds
 
     @model_validator(mode="after")
     def _keys_of_layout(self) -> ExportSource:
@@ -268,11 +295,14 @@ class ExportSource(_Strict):
                 raise ValueError(
                     "layout 'dataset' needs 'path': the folder written by 'pumpscreen ingest'"
                 )
-            other = sorted(self.model_fields_set - {"layout", "path"})
+            other = sorted(
+                self.model_fields_set - {"layout", "path", "reconstruction", "max_interval"}
+            )
             if other:
                 raise ValueError(
                     f"key(s) {', '.join(other)} do not apply to layout 'dataset' (it takes "
-                    "only 'path'; the dataset's manifest describes its columns)"
+                    "only 'path', 'reconstruction' and 'max_interval'; the dataset's manifest "
+                    "describes its columns)"
                 )
         else:
             if self.path is not None:

@@ -197,6 +197,36 @@ class ExportIndex:
             out += self._datasets[f.path].tag_files.get(tag, []) if f.fmt == "dataset" else [f.path]
         return out
 
+    def max_interval_of(self, tag: str, override: str | None = None) -> float | None:
+        """How ``tag`` is drawn between samples, from its export family (``[[exports]]
+        reconstruction``) or ``override`` ("step" or "linear", the register's): None for steps,
+        else the longest interval between stored points [s] (the family's ``max_interval``,
+        else ``[data] max_interval``). A tag found in families that disagree needs the
+        register's word.
+        """
+        default = self.plant.data.max_interval
+        found = {
+            (f.source.reconstruction, f.source.max_interval or default)
+            for f in self._by_tag.get(tag, [])
+        }
+        if override is not None:
+            intervals = {m for r, m in found if r == "linear"} or {default}
+            return None if override == "step" else max(intervals)
+        if len(found) > 1:
+            files = ", ".join(str(f.path) for f in self._by_tag[tag][:4])
+            raise ExportError(
+                f"tag {tag} is in export families drawn differently ({files}): give its "
+                "reconstruction ('step' or 'linear') in the register's reconstruction column"
+            )
+        if not found:
+            return None
+        how, interval = found.pop()
+        return interval if how == "linear" else None
+
+    def any_linear(self) -> bool:
+        """Whether any export family is a compressed record drawn by lines."""
+        return any(s.reconstruction == "linear" for s in self.plant.exports)
+
     def data_span(self) -> tuple[int, int] | None:
         """First and last placed sample time of all export files [ns, UTC], or None when they
         hold none. Reads every file's time column (or the Parquet statistics): for the message

@@ -22,6 +22,8 @@ class TagSpec:
     #: Added after the scale [SI]: a level in per cent of span becomes metres,
     #: span_low + % / 100 · (span_high − span_low).
     offset: float = 0.0
+    #: "step" or "linear" for this tag whatever its export family says; None: the family's.
+    reconstruction: str | None = None
 
 
 @dataclass(frozen=True)

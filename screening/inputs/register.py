@@ -9,6 +9,7 @@ valid. A bad row concerns only its pump: it is reported and the rest of the regi
 from __future__ import annotations
 
 import csv
+import functools
 import io
 import re
 from dataclasses import dataclass
@@ -88,6 +89,7 @@ OPTIONAL = (
     "impeller_eyes",
     "impeller_eye_diameter",
     "stale_limit",
+    "reconstruction",
     "suction_specific_speed",
     "guidance_ratio",
     "guidance_margin",
@@ -269,36 +271,74 @@ def _empty_cells(r: _Row) -> None:
         )
 
 
+def _reconstruction(r) -> dict[str, str]:
+    """The ``reconstruction`` cell: one word for all the row's analog tags ("step" or
+    "linear"), or ``role=word`` pairs separated by ';' (``temperature=step; flow=linear``);
+    role "" stands for all."""
+    text = r.text("reconstruction", required=False)
+    if not text:
+        return {}
+    out = {}
+    for part in text.split(";"):
+        role, _, word = part.rpartition("=")
+        role, word = role.strip().lower(), word.strip().lower()
+        if word not in ("step", "linear") or (role and role not in _ANALOG_ROLES):
+            r.fail(
+                "reconstruction",
+                f"{part.strip()!r} is not 'step', 'linear' or role=step|linear with a role of "
+                f"{', '.join(_ANALOG_ROLES)}",
+            )
+        out[role] = word
+    return out
+
+
+#: Roles whose tags may be drawn as lines (run status is always a step).
+_ANALOG_ROLES = (
+    "suction", "temperature", "flow", "speed", "level", "vessel_pressure", "header_flow",
+)  # fmt: skip
+
+
+def _reference(r: _Row, column: str) -> bool:
+    """A pressure's reference column: True for gauge, False for absolute."""
+    value = r.text(column)
+    if value.lower() not in ("gauge", "absolute"):
+        r.fail(column, f"{value!r} is not 'gauge' or 'absolute'")
+    return value.lower() == "gauge"
+
+
+def _suction_fields(r: _Row, tag) -> tuple[str, dict]:
+    """How the suction is measured (``transmitter`` or ``vessel``) and its register fields."""
+    reference = functools.partial(_reference, r)
+    source = (r.text("suction_source", required=False) or "transmitter").lower()
+    if source not in ("transmitter", "vessel"):
+        r.fail("suction_source", f"{source!r} is not 'transmitter' or 'vessel'")
+    if source == "transmitter":
+        return source, transmitter_fields(r, tag, reference)
+    fields = {"suction": None, "gauge": False, "tap_elevation": 0.0, "tap_bore": 1.0}
+    fields.update(vessel_fields(r, tag, reference))
+    return source, fields
+
+
 def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
     r = _Row(path, line, row, units)
     _empty_cells(r)
     stale = r.quantity("stale_limit", "duration", required=False)
     if stale is not None and not 0 < stale <= MAX_STALE_LIMIT:
         r.fail("stale_limit", "must be a positive duration up to 366 days, such as '15 min'")
+    recon = _reconstruction(r)
 
     def tag(role: str, kind: str, required: bool = True) -> TagSpec | None:
         name = r.text(f"{role}_tag", required)
         if name is None:
             return None
+        key = "suction" if role == "suction_pressure" else role
+        drawn = recon.get(key, recon.get(""))
         if kind == "percent":  # per cent of a span, scaled by the caller
-            return TagSpec(name, "%", kind, stale)
+            return TagSpec(name, "%", kind, stale, reconstruction=drawn)
         unit = r.unit(f"{role}_unit", kind)
-        return TagSpec(name, unit, kind, stale)
+        return TagSpec(name, unit, kind, stale, reconstruction=drawn)
 
-    def reference(column: str) -> bool:
-        value = r.text(column)
-        if value.lower() not in ("gauge", "absolute"):
-            r.fail(column, f"{value!r} is not 'gauge' or 'absolute'")
-        return value.lower() == "gauge"
-
-    source = (r.text("suction_source", required=False) or "transmitter").lower()
-    if source not in ("transmitter", "vessel"):
-        r.fail("suction_source", f"{source!r} is not 'transmitter' or 'vessel'")
-    if source == "transmitter":
-        suction_fields = transmitter_fields(r, tag, reference)
-    else:
-        suction_fields = {"suction": None, "gauge": False, "tap_elevation": 0.0, "tap_bore": 1.0}
-        suction_fields.update(vessel_fields(r, tag, reference))
+    source, suction_fields = _suction_fields(r, tag)
     run_name = r.text("run_tag", required=False)
     rated = r.quantity("rated_speed", "speed")
     if rated <= 0:
@@ -348,7 +388,7 @@ def _pump_from_row(path, line, row, units, default_stale) -> PumpSpec:
         **suction_fields,
         **line_fields(r, tag, source),
         **datum_fields(r),
-        **field_fields(r, tag, reference),
+        **field_fields(r, tag, functools.partial(_reference, r)),
     )
 
 

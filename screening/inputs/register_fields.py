@@ -8,6 +8,7 @@ Each function takes the row reader of :mod:`screening.inputs.register` (``r``: `
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import replace
 
 from screening.inputs.pumpspec import SuctionLine, TagSpec
@@ -53,7 +54,7 @@ def speed_fields(r, speed: TagSpec | None, rated: float) -> dict:
     f_rated = r.quantity("rated_frequency", "speed")
     if f_rated <= 0:
         r.fail("rated_frequency", "must be a positive frequency such as '50 Hz'")
-    spec = TagSpec(speed.tag, speed.unit, speed.kind, speed.stale_limit, rated / f_rated)
+    spec = dataclasses.replace(speed, scale=rated / f_rated)
     return {"speed": spec, "speed_signal": signal, "rated_frequency": f_rated / 60.0}
 
 

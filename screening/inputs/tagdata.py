@@ -72,6 +72,10 @@ class TagSeries:
     values: np.ndarray
     bad: np.ndarray
     quality: TagQuality
+    #: None: samples are steps (each holds up to the stale limit). A number [s]: stored points
+    #: of a compressed record, joined by straight lines where no more than this apart (see
+    #: :mod:`screening.engine.timeline`).
+    max_interval: float | None = None
 
 
 def as_text(value) -> str | None:

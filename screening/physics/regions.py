@@ -29,8 +29,9 @@ BEYOND_ALLOWABLE = 4
 STOPPED = 5
 NO_DATA = 6
 BAD_DATA = 7
+STARTING = 8
 
-#: Region state names, indexed by code (the last three as for the margin states).
+#: Region state names, indexed by code (the last four as for the margin states).
 REGIONS: tuple[str, ...] = (
     "below_min_flow",
     "low_flow",
@@ -40,6 +41,7 @@ REGIONS: tuple[str, ...] = (
     "stopped",
     "no_data",
     "bad_data",
+    "starting",
 )
 #: Regions in which the pump was running.
 RUNNING_REGIONS: tuple[str, ...] = REGIONS[:5]
@@ -155,7 +157,12 @@ def _check_codes() -> None:
     from screening.base import states
 
     # the time weighting writes stale time to the margin states' no-data code in both kinds
-    assert (STOPPED, NO_DATA, BAD_DATA) == (states.STOPPED, states.NO_DATA, states.BAD_DATA)
+    assert (STOPPED, NO_DATA, BAD_DATA, STARTING) == (
+        states.STOPPED,
+        states.NO_DATA,
+        states.BAD_DATA,
+        states.STARTING,
+    )
 
 
 _check_codes()

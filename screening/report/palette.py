@@ -1,7 +1,8 @@
 """The report's colours: a palette of our own, readable by colour-blind readers and in grey.
 
 Worse margin is darker and warmer (brown to amber), healthy margin is blue, states without a
-margin are greys; lightness alone orders the bands, so a greyscale print keeps their order.
+margin are greys, the settling time after a start a light violet; lightness alone orders the
+bands, so a greyscale print keeps their order.
 Every bar and cell also carries a text label, so colour never carries meaning alone.
 """
 
@@ -16,6 +17,7 @@ STATE_COLOURS: dict[str, str] = {
     "stopped": "#d6d6d6",
     "no_data": "#f4f4f4",
     "bad_data": "#262626",
+    "starting": "#b9a6cf",
 }
 
 #: Fill patterns (plotly bar pattern shapes) so that the states differ without colour.
@@ -28,6 +30,7 @@ STATE_PATTERNS: dict[str, str] = {
     "stopped": "",
     "no_data": "\\",
     "bad_data": "+",
+    "starting": "|",
 }
 
 STATE_LABELS: dict[str, str] = {
@@ -39,6 +42,7 @@ STATE_LABELS: dict[str, str] = {
     "stopped": "stopped",
     "no_data": "no data",
     "bad_data": "bad data",
+    "starting": "starting (settling after a start)",
 }
 
 #: Operating regions: the preferred region in the healthy blue, low and high flow in light and
@@ -52,6 +56,7 @@ REGION_COLOURS: dict[str, str] = {
     "stopped": STATE_COLOURS["stopped"],
     "no_data": STATE_COLOURS["no_data"],
     "bad_data": STATE_COLOURS["bad_data"],
+    "starting": STATE_COLOURS["starting"],
 }
 REGION_PATTERNS: dict[str, str] = {
     "below_min_flow": "x",
@@ -62,6 +67,7 @@ REGION_PATTERNS: dict[str, str] = {
     "stopped": "",
     "no_data": "\\",
     "bad_data": "+",
+    "starting": "|",
 }
 REGION_LABELS: dict[str, str] = {
     "below_min_flow": "below minimum flow",
@@ -72,4 +78,5 @@ REGION_LABELS: dict[str, str] = {
     "stopped": "stopped",
     "no_data": "no data",
     "bad_data": "bad data",
+    "starting": "starting (settling after a start)",
 }

@@ -68,6 +68,14 @@ def _display_value(value: float, unit: str, difference: bool = False) -> str:
     return f"{value:{sign}.3f} m"
 
 
+def _one_sample(row) -> str:
+    """A 100 % limit set by one sample: when, and the 99.9 % value beside it."""
+    if not getattr(row, "set_by_one_sample", ""):
+        return ""
+    near = _display_value(row.required_99_9, row.unit) or "not needed"
+    return f"{row.set_by_one_sample}; for 99.9 %: {near}"
+
+
 def _setpoint_rows(frame: pd.DataFrame, shares: tuple[float, ...]) -> tuple[list[dict], list]:
     """One row per pump and input with the required limit at each share; pumps that met the
     guidance all the time without any change are listed apart."""
@@ -95,7 +103,7 @@ def _setpoint_rows(frame: pd.DataFrame, shares: tuple[float, ...]) -> tuple[list
                     "achieved": "" if not np.isfinite(strict.achieved_share)
                     else f"{100 * strict.achieved_share:.2f} %",
                     "cannot": _hours(strict.cannot_meet_h) if strict.cannot_meet_h else "",
-                    "note": strict.note,
+                    "note": "; ".join(x for x in (strict.note, _one_sample(strict)) if x),
                 }
             )  # fmt: skip
     return rows, fine

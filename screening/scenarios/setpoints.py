@@ -36,6 +36,7 @@ from screening.physics.npsh import G
 SETPOINT_COLUMNS = [
     "pump_id", "input", "limit", "share", "required", "unit", "today_setpoint",
     "change_from_setpoint", "recorded", "achieved_share", "cannot_meet_h", "note",
+    "set_by_one_sample", "required_99_9",
 ]  # fmt: skip
 SENSITIVITY_COLUMNS = [
     "pump_id", "flow_m3_s", "temperature_k", "suction_pressure_pa", "level_m", "npsha_m",
@@ -86,6 +87,38 @@ def floor_needed(need: np.ndarray, ok: np.ndarray, w: np.ndarray, share: float) 
     cum = have + np.cumsum(w[bad][order])
     i = min(int(np.searchsorted(cum, target, side="left")), len(cum) - 1)
     return float(need[bad][order][i])
+
+
+def one_sample(
+    need: np.ndarray, ok: np.ndarray, w: np.ndarray, times: np.ndarray
+) -> tuple[int, float] | None:
+    """Whether the 100 % low limit is set by one piece (one recorded sample's hold or line):
+    the index of that piece and the 99.9 % limit, or None.
+
+    The 100 % limit is the largest requirement of the pieces below guidance
+    (:func:`floor_needed`); when a single piece needs more than the 99.9 % limit, that one
+    sample alone sets it, and the 99.9 % value says what the rest of the record asks for.
+    Parameters are as :func:`floor_needed`; ``times`` [ns] are the pieces' starts.
+    """
+    strict = floor_needed(need, ok, w, 1.0)
+    if not np.isfinite(strict):
+        return None
+    near = floor_needed(need, ok, w, 0.999)
+    over = ~ok & (need > (near if np.isfinite(near) else -np.inf))
+    if int(over.sum()) != 1:
+        return None
+    return int(np.flatnonzero(over)[0]), near
+
+
+def _note_one_sample(row: dict, found, times, w, sign: float = 1.0) -> None:
+    """Write into ``row`` when its 100 % limit is set by one sample (:func:`one_sample`) and
+    the 99.9 % value [SI] beside it (``sign`` -1 for a high limit)."""
+    if found is not None:
+        i, near = found
+        t = pd.Timestamp(times[i])
+        when = (t.tz_localize("UTC") if t.tzinfo is None else t.tz_convert("UTC")).isoformat()
+        row["set_by_one_sample"] = f"set by one sample at {when} ({w[i] * 3600:.0f} s)"
+        row["required_99_9"] = sign * near
 
 
 def cap_needed(limit: np.ndarray, ok: np.ndarray, w: np.ndarray, share: float) -> float:
@@ -157,6 +190,7 @@ def required_setpoints(
     guide = guidance.head(series["npsh3_m"].to_numpy(dtype=np.float64)[keep])
     ok = a >= guide
     baro = series["barometric_pa"].to_numpy(dtype=np.float64)[keep]
+    times = series["time"].to_numpy()[keep] if "time" in series else np.zeros(len(w), "M8[ns]")
     rows = []
 
     as_recorded = float(w[a >= guide * (1 - REL_TOL)].sum() / w.sum())
@@ -189,6 +223,8 @@ def required_setpoints(
             achieved = met({key: np.maximum(inputs[key], req + offset)})
         rows.append(_row(pump, key, "low", share, req, unit, today, recorded_low, achieved, 0.0,
                          note))  # fmt: skip
+        if share == 1.0:
+            _note_one_sample(rows[-1], one_sample(need, ok, w, times), times, w)
 
     if pump.vessel_surface != "saturated":
         t_max = np.full(len(w), np.inf)
@@ -216,6 +252,8 @@ def required_setpoints(
             rows.append(_row(pump, "temperature", "high", share, cap, "K",
                              pump.high_temperature_setpoint, recorded_high, achieved, cannot,
                              note))  # fmt: skip
+            if share == 1.0 and np.isfinite(cap):
+                _note_one_sample(rows[-1], one_sample(-t_max, ok, w, times), times, w, -1.0)
     return rows, _sensitivity(pump, curve, table, guidance, inputs, w)
 
 
@@ -234,6 +272,8 @@ def _row(pump, key, limit, share, req, unit, today, recorded, achieved, cannot, 
         "achieved_share": achieved,
         "cannot_meet_h": cannot,
         "note": note,
+        "set_by_one_sample": "",
+        "required_99_9": np.nan,
     }
 
 
