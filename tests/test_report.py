@@ -107,7 +107,7 @@ def test_pages_say_when_the_scan_kept_no_plot_data(tmp_path):
     assert "No time plots" in (out / "pumps" / "P1.html").read_text()
     screening.write_report(screening.scan(_plant(tmp_path, 100.0), plot_buckets=100), out)
     page = (out / "pumps" / "P1.html").read_text()
-    assert "No time plots" not in page and 'id="npsh"' in page
+    assert "No time plots" not in page and 'id="timeline"' in page
 
 
 def test_markup_in_register_text_is_shown_as_text(tmp_path):

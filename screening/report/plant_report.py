@@ -21,21 +21,17 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.csv as pa_csv
-from jinja2 import Environment, PackageLoader, select_autoescape
 from plotly.offline import get_plotlyjs
 
 from screening.base import states
 from screening.base.files import atomic_folder, page_names
-from screening.base.text import hours_text
 from screening.base.version import __version__
 from screening.engine.execution import default_processes
 from screening.engine.scan import ScanResult
 from screening.inputs.window import WindowError
 from screening.physics import regions
-from screening.physics.properties import fluid_table
-from screening.report import pump_pages
 from screening.report.cautions import CAUTIONS
-from screening.report.figjson import figure_html, local_times, numbers
+from screening.report.figjson import figure_html, numbers
 from screening.report.palette import (
     REGION_COLOURS,
     REGION_LABELS,
@@ -45,12 +41,10 @@ from screening.report.palette import (
     STATE_PATTERNS,
 )
 from screening.report.pump_pages import DISPLAY_UNITS
+from screening.report.pump_writer import write_some_pages
+from screening.report.templating import ENV
 
-_ENV = Environment(
-    loader=PackageLoader("screening.report", "templates"),
-    autoescape=select_autoescape(["html"]),
-)
-_ENV.filters["hours"] = hours_text
+_ENV = ENV
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
@@ -313,7 +307,7 @@ def _pump_pages(result: ScanResult, folder: Path, pages: dict, units) -> Iterato
     n = min(default_processes(), len(pages) // (PARALLEL_PAGES // 2) or 1)
     if len(pages) < PARALLEL_PAGES or n < 2 or not sys.platform.startswith("linux"):
         yield
-        _write_some_pages(result, folder, pages, units)
+        write_some_pages(result, folder, pages, units)
         return
     items = list(pages.items())
     shares = [dict(items[i::n]) for i in range(n)]
@@ -336,79 +330,7 @@ _FORKED: dict[int, ScanResult] = {}
 
 
 def _pages_in_child(key: int, folder: Path, pages: dict, units) -> None:
-    _write_some_pages(_FORKED[key], folder, pages, units)
-
-
-def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> None:
-    plant = result.plant
-    tz = plant.timezone
-    template = _ENV.get_template("pump.html")
-    a, b = result.start.tz_convert(tz), result.end.tz_convert(tz)
-    window = f"{a:%Y-%m-%d %H:%M} to {b:%Y-%m-%d %H:%M}"
-    ample = plant.settings.policy.ample_ratio
-    # each pump's rows picked once (a mask per pump would cost pumps x rows)
-    hours_of = dict(list(result.hours.groupby("pump_id", sort=False)))
-    margin_days = result.daily[result.daily.kind == "margin"]
-    daily_of = dict(list(margin_days.groupby("pump_id", sort=False)))
-    thin = result.not_enough_data.set_index("pump_id")["coverage"].to_dict()
-    least = plant.settings.data.min_coverage
-    summary_of = {row["pump_id"]: row for row in result.summary.to_dict("records")}
-    for pid, name in pages.items():
-        pump = plant.pumps[pid]
-        g = plant.guidance[pid]
-        plot = result.plots.get(pid)
-        h = hours_of.get(pid, result.hours.iloc[:0])
-        head = ["kind", "hours per state (each kind adds up to the window)"]
-        rows = []
-        for kind, names in (("margin", states.STATES), ("region", regions.REGIONS)):
-            part = h[h.kind == kind].set_index("state")["hours"]
-            rows.append([kind] + [f"{n}: {hours_text(part.get(n, 0.0), True)}" for n in names])
-        figs = {"fig_npsh": "", "fig_ratio": "", "fig_process": "", "fig_points": ""}
-        if plot is not None and len(plot):
-            t = local_times(plot["time"], tz)  # the same time axis for the three plots
-            figs["fig_npsh"] = _fig(pump_pages.npsh_figure(plot, units, tz, t), "npsh")
-            fig = pump_pages.ratio_figure(plot, tz, g.ratio, ample, t)
-            figs["fig_ratio"] = _fig(fig, "ratio")
-            figs["fig_process"] = _fig(pump_pages.process_figure(plot, units, tz, t), "process")
-        if pid in result.points:
-            fig = pump_pages.points_figure(
-                result.points[pid], plant.curves[pump.curve_id], pump, units
-            )
-            figs["fig_points"] = _fig(fig, "points")
-        daily = daily_of.get(pid, margin_days.iloc[:0])
-        figs["fig_calendar"] = _fig(pump_pages.calendar_figure(daily), "calendar")
-        model = fluid_table(pump.fluid, pump.vapour_pressure).vapour_pressure_model
-        html = template.render(
-            pump=pump,
-            plant_name=plant.name,
-            window=window,
-            units_label=units.name,
-            hours_head=head,
-            hours_rows=rows,
-            downsample_note=(
-                f"Downsampled for the browser: the window is cut into "
-                f"{len(plot) if plot is not None else 0} time buckets and each keeps the minimum "
-                "and the maximum of every series, so short dips stay visible. Full-resolution "
-                "hours are in the tables beside this page."
-            ),
-            guidance_ratio=f"{g.ratio:.2f}",
-            guidance_margin=f"{float(units.convert(g.margin, 'length')):.2f} "
-            f"{units.label('length')}",
-            ample_ratio=f"{ample:.2f}",
-            register=pump_pages.register_rows(pump, g, model, units),
-            flags=pump_pages.pump_flags(summary_of.get(pid), units),
-            cautions=CAUTIONS,
-            thin_note=(
-                f"Not enough data to screen: usable data for {100 * thin[pid]:.1f} % of the "
-                f"window, less than the {100 * least:.0f} % asked ([data] min_coverage). The "
-                "hours here are those of the data there was; little time below the guidance "
-                "means little was seen, not that the margin was good."
-                if pid in thin
-                else ""
-            ),
-            **figs,
-        )
-        pump_pages.write_pump_page(folder / "pumps" / name, html)
+    write_some_pages(_FORKED[key], folder, pages, units)
 
 
 def _points_table(points: dict) -> pd.DataFrame:
