@@ -285,8 +285,8 @@ def figure_html(fig: dict, div_id: str) -> str:
     ``"spans"``: a list of ``{"edges": array of (start, end) pairs [ms], "shape": a layout
     shape without x0 and x1}``, drawn as one shape per pair (the first in the legend), so
     that a hundred shaded stops cost a few bytes each. The texts of its traces are made plain
-    text (:func:`plain_trace`), long numeric arrays packed (:func:`packed`), the report's look (:data:`TEMPLATE`) and
-    :data:`CONFIG` are added here. Needs plotly.min.js loaded before it.
+    text (:func:`plain_trace`), long numeric arrays packed (:func:`packed`), the report's look
+    (:data:`TEMPLATE`) and :data:`CONFIG` are added here. Needs plotly.min.js loaded before it.
     """
     timed = fig.get("times") is not None
     payload = {
