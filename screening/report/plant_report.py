@@ -43,6 +43,7 @@ from screening.report.palette import (
 from screening.report.pump_pages import DISPLAY_UNITS
 from screening.report.pump_writer import write_some_pages
 from screening.report.templating import ENV
+from screening.report.why import why_text, worst_inputs_table
 
 _ENV = ENV
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -201,6 +202,7 @@ def write_report(
         write_table(result.quality, tmp, "data_quality")
         write_table(result.problems, tmp, "not_screened")
         write_table(result.file_problems, tmp, "files_not_read")
+        write_table(worst_inputs_table(result, result.plots), tmp, "worst_inputs")
         pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
         # the pump pages are written while the tables are (in forked processes, large plants)
         stack.enter_context(_pump_pages(result, tmp, pages, DISPLAY_UNITS[units]))
@@ -237,7 +239,7 @@ def write_report(
         _write_workbook(tmp / "summary.xlsx", result, changes)
         stack.close()  # every pump page written
         (tmp / "index.html").write_text(
-            _overview_html(result, meta, pages, changes), encoding="utf-8"
+            _overview_html(result, meta, pages, changes, DISPLAY_UNITS[units]), encoding="utf-8"
         )
     return out
 
@@ -359,20 +361,58 @@ def _fig(fig: dict, div_id: str) -> str:
     return figure_html(fig, div_id)
 
 
-def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> str:
+#: Counts of the data quality table that make a tag worth listing on the overview.
+PROBLEM_COUNTS = (
+    "gaps", "text_values", "bad_quality", "not_finite", "frozen", "out_of_range",
+    "bad_timestamps", "duplicates", "out_of_order", "malformed_rows",
+)  # fmt: skip
+
+
+def problem_quality(quality: pd.DataFrame) -> pd.DataFrame:
+    """The rows of the data quality table with something counted or flagged against the tag
+    (the overview lists those; data_quality.csv keeps every tag)."""
+    if not len(quality):
+        return quality
+    cols = [c for c in PROBLEM_COUNTS if c in quality]
+    counted = quality[cols].fillna(0).sum(axis=1) > 0
+    flagged = quality["flags"].fillna("").astype(str).str.len() > 0
+    return quality[counted | flagged]
+
+
+def _ranking_row(row, units, why: str) -> dict:
+    """One row of the overview ranking: the summary row with its texts in display units."""
+    d = row._asdict()
+    length = units.convert
+    d["worst_ratio_text"] = "—" if pd.isna(row.worst_ratio) else f"{row.worst_ratio:.2f}"
+    d["worst_margin_text"] = (
+        "—" if pd.isna(row.worst_margin_m) else units.length_text(row.worst_margin_m)
+    )
+    d["worst_guidance_text"] = (
+        "—"
+        if pd.isna(row.worst_margin_to_guidance_m)
+        else f"{float(length(row.worst_margin_to_guidance_m, 'length')):+.2f}"
+    )
+    d["guidance_text"] = f"{row.guidance_ratio:.2f} / {units.length_text(row.guidance_margin_m)}"
+    d["guidance_rule"] = (
+        f"ratio {row.guidance_ratio:.2f} or NPSH3 + {units.length_text(row.guidance_margin_m)}, "
+        f"the greater; {row.guidance_source}; S = {row.suction_specific_speed_us:.0f} US "
+        f"({row.suction_specific_speed_metric:.0f} metric)"
+    )
+    d["why"] = why
+    return d
+
+
+def _overview_html(
+    result: ScanResult, meta: dict, pages=None, changes=None, units=None, trend=None
+) -> str:
     tz = result.plant.timezone
     site = result.plant.settings.site
+    units = units or DISPLAY_UNITS["si"]
     ranking = []
     for row in result.ranked.itertuples(index=False):
-        d = row._asdict()
-        d["worst_ratio_text"] = "—" if pd.isna(row.worst_ratio) else f"{row.worst_ratio:.2f}"
-        d["worst_margin_text"] = "—" if pd.isna(row.worst_margin_m) else f"{row.worst_margin_m:.2f}"
-        d["worst_guidance_text"] = (
-            "—"
-            if pd.isna(row.worst_margin_to_guidance_m)
-            else f"{row.worst_margin_to_guidance_m:+.2f}"
-        )
-        d["guidance_text"] = f"{row.guidance_ratio:.2f} or {row.guidance_margin_m:.2f} m"
+        why = why_text(row._asdict(), result.plots.get(row.pump_id), result.quality, units)
+        d = _ranking_row(row, units, why)
+        d["trend"] = trend.get(row.pump_id, "") if trend else ""
         d["page"] = f"pumps/{pages[row.pump_id]}" if pages and row.pump_id in pages else None
         d["change"] = ""
         if changes is not None:
@@ -414,10 +454,12 @@ def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> 
             for r in result.not_enough_data.to_dict("records")
         ],
         min_coverage=result.plant.settings.data.min_coverage,
-        legend=[{"label": STATE_LABELS[s], "colour": STATE_COLOURS[s]} for s in states.STATES],
         hours_figure=_hours_figure(result, "margin"),
         region_figure=_hours_figure(result, "region"),
-        quality=result.quality.to_dict("records"),
+        quality=problem_quality(result.quality).to_dict("records"),
+        n_tags=len(result.quality),
+        length_unit=units.head,
+        trend=bool(trend),
         problems=result.problems.to_dict("records"),
         file_problems=result.file_problems.to_dict("records"),
         barometer=baro,
