@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -63,6 +65,15 @@ def test_pump_pages_workbook_and_comparison(tmp_path):
     page = (after / "pumps" / "P1.html").read_text()
     assert '<script src="../plotly.min.js">' in page
     assert "head [ft]" in page  # US customary display units
+    # every number of the pages in US units: no SI unit outside the tag names and units the
+    # register gives (the transmitter's own "kPa" in the register rows)
+    for text in (html, page):
+        shown = re.sub(r'<script type="application/json".*?</script>', "", text, flags=re.S)
+        shown = shown.replace("[kPa, gauge]", "")
+        assert not re.search(r"\d (m|mm|kPa|°C)\b|\[(m|kPa|°C|m³/h)\]", shown)
+    assert "1.10 or 1.97 ft above NPSH3" in page  # 0.60 m
+    assert re.search(r"tap / [\d.]+ ft / [\d.]+ in", page)  # elevation and bore
+    assert "°F" in page and "psi" in page and "gpm" in page
     assert "screening aid, not a design or safety determination" in page
     # the numbers behind the plots are in tables beside the pages
     buckets = pd.read_parquet(after / "plot_buckets.parquet")

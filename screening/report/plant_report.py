@@ -429,11 +429,12 @@ def _overview_html(
     if site.barometer_tag:
         baro = (
             f"tag {site.barometer_tag} where fresh and plausible, otherwise the 1976 standard "
-            f"atmosphere at {site.elevation:.0f} m (hours on the standard atmosphere per pump "
-            "in summary.csv)"
+            f"atmosphere at {units.length_text(site.elevation, 0)} (hours on the standard "
+            "atmosphere per pump in summary.csv)"
         )
     else:
-        baro = f"1976 standard atmosphere at the site elevation of {site.elevation:.0f} m"
+        elevation = units.length_text(site.elevation, 0)
+        baro = f"1976 standard atmosphere at the site elevation of {elevation}"
     template = _ENV.get_template("overview.html")
     return template.render(
         plant_name=site.name,
