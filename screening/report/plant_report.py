@@ -30,6 +30,7 @@ from screening.engine.execution import default_processes
 from screening.engine.scan import ScanResult
 from screening.inputs.window import WindowError
 from screening.physics import regions
+from screening.report import trend
 from screening.report.cautions import CAUTIONS
 from screening.report.figjson import figure_html, numbers
 from screening.report.palette import (
@@ -43,6 +44,7 @@ from screening.report.palette import (
 from screening.report.pump_pages import DISPLAY_UNITS
 from screening.report.pump_writer import write_some_pages
 from screening.report.templating import ENV
+from screening.report.trend import trend_cells
 from screening.report.why import why_text, worst_inputs_table
 
 _ENV = ENV
@@ -163,7 +165,7 @@ def write_report(
     result: ScanResult,
     out: str | Path,
     units: str = "si",
-    compare_to: str | Path | None = None,
+    compare_to: str | Path | list[str | Path] | None = None,
 ) -> Path:
     """Write the report folder of a scan.
 
@@ -176,8 +178,10 @@ def write_report(
     units : str
         Display units of the HTML pages: ``"si"`` or ``"us"`` (US customary); the tables
         beside them stay SI with units in the column names.
-    compare_to : str or Path, optional
-        A previous report folder: pumps that got worse or better are marked, by how many hours.
+    compare_to : str, Path or list of them, optional
+        Earlier report folders, or folders holding them: pumps that got worse or better
+        since the latest (by window start) are marked, by how many hours, and each pump's
+        hours below the guidance per month are drawn (:mod:`screening.report.trend`).
 
     Returns
     -------
@@ -189,7 +193,7 @@ def write_report(
     out = Path(out)
     if units not in DISPLAY_UNITS:
         raise ValueError(f"display units {units!r} are not 'si' or 'us'")
-    changes = _changes(result, Path(compare_to)) if compare_to is not None else None
+    changes, months = _compared(result, compare_to)
     with atomic_folder(out, "report") as tmp, ExitStack() as stack:
         write_table(result.hours, tmp, "hours")
         summary = result.summary.copy()
@@ -227,6 +231,7 @@ def write_report(
         (tmp / "run.json").write_text(json.dumps(meta, indent=2), encoding="utf-8")
         if changes is not None:
             write_table(changes, tmp, "changes")
+            write_table(months, tmp, "monthly_hours")
         if result.plots:
             # the numbers behind the pump pages' plots, tidy, beside them
             buckets = pd.concat(
@@ -239,9 +244,36 @@ def write_report(
         _write_workbook(tmp / "summary.xlsx", result, changes)
         stack.close()  # every pump page written
         (tmp / "index.html").write_text(
-            _overview_html(result, meta, pages, changes, DISPLAY_UNITS[units]), encoding="utf-8"
+            _overview_html(
+                result,
+                meta,
+                pages,
+                changes,
+                DISPLAY_UNITS[units],
+                trend_cells(months) if months is not None else None,
+            ),
+            encoding="utf-8",
         )
     return out
+
+
+def _compared(result: ScanResult, compare_to) -> tuple:
+    """The changes since the latest earlier report and the month-by-month table, or
+    ``(None, None)`` without ``compare_to``."""
+    if compare_to is None:
+        return None, None
+    paths = [compare_to] if isinstance(compare_to, str | Path) else list(compare_to)
+    folders = trend.report_folders([Path(p) for p in paths])
+    tz = result.plant.timezone
+    past = trend.history(folders, tz)
+
+    def start(folder: Path) -> str:
+        run = json.loads((folder / "run.json").read_text(encoding="utf-8"))
+        return str(pd.Timestamp(run["window_start_utc"]).tz_convert("UTC"))
+
+    latest = max(folders, key=start)
+    month = result.start.tz_convert(tz).strftime("%Y-%m")
+    return _changes(result, latest), trend.monthly_table(past, result.summary, month)
 
 
 def _changes(result: ScanResult, previous: Path) -> pd.DataFrame:
