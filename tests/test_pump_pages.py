@@ -41,6 +41,8 @@ def _figures(html: str) -> dict[str, dict]:
     for div, text in _FIGURE.findall(html):
         fig = json.loads(text)
         times = _array(fig["times"]) if "times" in fig else None
+        if times is not None and "t0" in fig["times"]:
+            times = [fig["times"]["t0"] + v for v in times]
         for trace in fig["data"]:
             for key in ("x", "y", "z"):
                 if key in trace:
@@ -124,6 +126,8 @@ def test_pump_page_figures_parse_with_the_expected_traces(stopped_two_hours):
     assert len(stop) == 2 and stop[1] - stop[0] == pytest.approx(2 * 3600e3, abs=2 * 900e3)
     points = figs["points"]
     assert [t["type"] for t in points["data"]] == ["heatmap", "scatter", "scatter"]
+    cells = [z for z in points["data"][0]["z"] if z is not None]
+    assert sum(cells) == pytest.approx(result.points["P1"]["hours"].sum(), rel=1e-6)
     assert [t["name"] for t in points["data"][1:]] == [
         f"NPSH3 at rated speed {result.plant.pumps['P1'].rated_speed:.0f} rpm",
         "guidance NPSHa at that speed",

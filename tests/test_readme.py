@@ -76,6 +76,13 @@ def test_readme_links_pictures_cautions_and_stable_headings():
         assert " ".join(caution.split()) in " ".join(README.split()), caution
     assert "apt-get install chromium" in README and "browser test skipped" in README
     docs = "".join(p.read_text(encoding="utf-8") for p in (ROOT / "docs").glob("*.md"))
-    for heading in ("### No silent all-clear", "## States", "## Configuration reference",
-                    "## Method and sources", "## Scale", "## Performance", "## Reliability"):
+    for heading in (
+        "### No silent all-clear",
+        "## States",
+        "## Configuration reference",
+        "## Method and sources",
+        "## Scale",
+        "## Performance",
+        "## Reliability",
+    ):
         assert f"\n{heading}\n" in docs, heading  # fmt: skip

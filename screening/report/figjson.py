@@ -195,6 +195,17 @@ def quantized(values) -> dict:
     return {"q16": base64.b64encode(code.tobytes()).decode("ascii"), "lo": lo, "step": step}
 
 
+def packed_times(ms) -> dict:
+    """A sorted time axis [ms] packed: as unsigned 32-bit millisecond offsets from its first
+    time (``"t0"``) where the span allows (under 49 days: a month's window), else as float64
+    milliseconds."""
+    a = np.asarray(ms, dtype=np.float64)
+    whole = len(a) and np.all(np.isfinite(a)) and np.all(a == np.rint(a))
+    if whole and a[-1] - a[0] < 2**32 - 1:
+        return {**packed(a - a[0], "u4"), "t0": float(a[0])}
+    return packed(a, "f8")
+
+
 def _pack_trace(trace: dict, series16: bool = False) -> dict:
     """A trace with its long numeric arrays (x, y, z) packed (:func:`packed`); with
     ``series16`` a long 1-D ``y`` is :func:`quantized` instead."""
@@ -247,7 +258,9 @@ _SHARED_JS = (
     "  if (f.times) {\n"
     "    var s = atob(f.times.bdata), b = new Uint8Array(s.length);\n"
     "    for (var i = 0; i < s.length; i++) { b[i] = s.charCodeAt(i); }\n"
-    "    var t = Array.from(new Float64Array(b.buffer));\n"
+    "    var t0 = f.times.t0 || 0;\n"
+    "    var a = f.times.dtype === 'u4' ? new Uint32Array(b.buffer) : new Float64Array(b.buffer);\n"
+    "    var t = Array.from(a, function (v) { return v + t0; });\n"
     f"    f.data.forEach(function (d) {{ if (d.x === {SHARED_TIME!r}) {{ d.x = t; }} }});\n"
     "  }\n"
     "  f.data.forEach(function (d) {\n"
@@ -295,7 +308,7 @@ def figure_html(fig: dict, div_id: str) -> str:
         "config": CONFIG,
     }
     if timed:
-        payload["times"] = packed(fig["times"], "f8")
+        payload["times"] = packed_times(fig["times"])
     if fig.get("spans"):
         payload["spans"] = [
             {
