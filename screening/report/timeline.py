@@ -202,7 +202,8 @@ def time_figure(
         suffix = "" if i == 1 else str(i)
         bottom = max(0.0, top - h / plot_px)
         xaxis = {"anchor": f"y{suffix}", "domain": [0.0, 1.0], "type": "date",
-                 "tickfont": {"size": AXIS_FONT}, "showticklabels": i in (1, n)}  # fmt: skip
+                 "tickfont": {"size": AXIS_FONT}, "showticklabels": i in (1, n),
+                 "gridcolor": "#e3e3e3"}  # fmt: skip
         if i > 1:
             xaxis["matches"] = "x"
         layout[f"xaxis{suffix}"] = xaxis
