@@ -56,6 +56,13 @@ _PLOT_STATE_JS = """
 """
 
 
+# true once every plot div holds its drawn svg
+_ALL_DRAWN_JS = """
+() => Array.from(document.querySelectorAll('div.plotly-graph-div'))
+    .every((div) => div.querySelector('svg.main-svg') !== null)
+"""
+
+
 @pytest.fixture(scope="module")
 def report(tmp_path_factory) -> Path:
     out = tmp_path_factory.mktemp("browser-report") / "report"
@@ -133,9 +140,18 @@ class _Tab:
             self.problems.append(f"local load failed: {request.url} ({request.failure})")
 
     def visit(self, page_file: Path, shot: Path, need_plot: bool = True) -> list[str]:
-        """Open one page, check its plots, save a full-page screenshot; return its problems."""
+        """Open one page, check its plots, save a full-page screenshot; return its problems.
+        ``draw_s`` is then the time from the start of the navigation until every plot of
+        the page was drawn [s] (printed, never asserted: no test measures time)."""
+        from playwright.sync_api import TimeoutError as PlaywrightTimeout
+
         self.problems = []
         self.page.goto(page_file.as_uri(), wait_until="load")
+        try:
+            self.page.wait_for_function(_ALL_DRAWN_JS, timeout=30_000)
+        except PlaywrightTimeout:
+            pass  # an undrawn plot is reported below
+        self.draw_s = self.page.evaluate("performance.now()") / 1000
         plots = self.page.evaluate(_PLOT_STATE_JS)
         if not plots and need_plot:
             self.problems.append("no plot (div.plotly-graph-div) on the page")
@@ -173,7 +189,8 @@ def test_report_pages_render_offline_without_errors(browser, report, tmp_path_fa
             if problems:
                 failures[name] = problems
             opened.append(name)
-            print(f"screenshot {name}: {shot}")
+            size = page_file.stat().st_size
+            print(f"{name}: drawn in {tab.draw_s:.2f} s, {size / 1000:.0f} kB; screenshot {shot}")
     finally:
         context.close()
 
@@ -211,6 +228,7 @@ def test_onset_and_whatif_pages_render_offline_without_errors(browser, tmp_path)
     try:
         for page_file, need_plot in pages:
             problems = tab.visit(page_file, tmp_path / f"{page_file.stem}.png", need_plot)
+            print(f"{page_file.name}: drawn in {tab.draw_s:.2f} s")
             if problems:
                 failures[page_file.name] = problems
     finally:

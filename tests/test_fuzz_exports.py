@@ -43,11 +43,15 @@ SCAN_FUZZ = settings(
 )
 
 
-def _timestamp_column(data: bytes) -> bool:
-    """Whether a Parquet file (that pyarrow reads) has a time column of a timestamp type."""
+def _timestamp_column(data: bytes, layout: str = "wide") -> bool:
+    """Whether a Parquet file (that pyarrow reads) has a time column of a timestamp type, and,
+    in the long layout, the tag and value columns it needs besides (a long file without its
+    value column is named as not read, whatever its time column)."""
     try:
         schema = pq.read_schema(io.BytesIO(data))
     except (pa.ArrowException, OSError):
+        return False
+    if layout == "long" and not {"tag", "value"} <= set(schema.names):
         return False
     for name in ("timestamp", "time"):
         if name in schema.names and pa.types.is_timestamp(schema.field(name).type):
@@ -75,7 +79,7 @@ def _check_index(kind: str, data: bytes) -> None:
         series, problems = index.read(sorted(index.known_tags()))
         unread = {**index.file_problems, **problems}
         oracle = parquet_oracle(data, layout) if "parquet" in kind else csv_oracle(data, layout)
-        if "parquet" in kind and _timestamp_column(data):
+        if "parquet" in kind and _timestamp_column(data, layout):
             # a Parquet time column of a timestamp type (any unit, any zone) is always read
             assert path not in unread, unread.get(path)
         if path in unread:

@@ -31,7 +31,9 @@ FORMULAS = {"service": "+1+cmd", "area": "-2+3", "pump": "@SUM(A1)", "word": '=H
 @pytest.fixture(scope="module")
 def report(tmp_path_factory) -> Path:
     folder = tmp_path_factory.mktemp("injection")
-    p1 = steady_frame("P1").rename(columns={"P1.PS": TAG})
+    p1 = steady_frame("P1").rename(columns={"P1.PS": TAG}).astype({TAG: object})
+    p1.loc[20:22, TAG] = "fault"  # text values: the tag is listed with its problems, and in
+    # the reason for P1's place in the ranking (tooltips too)
     p2 = steady_frame("P2").astype({"P2.TT": object})
     p2.loc[5:9, "P2.TT"] = FORMULAS["word"]  # a text value, counted with its word
     p3 = steady_frame("Q").rename(columns=lambda c: c.replace("Q.", "../../Q."))

@@ -267,7 +267,7 @@ def test_two_minutes_below_npsh3_never_show_as_zero(tmp_path):
     ranking = html.split('<table id="ranking">')[1].split("</table>")[0]
     assert ">2 min<" in ranking
     page = next((out / "pumps").glob("P1*.html")).read_text()
-    assert "below_npsh3: 2 min" in page
+    assert "below NPSH3: 2 min" in page
 
 
 def test_hours_text():

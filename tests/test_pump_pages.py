@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import base64
 import json
 import re
 
@@ -16,9 +17,40 @@ from screening.report import figjson
 _FIGURE = re.compile(r'<script type="application/json" id="([\w-]+)-figure">(.*?)</script>', re.S)
 
 
+def _array(value):
+    """A figure array as the page's script would see it: packed typed arrays and 16-bit series
+    decoded (NaN and the 16-bit missing code as None), plain lists as they are."""
+    if isinstance(value, dict) and "bdata" in value:
+        a = np.frombuffer(base64.b64decode(value["bdata"]), dtype="<" + value["dtype"])
+        if "shape" in value:
+            a = a.reshape([int(n) for n in value["shape"].split(",")])
+        return [None if not np.isfinite(v) else float(v) for v in a.ravel()]
+    if isinstance(value, dict) and "q16" in value:
+        code = np.frombuffer(base64.b64decode(value["q16"]), dtype="<i2")
+        return [
+            None if c == figjson.Q16_MISSING else value["lo"] + (int(c) + 32767) * value["step"]
+            for c in code
+        ]
+    return value
+
+
 def _figures(html: str) -> dict[str, dict]:
-    """The figures embedded in a page, by the id of their div."""
-    return {div: json.loads(text) for div, text in _FIGURE.findall(html)}
+    """The figures embedded in a page, by the id of their div, their arrays decoded and the
+    shared time axis put into the traces that use it (as the page's script does)."""
+    figs = {}
+    for div, text in _FIGURE.findall(html):
+        fig = json.loads(text)
+        times = _array(fig["times"]) if "times" in fig else None
+        if times is not None and "t0" in fig["times"]:
+            times = [fig["times"]["t0"] + v for v in times]
+        for trace in fig["data"]:
+            for key in ("x", "y", "z"):
+                if key in trace:
+                    trace[key] = _array(trace[key])
+            if trace.get("x") == figjson.SHARED_TIME:
+                trace["x"] = times
+        figs[div] = fig
+    return figs
 
 
 @pytest.fixture(scope="module")
@@ -37,45 +69,81 @@ def stopped_two_hours(tmp_path_factory):
 def test_pump_page_figures_parse_with_the_expected_traces(stopped_two_hours):
     result, out = stopped_two_hours
     figs = _figures((out / "pumps" / "P1.html").read_text(encoding="utf-8"))
-    assert set(figs) == {"npsh", "ratio", "process", "points", "calendar"}
-    npsh = figs["npsh"]
-    assert [t["name"] for t in npsh["data"]] == [
-        "NPSHa (min in bucket)",
-        "NPSHa (max in bucket)",
-        "guidance (max in bucket)",
-        "NPSH3 (max in bucket)",
+    assert set(figs) == {"timeline", "points", "calendar"}
+    time = figs["timeline"]
+    names = [t["name"] for t in time["data"]]
+    assert names[:5] == [
+        "NPSHa, minimum in bucket",
+        "NPSHa, maximum in bucket",
+        "guidance NPSHa",
+        "NPSH3 at running speed",
+        "NPSHa/NPSH3, minimum in bucket",
     ]
-    assert npsh["layout"]["yaxis"]["title"]["text"] == "head [m]"
-    assert npsh["config"] == {"responsive": True}
-    # times: wall-clock ISO strings in the site's time zone, one per bucket
+    assert time["layout"]["yaxis"]["title"]["text"] == "head [m]"
+    assert time["config"] == {"responsive": True}
+    # times: wall-clock milliseconds in the site's time zone, one per bucket, shared by all
     plot = result.plots["P1"]
-    expected = plot["time"].dt.tz_convert("Europe/Berlin").dt.strftime("%Y-%m-%dT%H:%M:%S")
-    assert npsh["data"][0]["x"] == list(expected)
+    wall = plot["time"].dt.tz_convert("Europe/Berlin").dt.tz_localize(None)
+    expected = (wall - pd.Timestamp("1970-01-01")) // pd.Timedelta(milliseconds=1)
+    assert time["data"][0]["x"] == [float(v) for v in expected]
+    assert time["data"][-1]["x"] == time["data"][0]["x"]
     # the stop is a gap (null), not a line drawn through it; running buckets are numbers
-    low = npsh["data"][0]["y"]
+    # within half a 16-bit step of the series' range
+    low = time["data"][0]["y"]
     assert len(low) == len(plot) == 96
     assert low.count(None) == int(plot["npsha_m_min"].isna().sum()) > 0
     running = [v for v in low if v is not None]
-    np.testing.assert_allclose(running, plot["npsha_m_min"].dropna(), rtol=1e-12)
-    # band edges of the ratio plot as lines across it, with their labels
-    ratio = figs["ratio"]["layout"]
+    span = np.ptp(plot["npsha_m_min"].dropna())
+    np.testing.assert_allclose(running, plot["npsha_m_min"].dropna(), atol=span / 65534 + 1e-12)
+    # band edges of the ratio row as named lines (their labels in the legend, never printed
+    # over each other)
     g = result.plant.guidance["P1"]
-    assert [s["y0"] for s in ratio["shapes"]] == pytest.approx(
-        [1.0, g.ratio, result.plant.settings.policy.ample_ratio]
-    )
-    assert [a["text"] for a in ratio["annotations"]] == ["NPSH3", "guidance ratio", "ample"]
-    # process conditions: one y axis per quantity, stacked, all x axes moving together
-    process = figs["process"]["layout"]
-    assert process["yaxis"]["title"]["text"] == "temperature [°C]"
-    assert process["yaxis3"]["title"]["text"] == "flow [m³/h]"
-    assert process["xaxis"]["matches"] == process["xaxis2"]["matches"] == "x3"
-    assert process["yaxis3"]["domain"][0] == 0.0
-    assert process["yaxis"]["domain"][1] == pytest.approx(1.0)
+    edges = {t["name"]: t["y"][0] for t in time["data"] if t.get("yaxis") == "y2"}
+    ample = result.plant.settings.policy.ample_ratio
+    assert edges == {
+        "NPSHa/NPSH3, minimum in bucket": pytest.approx(edges["NPSHa/NPSH3, minimum in bucket"]),
+        "ratio 1: NPSH3": 1.0,
+        f"guidance ratio {g.ratio:.2f}": pytest.approx(g.ratio),
+        f"ample from ratio {ample:.2f}": pytest.approx(ample),
+    }
+    # process conditions: one y axis per quantity below the head and ratio rows, every x axis
+    # moving with the first (one width, one time axis), titles at least 11 px
+    lay = time["layout"]
+    assert lay["yaxis3"]["title"]["text"] == "temperature<br>[°C]"
+    assert lay["yaxis5"]["title"]["text"] == "flow<br>[m³/h]"
+    axes = [k for k in lay if k.startswith("xaxis")]
+    assert len(axes) == 5 and all(lay[k].get("matches") == "x" for k in axes if k != "xaxis")
+    assert all(lay[k]["domain"] == [0.0, 1.0] for k in axes)
+    assert all(lay[k]["title"]["font"]["size"] >= 11 for k in lay if k.startswith("yaxis"))
+    # the thick and thin lines of the process rows have one legend entry each
+    shown = [t["name"] for t in time["data"] if t.get("showlegend", True)]
+    assert shown.count("process value, minimum in bucket") == 1
+    assert shown.count("process value, maximum in bucket") == 1
+    # the stop is shaded as stopped, named in the legend
+    spans = {sp["shape"]["name"]: _array(sp["edges"]) for sp in time["spans"]}
+    assert list(spans) == ["shaded: stopped"]
+    stop = spans["shaded: stopped"]
+    assert len(stop) == 2 and stop[1] - stop[0] == pytest.approx(2 * 3600e3, abs=2 * 900e3)
     points = figs["points"]
-    assert [t["type"] for t in points["data"]] == ["heatmap", "scatter"]
+    assert [t["type"] for t in points["data"]] == ["heatmap", "scatter", "scatter"]
+    cells = [z for z in points["data"][0]["z"] if z is not None]
+    assert sum(cells) == pytest.approx(result.points["P1"]["hours"].sum(), rel=1e-6)
+    assert [t["name"] for t in points["data"][1:]] == [
+        f"NPSH3 at rated speed {result.plant.pumps['P1'].rated_speed:.0f} rpm",
+        "guidance NPSHa at that speed",
+    ]
     assert points["layout"]["shapes"][0]["type"] == "rect"
     assert points["layout"]["annotations"][0]["text"] == "preferred region"
     assert "below NPSH3" in [t["name"] for t in figs["calendar"]["data"]]
+
+
+def test_hours_table_shows_labels_not_codes(stopped_two_hours):
+    _, out = stopped_two_hours
+    page = (out / "pumps" / "P1.html").read_text(encoding="utf-8")
+    table = page[page.index('<table id="hours">') :].split("</table>")[0]
+    assert "stopped: 2.0 h" in table and "below NPSH3: 0.0 h" in table
+    assert "below minimum flow:" in table
+    assert not re.search(r"\b(below_npsh3|no_data|bad_data|below_min_flow)\b", table)
 
 
 def test_overview_figures_parse(stopped_two_hours):
@@ -110,7 +178,7 @@ def test_markup_in_a_tag_name_stays_inside_the_page_text(tmp_path):
         assert html.count("<script") == html.count("</script>")  # no script added or cut
     page = (out / "pumps" / "P1.html").read_text(encoding="utf-8")
     assert "&lt;/script&gt;&lt;script&gt;alert(1)&lt;/script&gt;" in page  # shown as text
-    assert _figures(page)["npsh"]["data"][0]["name"] == "NPSHa (min in bucket)"
+    assert _figures(page)["timeline"]["data"][0]["name"] == "NPSHa, minimum in bucket"
 
 
 def test_figure_json_refuses_objects_it_cannot_write():

@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import json
+import re
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -63,6 +66,15 @@ def test_pump_pages_workbook_and_comparison(tmp_path):
     page = (after / "pumps" / "P1.html").read_text()
     assert '<script src="../plotly.min.js">' in page
     assert "head [ft]" in page  # US customary display units
+    # every number of the pages in US units: no SI unit outside the tag names and units the
+    # register gives (the transmitter's own "kPa" in the register rows)
+    for text in (html, page):
+        shown = re.sub(r'<script type="application/json".*?</script>', "", text, flags=re.S)
+        shown = shown.replace("[kPa, gauge]", "")
+        assert not re.search(r"\d (m|mm|kPa|°C)\b|\[(m|kPa|°C|m³/h)\]", shown)
+    assert "1.10 or 1.97 ft above NPSH3" in page  # 0.60 m
+    assert re.search(r"tap / [\d.]+ ft / [\d.]+ in", page)  # elevation and bore
+    assert "°F" in page and "psi" in page and "gpm" in page
     assert "screening aid, not a design or safety determination" in page
     # the numbers behind the plots are in tables beside the pages
     buckets = pd.read_parquet(after / "plot_buckets.parquet")
@@ -107,7 +119,7 @@ def test_pages_say_when_the_scan_kept_no_plot_data(tmp_path):
     assert "No time plots" in (out / "pumps" / "P1.html").read_text()
     screening.write_report(screening.scan(_plant(tmp_path, 100.0), plot_buckets=100), out)
     page = (out / "pumps" / "P1.html").read_text()
-    assert "No time plots" not in page and 'id="npsh"' in page
+    assert "No time plots" not in page and 'id="timeline"' in page
 
 
 def test_markup_in_register_text_is_shown_as_text(tmp_path):
@@ -120,3 +132,33 @@ def test_markup_in_register_text_is_shown_as_text(tmp_path):
         html = page.read_text()
         assert bad not in html
         assert "&lt;script&gt;alert(1)&lt;/script&gt;" in html
+
+
+def test_compare_to_a_folder_of_reports_draws_each_pump_per_month(tmp_path):
+    history = tmp_path / "history"
+    months = {"2026-08": 100.0, "2026-09": -95.0}  # P1 healthy in August, below in September
+    for month, pressure in months.items():
+        folder = history / month
+        res = runner.invoke(app, ["scan", str(_plant(tmp_path / month, pressure)), "--out",
+                                  str(folder)])  # fmt: skip
+        assert res.exit_code == 0, res.output
+        run = json.loads((folder / "run.json").read_text())
+        run["window_start_utc"] = f"{month}-01T00:00:00+00:00"  # as if written that month
+        (folder / "run.json").write_text(json.dumps(run))
+    out = tmp_path / "october"
+    path = _plant(tmp_path / "b", 100.0)  # October: healthy again
+    res = runner.invoke(app, ["scan", str(path), "--out", str(out), "--compare-to", str(history)])
+    assert res.exit_code == 0, res.output
+    table = pd.read_csv(out / "monthly_hours.csv")
+    p1 = table[table.pump_id == "P1"].set_index("month")["below_guidance_hours"]
+    assert list(p1.index) == ["2026-08", "2026-09", "2026-10"]
+    assert p1.to_list() == pytest.approx([0.0, 24.0, 0.0])
+    # since the latest earlier report (September), P1 got better by a whole day
+    changes = pd.read_csv(out / "changes.csv").set_index("pump_id")
+    assert changes.loc["P1", "verdict"] == "better"
+    html = (out / "index.html").read_text()
+    title = "hours below the guidance per month; 2026-08: 0.0 h, 2026-09: 24.0 h, 2026-10: 0.0 h"
+    assert f"<title>{title}</title>" in html
+    assert html.count('<svg class="spark"') == 2  # one per pump
+    with pytest.raises(FileNotFoundError, match="no summary.parquet in it or in its sub-folders"):
+        screening.write_report(screening.scan(path), tmp_path / "x", compare_to=[tmp_path / "b"])

@@ -315,3 +315,47 @@ name = "more pressure"
     res = CliRunner().invoke(app, args)
     assert res.exit_code == 0, res.output
     assert "on 1 pump(s)" in res.output
+
+
+def test_whatif_pages_in_us_units_say_each_caution_once(tmp_path):
+    path = _wavy(tmp_path, pressure=lambda i: -35.0 + 35.0 * np.sin(2 * np.pi * i / 480))
+    scenarios = _scenarios(tmp_path, """
+[[scenario]]
+name = "more pressure"
+  [[scenario.change]]
+  pumps = ["P1"]
+  suction_pressure_add = "30 kPa"
+""")  # fmt: skip
+    out = tmp_path / "wi"
+    args = ["whatif", str(path), str(scenarios), "--out", str(out), "--units", "us"]
+    res = CliRunner().invoke(app, args)
+    assert res.exit_code == 0, res.output
+    from screening.report.cautions import CAUTIONS
+    from screening.report.whatif_page import WHATIF_CAUTION
+
+    for page in [out / "index.html", *out.glob("scenario_*.html")]:
+        text = page.read_text()
+        for caution in (WHATIF_CAUTION, *CAUTIONS):
+            assert text.count(caution.replace("'", "&#39;")) == 1, (page.name, caution)
+        assert text.count("management-of-change") == 1, page.name
+    index = (out / "index.html").read_text()
+    # US customary on the page: psi, °F, ft, gpm; never kPa or °C
+    assert "psi (gauge)" in index and "°F" in index and "flow gpm" in index
+    kpa = (
+        pd.read_csv(out / "required_setpoints.csv")
+        .query("input == 'suction_pressure' and share == 1.0")["required"]
+        .iloc[0]
+        / 1000
+    )
+    on_instrument = f"{kpa:.4g} kPa gauge on P1.PS"
+    assert "kPa" not in index.replace(on_instrument, "") and "°C" not in index
+    # the strictest limit in the transmitter's own unit and reference (kPa gauge here, as
+    # the register gives it), ready for a change request
+    assert on_instrument in index
+
+
+def test_whatif_refuses_unknown_units_before_the_work(tmp_path):
+    path = _wavy(tmp_path)
+    scenarios = _scenarios(tmp_path, '[[scenario]]\nname = "x"\n')
+    res = CliRunner().invoke(app, ["whatif", str(path), str(scenarios), "--units", "metric"])
+    assert res.exit_code != 0 and "'metric' is not 'si' or 'us'" in res.output

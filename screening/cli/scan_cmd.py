@@ -40,8 +40,12 @@ def scan_command(
     ),
     pump: list[str] = PUMP_OPTION,
     units: str = typer.Option("si", "--units", help="Display units of the HTML: si or us."),
-    compare_to: Path = typer.Option(
-        None, "--compare-to", help="A previous report folder: mark pumps that got worse or better."
+    compare_to: list[Path] = typer.Option(
+        None,
+        "--compare-to",
+        help="Earlier report folders, or folders of them (repeatable): mark pumps that got "
+        "worse or better since the latest, and show each pump's hours below the guidance "
+        "per month.",
     ),
     processes: int = PROCESSES_OPTION,
     cluster: str = CLUSTER_OPTION,
@@ -69,7 +73,7 @@ def scan_command(
         a = result.start.tz_convert(tz).strftime("%Y%m%d")
         b = result.end.tz_convert(tz).strftime("%Y%m%d")
         out = Path("reports") / f"{config.stem}_{a}_{b}"
-    folder = write_report(result, out, units=units.lower(), compare_to=compare_to)
+    folder = write_report(result, out, units=units.lower(), compare_to=compare_to or None)
     if not quiet:
         print_ranking(result)
     finish(

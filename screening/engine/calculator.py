@@ -507,6 +507,9 @@ def _plot_data(
         "ratio": np.where(on, ratio, np.nan),
         "temperature_k": np.where(held["temperature"].bad, np.nan, phys.temp),
         "flow_m3_s": np.where(held["flow"].bad, np.nan, flow),
+        # 1 where the piece is stopped or bad data: the pump page shades those buckets
+        "stopped": (code == states.STOPPED).astype(np.float64),
+        "bad_data": (code == states.BAD_DATA).astype(np.float64),
     }
     if pump.source == "transmitter":
         series["suction_pressure_abs_pa"] = np.where(held["suction"].bad, np.nan, phys.p_abs)

@@ -24,6 +24,7 @@ close the script or open a comment, and the JSON still parses to the same string
 
 from __future__ import annotations
 
+import base64
 import html
 from typing import Any
 
@@ -155,6 +156,74 @@ def numbers(values) -> np.ndarray:
     return np.ascontiguousarray(values, dtype=float)
 
 
+#: Numeric arrays at least this long are written as packed typed arrays (:func:`packed`).
+PACK_FROM = 16
+#: Marker of a trace's ``x`` that the page fills with the figure's shared time axis.
+SHARED_TIME = "shared-time"
+
+
+def packed(values, dtype: str = "f4") -> dict:
+    """Numbers as a plotly.js typed array: ``{"dtype", "bdata", "shape"}``, the values
+    little-endian, base64-encoded (4 bytes a value for ``"f4"`` instead of about 18 characters
+    of JSON text). NaN stays NaN, which plotly.js draws as a gap or an empty cell. float32
+    keeps 7 significant digits, far finer than a plot shows; ``"f8"`` for times in
+    milliseconds."""
+    a = np.ascontiguousarray(values, dtype="<" + dtype)
+    out = {"dtype": dtype, "bdata": base64.b64encode(a.tobytes()).decode("ascii")}
+    if a.ndim > 1:
+        out["shape"] = ",".join(str(n) for n in a.shape)
+    return out
+
+
+#: The 16-bit code of a missing value in :func:`quantized` arrays.
+Q16_MISSING = -32768
+
+
+def quantized(values) -> dict:
+    """A 1-D series as 16-bit steps between its least and greatest value: ``{"q16": base64 of
+    little-endian int16, "lo", "step"}``, decoded in the page to ``lo + (code + 32767)·step``
+    (``null`` for :data:`Q16_MISSING`, a NaN or infinite value). The rounding is at most half
+    a step, 1/131068 of the series' range, far below a pixel; the tables beside the page keep
+    every digit. Half the bytes of float32, for the long time series of a pump page."""
+    a = np.asarray(values, dtype=np.float64)
+    ok = np.isfinite(a)
+    lo = float(a[ok].min()) if ok.any() else 0.0
+    hi = float(a[ok].max()) if ok.any() else 0.0
+    step = (hi - lo) / 65534 if hi > lo else 1.0
+    code = np.full(a.shape, Q16_MISSING, dtype="<i2")
+    code[ok] = np.rint((a[ok] - lo) / step).astype(np.int64) - 32767
+    return {"q16": base64.b64encode(code.tobytes()).decode("ascii"), "lo": lo, "step": step}
+
+
+def packed_times(ms) -> dict:
+    """A sorted time axis [ms] packed: as unsigned 32-bit millisecond offsets from its first
+    time (``"t0"``) where the span allows (under 49 days: a month's window), else as float64
+    milliseconds."""
+    a = np.asarray(ms, dtype=np.float64)
+    whole = len(a) and np.all(np.isfinite(a)) and np.all(a == np.rint(a))
+    if whole and a[-1] - a[0] < 2**32 - 1:
+        return {**packed(a - a[0], "u4"), "t0": float(a[0])}
+    return packed(a, "f8")
+
+
+def _pack_trace(trace: dict, series16: bool = False) -> dict:
+    """A trace with its long numeric arrays (x, y, z) packed (:func:`packed`); with
+    ``series16`` a long 1-D ``y`` is :func:`quantized` instead."""
+    out = dict(trace)
+    for key in ("x", "y", "z"):
+        v = out.get(key)
+        if isinstance(v, np.ndarray) and v.dtype.kind in "fiu" and v.size >= PACK_FROM:
+            out[key] = quantized(v) if series16 and key == "y" and v.ndim == 1 else packed(v)
+    return out
+
+
+def local_ms(times: pd.Series, tz: str) -> np.ndarray:
+    """Timestamps as the wall-clock time in ``tz`` in milliseconds since 1970 [ms] (float64),
+    which a plotly.js date axis draws as that wall-clock time."""
+    wall = times.dt.tz_convert(tz).dt.tz_localize(None).to_numpy(dtype="datetime64[ms]")
+    return wall.astype(np.int64).astype(np.float64)
+
+
 def local_times(times: pd.Series, tz: str) -> list[str]:
     """Timestamps as ISO strings of the wall-clock time in ``tz`` (no offset; to the second,
     or to the millisecond where a time has a fraction of a second)."""
@@ -183,24 +252,79 @@ def dumps(obj: Any) -> str:
     return text.decode()
 
 
+#: Puts the shared time axis (packed float64 milliseconds) into every trace marked with
+#: :data:`SHARED_TIME`, so that a page carries its times once, not once per line.
+_SHARED_JS = (
+    "  if (f.times) {\n"
+    "    var s = atob(f.times.bdata), b = new Uint8Array(s.length);\n"
+    "    for (var i = 0; i < s.length; i++) { b[i] = s.charCodeAt(i); }\n"
+    "    var t0 = f.times.t0 || 0;\n"
+    "    var a = f.times.dtype === 'u4' ? new Uint32Array(b.buffer) : new Float64Array(b.buffer);\n"
+    "    var t = Array.from(a, function (v) { return v + t0; });\n"
+    f"    f.data.forEach(function (d) {{ if (d.x === {SHARED_TIME!r}) {{ d.x = t; }} }});\n"
+    "  }\n"
+    "  f.data.forEach(function (d) {\n"
+    "    if (!d.y || d.y.q16 === undefined) { return; }\n"
+    "    var s = atob(d.y.q16), b = new Uint8Array(s.length);\n"
+    "    for (var i = 0; i < s.length; i++) { b[i] = s.charCodeAt(i); }\n"
+    "    var c = new Int16Array(b.buffer), y = new Array(c.length);\n"
+    "    for (var j = 0; j < c.length; j++) {\n"
+    f"      y[j] = c[j] === {Q16_MISSING} ? null : d.y.lo + (c[j] + 32767) * d.y.step;\n"
+    "    }\n"
+    "    d.y = y;\n"
+    "  });\n"
+).replace("'", '"')
+#: Builds the rectangles of :data:`spans <figure_html>` from their packed edges.
+_SPANS_JS = (
+    "  (f.spans || []).forEach(function (g) {\n"
+    "    var s = atob(g.edges.bdata), b = new Uint8Array(s.length);\n"
+    "    for (var i = 0; i < s.length; i++) { b[i] = s.charCodeAt(i); }\n"
+    "    var e = new Float64Array(b.buffer);\n"
+    "    f.layout.shapes = f.layout.shapes || [];\n"
+    "    for (var k = 0; k + 1 < e.length; k += 2) {\n"
+    "      f.layout.shapes.push(Object.assign({}, g.shape, {x0: e[k], x1: e[k + 1],\n"
+    "                                                       showlegend: k === 0}));\n"
+    "    }\n"
+    "  });\n"
+)
+
+
 def figure_html(fig: dict, div_id: str) -> str:
     """The ``<div>`` of a figure and the scripts that draw it with ``Plotly.newPlot``.
 
-    ``fig`` is ``{"data": [...], "layout": {...}}``; the texts of its traces are made plain
-    text (:func:`plain_trace`), the report's look (:data:`TEMPLATE`) and :data:`CONFIG` are
-    added here. Needs plotly.min.js loaded before it.
+    ``fig`` is ``{"data": [...], "layout": {...}}``, with optionally ``"times"``: one time
+    axis [ms of wall-clock time, :func:`local_ms`] for every trace whose ``x`` is
+    :data:`SHARED_TIME` (then the traces' long ``y`` series are :func:`quantized`), and
+    ``"spans"``: a list of ``{"edges": array of (start, end) pairs [ms], "shape": a layout
+    shape without x0 and x1}``, drawn as one shape per pair (the first in the legend), so
+    that a hundred shaded stops cost a few bytes each. The texts of its traces are made plain
+    text (:func:`plain_trace`), long numeric arrays packed (:func:`packed`), the report's look
+    (:data:`TEMPLATE`) and :data:`CONFIG` are added here. Needs plotly.min.js loaded before it.
     """
+    timed = fig.get("times") is not None
     payload = {
-        "data": [plain_trace(t) for t in fig["data"]],
+        "data": [_pack_trace(plain_trace(t), timed) for t in fig["data"]],
         "layout": {**fig["layout"], "template": TEMPLATE},
         "config": CONFIG,
     }
+    if timed:
+        payload["times"] = packed_times(fig["times"])
+    if fig.get("spans"):
+        payload["spans"] = [
+            {
+                "edges": packed(np.ravel(np.asarray(g["edges"], dtype=float)), "f8"),
+                "shape": g["shape"],
+            }
+            for g in fig["spans"]
+        ]
     attr = html.escape(div_id, quote=True)
     return (
         f'<div id="{attr}" class="plotly-graph-div" style="height:100%; width:100%;"></div>\n'
         f'<script type="application/json" id="{attr}-figure">{dumps(payload)}</script>\n'
         "<script>(function () {\n"
         f"  var f = JSON.parse(document.getElementById({dumps(div_id + '-figure')}).textContent);\n"
-        f"  Plotly.newPlot({dumps(div_id)}, f.data, f.layout, f.config);\n"
+        + (_SHARED_JS if "times" in payload else "")
+        + (_SPANS_JS if "spans" in payload else "")
+        + f"  Plotly.newPlot({dumps(div_id)}, f.data, f.layout, f.config);\n"
         "})();</script>"
     )

@@ -80,3 +80,20 @@ REGION_LABELS: dict[str, str] = {
     "bad_data": "bad data",
     "starting": "starting (settling after a start)",
 }
+
+#: Dark ink of lines that carry no state (process values).
+INK = "#3a3a3a"
+
+#: Shading of the time chart where a margin cannot be drawn, one colour per reason: stopped in
+#: the light grey of the stopped state, bad data in a mid grey, no data in a pale violet that
+#: neither band colour nor grey can be taken for.
+GAP_COLOURS: dict[str, str] = {
+    "stopped": "#cfcfcf",
+    "bad_data": "#7a7a7a",
+    "no_data": "#c9b8e8",
+}
+GAP_LABELS: dict[str, str] = {
+    "stopped": "shaded: stopped",
+    "bad_data": "shaded: bad data",
+    "no_data": "shaded: no data",
+}

@@ -21,21 +21,18 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.csv as pa_csv
-from jinja2 import Environment, PackageLoader, select_autoescape
 from plotly.offline import get_plotlyjs
 
 from screening.base import states
 from screening.base.files import atomic_folder, page_names
-from screening.base.text import hours_text
 from screening.base.version import __version__
 from screening.engine.execution import default_processes
 from screening.engine.scan import ScanResult
 from screening.inputs.window import WindowError
 from screening.physics import regions
-from screening.physics.properties import fluid_table
-from screening.report import field_page, pump_pages
+from screening.report import field_page, trend
 from screening.report.cautions import CAUTIONS
-from screening.report.figjson import figure_html, local_times, numbers
+from screening.report.figjson import figure_html, numbers
 from screening.report.palette import (
     REGION_COLOURS,
     REGION_LABELS,
@@ -45,12 +42,12 @@ from screening.report.palette import (
     STATE_PATTERNS,
 )
 from screening.report.pump_pages import DISPLAY_UNITS
+from screening.report.pump_writer import write_some_pages
+from screening.report.templating import ENV
+from screening.report.trend import trend_cells
+from screening.report.why import why_text, worst_inputs_table
 
-_ENV = Environment(
-    loader=PackageLoader("screening.report", "templates"),
-    autoescape=select_autoescape(["html"]),
-)
-_ENV.filters["hours"] = hours_text
+_ENV = ENV
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
@@ -78,15 +75,28 @@ def _neutralised(column: pd.Series) -> pd.Series:
 
 
 #: Tables longer than this are written as Parquet only: the plot data of a 500-pump month
-#: (750 000 rows) would make a 200 MB CSV that no spreadsheet opens.
+#: (750 000 rows) would make a 200 MB CSV that no spreadsheet opens, its daily hours (250 000
+#: rows) a 12 MB one.
 CSV_MAX_ROWS = 100_000
 
 
-def write_table(frame: pd.DataFrame, folder: Path, name: str, csv_max_rows: int | None = None):
+def write_table(
+    frame: pd.DataFrame,
+    folder: Path,
+    name: str,
+    csv_max_rows: int | None = None,
+    float32: bool = False,
+):
     """Write a table as ``name.parquet`` and ``name.csv``; formula-like text in the CSV is
     neutralised (a quote in front), so a spreadsheet shows it as text. With ``csv_max_rows``,
-    a longer table gets no CSV (the Parquet file holds every row)."""
-    frame.to_parquet(folder / f"{name}.parquet", index=False)
+    a longer table gets no CSV (the Parquet file holds every row). With ``float32`` the
+    Parquet file keeps floats in 32 bits (7 significant digits; for the plot tables, whose
+    pages show less) and is compressed with zstd."""
+    if float32:
+        small = frame.astype({c: "float32" for c in frame.columns if frame[c].dtype == "float64"})
+        small.to_parquet(folder / f"{name}.parquet", index=False, compression="zstd")
+    else:
+        frame.to_parquet(folder / f"{name}.parquet", index=False)
     if csv_max_rows is not None and len(frame) > csv_max_rows:
         return
     text = frame.copy()
@@ -168,7 +178,7 @@ def write_report(
     result: ScanResult,
     out: str | Path,
     units: str = "si",
-    compare_to: str | Path | None = None,
+    compare_to: str | Path | list[str | Path] | None = None,
 ) -> Path:
     """Write the report folder of a scan.
 
@@ -181,8 +191,10 @@ def write_report(
     units : str
         Display units of the HTML pages: ``"si"`` or ``"us"`` (US customary); the tables
         beside them stay SI with units in the column names.
-    compare_to : str or Path, optional
-        A previous report folder: pumps that got worse or better are marked, by how many hours.
+    compare_to : str, Path or list of them, optional
+        Earlier report folders, or folders holding them: pumps that got worse or better
+        since the latest (by window start) are marked, by how many hours, and each pump's
+        hours below the guidance per month are drawn (:mod:`screening.report.trend`).
 
     Returns
     -------
@@ -194,7 +206,7 @@ def write_report(
     out = Path(out)
     if units not in DISPLAY_UNITS:
         raise ValueError(f"display units {units!r} are not 'si' or 'us'")
-    changes = _changes(result, Path(compare_to)) if compare_to is not None else None
+    changes, months = _compared(result, compare_to)
     with atomic_folder(out, "report") as tmp, ExitStack() as stack:
         write_table(result.hours, tmp, "hours")
         summary = result.summary.copy()
@@ -203,10 +215,11 @@ def write_report(
         write_table(summary, tmp, "summary")
         daily = result.daily.copy()
         daily["date"] = daily["date"].astype("string")
-        write_table(daily, tmp, "daily_hours")
+        write_table(daily, tmp, "daily_hours", CSV_MAX_ROWS)
         write_table(result.quality, tmp, "data_quality")
         write_table(result.problems, tmp, "not_screened")
         write_table(result.file_problems, tmp, "files_not_read")
+        write_table(worst_inputs_table(result, result.plots), tmp, "worst_inputs")
         pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
         # the pump pages are written while the tables are (in forked processes, large plants)
         stack.enter_context(_pump_pages(result, tmp, pages, DISPLAY_UNITS[units]))
@@ -231,6 +244,7 @@ def write_report(
         (tmp / "run.json").write_text(json.dumps(meta, indent=2), encoding="utf-8")
         if changes is not None:
             write_table(changes, tmp, "changes")
+            write_table(months, tmp, "monthly_hours")
         if result.plots:
             # the numbers behind the pump pages' plots, tidy, beside them
             buckets = pd.concat(
@@ -238,15 +252,43 @@ def write_report(
             )
             buckets["time"] = buckets["time"].dt.tz_convert(result.plant.timezone)
             buckets = buckets[["pump_id"] + [c for c in buckets.columns if c != "pump_id"]]
-            write_table(buckets, tmp, "plot_buckets", CSV_MAX_ROWS)
-            write_table(_points_table(result.points), tmp, "operating_points", CSV_MAX_ROWS)
+            write_table(buckets, tmp, "plot_buckets", CSV_MAX_ROWS, float32=True)
+            points = _points_table(result.points)
+            write_table(points, tmp, "operating_points", CSV_MAX_ROWS, float32=True)
         field_page.write_tables(result, tmp, write_table)
         _write_workbook(tmp / "summary.xlsx", result, changes)
         stack.close()  # every pump page written
         (tmp / "index.html").write_text(
-            _overview_html(result, meta, pages, changes), encoding="utf-8"
+            _overview_html(
+                result,
+                meta,
+                pages,
+                changes,
+                DISPLAY_UNITS[units],
+                trend_cells(months) if months is not None else None,
+            ),
+            encoding="utf-8",
         )
     return out
+
+
+def _compared(result: ScanResult, compare_to) -> tuple:
+    """The changes since the latest earlier report and the month-by-month table, or
+    ``(None, None)`` without ``compare_to``."""
+    if compare_to is None:
+        return None, None
+    paths = [compare_to] if isinstance(compare_to, str | Path) else list(compare_to)
+    folders = trend.report_folders([Path(p) for p in paths])
+    tz = result.plant.timezone
+    past = trend.history(folders, tz)
+
+    def start(folder: Path) -> str:
+        run = json.loads((folder / "run.json").read_text(encoding="utf-8"))
+        return str(pd.Timestamp(run["window_start_utc"]).tz_convert("UTC"))
+
+    latest = max(folders, key=start)
+    month = result.start.tz_convert(tz).strftime("%Y-%m")
+    return _changes(result, latest), trend.monthly_table(past, result.summary, month)
 
 
 def _changes(result: ScanResult, previous: Path) -> pd.DataFrame:
@@ -314,7 +356,7 @@ def _pump_pages(result: ScanResult, folder: Path, pages: dict, units) -> Iterato
     n = min(default_processes(), len(pages) // (PARALLEL_PAGES // 2) or 1)
     if len(pages) < PARALLEL_PAGES or n < 2 or not sys.platform.startswith("linux"):
         yield
-        _write_some_pages(result, folder, pages, units)
+        write_some_pages(result, folder, pages, units)
         return
     items = list(pages.items())
     shares = [dict(items[i::n]) for i in range(n)]
@@ -337,82 +379,7 @@ _FORKED: dict[int, ScanResult] = {}
 
 
 def _pages_in_child(key: int, folder: Path, pages: dict, units) -> None:
-    _write_some_pages(_FORKED[key], folder, pages, units)
-
-
-def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> None:
-    plant = result.plant
-    tz = plant.timezone
-    template = _ENV.get_template("pump.html")
-    a, b = result.start.tz_convert(tz), result.end.tz_convert(tz)
-    window = f"{a:%Y-%m-%d %H:%M} to {b:%Y-%m-%d %H:%M}"
-    ample = plant.settings.policy.ample_ratio
-    # each pump's rows picked once (a mask per pump would cost pumps x rows)
-    hours_of = dict(list(result.hours.groupby("pump_id", sort=False)))
-    margin_days = result.daily[result.daily.kind == "margin"]
-    daily_of = dict(list(margin_days.groupby("pump_id", sort=False)))
-    thin = result.not_enough_data.set_index("pump_id")["coverage"].to_dict()
-    least = plant.settings.data.min_coverage
-    summary_of = {row["pump_id"]: row for row in result.summary.to_dict("records")}
-    for pid, name in pages.items():
-        pump = plant.pumps[pid]
-        g = plant.guidance[pid]
-        plot = result.plots.get(pid)
-        h = hours_of.get(pid, result.hours.iloc[:0])
-        head = ["kind", "hours per state (each kind adds up to the window)"]
-        rows = []
-        for kind, names in (("margin", states.STATES), ("region", regions.REGIONS)):
-            part = h[h.kind == kind].set_index("state")["hours"]
-            rows.append([kind] + [f"{n}: {hours_text(part.get(n, 0.0), True)}" for n in names])
-        figs = {"fig_npsh": "", "fig_ratio": "", "fig_process": "", "fig_points": ""}
-        if plot is not None and len(plot):
-            t = local_times(plot["time"], tz)  # the same time axis for the three plots
-            figs["fig_npsh"] = _fig(pump_pages.npsh_figure(plot, units, tz, t), "npsh")
-            fig = pump_pages.ratio_figure(plot, tz, g.ratio, ample, t)
-            figs["fig_ratio"] = _fig(fig, "ratio")
-            figs["fig_process"] = _fig(pump_pages.process_figure(plot, units, tz, t), "process")
-        if pid in result.points:
-            fig = pump_pages.points_figure(
-                result.points[pid], plant.curves[pump.curve_id], pump, units
-            )
-            figs["fig_points"] = _fig(fig, "points")
-        daily = daily_of.get(pid, margin_days.iloc[:0])
-        figs["fig_calendar"] = _fig(pump_pages.calendar_figure(daily), "calendar")
-        model = fluid_table(pump.fluid, pump.vapour_pressure).vapour_pressure_model
-        html = template.render(
-            pump=pump,
-            plant_name=plant.name,
-            window=window,
-            units_label=units.name,
-            hours_head=head,
-            hours_rows=rows,
-            downsample_note=(
-                f"Downsampled for the browser: the window is cut into "
-                f"{len(plot) if plot is not None else 0} time buckets and each keeps the minimum "
-                "and the maximum of every series, so short dips stay visible. Full-resolution "
-                "hours are in the tables beside this page."
-            ),
-            guidance_ratio=f"{g.ratio:.2f}",
-            guidance_margin=f"{float(units.convert(g.margin, 'length')):.2f} "
-            f"{units.label('length')}",
-            ample_ratio=f"{ample:.2f}",
-            register=pump_pages.register_rows(pump, g, model, units),
-            flags=pump_pages.pump_flags(summary_of.get(pid), units),
-            cautions=CAUTIONS,
-            field_section=field_page.section(
-                result.evidence.get(pid), pump, plant.curves[pump.curve_id], units
-            ),
-            thin_note=(
-                f"Not enough data to screen: usable data for {100 * thin[pid]:.1f} % of the "
-                f"window, less than the {100 * least:.0f} % asked ([data] min_coverage). The "
-                "hours here are those of the data there was; little time below the guidance "
-                "means little was seen, not that the margin was good."
-                if pid in thin
-                else ""
-            ),
-            **figs,
-        )
-        pump_pages.write_pump_page(folder / "pumps" / name, html)
+    write_some_pages(_FORKED[key], folder, pages, units)
 
 
 def _points_table(points: dict) -> pd.DataFrame:
@@ -441,20 +408,61 @@ def _fig(fig: dict, div_id: str) -> str:
     return figure_html(fig, div_id)
 
 
-def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> str:
+#: Counts of the data quality table that make a tag worth listing on the overview.
+PROBLEM_COUNTS = (
+    "gaps", "text_values", "bad_quality", "not_finite", "frozen", "out_of_range",
+    "bad_timestamps", "duplicates", "out_of_order", "malformed_rows",
+)  # fmt: skip
+
+
+def problem_quality(quality: pd.DataFrame) -> pd.DataFrame:
+    """The rows of the data quality table with something counted or flagged against the tag
+    (the overview lists those; data_quality.csv keeps every tag)."""
+    if not len(quality):
+        return quality
+    cols = [c for c in PROBLEM_COUNTS if c in quality]
+    counted = quality[cols].fillna(0).sum(axis=1) > 0
+    flagged = quality["flags"].fillna("").astype(str).str.len() > 0
+    return quality[counted | flagged]
+
+
+def _ranking_row(row, units, why: str) -> dict:
+    """One row of the overview ranking: the summary row with its texts in display units."""
+    d = row._asdict()
+    length = units.convert
+    d["worst_ratio_text"] = "—" if pd.isna(row.worst_ratio) else f"{row.worst_ratio:.2f}"
+    d["worst_margin_text"] = (
+        "—" if pd.isna(row.worst_margin_m) else units.length_text(row.worst_margin_m)
+    )
+    d["worst_guidance_text"] = (
+        "—"
+        if pd.isna(row.worst_margin_to_guidance_m)
+        else f"{float(length(row.worst_margin_to_guidance_m, 'length')):+.2f}"
+    )
+    d["guidance_text"] = f"{row.guidance_ratio:.2f} / {units.length_text(row.guidance_margin_m)}"
+    d["guidance_rule"] = (
+        f"ratio {row.guidance_ratio:.2f} or NPSH3 + {units.length_text(row.guidance_margin_m)}, "
+        f"the greater; {row.guidance_source}; S = {row.suction_specific_speed_us:.0f} US "
+        f"({row.suction_specific_speed_metric:.0f} metric)"
+    )
+    # severity (metre-hours) in the display length unit times hours
+    d["depth_npsh3_text"] = f"{float(length(row.below_npsh3_metre_hours, 'length')):.2f}"
+    d["depth_guidance_text"] = f"{float(length(row.below_guidance_metre_hours, 'length')):.2f}"
+    d["why"] = why
+    return d
+
+
+def _overview_html(
+    result: ScanResult, meta: dict, pages=None, changes=None, units=None, trend=None
+) -> str:
     tz = result.plant.timezone
     site = result.plant.settings.site
+    units = units or DISPLAY_UNITS["si"]
     ranking = []
     for row in result.ranked.itertuples(index=False):
-        d = row._asdict()
-        d["worst_ratio_text"] = "—" if pd.isna(row.worst_ratio) else f"{row.worst_ratio:.2f}"
-        d["worst_margin_text"] = "—" if pd.isna(row.worst_margin_m) else f"{row.worst_margin_m:.2f}"
-        d["worst_guidance_text"] = (
-            "—"
-            if pd.isna(row.worst_margin_to_guidance_m)
-            else f"{row.worst_margin_to_guidance_m:+.2f}"
-        )
-        d["guidance_text"] = f"{row.guidance_ratio:.2f} or {row.guidance_margin_m:.2f} m"
+        why = why_text(row._asdict(), result.plots.get(row.pump_id), result.quality, units)
+        d = _ranking_row(row, units, why)
+        d["trend"] = trend.get(row.pump_id, "") if trend else ""
         d["page"] = f"pumps/{pages[row.pump_id]}" if pages and row.pump_id in pages else None
         d["change"] = ""
         d.update(field_page.overview_cells(d))
@@ -472,11 +480,12 @@ def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> 
     if site.barometer_tag:
         baro = (
             f"tag {site.barometer_tag} where fresh and plausible, otherwise the 1976 standard "
-            f"atmosphere at {site.elevation:.0f} m (hours on the standard atmosphere per pump "
-            "in summary.csv)"
+            f"atmosphere at {units.length_text(site.elevation, 0)} (hours on the standard "
+            "atmosphere per pump in summary.csv)"
         )
     else:
-        baro = f"1976 standard atmosphere at the site elevation of {site.elevation:.0f} m"
+        elevation = units.length_text(site.elevation, 0)
+        baro = f"1976 standard atmosphere at the site elevation of {elevation}"
     template = _ENV.get_template("overview.html")
     return template.render(
         plant_name=site.name,
@@ -497,10 +506,12 @@ def _overview_html(result: ScanResult, meta: dict, pages=None, changes=None) -> 
             for r in result.not_enough_data.to_dict("records")
         ],
         min_coverage=result.plant.settings.data.min_coverage,
-        legend=[{"label": STATE_LABELS[s], "colour": STATE_COLOURS[s]} for s in states.STATES],
         hours_figure=_hours_figure(result, "margin"),
         region_figure=_hours_figure(result, "region"),
-        quality=result.quality.to_dict("records"),
+        quality=problem_quality(result.quality).to_dict("records"),
+        n_tags=len(result.quality),
+        length_unit=units.head,
+        trend=bool(trend),
         problems=result.problems.to_dict("records"),
         file_problems=result.file_problems.to_dict("records"),
         barometer=baro,

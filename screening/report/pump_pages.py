@@ -19,7 +19,7 @@ from screening.engine.one_pump import BELOW_VAPOUR_FLAG
 from screening.inputs.units import si_to
 from screening.physics.curves import exponent_text
 from screening.physics.regions import MIN_FLOW_NOT_REGISTERED
-from screening.report.figjson import figure_html, local_times, numbers
+from screening.report.figjson import numbers
 from screening.report.palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
 
 
@@ -54,6 +54,16 @@ class DisplayUnits:
         }[kind]
         return si_to(values, unit, kind)
 
+    def length_text(self, metres: float, digits: int = 2) -> str:
+        """A length [m] as text in this display unit, e.g. ``1.00 m`` or ``3.28 ft``."""
+        return f"{float(self.convert(metres, 'length')):.{digits}f} {self.head}"
+
+    def small_length_text(self, metres: float) -> str:
+        """A small length [m] such as a pipe bore as text: ``mm`` or ``in``."""
+        if self.head == "ft":
+            return f"{float(si_to(metres, 'inch', 'length')):.2f} in"
+        return f"{metres * 1000:.0f} mm"
+
 
 DISPLAY_UNITS = {
     "si": DisplayUnits("SI", "m", "m**3/h", "kPa", "degC"),
@@ -61,171 +71,8 @@ DISPLAY_UNITS = {
 }
 
 
-def _html(fig: dict, div_id: str) -> str:
-    """A figure dict as a ``<div>`` drawn by plotly.js (see :func:`figjson.figure_html`)."""
-    return figure_html(fig, div_id)
-
-
-def _line(colour: str, width: float | None = None, dash: str | None = None) -> dict:
-    line = {"color": colour}
-    if width is not None:
-        line["width"] = width
-    if dash is not None:
-        line["dash"] = dash
-    return line
-
-
-def _band(traces: list, t, lo, hi, name, colour, row=None, dash=None) -> None:
-    """Minimum and maximum per bucket as two lines (no fill: fills bridge the gaps); appended
-    to ``traces``, on the axes of subplot ``row`` (1 at the top) when given."""
-    axes = {} if row is None else _row_axes(row)
-    lo_trace = {
-        "type": "scatter", "x": t, "y": numbers(lo), "mode": "lines",
-        "line": _line(colour, 1.4, dash), "name": f"{name} (min in bucket)", "legendgroup": name,
-    }  # fmt: skip
-    hi_trace = {
-        "type": "scatter", "x": t, "y": numbers(hi), "mode": "lines",
-        "line": _line(colour, 0.6, dash), "opacity": 0.6, "name": f"{name} (max in bucket)",
-        "legendgroup": name,
-    }  # fmt: skip
-    traces += [{**lo_trace, **axes}, {**hi_trace, **axes}]
-
-
-def _row_axes(row: int) -> dict:
-    suffix = "" if row == 1 else str(row)
-    return {"xaxis": f"x{suffix}", "yaxis": f"y{suffix}"}
-
-
 def _title(text: str, **font) -> dict:
     return {"title": {"text": text, "font": font} if font else {"text": text}}
-
-
-def npsh_figure(plot: pd.DataFrame, units: DisplayUnits, tz: str, t=None) -> dict:
-    """NPSHa (min-max band), NPSH3 and the guidance over time, heads in display units.
-
-    ``t`` is ``local_times(plot["time"], tz)`` when the caller has it already."""
-    t = local_times(plot["time"], tz) if t is None else t
-    c = units.convert
-    traces: list[dict] = []
-    _band(
-        traces,
-        t,
-        c(plot["npsha_m_min"], "length"),
-        c(plot["npsha_m_max"], "length"),
-        "NPSHa",
-        "#2d5f8f",
-    )
-    traces.append(
-        {
-            "type": "scatter",
-            "x": t,
-            "y": numbers(c(plot["guidance_m_max"], "length")),
-            "mode": "lines",
-            "name": "guidance (max in bucket)",
-            "line": {"color": "#c7761c", "dash": "dash"},
-        }
-    )
-    traces.append(
-        {
-            "type": "scatter",
-            "x": t,
-            "y": numbers(c(plot["npsh3_m_max"], "length")),
-            "mode": "lines",
-            "name": "NPSH3 (max in bucket)",
-            "line": {"color": "#5c2a00", "width": 2},
-        }
-    )
-    layout = {
-        "height": 380,
-        "margin": {"l": 60, "r": 20, "t": 20, "b": 40},
-        "yaxis": _title(f"head [{units.label('length')}]"),
-        "hovermode": "x unified",
-    }
-    return {"data": traces, "layout": layout}
-
-
-def ratio_figure(plot: pd.DataFrame, tz: str, guidance_ratio: float, ample: float, t=None) -> dict:
-    """Margin ratio [-] over time (minimum per bucket) with the band edges as lines."""
-    t = local_times(plot["time"], tz) if t is None else t
-    trace = {
-        "type": "scatter",
-        "x": t,
-        "y": numbers(plot["ratio_min"]),
-        "mode": "lines",
-        "name": "NPSHa/NPSH3 (min in bucket)",
-        "line": {"color": "#2d5f8f"},
-    }
-    shapes, notes = [], []
-    for y, label, colour, dash in (
-        (1.0, "NPSH3", "#5c2a00", "solid"),
-        (float(guidance_ratio), "guidance ratio", "#c7761c", "dash"),
-        (float(ample), "ample", "#2d5f8f", "dot"),
-    ):
-        # a line across the plot at y, its label above its left end
-        shapes.append(
-            {
-                "type": "line", "xref": "x domain", "x0": 0, "x1": 1, "yref": "y", "y0": y,
-                "y1": y, "line": {"color": colour, "dash": dash, "width": 1.2},
-            }
-        )  # fmt: skip
-        notes.append(
-            {
-                "text": label, "showarrow": False, "xref": "x domain", "x": 0,
-                "xanchor": "left", "yref": "y", "y": y, "yanchor": "bottom",
-            }
-        )  # fmt: skip
-    layout = {
-        "shapes": shapes,
-        "annotations": notes,
-        "height": 300,
-        "margin": {"l": 60, "r": 20, "t": 20, "b": 40},
-        "yaxis": _title("NPSHa / NPSH3 [-]"),
-    }
-    return {"data": [trace], "layout": layout}
-
-
-#: Gap between stacked subplots [fraction of the plot height].
-_SPACING = 0.03
-
-
-def process_figure(plot: pd.DataFrame, units: DisplayUnits, tz: str, t=None) -> dict:
-    """Temperature, suction pressure or level, flow and speed on a shared time axis, one
-    subplot per quantity stacked top to bottom (display units)."""
-    rows = [("temperature_k", "temperature", "temperature")]
-    if "suction_pressure_abs_pa_min" in plot:
-        rows.append(("suction_pressure_abs_pa", "suction pressure (abs)", "pressure"))
-    if "level_m_min" in plot:
-        rows.append(("level_m", "vessel level", "length"))
-    rows.append(("flow_m3_s", "flow", "flow"))
-    if "speed_rpm_min" in plot:
-        rows.append(("speed_rpm", "speed", "speed"))
-    t = local_times(plot["time"], tz) if t is None else t
-    n = len(rows)
-    height = (1.0 - _SPACING * (n - 1)) / n
-    traces: list[dict] = []
-    layout: dict = {}
-    for i, (col, label, kind) in enumerate(rows, start=1):
-        lo = units.convert(plot[f"{col}_min"], kind)
-        hi = units.convert(plot[f"{col}_max"], kind)
-        _band(traces, t, lo, hi, label, "#444444", row=i)
-        suffix = "" if i == 1 else str(i)
-        bottom = (n - i) * (height + _SPACING)
-        # one x axis per row, all moving with the bottom one; tick labels only at the bottom
-        xaxis = {"anchor": f"y{suffix}", "domain": [0.0, 1.0]}
-        if i < n:
-            xaxis |= {"matches": f"x{n}", "showticklabels": False}
-        layout[f"xaxis{suffix}"] = xaxis
-        layout[f"yaxis{suffix}"] = {
-            "anchor": f"x{suffix}",
-            "domain": [bottom, min(bottom + height, 1.0)],
-            **_title(f"{label} [{units.label(kind)}]", size=10),
-        }
-    layout |= {
-        "height": 170 * n + 60,
-        "showlegend": False,
-        "margin": {"l": 70, "r": 20, "t": 20, "b": 40},
-    }
-    return {"data": traces, "layout": layout}
 
 
 #: plotly's "Greys" colour scale (white for few hours to black for many).
@@ -236,32 +83,66 @@ _GREYS = [
 ]  # fmt: skip
 
 
-def points_figure(points: dict, curve, pump, units: DisplayUnits) -> dict:
-    """Time-weighted operating points (flow, NPSHa) [h per cell] with the NPSH3 curve and the
-    preferred operating region, in display units."""
+def _curve_traces(curve, pump, units: DisplayUnits, guidance, speed: float) -> list[dict]:
+    """NPSH3 at rated speed (thin, dotted), at the running speed ``speed`` [rpm] and the
+    guidance NPSHa over that curve, in display units."""
+    c = units.convert
+    q = np.linspace(curve.flow_min, curve.flow_max, 100)
+    rated = curve.at_reference_speed(q)
+    q_run = q * speed / pump.rated_speed  # the curve's flow range moves with speed (affinity)
+    at_speed = curve.at_speed(q_run, speed, pump.rated_speed, pump.npsh3_exponent)
+    same = abs(speed - pump.rated_speed) < 0.5
+    traces = []
+    if not same:
+        traces.append({
+            "type": "scatter", "x": numbers(c(q, "flow")), "y": numbers(c(rated, "length")),
+            "mode": "lines", "name": f"NPSH3 at rated speed {pump.rated_speed:.0f} rpm",
+            "line": {"color": "#5c2a00", "width": 1.2, "dash": "dot"},
+        })  # fmt: skip
+    label = "rated" if same else "typical running"
+    traces.append({
+        "type": "scatter", "x": numbers(c(q_run, "flow")), "y": numbers(c(at_speed, "length")),
+        "mode": "lines", "name": f"NPSH3 at {label} speed {speed:.0f} rpm",
+        "line": {"color": "#5c2a00", "width": 2.5},
+    })  # fmt: skip
+    traces.append({
+        "type": "scatter", "x": numbers(c(q_run, "flow")),
+        "y": numbers(c(guidance.head(at_speed), "length")), "mode": "lines",
+        "name": "guidance NPSHa at that speed", "line": {"color": "#c7761c", "width": 2,
+                                                         "dash": "dash"},
+    })  # fmt: skip
+    return traces
+
+
+def points_figure(
+    points: dict, curve, pump, units: DisplayUnits, guidance, speed: float | None = None
+) -> dict:
+    """Time-weighted operating points (flow, NPSHa) [h per cell] with NPSH3 at the running
+    ``speed`` [rpm] (the rated speed when None; the rated-speed curve dotted beside it where
+    they differ), the guidance NPSHa over it and the preferred operating region, in display
+    units."""
     fe, he, hours = points["flow_edges"], points["npsha_edges"], points["hours"]
-    z = np.where(hours > 0, hours, np.nan).T
+    xc = units.convert((fe[1:] + fe[:-1]) / 2, "flow")
+    yc = units.convert((he[1:] + he[:-1]) / 2, "length")
+    # the cells with hours as columns (x, y, z), plus one empty cell on every row and column
+    # so that plotly.js finds the whole grid: a tenth of the bytes of the full matrix
+    fi, hi = np.nonzero(hours > 0)
+    n = len(xc)
     heatmap = {
         "type": "heatmap",
-        "x": numbers(units.convert((fe[1:] + fe[:-1]) / 2, "flow")),
-        "y": numbers(units.convert((he[1:] + he[:-1]) / 2, "length")),
-        "z": numbers(z),
+        "x": numbers(np.concatenate([xc[fi], xc, np.full(len(yc), xc[0])])),
+        "y": numbers(np.concatenate([yc[hi], np.full(n, yc[0]), yc])),
+        "z": numbers(np.concatenate([hours[fi, hi], np.full(n + len(yc), np.nan)])),
         "colorscale": _GREYS,
-        "colorbar": {"title": {"text": "h"}},
+        "colorbar": {"title": {"text": "h"}, "len": 0.6, "y": 0.7},
         "name": "running hours",
         "hovertemplate": "%{z:.2f} h<extra></extra>",
     }
-    q = np.linspace(curve.flow_min, curve.flow_max, 100)
-    npsh3 = {
-        "type": "scatter",
-        "x": numbers(units.convert(q, "flow")),
-        "y": numbers(units.convert(curve.at_reference_speed(q), "length")),
-        "mode": "lines",
-        "name": "NPSH3 (rated speed)",
-        "line": {"color": "#5c2a00", "width": 2.5},
-    }
-    lo = float(units.convert(pump.preferred_low * pump.bep_flow, "flow"))
-    hi = float(units.convert(pump.preferred_high * pump.bep_flow, "flow"))
+    speed = pump.rated_speed if speed is None else speed
+    curves = _curve_traces(curve, pump, units, guidance, speed)
+    lo = float(units.convert(pump.preferred_low * pump.bep_flow * speed / pump.rated_speed, "flow"))
+    hi = float(units.convert(pump.preferred_high * pump.bep_flow * speed / pump.rated_speed,
+                             "flow"))  # fmt: skip
     # the preferred region shaded over the full height, its label in its top left corner
     region = {
         "type": "rect", "xref": "x", "x0": lo, "x1": hi, "yref": "y domain", "y0": 0, "y1": 1,
@@ -269,18 +150,19 @@ def points_figure(points: dict, curve, pump, units: DisplayUnits) -> dict:
     }  # fmt: skip
     note = {
         "text": "preferred region", "showarrow": False, "xref": "x", "x": lo, "xanchor": "left",
-        "yref": "y domain", "y": 1, "yanchor": "top",
+        "yref": "y domain", "y": 1, "yanchor": "top", "font": {"size": 12},
     }  # fmt: skip
     layout = {
         "shapes": [region],
         "annotations": [note],
-        "height": 400,
+        "height": 460,
         "margin": {"l": 60, "r": 20, "t": 30, "b": 50},
-        "xaxis": _title(f"flow [{units.label('flow')}]"),
-        "yaxis": _title(f"NPSHa [{units.label('length')}]"),
-        "legend": {"orientation": "h", "y": -0.2},
+        "xaxis": _title(f"flow [{units.label('flow')}]", size=12),
+        "yaxis": _title(f"NPSHa [{units.label('length')}]", size=12),
+        "legend": {"orientation": "h", "y": -0.18, "yanchor": "top", "font": {"size": 12}},
+        "plot_bgcolor": "#ffffff",
     }
-    return {"data": [heatmap, npsh3], "layout": layout}
+    return {"data": [heatmap] + curves, "layout": layout}
 
 
 def calendar_figure(daily: pd.DataFrame) -> dict:
@@ -328,8 +210,8 @@ def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list
         ("NPSH3 speed scaling", exponent_text(pump.npsh3_exponent, pump.speed is not None)),
         (
             "guidance",
-            f"{guidance.ratio:.2f} or {float(c(guidance.margin, 'length')):.2f} {L} "
-            f"({guidance.source})",
+            f"{guidance.ratio:.2f} or {units.length_text(guidance.margin)} above NPSH3, the "
+            f"greater ({guidance.source})",
         ),
         ("preferred region", f"{pump.preferred_low:.0%} to {pump.preferred_high:.0%} of BEP"),
     ]
@@ -344,7 +226,7 @@ def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list
                 "pressure read at / elevation above datum / bore",
                 f"{_POINTS[pump.pressure_point]} / "
                 f"{float(c(pump.tap_elevation, 'length')):.2f} {L} / "
-                f"{pump.tap_bore * 1000:.0f} mm"
+                f"{units.small_length_text(pump.tap_bore)}"
                 + (f" ({pump.datum_note})" if pump.datum_note else ""),
             ),
             ("method", "NPSHa = (p_abs - p_v)/(rho g) + v^2/(2g) + z (ISO 9906, ANSI/HI 1.3)"),

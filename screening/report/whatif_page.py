@@ -14,10 +14,12 @@ from plotly.offline import get_plotlyjs
 
 from screening.base.files import atomic_folder, page_names
 from screening.base.states import BANDS
+from screening.inputs.units import UnitError, si_to
 from screening.report.cautions import CAUTIONS
 from screening.report.figjson import plain_figure
 from screening.report.palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
 from screening.report.plant_report import write_table
+from screening.report.pump_pages import DISPLAY_UNITS, DisplayUnits
 from screening.scenarios.whatif import WhatIfResult
 
 _ENV = Environment(loader=PackageLoader("screening.report", "templates"),
@@ -25,8 +27,8 @@ _ENV = Environment(loader=PackageLoader("screening.report", "templates"),
 #: The caution specific to setpoints, on every what-if page beside the general ones.
 WHATIF_CAUTION = (
     "These results are a screening estimate from past operation: the same history replayed "
-    "with changed inputs. A setpoint change goes through the site's management-of-change "
-    "process and the review of the pump manufacturer and the site's engineers."
+    "with changed inputs, not a prediction. The pump manufacturer and the site's engineers "
+    "review any change drawn from them (see the cautions at the end of the page)."
 )
 _BELOW = ("below_npsh3", "below_guidance")
 _OUTSIDE = ("below_min_flow", "low_flow", "high_flow", "beyond_allowable")
@@ -55,30 +57,66 @@ def _hours(x: float) -> str:
     return f"{0.0 if abs(x) < 0.05 else x:.1f}"  # no "-0.0" from rounding
 
 
-def _display_value(value: float, unit: str, difference: bool = False) -> str:
-    """A required value [SI] in the page's units (kPa, °C, m); a difference signed, and a
-    temperature difference in K."""
+def _kind(unit: str) -> str:
+    """The quantity kind of a setpoint row's SI ``unit`` (pressure, temperature, length)."""
+    return "pressure" if unit.startswith("Pa") else "temperature" if unit == "K" else "length"
+
+
+def _display_value(
+    value: float, unit: str, difference: bool = False, units: DisplayUnits | None = None
+) -> str:
+    """A required value [SI, ``unit`` of the setpoint row] in the page's display units; a
+    difference signed (a temperature difference in K or °F)."""
     if value is None or not np.isfinite(value):
         return ""
+    units = units or DISPLAY_UNITS["si"]
     sign = "+" if difference else ""
-    if unit.startswith("Pa"):
-        return f"{value / 1000:{sign}.1f} kPa" + ("" if difference else unit[2:])
-    if unit == "K":
-        return f"{value:+.1f} K" if difference else f"{value - 273.15:.1f} °C"
-    return f"{value:{sign}.3f} m"
+    kind = _kind(unit)
+    if kind == "pressure":
+        ref = "" if difference else unit[2:]
+        return f"{float(units.convert(value, 'pressure')):{sign}.1f} {units.pressure}{ref}"
+    if kind == "temperature":
+        if difference:
+            us = units.temperature == "degF"
+            return f"{value * 1.8:+.1f} °F" if us else f"{value:+.1f} K"
+        return f"{float(units.convert(value, 'temperature')):.1f} {units.label('temperature')}"
+    return f"{float(units.convert(value, 'length')):{sign}.3f} {units.head}"
 
 
-def _one_sample(row) -> str:
+def _one_sample(row, units: DisplayUnits) -> str:
     """A 100 % limit set by one sample: when, and the 99.9 % value beside it."""
     if not getattr(row, "set_by_one_sample", ""):
         return ""
-    near = _display_value(row.required_99_9, row.unit) or "not needed"
+    near = _display_value(row.required_99_9, row.unit, units=units) or "not needed"
     return f"{row.set_by_one_sample}; for 99.9 %: {near}"
 
 
-def _setpoint_rows(frame: pd.DataFrame, shares: tuple[float, ...]) -> tuple[list[dict], list]:
-    """One row per pump and input with the required limit at each share; pumps that met the
-    guidance all the time without any change are listed apart."""
+def instrument_text(pump, unit: str, value: float) -> str:
+    """A required value [SI, ``unit`` of the setpoint row] in the unit and reference of the
+    pump's own instrument (the suction pressure transmitter, level transmitter or temperature
+    element), as written on a change request; empty where the instrument's unit is not one
+    the tool converts (a level in % of span, say)."""
+    if value is None or not np.isfinite(value):
+        return ""
+    kind = _kind(unit)
+    role = {"pressure": "suction", "temperature": "temperature", "length": "level"}[kind]
+    spec = pump.tags().get(role)
+    if spec is None:
+        return ""
+    try:
+        shown = float(si_to(value, spec.unit, kind))
+    except (UnitError, ValueError):
+        return ""
+    ref = {"pressure": " gauge" if pump.gauge else " absolute"}.get(kind, "")
+    return f"{shown:.4g} {spec.unit}{ref} on {spec.tag}"
+
+
+def _setpoint_rows(
+    frame: pd.DataFrame, shares: tuple[float, ...], units: DisplayUnits, pumps: dict
+) -> tuple[list[dict], list]:
+    """One row per pump and input with the required limit at each share (display units, and
+    the strictest in the instrument's own unit); pumps that met the guidance all the time
+    without any change are listed apart."""
     rows, fine = [], []
     for pid, g in frame.groupby("pump_id", sort=True):
         if g["required"].isna().all() and (g["achieved_share"] >= 1.0).all():
@@ -92,18 +130,19 @@ def _setpoint_rows(frame: pd.DataFrame, shares: tuple[float, ...]) -> tuple[list
                     "pump_id": pid,
                     "input": inp.replace("_", " "),
                     "limit": limit,
-                    "required": [_display_value(by.loc[q, "required"], strict.unit)
+                    "required": [_display_value(by.loc[q, "required"], strict.unit, units=units)
                                  or "not needed" for q in shares],
-                    "today": _display_value(strict.today_setpoint, strict.unit)
+                    "instrument": instrument_text(pumps[pid], strict.unit, strict.required),
+                    "today": _display_value(strict.today_setpoint, strict.unit, units=units)
                     or "not in register",
                     "change": _display_value(
-                        strict.change_from_setpoint, strict.unit, difference=True
+                        strict.change_from_setpoint, strict.unit, difference=True, units=units
                     ),
-                    "recorded": _display_value(strict.recorded, strict.unit),
+                    "recorded": _display_value(strict.recorded, strict.unit, units=units),
                     "achieved": "" if not np.isfinite(strict.achieved_share)
                     else f"{100 * strict.achieved_share:.2f} %",
                     "cannot": _hours(strict.cannot_meet_h) if strict.cannot_meet_h else "",
-                    "note": "; ".join(x for x in (strict.note, _one_sample(strict)) if x),
+                    "note": "; ".join(x for x in (strict.note, _one_sample(strict, units)) if x),
                 }
             )  # fmt: skip
     return rows, fine
@@ -129,12 +168,16 @@ def _before_after_figure(hours: pd.DataFrame, div_id: str) -> str:
     return fig.to_html(full_html=False, include_plotlyjs=False, div_id=div_id)
 
 
-def write_whatif_report(result: WhatIfResult, out: str | Path) -> Path:
+def write_whatif_report(result: WhatIfResult, out: str | Path, units: str = "si") -> Path:
     """Write the what-if report folder: ``index.html``, one page per scenario, and the tables
     ``whatif_hours``, ``whatif_moves``, ``whatif_changes``, ``whatif_summary``,
     ``required_setpoints`` and ``margin_sensitivity`` (CSV and Parquet, SI units in the
-    column names or a ``unit`` column). The folder is replaced whole when complete."""
+    column names or a ``unit`` column). The pages show ``units`` (``"si"`` or ``"us"``).
+    The folder is replaced whole when complete."""
     out = Path(out)
+    if units not in DISPLAY_UNITS:
+        raise ValueError(f"display units {units!r} are not 'si' or 'us'")
+    shown = DISPLAY_UNITS[units]
     plant = result.scan.plant
     summary = _summary(result.hours) if len(result.hours) else pd.DataFrame()
     pages = page_names([f"scenario_{s.name}" for s in result.scenarios])
@@ -160,10 +203,12 @@ def write_whatif_report(result: WhatIfResult, out: str | Path) -> Path:
             "plant_name": plant.name,
             "window": f"{result.scan.start.tz_convert(plant.timezone):%Y-%m-%d %H:%M} to "
             f"{result.scan.end.tz_convert(plant.timezone):%Y-%m-%d %H:%M} ({plant.timezone})",
-            "cautions": (WHATIF_CAUTION, *CAUTIONS),
+            "first": WHATIF_CAUTION,
+            "cautions": CAUTIONS,
+            "units": shown,
         }
         side = _side_by_side(summary, result)
-        setpoints, fine = _setpoint_rows(result.setpoints, result.shares)
+        setpoints, fine = _setpoint_rows(result.setpoints, result.shares, shown, plant.pumps)
         (tmp / "index.html").write_text(
             _ENV.get_template("whatif.html").render(
                 **common,
@@ -179,7 +224,7 @@ def write_whatif_report(result: WhatIfResult, out: str | Path) -> Path:
                 setpoints=setpoints,
                 fine=fine,
                 share_labels=[f"{100 * q:g} %" for q in result.shares],
-                sensitivity=result.sensitivity.to_dict("records"),
+                sensitivity=_sensitivity_rows(result.sensitivity, shown),
                 notes=result.notes,
                 problems=result.scan.problems.to_dict("records"),
                 shares=", ".join(f"{100 * q:g} %" for q in result.shares),
@@ -222,3 +267,29 @@ def _side_by_side(summary: pd.DataFrame, result: WhatIfResult) -> dict:
             before = {k: _hours(g.iloc[0][f"{k}_before_h"]) for k in keys}
             rows.append({"pump_id": pid, "before": before, "cells": cells})
     return {"names": names, "rows": rows}
+
+
+def _sensitivity_rows(frame: pd.DataFrame, units: DisplayUnits) -> list[dict]:
+    """The margin-per-unit table in display units: flow, temperature, heads, and the margin
+    gained per unit of suction pressure, level and cooling."""
+    c = units.convert
+    rows = []
+    for r in frame.to_dict("records"):
+        per_p = float(c(1000.0, "pressure"))  # display pressure units in one kPa
+        per_l = float(c(1.0, "length"))  # display length units in one metre
+        cool = 1.8 if units.temperature == "degF" else 1.0  # display degrees in one kelvin
+        rows.append({
+            "pump_id": r["pump_id"],
+            "flow": f"{float(c(r['flow_m3_s'], 'flow')):.1f}",
+            "temperature": f"{float(c(r['temperature_k'], 'temperature')):.1f}",
+            "npsha": f"{float(c(r['npsha_m'], 'length')):.2f}",
+            "guidance": f"{float(c(r['guidance_m'], 'length')):.2f}",
+            "per_pressure": _per(r["margin_per_kpa_m"] * per_l / per_p),
+            "per_level": _per(r["margin_per_m_level"]),
+            "per_degree": _per(r["margin_per_k_cooler_m"] * per_l / cool),
+        })  # fmt: skip
+    return rows
+
+
+def _per(x: float) -> str:
+    return f"{x:.3f}" if x is not None and np.isfinite(x) else ""

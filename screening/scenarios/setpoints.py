@@ -31,6 +31,7 @@ import pandas as pd
 
 from screening.base.states import BANDS
 from screening.engine.drivers import COLUMNS, drivers_for, npsh_pair
+from screening.inputs.units import si_to
 from screening.physics.npsh import G
 
 SETPOINT_COLUMNS = [
@@ -245,7 +246,7 @@ def required_setpoints(
                 achieved = float("nan")
                 note = (
                     f"cooling alone cannot reach this share: {cannot:.1f} h stay below the "
-                    f"guidance even at {table.t_min - 273.15:.1f} degC"
+                    f"guidance even at {_degrees(table.t_min)}"
                 )
             else:
                 achieved = met({"temperature": np.minimum(inputs["temperature"], cap)})
@@ -304,3 +305,9 @@ def _sensitivity(pump, curve, table, guidance, inputs: dict, w: np.ndarray) -> d
     if pump.vessel_surface != "saturated":
         out["margin_per_k_cooler_m"] = npsha(temperature=-0.5) - npsha(temperature=0.5)
     return out
+
+
+def _degrees(kelvin: float) -> str:
+    """A temperature [K] in both degrees Celsius and Fahrenheit, for notes read in either."""
+    c, f = float(si_to(kelvin, "degC", "temperature")), float(si_to(kelvin, "degF", "temperature"))
+    return f"{c:.1f} degC ({f:.1f} degF)"

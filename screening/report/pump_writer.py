@@ -1,0 +1,111 @@
+"""Writing the pump pages: one HTML page per pump from the scan's tables and plot data."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from screening.base import states
+from screening.base.text import hours_text
+from screening.engine.scan import ScanResult
+from screening.physics import regions
+from screening.physics.properties import fluid_table
+from screening.report import field_page, pump_pages
+from screening.report.cautions import CAUTIONS
+from screening.report.figjson import figure_html
+from screening.report.palette import REGION_LABELS, STATE_LABELS
+from screening.report.pump_pages import DisplayUnits
+from screening.report.templating import ENV
+from screening.report.timeline import time_figure
+
+
+def hours_rows(h: pd.DataFrame) -> list[list[str]]:
+    """The hours table of a pump page: one row per kind of state, each cell a state's label
+    and its hours (``19.0 h``, ``2 min``), in report order."""
+    rows = []
+    for kind, title, names, labels in (
+        ("margin", "margin band", states.STATES, STATE_LABELS),
+        ("region", "operating region", regions.REGIONS, REGION_LABELS),
+    ):
+        part = h[h.kind == kind].set_index("state")["hours"]
+        rows.append([title] + [f"{labels[n]}: {hours_text(part.get(n, 0.0), True)}" for n in names])
+    return rows
+
+
+def running_speed(plot: pd.DataFrame | None, rated: float) -> float:
+    """The pump's typical running speed [rpm]: the median of the buckets' mid speeds, or the
+    rated speed where the pump has no speed tag."""
+    if plot is None or "speed_rpm_min" not in plot:
+        return rated
+    mid = ((plot["speed_rpm_min"] + plot["speed_rpm_max"]) / 2).dropna()
+    mid = mid[plot.loc[mid.index, "npsha_m_min"].notna()]  # running buckets only
+    return float(np.median(mid)) if len(mid) else rated
+
+
+def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: DisplayUnits) -> None:
+    """Write the pages of ``pages`` (pump id -> file name) under ``folder``/pumps, in display
+    ``units``."""
+    plant = result.plant
+    tz = plant.timezone
+    template = ENV.get_template("pump.html")
+    a, b = result.start.tz_convert(tz), result.end.tz_convert(tz)
+    window = f"{a:%Y-%m-%d %H:%M} to {b:%Y-%m-%d %H:%M}"
+    ample = plant.settings.policy.ample_ratio
+    # each pump's rows picked once (a mask per pump would cost pumps x rows)
+    hours_of = dict(list(result.hours.groupby("pump_id", sort=False)))
+    margin_days = result.daily[result.daily.kind == "margin"]
+    daily_of = dict(list(margin_days.groupby("pump_id", sort=False)))
+    thin = result.not_enough_data.set_index("pump_id")["coverage"].to_dict()
+    least = plant.settings.data.min_coverage
+    summary_of = {row["pump_id"]: row for row in result.summary.to_dict("records")}
+    for pid, name in pages.items():
+        pump = plant.pumps[pid]
+        g = plant.guidance[pid]
+        plot = result.plots.get(pid)
+        figs = {"fig_time": "", "fig_points": ""}
+        if plot is not None and len(plot):
+            fig = time_figure(plot, units, tz, g.ratio, ample, result.start, result.end)
+            figs["fig_time"] = figure_html(fig, "timeline")
+        if pid in result.points:
+            speed = running_speed(plot, pump.rated_speed)
+            fig = pump_pages.points_figure(
+                result.points[pid], plant.curves[pump.curve_id], pump, units, g, speed
+            )
+            figs["fig_points"] = figure_html(fig, "points")
+        daily = daily_of.get(pid, margin_days.iloc[:0])
+        figs["fig_calendar"] = figure_html(pump_pages.calendar_figure(daily), "calendar")
+        model = fluid_table(pump.fluid, pump.vapour_pressure).vapour_pressure_model
+        html = template.render(
+            pump=pump,
+            plant_name=plant.name,
+            window=window,
+            units_label=units.name,
+            hours_rows=hours_rows(hours_of.get(pid, result.hours.iloc[:0])),
+            downsample_note=(
+                f"Downsampled for the browser: the window is cut into "
+                f"{len(plot) if plot is not None else 0} time buckets and each keeps the minimum "
+                "and the maximum of every series, so short dips stay visible. Full-resolution "
+                "hours are in the tables beside this page."
+            ),
+            guidance_ratio=f"{g.ratio:.2f}",
+            guidance_margin=units.length_text(g.margin),
+            ample_ratio=f"{ample:.2f}",
+            register=pump_pages.register_rows(pump, g, model, units),
+            flags=pump_pages.pump_flags(summary_of.get(pid), units),
+            cautions=CAUTIONS,
+            field_section=field_page.section(
+                result.evidence.get(pid), pump, plant.curves[pump.curve_id], units
+            ),
+            thin_note=(
+                f"Not enough data to screen: usable data for {100 * thin[pid]:.1f} % of the "
+                f"window, less than the {100 * least:.0f} % asked ([data] min_coverage). The "
+                "hours here are those of the data there was; little time below the guidance "
+                "means little was seen, not that the margin was good."
+                if pid in thin
+                else ""
+            ),
+            **figs,
+        )
+        pump_pages.write_pump_page(folder / "pumps" / name, html)

@@ -1,0 +1,143 @@
+"""Why a pump ranks where it does, in one line of the overview.
+
+The worst time's inputs: in the plot bucket holding the pump's worst margin, each input's
+value on the side that lowers the margin (the least suction pressure or vessel level, the
+highest temperature, flow and speed) is set against the pump's running median (the median of
+the running buckets' mid values) and measured in the input's usual spread (the 10th to 90th
+percentile range of those mid values). The input furthest from its median in that direction
+is named as the one that drove the worst margin: a screening pointer, not a split of the
+margin (``pumpscreen onset`` splits the lost margin by input). Then the hours that the
+ranking alone hides: below minimum flow, bad data (naming tags with frozen or impossible
+values), no data, off the vendor curve, speed outside the scaling.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from screening.base.text import hours_text
+
+#: Plot inputs and the side of each that lowers the margin: (column, label, kind, low side).
+INPUTS = (
+    ("suction_pressure_abs_pa", "suction pressure", "pressure", True),
+    ("level_m", "vessel level", "length", True),
+    ("temperature_k", "temperature", "temperature", False),
+    ("flow_m3_s", "flow", "flow", False),
+    ("speed_rpm", "speed", "speed", False),
+)
+#: Least spread of an input, as a fraction of its median's size (a steady input moved by a
+#: hair is not a driver).
+MIN_SPREAD = 0.01
+#: Least hours of a count to name in the line [h].
+MIN_HOURS = 0.05
+
+
+@dataclass(frozen=True)
+class WorstInput:
+    """One input at a pump's worst time against its running median (SI values)."""
+
+    input: str
+    kind: str
+    at_worst: float
+    running_median: float
+    spread: float
+    score: float
+
+
+def worst_inputs(plot: pd.DataFrame | None, worst_time) -> list[WorstInput]:
+    """Each input of ``plot`` at the bucket holding ``worst_time`` against its running
+    median, by score (distance from the median toward less margin, in spreads), largest
+    first; empty without plot data or a worst time."""
+    if plot is None or not len(plot) or worst_time is None or pd.isna(worst_time):
+        return []
+    times = plot["time"].dt.tz_convert("UTC").dt.tz_localize(None).to_numpy()
+    when = pd.Timestamp(worst_time).tz_convert("UTC").tz_localize(None).to_datetime64()
+    at = int(np.searchsorted(times, when, "right"))
+    if at == 0:
+        return []
+    row = plot.iloc[at - 1]
+    running = plot["npsha_m_min"].notna()
+    out = []
+    for col, label, kind, low_side in INPUTS:
+        if f"{col}_min" not in plot:
+            continue
+        mid = ((plot[f"{col}_min"] + plot[f"{col}_max"]) / 2)[running].dropna()
+        value = row[f"{col}_min"] if low_side else row[f"{col}_max"]
+        if not len(mid) or pd.isna(value):
+            continue
+        median = float(np.median(mid))
+        p10, p90 = np.percentile(mid, [10, 90])
+        spread = max(float(p90 - p10), MIN_SPREAD * abs(median), 1e-12)
+        toward = (median - value) if low_side else (value - median)
+        out.append(WorstInput(label, kind, float(value), median, spread, toward / spread))
+    return sorted(out, key=lambda w: -w.score)
+
+
+def _input_text(w: WorstInput, units) -> str:
+    unit = units.label(w.kind)
+    value = float(units.convert(w.at_worst, w.kind))
+    median = float(units.convert(w.running_median, w.kind))
+    digits = 0 if abs(median) >= 100 else 1 if abs(median) >= 10 else 2
+    return f"{w.input} {value:.{digits}f} {unit} (median {median:.{digits}f})"
+
+
+def problem_tags(quality: pd.DataFrame, pump_id: str) -> list[str]:
+    """Tags of a pump with frozen or impossible values, or bad-quality or text samples."""
+    q = quality[quality["pump_id"] == pump_id]
+    bad = q[["frozen", "out_of_range", "bad_quality", "text_values"]].sum(axis=1) > 0
+    return [str(t) for t in q.loc[bad, "tag"]]
+
+
+def why_text(row: dict, plot: pd.DataFrame | None, quality: pd.DataFrame, units) -> str:
+    """The overview's one-line reason for a pump's place (see the module docstring)."""
+    parts = []
+    below = row["below_guidance_hours"] > 0 or (
+        pd.notna(row["worst_margin_to_guidance_m"]) and row["worst_margin_to_guidance_m"] < 0
+    )
+    if below and pd.notna(row.get("worst_time")):
+        when = pd.Timestamp(row["worst_time"]).strftime("%d %b %H:%M")
+        ranked = worst_inputs(plot, row["worst_time"])
+        if ranked and ranked[0].score > 0:
+            parts.append(f"worst {when}: {_input_text(ranked[0], units)}")
+        else:
+            parts.append(f"worst {when}")
+    counts = (
+        ("below_min_flow_hours", "below minimum flow"),
+        ("bad_data_hours", "bad data"),
+        ("no_data_hours", "no data"),
+        ("off_curve_hours", "off the vendor curve"),
+        ("speed_outside_scaling_hours", "speed outside the scaling"),
+    )
+    for col, label in counts:
+        h = float(row.get(col, 0.0) or 0.0)
+        if h >= MIN_HOURS:
+            text = f"{hours_text(h, True)} {label}"
+            if col == "bad_data_hours":
+                tags = problem_tags(quality, row["pump_id"])
+                text += f" ({', '.join(tags[:2])})" if tags else ""
+            parts.append(text)
+    return "; ".join(parts)
+
+
+def worst_inputs_table(result, pages_plots: dict) -> pd.DataFrame:
+    """Every pump's inputs at its worst time against their running medians (SI), the tidy
+    table behind the overview's reasons."""
+    rows = []
+    for row in result.summary.to_dict("records"):
+        for w in worst_inputs(pages_plots.get(row["pump_id"]), row.get("worst_time")):
+            rows.append({
+                "pump_id": row["pump_id"], "worst_time": str(row["worst_time"]),
+                "input": w.input, "unit": _SI_UNITS[w.kind], "at_worst": w.at_worst,
+                "running_median": w.running_median, "spread_p10_p90": w.spread,
+                "spreads_toward_less_margin": w.score,
+            })  # fmt: skip
+    cols = ["pump_id", "worst_time", "input", "unit", "at_worst", "running_median",
+            "spread_p10_p90", "spreads_toward_less_margin"]  # fmt: skip
+    return pd.DataFrame(rows, columns=cols)
+
+
+_SI_UNITS = {"pressure": "Pa abs", "length": "m", "temperature": "K", "flow": "m3/s",
+             "speed": "rpm"}  # fmt: skip

@@ -1,0 +1,108 @@
+"""The overview page of the demo plant's report: one line per pump with the reason for its
+place, one legend per state chart, only the tags with problems, pages within their size."""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+import screening
+from screening.engine.plotdata import DEFAULT_BUCKETS
+from screening.report.plant_report import problem_quality
+
+ROOT = Path(__file__).resolve().parents[1]
+CONFIG = ROOT / "configs" / "demo_plant.toml"
+#: Most bytes of a pump page of the demo report (the plot data of a month of 1-min samples).
+PAGE_LIMIT = 150_000
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    """The demo plant scanned once with the command line's plot data, its report written."""
+    result = screening.scan(CONFIG, plot_buckets=DEFAULT_BUCKETS)
+    out = tmp_path_factory.mktemp("overview") / "report"
+    screening.write_report(result, out)
+    return result, out, (out / "index.html").read_text(encoding="utf-8")
+
+
+def _rows(html: str) -> dict[str, str]:
+    """The ranking's rows by pump id (their HTML)."""
+    body = html[html.index('<table id="ranking">') :].split("</table>")[0]
+    rows = re.findall(r"<tr data-search=.*?</tr>", body, re.S)
+    return {re.search(r'<a href="pumps/[^"]+">([^<]+)</a>', r).group(1): r for r in rows}
+
+
+def _why(row_html: str) -> str:
+    return re.search(r'<td class="text clip why" title="([^"]*)"', row_html).group(1)
+
+
+def test_each_row_says_why_the_pump_ranks_there(demo):
+    result, out, html = demo
+    rows = _rows(html)
+    assert len(rows) == len(result.ranked)
+    s = result.summary.set_index("pump_id")
+    # the worst pump: its worst time and the input furthest from its median at that time
+    assert _why(rows["RW-502"]).startswith("worst 27 Oct 13:59: suction pressure")
+    # the hours the ranking's own columns would hide: bad data with its tag, minimum flow
+    bad = s["bad_data_hours"].idxmax()
+    tags = problem_quality(result.quality).query("pump_id == @bad and frozen > 0")["tag"]
+    assert f"{s.loc[bad, 'bad_data_hours']:.1f} h bad data (" in _why(rows[bad])
+    assert any(t in _why(rows[bad]) for t in tags)
+    low = s["below_min_flow_hours"].idxmax()
+    assert f"{s.loc[low, 'below_min_flow_hours']:.1f} h below minimum flow" in _why(rows[low])
+    # the table beside it holds the inputs at the worst time
+    table = pd.read_csv(out / "worst_inputs.csv")
+    rw = table[table.pump_id == "RW-502"].sort_values("spreads_toward_less_margin")
+    assert rw["input"].iloc[-1] == "suction pressure"
+    assert rw["at_worst"].iloc[-1] < rw["running_median"].iloc[-1]
+
+
+def test_a_ranking_row_is_one_line(demo):
+    _, _, html = demo
+    for pid, row in _rows(html).items():
+        assert "<br" not in row and "<small" not in row, pid
+    assert "#ranking td, #coverage td { white-space: nowrap; }" in html
+    # the guidance rule sits in the cell's tooltip
+    assert re.search(
+        r'<td class="text" title="ratio 1\.30 or NPSH3 \+ 1\.00 m, the greater; '
+        r'policy rule 4[^"]*">1\.30 / 1\.00 m</td>',
+        _rows(html)["RW-502"],
+    )
+
+
+def test_state_charts_share_one_legend(demo):
+    _, _, html = demo
+    assert 'class="swatch"' not in html and 'class="legend"' not in html
+    from test_pump_pages import _figures
+
+    figs = _figures(html)
+    margin = {t["name"]: t["marker"] for t in figs["hours-by-margin"]["data"]}
+    region = {t["name"]: t["marker"] for t in figs["hours-by-region"]["data"]}
+    shared = set(margin) & set(region)
+    assert shared >= {"stopped", "no data", "bad data"}  # and "starting" (issue 17)
+    assert all(margin[n] == region[n] for n in shared)
+
+
+def test_coverage_lists_only_tags_with_problems(demo):
+    result, out, html = demo
+    table = html[html.index('<table id="coverage">') :].split("</table>")[0]
+    listed = re.findall(
+        r"<tr><td class=\"text\">([^<]+)</td><td class=\"text\">([^<]+)</td>"
+        r"<td class=\"text\">([^<]+)</td>",
+        table,
+    )
+    problems = problem_quality(result.quality)
+    assert 0 < len(listed) == len(problems) < len(result.quality)
+    clean = result.quality[~result.quality.index.isin(problems.index)]
+    assert clean.iloc[0]["tag"] not in {t for _, _, t in listed}
+    assert len(pd.read_csv(out / "data_quality.csv")) == len(result.quality)  # all in the CSV
+
+
+def test_pump_pages_stay_small(demo):
+    _, out, _ = demo
+    sizes = {p.name: p.stat().st_size for p in (out / "pumps").glob("*.html")}
+    print(f"pump pages: largest {max(sizes.values())} bytes, total {sum(sizes.values())} bytes")
+    assert max(sizes.values()) <= PAGE_LIMIT, max(sizes, key=sizes.get)
