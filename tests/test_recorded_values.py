@@ -257,3 +257,37 @@ def test_one_sample_setting_the_full_share_is_named():
     need[999] = 4000.0
     w[999] = 0.01
     assert one_sample(need, ok, w, times) is None
+
+
+def test_register_override_reads_the_point_after_the_window(tmp_path):
+    # A suction pressure stored hourly at -45 kPa gauge until 20:00, then at -95 kPa at 02:00
+    # the next day (after the window's end): drawn by lines, NPSHa crosses NPSH3 (3.2 m at
+    # 80 m3/h) at about 23:12 inside the window. Declared linear in the register only, the
+    # point after the window must be read as it is for a family declared linear: the hours are
+    # the same both ways, and more than half an hour below NPSH3 (a step would give none).
+    from plantmaker import header_with, make_plant, pump_row, steady_frame
+
+    frame = steady_frame()
+    frame["P1.PS"] = np.nan
+    frame.loc[frame.index % 60 == 0, "P1.PS"] = -45.0
+    frame.loc[frame.index > 20 * 60, "P1.PS"] = np.nan
+    late = pd.DataFrame({"timestamp": ["2026-10-02 02:00:00"], "P1.PS": [-95.0]})
+    frame = pd.concat([frame, late], ignore_index=True)
+
+    def plant(folder, register_word, family_word):
+        rows = [pump_row("P1", reconstruction=register_word)]
+        path = make_plant(folder, wide={"a.csv": frame}, rows=rows)
+        (folder / "pumps.csv").write_text(header_with("reconstruction") + "\n" + rows[0] + "\n")
+        if family_word:
+            text = path.read_text().replace(
+                'layout = "wide"', 'layout = "wide"\nreconstruction = "linear"'
+            )
+            path.write_text(text)
+        return screening.scan(path)
+
+    by_register = plant(tmp_path / "a", "suction=linear", False)
+    by_family = plant(tmp_path / "b", "", True)
+    h1 = by_register.hours.set_index(["kind", "state"])["hours"]
+    h2 = by_family.hours.set_index(["kind", "state"])["hours"]
+    assert h1[("margin", "below_npsh3")] > 0.5
+    assert h1[("margin", "below_npsh3")] == pytest.approx(h2[("margin", "below_npsh3")], abs=1e-9)

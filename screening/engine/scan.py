@@ -113,8 +113,12 @@ def scan(
     )
     # a compressed record also needs the stored point after the window's end to draw the
     # line up to it, and the point before its start within the longest interval
-    linear = [s.max_interval or plant.settings.data.max_interval for s in plant.settings.exports
+    default = plant.settings.data.max_interval
+    linear = [s.max_interval or default for s in plant.settings.exports
               if s.reconstruction == "linear"] or [0.0]  # fmt: skip
+    if any(t.reconstruction == "linear" for p in selected for t in plant.pumps[p].all_tags()):
+        # a tag drawn by lines by the register's word, whatever its family says
+        linear += [s.max_interval or default for s in plant.settings.exports] + [default]
     span = (start_ns - int(max(longest, max(linear)) * 1e9) - 1,
             end_ns + int(max(linear) * 1e9))  # fmt: skip
     batches = _batches(plant, index, selected, end_ts - start_ts)
