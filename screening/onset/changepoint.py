@@ -291,9 +291,9 @@ def estimate_onset(
         return result
     if not stat > pen:
         result["reason"] = (
-            f"no change in the mean: two segments do not beat one by the BIC-type criterion "
-            f"with AR(1) errors ((n-1)*ln(s0^2/s1^2) = {stat:.2f} <= penalty {pen:.2f}; "
-            f"lag-one correlation {result['phi_null']:.2f})"
+            f"no change in the mean: with days correlated from one to the next, two segments "
+            f"do not beat one by the BIC-type criterion (statistic {stat:.2f} <= penalty "
+            f"{pen:.2f}; lag-one correlation {result['phi_null']:.2f})"
         )
         return result
 
@@ -440,9 +440,9 @@ def estimate_ramp_onset(
         return out
     if not stat > pen:
         out["reason"] = (
-            f"no ramp: a broken stick does not beat one mean by the BIC-type criterion with "
-            f"AR(1) errors ((n-1)*ln(s0^2/s1^2) = {stat:.2f} <= penalty {pen:.2f}; lag-one "
-            f"correlation {out['phi_null']:.2f})"
+            f"no ramp: with days correlated from one to the next, a broken stick does not "
+            f"beat one mean by the BIC-type criterion (statistic {stat:.2f} <= penalty "
+            f"{pen:.2f}; lag-one correlation {out['phi_null']:.2f})"
         )
         return out
     total = out["slope"] * (t[-1] - t[k])
