@@ -31,13 +31,21 @@ import argparse
 import math
 import platform
 import statistics
+import sys
 import time
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from screening.onset.changepoint import _hinge_fits, _single_split, _sse
-from screening.onset.changepoint import estimate_onset, estimate_ramp_onset
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))  # this checkout's package
+from screening.onset.changepoint import (  # noqa: E402
+    _hinge_fits,
+    _single_split,
+    _sse,
+    estimate_onset,
+    estimate_ramp_onset,
+)
 
 DAYS = pd.date_range("2026-01-01", periods=365, freq="D")
 STEP_DAY, RAMP_DAY, STEP, SLOPE = 200, 245, 0.5, 0.01
@@ -131,8 +139,11 @@ def main() -> None:
     for phi in (0.0, 0.5, 0.8):
         for case in ("none", "step", "ramp"):
             r = run_case(case, phi, args.sd, args.series)
-            print(f"{phi:>4.1f} {case:>5} {r['step']:>6.1%} {r['step_near']:>8.1%} "
-                  f"{r['ramp']:>6.1%} {r['naive_step']:>11.1%} {r['naive_ramp']:>11.1%}")  # fmt: skip
+            cells = [r[k] for k in ("step", "step_near", "ramp", "naive_step", "naive_ramp")]
+            widths = (6, 8, 6, 11, 11)
+            print(
+                f"{phi:>4.1f} {case:>5} " + " ".join(f"{v:>{w}.1%}" for v, w in zip(cells, widths))
+            )
             if case == "none":
                 verdicts.append((f"false alarms, step, phi {phi}", r["step"] <= 0.05))
                 verdicts.append((f"false alarms, ramp, phi {phi}", r["ramp"] <= 0.05))

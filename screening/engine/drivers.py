@@ -23,8 +23,9 @@ suction line, so the pressure itself falls as the flow (or, on a shared line, th
 rises: p_s = p_0 + c·Q² (Darcy–Weisbach and k·Q² losses both go with Q²; Crane TP-410). The
 baseline fits c by time-weighted least squares (c <= 0: kept at 0 where the baseline's flow
 hardly varies or the fit says the pressure rises with flow), and the suction-pressure driver is
-the flow-free part p_0 = p_s − c·Q², the flow driver carrying the friction. The shares do not add up exactly to the total change against the baseline's median
-margin when inputs interact; the remainder is reported as ``interaction``.
+the flow-free part p_0 = p_s − c·Q², the flow driver carrying the friction. The shares do not
+add up exactly to the total change against the baseline's median margin when inputs interact;
+the remainder is reported as ``interaction``.
 """
 
 from __future__ import annotations

@@ -52,7 +52,9 @@ def _time(text: str, timezone: str, where: str) -> pd.Timestamp:
     try:
         ts = pd.Timestamp(text)
     except ValueError:
-        raise ConfigError(f"{where}: time {text!r} is not ISO 8601 (e.g. 2026-06-02T07:30)")
+        raise ConfigError(
+            f"{where}: time {text!r} is not ISO 8601 (e.g. 2026-06-02T07:30)"
+        ) from None
     if ts is pd.NaT:
         raise ConfigError(f"{where}: time is empty")
     if ts.tzinfo is None:

@@ -265,8 +265,8 @@ def estimate_onset(
         ``mean_before``, ``mean_after`` (segment means [unit of values] or None),
         ``interval`` ((low, high) Timestamps or None), ``confidence`` ([-] or None),
         ``statistic`` and ``penalty`` (of step 2), ``phi_null`` and ``phi`` (the lag-one
-        coefficients of the one-mean and of the best-step fit [-]), ``n_days`` (days used), ``block_days``
-        and ``method``.
+        coefficients of the one-mean and of the best-step fit [-]), ``n_days`` (days used),
+        ``block_days`` and ``method``.
     """
     days, y, result, sse0 = _start(dates, values, locals(), 2 * min_days, ONSET_METHOD,
                                    mean_before=None, mean_after=None)  # fmt: skip
@@ -403,7 +403,8 @@ def estimate_ramp_onset(
         ``onset`` (the hinge day, or None with a ``reason``), ``slope`` [unit of values per
         day] after it, ``intercept`` (the level before it), ``sse`` of the hinge fit and
         ``sse_step`` of the best single mean shift (for comparison), ``interval``,
-        ``confidence``, ``statistic``, ``penalty``, ``phi_null``, ``phi``, ``n_days``, ``block_days`` and ``method``.
+        ``confidence``, ``statistic``, ``penalty``, ``phi_null``, ``phi``, ``n_days``,
+        ``block_days`` and ``method``.
     """
     days, y, out, sse0 = _start(
         dates, values, locals(), 2 * min_days + 2, RAMP_METHOD, slope=math.nan,

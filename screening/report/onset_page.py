@@ -104,7 +104,9 @@ def write_onset_page(result, out: Path, failed_on=None) -> Path:
         local=local,
         episodes=eps.to_dict("records"),
         episode_columns=list(eps.columns),
-        before=None if result.before_failure is None else before_rows(result.before_failure, result),
+        before=None
+        if result.before_failure is None
+        else before_rows(result.before_failure, result),
         cautions=CAUTIONS,
     )
     (out / "plotly.min.js").write_text(get_plotlyjs(), encoding="utf-8")

@@ -30,6 +30,7 @@ from screening.base.text import hours_text
 from screening.base.version import __version__
 from screening.engine.execution import default_processes
 from screening.engine.scan import ScanResult
+from screening.inputs.events import events_for
 from screening.inputs.window import WindowError
 from screening.physics import regions
 from screening.physics.properties import fluid_table
@@ -207,6 +208,7 @@ def write_report(
         write_table(result.quality, tmp, "data_quality")
         write_table(result.problems, tmp, "not_screened")
         write_table(result.file_problems, tmp, "files_not_read")
+        write_table(_events_table(result), tmp, "events")
         pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
         # the pump pages are written while the tables are (in forked processes, large plants)
         stack.enter_context(_pump_pages(result, tmp, pages, DISPLAY_UNITS[units]))
@@ -356,6 +358,7 @@ def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
     for pid, name in pages.items():
         pump = plant.pumps[pid]
         g = plant.guidance[pid]
+        events = events_for(plant.events, pid, pump.area, result.start, result.end)
         plot = result.plots.get(pid)
         h = hours_of.get(pid, result.hours.iloc[:0])
         head = ["kind", "hours per state (each kind adds up to the window)"]
@@ -366,7 +369,8 @@ def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
         figs = {"fig_npsh": "", "fig_ratio": "", "fig_process": "", "fig_points": ""}
         if plot is not None and len(plot):
             t = local_times(plot["time"], tz)  # the same time axis for the three plots
-            figs["fig_npsh"] = _fig(pump_pages.npsh_figure(plot, units, tz, t), "npsh")
+            fig = pump_pages.mark_events(pump_pages.npsh_figure(plot, units, tz, t), events, tz)
+            figs["fig_npsh"] = _fig(fig, "npsh")
             fig = pump_pages.ratio_figure(plot, tz, g.ratio, ample, t)
             figs["fig_ratio"] = _fig(fig, "ratio")
             figs["fig_process"] = _fig(pump_pages.process_figure(plot, units, tz, t), "process")
@@ -397,6 +401,7 @@ def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
             ample_ratio=f"{ample:.2f}",
             register=pump_pages.register_rows(pump, g, model, units),
             flags=pump_pages.pump_flags(summary_of.get(pid), units),
+            events=pump_pages.event_rows(events, tz),
             cautions=CAUTIONS,
             thin_note=(
                 f"Not enough data to screen: usable data for {100 * thin[pid]:.1f} % of the "
@@ -409,6 +414,14 @@ def _write_some_pages(result: ScanResult, folder: Path, pages: dict, units) -> N
             **figs,
         )
         pump_pages.write_pump_page(folder / "pumps" / name, html)
+
+
+def _events_table(result: ScanResult) -> pd.DataFrame:
+    """The plant's known events in the window, times as text in the site's zone."""
+    ev = result.plant.events
+    ev = ev[(ev["time"] >= result.start) & (ev["time"] < result.end)].copy()
+    ev["time"] = ev["time"].dt.tz_convert(result.plant.timezone).astype("string")
+    return ev.reset_index(drop=True)
 
 
 def _points_table(points: dict) -> pd.DataFrame:
