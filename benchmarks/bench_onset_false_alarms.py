@@ -142,7 +142,8 @@ def main() -> None:
             cells = [r[k] for k in ("step", "step_near", "ramp", "naive_step", "naive_ramp")]
             widths = (6, 8, 6, 11, 11)
             print(
-                f"{phi:>4.1f} {case:>5} " + " ".join(f"{v:>{w}.1%}" for v, w in zip(cells, widths))
+                f"{phi:>4.1f} {case:>5} "
+                + " ".join(f"{v:>{w}.1%}" for v, w in zip(cells, widths, strict=True))
             )
             if case == "none":
                 verdicts.append((f"false alarms, step, phi {phi}", r["step"] <= 0.05))

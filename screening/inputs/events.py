@@ -16,6 +16,7 @@ Errors name the file, the line and the column (:class:`screening.inputs.config.C
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import pandas as pd
@@ -32,6 +33,10 @@ MAINTENANCE = (
 NOTES = ("setpoint_changed", "process_upset", "inspection", "note")
 KINDS = (FAILURE, *MAINTENANCE, *NOTES)
 COLUMNS = ["pump_id", "area", "time", "kind", "note"]
+#: ISO 8601-1:2019 calendar date, optionally with a time and an offset (the window's rule).
+_ISO = re.compile(
+    r"^\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:\.\d{1,9})?)?)?(?:Z|[+-]\d{2}:?\d{2})?$"
+)
 
 
 def empty_events() -> pd.DataFrame:
@@ -50,6 +55,8 @@ def empty_events() -> pd.DataFrame:
 def _time(text: str, timezone: str, where: str) -> pd.Timestamp:
     """An ISO 8601 text as a UTC instant (site time when it has no offset)."""
     try:
+        if not _ISO.match(text):
+            raise ValueError(text)
         ts = pd.Timestamp(text)
     except ValueError:
         raise ConfigError(

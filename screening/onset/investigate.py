@@ -26,7 +26,7 @@ from screening.engine.drivers import (
 from screening.engine.scan import scan
 from screening.inputs.events import FAILURE, MAINTENANCE, events_for
 from screening.inputs.plant import Plant, load_plant
-from screening.inputs.window import local_day_starts, window_bounds
+from screening.inputs.window import check_iso, local_day_starts, window_bounds
 from screening.onset import changepoint as cp
 from screening.onset import episodes as ep
 from screening.onset.finding import plain_finding
@@ -178,8 +178,8 @@ def _failure_date(plant: Plant, pump_id: str, win, failed_on):
         if failures.empty:
             return events, None, None
         return events, failures["time"].iloc[-1], "event"
-    when = window_bounds(plant, failed_on, end)[0] if isinstance(failed_on, str) else failed_on
-    when = pd.Timestamp(when)
+    when = pd.Timestamp(check_iso(failed_on, "--failed-on") if isinstance(failed_on, str)
+                        else failed_on)  # fmt: skip
     when = when.tz_localize(plant.timezone) if when.tzinfo is None else when
     when = when.tz_convert("UTC")
     local = "{:%Y-%m-%d %H:%M}".format
@@ -221,7 +221,8 @@ def _check_has_data(series: pd.DataFrame, pump_id: str, start, end) -> None:
     known = series["state"].isin(BANDS).to_numpy() & (series["hours"].to_numpy() > 0)
     if not known.any():
         states = series.groupby("state")["hours"].sum().sort_values(ascending=False)
-        found = ", ".join(f"{k} {v:.0f} h" for k, v in states.items() if v > 0) or "nothing"
+        found = ", ".join(f"{k} {v:.0f} h" for k, v in states.items() if v > 0)
+        found = found or "no sample of the pump's tags at all"
         raise ValueError(
             f"pump {pump_id}: the window {start} to {end} (UTC) has no running sample with a "
             f"known margin (hours: {found}); check the window against the exports' time range"
