@@ -34,7 +34,7 @@ _LEGACY_TABLES = {
     "hours", "summary", "daily_hours", "data_quality", "not_screened", "files_not_read",
     "changes", "plot_buckets", "operating_points", "whatif_hours", "whatif_moves",
     "whatif_changes", "whatif_summary", "required_setpoints", "margin_sensitivity",
-    "onset_hours", "episodes", "drivers", "before_failure",
+    "onset_hours", "episodes", "drivers", "before_failure", "events", "onset_daily",
 }  # fmt: skip
 _LEGACY_FILES = {"index.html", "run.json", "plotly.min.js", "summary.xlsx", "onset.html"}
 

@@ -26,7 +26,7 @@ def span_text(interval) -> str:
     """A 5-95 % interval of dates in words, e.g. '5-95 % between 2 and 28 June 2026'."""
     lo, hi = (pd.Timestamp(x) for x in interval)
     if lo == hi:
-        return f"5-95 % on {day_text(lo)} itself"
+        return "5-95 % interval within that day"
     if (lo.year, lo.month) == (hi.year, hi.month):
         first = str(lo.day)
     elif lo.year == hi.year:

@@ -23,13 +23,13 @@ def fitted_line(result) -> tuple[list[str], list[float], str] | None:
 
     Ramp (when chosen): intercept, then intercept + slope·(t − t_k) from the hinge day t_k;
     step: the mean before the onset, then the mean after (as fitted in
-    :mod:`screening.onset.changepoint`).
+    :mod:`screening.onset.changepoint`); failing both, the step of the margin itself.
     """
     d = result.daily
     if d.empty:
         return None
     first, last = d["date"].iloc[0], d["date"].iloc[-1]
-    ramp, step = result.ramp, result.onset
+    ramp, step, margin = result.ramp, result.onset, result.onset_margin
     if ramp.get("chosen"):
         k = pd.Timestamp(ramp["onset"])
         drop = ramp["slope"] * ((last - k) / pd.Timedelta(days=1))
@@ -41,7 +41,23 @@ def fitted_line(result) -> tuple[list[str], list[float], str] | None:
         xs = [_day(first), _day(k), _day(k), _day(last)]
         ys = [step["mean_before"], step["mean_before"], step["mean_after"], step["mean_after"]]
         return xs, ys, "fitted step"
+    if margin.get("onset") is not None:
+        k = pd.Timestamp(margin["onset"])
+        xs = [_day(first), _day(k), _day(k), _day(last)]
+        ys = [margin["mean_before"], margin["mean_before"], margin["mean_after"],
+              margin["mean_after"]]  # fmt: skip
+        return xs, ys, "fitted step of the margin"
     return None
+
+
+def chosen_estimate(result) -> dict:
+    """The estimate the finding speaks of: a chosen ramp, else a step of the suction
+    condition, else a step of the margin (the same order as :mod:`screening.onset.finding`)."""
+    if result.ramp.get("chosen"):
+        return result.ramp
+    if result.onset.get("onset") is not None:
+        return result.onset
+    return result.onset_margin
 
 
 def evidence_figure(result, local) -> go.Figure:
@@ -59,8 +75,8 @@ def evidence_figure(result, local) -> go.Figure:
             x=x, y=d["margin_change_m"], mode="lines", name="margin change, all inputs",
             line={"color": MARGIN, "width": 1},
         )  # fmt: skip
-    chosen = result.ramp if result.ramp.get("chosen") else result.onset
-    if chosen.get("interval"):
+    chosen = chosen_estimate(result)
+    if chosen.get("onset") is not None and chosen.get("interval"):
         lo, hi = chosen["interval"]
         fig.add_vrect(
             x0=_day(lo), x1=_day(pd.Timestamp(hi) + pd.Timedelta(days=1)), fillcolor=INTERVAL,
