@@ -80,6 +80,11 @@ def _estimate(what: str, res: dict) -> dict:
     return row
 
 
+def _sentence(text: str) -> str:
+    """The text with its first letter upper-case (the rest as written)."""
+    return text[:1].upper() + text[1:]
+
+
 def write_onset_page(result, out: Path, failed_on=None) -> Path:
     """Write ``onset.html`` (and plotly.min.js) into ``out``; return the page's path."""
     h = result.hours
@@ -95,6 +100,7 @@ def write_onset_page(result, out: Path, failed_on=None) -> Path:
     html = _ENV.get_template("onset.html").render(
         r=result,
         fig_evidence=_html(evidence_figure(result, local), "evidence"),
+        notes=_sentence("; ".join(result.notes)),
         events=None if events is None else events.to_dict("records"),
         event_columns=[] if events is None else list(events.columns),
         fig_timeline=_html(timeline, "timeline"),
