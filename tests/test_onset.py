@@ -119,7 +119,7 @@ def test_year_long_demo_history_weekly(tmp_path):
     assert (weeks.diff().dropna() == pd.Timedelta(days=7)).all()
 
 
-def test_year_long_demo_history_slow_fouling():
+def test_year_long_demo_history_slow_fouling(tmp_path):
     """HX-701's strainer fouls from 2026-06-15 until the pump fails on 2026-09-20 (invented
     history): a ramp, whose start the broken-stick fit finds, not a step."""
     from pathlib import Path
@@ -131,6 +131,14 @@ def test_year_long_demo_history_slow_fouling():
     assert abs((pd.Timestamp(r.ramp["onset"]) - pd.Timestamp("2026-06-15")).days) <= 14
     assert "a steady decline of the suction condition of" in r.finding
     assert "per month from about" in r.finding and "mostly from suction pressure" in r.finding
+    # the page shows the evidence: the fitted decline over the daily points, the interval of
+    # its start shaded, the failure marked; the method collapsed
+    page = screening.write_onset_report(r, tmp_path / "onset")
+    html = page.read_text()
+    for text in ("fitted decline (broken stick)", "5-95 % interval of the start",
+                 "suction condition (daily)", "<details><summary>Method</summary>"):  # fmt: skip
+        assert text in html
+    assert '"text":"failure"' in html.replace(" ", "")
 
 
 def test_episode_settings_from_the_plant_file_and_overridden(tmp_path):
