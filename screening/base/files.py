@@ -35,6 +35,8 @@ _LEGACY_TABLES = {
     "changes", "plot_buckets", "operating_points", "whatif_hours", "whatif_moves",
     "whatif_changes", "whatif_summary", "required_setpoints", "margin_sensitivity",
     "onset_hours", "episodes", "drivers", "before_failure", "worst_inputs", "monthly_hours",
+    "events", "onset_daily", "field_npsh3", "field_head_cells", "field_baseline",
+    "field_vibration",
 }  # fmt: skip
 _LEGACY_FILES = {"index.html", "run.json", "plotly.min.js", "summary.xlsx", "onset.html"}
 

@@ -24,12 +24,17 @@ def onset_command(
         ..., "--to", help="Window end (exclusive), ISO 8601.", callback=iso_date_option
     ),
     failed_on: str = typer.Option(
-        None, "--failed-on", help="Date the pump failed, ISO 8601.", callback=iso_date_option
+        None,
+        "--failed-on",
+        help="Date the pump failed, ISO 8601, inside the window (default: the last failure in "
+        "the plant's events table, if any).",
+        callback=iso_date_option,
     ),
     baseline: str = typer.Option(
         None,
         "--baseline",
-        help="Baseline period FROM..TO in ISO 8601 (default: the first three weeks).",
+        help="Baseline period FROM..TO in ISO 8601 (default: the first three weeks, after the "
+        "last maintenance event if there is one).",
         callback=iso_period_option,
     ),
     out: Path = typer.Option(None, "--out", help="Report folder (default reports/onset_<pump>)."),

@@ -132,10 +132,12 @@ class Site(_Strict):
 
 
 class RegisterFiles(_Strict):
-    """Paths (relative to the plant file) of the pump register and the NPSH3 curves."""
+    """Paths (relative to the plant file) of the pump register, the NPSH3 curves and, optionally,
+    the table of known events (maintenance, failures; :mod:`screening.inputs.events`)."""
 
     pumps: str
     curves: str
+    events: str | None = None
 
 
 class DataRules(_Strict):

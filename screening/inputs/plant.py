@@ -11,7 +11,10 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import pandas as pd
+
 from screening.inputs.config import ConfigError, PlantFile, read_plant_file
+from screening.inputs.events import empty_events, read_events
 from screening.inputs.policy import PolicyError, guidance_for
 from screening.inputs.register import PumpSpec, read_curves, read_pump_register
 from screening.physics.curves import Npsh3Curve, suction_energy, suction_specific_speed
@@ -31,6 +34,8 @@ class Plant:
     guidance: dict[str, Guidance]
     #: Pumps that cannot be screened: pump id -> reason.
     problems: dict[str, str] = field(default_factory=dict)
+    #: Known events (``[register] events``; :mod:`screening.inputs.events`), times in UTC.
+    events: pd.DataFrame = field(default_factory=empty_events)
 
     @property
     def name(self) -> str:
@@ -68,7 +73,12 @@ def load_plant(path: str | Path) -> Plant:
         except (ConfigError, FluidError, PolicyError) as exc:
             problems[pid] = f"{base / reg.pumps} line {pump.line} (pump {pid}): {exc}"
             del pumps[pid]
-    return Plant(Path(path), base, settings, pumps, curves, guidance, problems)
+    events = empty_events()
+    if reg.events:
+        ids = set(pumps) | set(problems)
+        areas = {p.area for p in pumps.values() if p.area}
+        events = read_events(base / reg.events, settings.site.timezone, ids, areas)
+    return Plant(Path(path), base, settings, pumps, curves, guidance, problems, events)
 
 
 def _check_pump(pump: PumpSpec, curves, curve_problems, settings: PlantFile) -> Guidance:

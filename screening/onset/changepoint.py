@@ -29,13 +29,15 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from screening.onset import dependence as dep
+
 ONSET_METHOD = (
-    "ruptures.Binseg, L2 cost, one change point (exact best single split); BIC-type test; "
-    "moving-block bootstrap interval"
+    "ruptures.Binseg, L2 cost, one change point (exact best single split); BIC-type test with "
+    "AR(1) errors; moving-block bootstrap interval"
 )
 RAMP_METHOD = (
-    "broken-stick least squares (exhaustive search of the hinge day); BIC-type test; "
-    "moving-block bootstrap interval"
+    "broken-stick least squares (exhaustive search of the hinge day); BIC-type test with AR(1) "
+    "errors; moving-block bootstrap interval"
 )
 
 
@@ -75,6 +77,8 @@ def _prepare(dates: Any, values: Any, args: dict[str, Any]) -> tuple[pd.Datetime
     if args["penalty"] is not None:
         _nonnegative("penalty", args["penalty"])
     _nonnegative("min_change", args["min_change"])
+    if args["null_draws"] != 0:
+        _whole("null_draws", args["null_draws"], 19)
     keep = np.isfinite(y)
     return days[keep], y[keep]
 
@@ -93,6 +97,8 @@ def _start(dates, values, args: dict, fewest: int, method: str, **fields):
         "interval": None,
         "confidence": None,
         "statistic": None,
+        "phi_null": None,
+        "phi": None,
         "penalty": float(2.0 * math.log(n)) if penalty is None and n > 1 else penalty,
         "n_days": n,
         "block_days": args["block_days"] or max(1, round(n ** (1 / 3))),
@@ -187,11 +193,6 @@ def _sse(y: np.ndarray) -> float:
     return float(np.sum((y - y.mean()) ** 2))
 
 
-def _bic(n: int, sse0: float, sse1: float) -> float:
-    """n·ln(SSE0/SSE1): twice the log-likelihood ratio for Gaussian noise of unknown variance."""
-    return math.inf if sse1 == 0.0 else float(n * math.log(sse0 / sse1))
-
-
 def estimate_onset(
     dates: Any,
     values: Any,
@@ -202,6 +203,7 @@ def estimate_onset(
     tolerance_days: int = 3,
     block_days: int | None = None,
     min_change: float = 0.0,
+    null_draws: int = dep.MC_DRAWS,
 ) -> dict[str, Any]:
     """Date of a single change in the mean of a daily series, with a bootstrap interval.
 
@@ -214,16 +216,18 @@ def estimate_onset(
        long, that minimises the summed squared deviation from the segment means (L2 cost),
        found with ``ruptures.Binseg`` and ``n_bkps=1`` (see :func:`_single_split` for the
        references). The onset is the first day of the second segment.
-    2. Is there a change at all: a BIC-type test for Gaussian noise with unknown common
-       variance (Schwarz 1978, Ann. Statist. 6:461-464). With SSE0 the squared error of one
-       mean and SSE1 that of the best two-segment fit, the statistic n·ln(SSE0/SSE1) is twice
-       the log-likelihood ratio; the change is accepted only if it exceeds ``penalty``, by
-       default 2·ln(n): one ln(n) for the extra mean and one for the change location. A
-       constant series has no change. On 365 days of pure Gaussian noise this default
-       reports a change about 4 % of the time (200 noise series with fixed random states: 8
-       false alarms); raise ``penalty`` to be stricter. A daily median of many samples is so
-       precise that a change of millimetres passes the test: a change smaller than
-       ``min_change`` (in the series' unit) is not reported either.
+    2. Is there a change at all: a BIC-type test (Schwarz 1978, Ann. Statist. 6:461-464) for
+       Gaussian noise whose days depend on each other as an AR(1) process (see
+       :mod:`screening.onset.dependence`: one mean, and a step at each admissible day, each
+       fitted with AR(1) errors; Beaulieu & Killick 2018). The statistic is
+       (n − 1)·ln(σ̂0²/σ̂1²), σ̂² the innovations' variance of one mean and of the best step;
+       the change is accepted only if it exceeds ``penalty``, by default 2·ln(n): one ln(n)
+       for the extra mean and one for the change location. For independent days (φ = 0) it
+       is the old n·ln(SSE0/SSE1). A constant series has no change. False-alarm rates on
+       AR(1) noise with lag-one correlation 0, 0.5 and 0.8 are measured by
+       ``benchmarks/bench_onset_false_alarms.py`` (figures in the README). A daily median of
+       many samples is so precise that a change of millimetres passes the test: a change
+       smaller than ``min_change`` (in the series' unit) is not reported either.
     3. Uncertainty: moving-block bootstrap of the residuals around the two-segment fit (see
        the module docstring); each resampled series is refitted as in step 1. The interval is
        the 5th-95th percentile of the refitted onset dates (taken as observed dates: lower and
@@ -237,7 +241,7 @@ def estimate_onset(
     values : array-like of float
         The daily series [any unit]; NaN for missing days.
     penalty : float or None
-        Threshold for n·ln(SSE0/SSE1) [-]; None for the BIC default 2·ln(n).
+        Threshold for the statistic of step 2 [-]; None for the BIC default 2·ln(n).
     n_bootstrap : int
         Number of bootstrap refits (>= 1).
     random_state : int
@@ -250,6 +254,9 @@ def estimate_onset(
         Bootstrap block length [days of data]; None for round(n^(1/3)).
     min_change : float
         Smallest change of the mean worth reporting [unit of values], >= 0.
+    null_draws : int
+        Simulated AR(1) series of the Monte Carlo check of step 2 (19: a 5 % test); 0 leaves
+        the check out (the penalty alone decides).
 
     Returns
     -------
@@ -257,8 +264,9 @@ def estimate_onset(
         ``onset`` (Timestamp or None), ``reason`` (None, or why there is no onset),
         ``mean_before``, ``mean_after`` (segment means [unit of values] or None),
         ``interval`` ((low, high) Timestamps or None), ``confidence`` ([-] or None),
-        ``statistic`` and ``penalty`` (of step 2), ``n_days`` (days used), ``block_days``
-        and ``method``.
+        ``statistic`` and ``penalty`` (of step 2), ``phi_null`` and ``phi`` (the lag-one
+        coefficients of the one-mean and of the best-step fit [-]), ``n_days`` (days used),
+        ``block_days`` and ``method``.
     """
     days, y, result, sse0 = _start(dates, values, locals(), 2 * min_days, ONSET_METHOD,
                                    mean_before=None, mean_after=None)  # fmt: skip
@@ -266,12 +274,26 @@ def estimate_onset(
         return result
     n, pen = len(y), result["penalty"]
     k = _single_split(y, min_days)
-    stat = _bic(n, sse0, _sse(y[:k]) + _sse(y[k:]))
+    ks = np.arange(min_days, n - min_days + 1)
+    x = dep.step_regressors(n, ks)
+    stat, result["phi_null"], result["phi"] = dep.ar1_statistic(y, x)
     result["statistic"] = stat
+    rng = dep.null_rng(random_state, y)
+    if (
+        stat > pen
+        and null_draws
+        and (p := dep.monte_carlo_p(stat, result["phi_null"], x, rng, null_draws)) > 0.05
+    ):
+        result["reason"] = (
+            f"no change in the mean: the step is no larger than those of simulated correlated "
+            f"noise (Monte Carlo p = {p:.2f}; lag-one correlation {result['phi_null']:.2f})"
+        )
+        return result
     if not stat > pen:
         result["reason"] = (
-            f"no change in the mean: two segments do not beat one by the BIC-type criterion "
-            f"(n*ln(SSE0/SSE1) = {stat:.2f} <= penalty {pen:.2f})"
+            f"no change in the mean: with days correlated from one to the next, two segments "
+            f"do not beat one by the BIC-type criterion (statistic {stat:.2f} <= penalty "
+            f"{pen:.2f}; lag-one correlation {result['phi_null']:.2f})"
         )
         return result
 
@@ -332,6 +354,7 @@ def estimate_ramp_onset(
     tolerance_days: int = 7,
     block_days: int | None = None,
     min_change: float = 0.0,
+    null_draws: int = dep.MC_DRAWS,
 ) -> dict[str, Any]:
     """Start of a gradual decline (or rise): the best broken-stick fit of a daily series.
 
@@ -342,8 +365,9 @@ def estimate_ramp_onset(
        V. M. R. Muggeo (2003), Statistics in Medicine 22:3055-3071), solved exactly by
        least squares at every admissible hinge (at least ``min_days`` days of data on each
        side) and keeping the best.
-    2. Is there a ramp at all: the BIC-type test of :func:`estimate_onset` with the hinge fit
-       in place of the two means (two extra parameters, slope and hinge: penalty 2·ln(n)).
+    2. Is there a ramp at all: the BIC-type test with AR(1) errors of :func:`estimate_onset`
+       with the hinge fits in place of the steps (two extra parameters, slope and hinge:
+       penalty 2·ln(n)).
     3. Uncertainty: moving-block bootstrap of the residuals around the hinge fit, refitted as
        in step 1; interval and confidence as in :func:`estimate_onset`. A ramp's start is
        less sharp than a step, hence the wider default tolerance. A ramp whose total change
@@ -357,7 +381,7 @@ def estimate_ramp_onset(
     values : array-like of float
         The daily series [any unit]; NaN days are left out.
     penalty : float or None
-        Threshold for n·ln(SSE0/SSE_hinge) [-]; None for 2·ln(n).
+        Threshold for the statistic of step 2 [-]; None for 2·ln(n).
     n_bootstrap : int
         Number of bootstrap refits (>= 1).
     random_state : int
@@ -370,6 +394,8 @@ def estimate_ramp_onset(
         Bootstrap block length [days of data]; None for round(n^(1/3)).
     min_change : float
         Smallest total change along the ramp worth reporting [unit of values], >= 0.
+    null_draws : int
+        Simulated AR(1) series of the Monte Carlo check (see :func:`estimate_onset`).
 
     Returns
     -------
@@ -377,7 +403,8 @@ def estimate_ramp_onset(
         ``onset`` (the hinge day, or None with a ``reason``), ``slope`` [unit of values per
         day] after it, ``intercept`` (the level before it), ``sse`` of the hinge fit and
         ``sse_step`` of the best single mean shift (for comparison), ``interval``,
-        ``confidence``, ``statistic``, ``penalty``, ``n_days``, ``block_days`` and ``method``.
+        ``confidence``, ``statistic``, ``penalty``, ``phi_null``, ``phi``, ``n_days``,
+        ``block_days`` and ``method``.
     """
     days, y, out, sse0 = _start(
         dates, values, locals(), 2 * min_days + 2, RAMP_METHOD, slope=math.nan,
@@ -398,12 +425,25 @@ def estimate_ramp_onset(
         sse=float(sse[0, j]),
         sse_step=_sse(y[:step_k]) + _sse(y[step_k:]),
     )
-    stat = _bic(n, sse0, out["sse"])
+    x = dep.hinge_regressors(t, ks)
+    stat, out["phi_null"], out["phi"] = dep.ar1_statistic(y, x)
     out["statistic"] = stat
+    rng = dep.null_rng(random_state, y)
+    if (
+        stat > pen
+        and null_draws
+        and (p := dep.monte_carlo_p(stat, out["phi_null"], x, rng, null_draws)) > 0.05
+    ):
+        out["reason"] = (
+            f"no ramp: the broken stick is no better than on simulated correlated noise "
+            f"(Monte Carlo p = {p:.2f}; lag-one correlation {out['phi_null']:.2f})"
+        )
+        return out
     if not stat > pen:
         out["reason"] = (
-            f"no ramp: a broken stick does not beat one mean by the BIC-type criterion "
-            f"(n*ln(SSE0/SSE) = {stat:.2f} <= penalty {pen:.2f})"
+            f"no ramp: with days correlated from one to the next, a broken stick does not "
+            f"beat one mean by the BIC-type criterion (statistic {stat:.2f} <= penalty "
+            f"{pen:.2f}; lag-one correlation {out['phi_null']:.2f})"
         )
         return out
     total = out["slope"] * (t[-1] - t[k])

@@ -16,12 +16,20 @@ import numpy as np
 import pandas as pd
 
 from screening.base.states import BANDS
-from screening.engine.drivers import driver_shares, drivers_for
+from screening.engine.drivers import (
+    driver_shares,
+    drivers_for,
+    expected_npsha,
+    fit_baseline,
+    weighted_median,
+)
 from screening.engine.scan import scan
+from screening.inputs.events import FAILURE, MAINTENANCE, events_for
 from screening.inputs.plant import Plant, load_plant
-from screening.inputs.window import local_day_starts, window_bounds
+from screening.inputs.window import check_iso, local_day_starts, window_bounds
 from screening.onset import changepoint as cp
 from screening.onset import episodes as ep
+from screening.onset.finding import plain_finding
 from screening.physics.properties import fluid_table
 
 
@@ -45,31 +53,27 @@ class OnsetResult:
     failed_on: pd.Timestamp | None = None
     ramp: dict = field(default_factory=dict)
     timezone: str = "UTC"  # the site's, for display
+    #: date, residual_m: the daily flow-normalised suction condition the onset is sought in [m]
+    daily: pd.DataFrame = field(default_factory=pd.DataFrame)
+    #: the pump's known events in the window (UTC; :mod:`screening.inputs.events`)
+    events: pd.DataFrame = field(default_factory=pd.DataFrame)
+    #: the onset is sought from here (the window's start, or the last maintenance before the
+    #: failure or the window's end) [UTC]
+    search_from: pd.Timestamp | None = None
+    #: where --failed-on came from: "given", "event" or None
+    failed_on_source: str | None = None
+    #: a step in the daily margin change itself (temperature, flow and suction together) [m]
+    onset_margin: dict = field(default_factory=dict)
 
 
 def _baseline(plant: Plant, start, end, baseline) -> tuple[pd.Timestamp, pd.Timestamp]:
+    """The baseline period [UTC]: given, or the first ``baseline_days`` (at most a quarter) of
+    the span [start, end) the onset is sought in."""
     if baseline is None:
         span = min(pd.Timedelta(days=plant.settings.onset.baseline_days), (end - start) / 4)
         return start, start + span
     a, b = baseline.split("..") if isinstance(baseline, str) else baseline
     return window_bounds(plant, a, b)
-
-
-def _residual(series: pd.DataFrame, base: np.ndarray) -> np.ndarray:
-    """NPSHa minus what the baseline predicts at the same flow and temperature [m].
-
-    Baseline model: least squares NPSHa ≈ c0 + c1·Q² + c2·T on the baseline's running pieces
-    (velocity head and friction go with Q², vapour pressure with T), a documented choice.
-    """
-    a = series["npsha_m"].to_numpy(dtype=np.float64)
-    q = series["flow_m3_s"].to_numpy(dtype=np.float64)
-    t = series["temperature_k"].to_numpy(dtype=np.float64)
-    ok = np.isfinite(a) & np.isfinite(q) & np.isfinite(t) & (series["hours"].to_numpy() > 0)
-    fit = ok & base
-    x = np.column_stack([np.ones(fit.sum()), q[fit] ** 2, t[fit]])
-    coef, *_ = np.linalg.lstsq(x, a[fit], rcond=None)
-    pred = coef[0] + coef[1] * q**2 + coef[2] * t
-    return np.where(ok, a - pred, np.nan)
 
 
 def investigate(
@@ -94,10 +98,13 @@ def investigate(
     start, end : str or Timestamp
         Window (site time unless an offset is given).
     failed_on : str or Timestamp, optional
-        Failure date: exposure in the 30, 90 and 180 days before it, and a year earlier.
+        Failure date: exposure in the 30, 90 and 180 days before it, and a year earlier; the
+        onset is sought before it. Default: the last failure among the pump's known events in
+        the window (``[register] events``), if any. A date outside the window is an error.
     baseline : str "FROM..TO" or (from, to), optional
-        Baseline period; default the first ``[onset] baseline_days`` of the window (21, at
-        most a quarter of the window).
+        Baseline period; default the first ``[onset] baseline_days`` (21, at most a quarter)
+        of the span the onset is sought in: from the window's start, or from the last
+        maintenance event before the failure (or the window's end).
     enter_below, leave_above : float, optional
         Episode hysteresis on NPSHa / guidance head [-]: enter below, leave above.
     min_duration_h, bridge_gap_h : float, optional
@@ -105,6 +112,12 @@ def investigate(
 
     Episode settings left as None come from the plant file's ``[onset]`` table (see
     :class:`screening.inputs.config.Onset` for the defaults).
+
+    Raises
+    ------
+    ValueError
+        For an unknown pump, a failure date outside the window, a window without a running
+        sample with a known margin, or a baseline without one.
     """
     plant = config if isinstance(config, Plant) else load_plant(config)
     rules = plant.settings.onset
@@ -112,33 +125,108 @@ def investigate(
     leave_above = rules.leave_above if leave_above is None else leave_above
     min_duration_h = rules.min_hours if min_duration_h is None else min_duration_h
     bridge_gap_h = rules.bridge_hours if bridge_gap_h is None else bridge_gap_h
+    win = window_bounds(plant, start, end)
+    events, failed_on, source = _failure_date(plant, pump_id, win, failed_on)
     result = _scan_pump(plant, pump_id, start, end)
     series = result.series[pump_id]
+    _check_has_data(series, pump_id, result.start, result.end)
     pump = plant.pumps[pump_id]
     curve = plant.curves[pump.curve_id]
     g = plant.guidance[pump_id]
-    base_a, base_b = _baseline(plant, result.start, result.end, baseline)
+    cut = result.end if failed_on is None else failed_on
+    search_from = _after_maintenance(events, result.start, cut)
+    base_a, base_b = _baseline(plant, search_from, cut, baseline)
     base, known = _baseline_pieces(series, pump_id, base_a, base_b)
+    model = fit_baseline(series, pump, base)
 
     # hours per day or week
     daily = _daily_hours(result.daily)
     period, table = _hours_per_period(daily, result.start, result.end)
     eps = _guidance_episodes(series, g, enter_below, leave_above, min_duration_h, bridge_gap_h)
-    notes = _baseline_notes(series, base & known)
-    drivers, shares, names = _drivers_by_day(plant, pump, curve, series, base)
+    notes = _baseline_notes(series, base & known) + ([model.note] if model.note else [])
+    table_ = fluid_table(pump.fluid, pump.vapour_pressure)
+    drivers, shares, names = _drivers_by_day(plant, pump, curve, table_, series, base, model)
     eps = _episode_drivers(eps, shares, names)
-    daily_resid, exposure = _onset_series(plant, series, base, daily, failed_on)
-    onset, onset_exposure, ramp = _change_points(rules, daily_resid, exposure)
-
+    resid = series["npsha_m"].to_numpy(np.float64) - expected_npsha(
+        series, pump, curve, table_, model
+    )
+    daily_resid, exposure = _onset_series(plant, series, resid, daily, search_from, cut)
+    found = _change_points(rules, daily_resid, exposure, drivers)
+    daily_table = found.pop("daily")
     before = None
     if failed_on is not None:
-        before = ep.exposure_before(daily, pd.Timestamp(failed_on))
-    finding = _finding(pump_id, onset, onset_exposure, drivers, eps, before, ramp)
+        before = ep.exposure_before(daily, failed_on.tz_convert(plant.timezone).tz_localize(None))
+    sought = drivers[pd.to_datetime(drivers["date"]).dt.tz_localize(None).isin(daily_table["date"])]
+    finding = plain_finding(pump_id, found, sought, eps, before)
+    notes += _event_notes(events, source, failed_on, search_from, result.start, plant.timezone)
     return OnsetResult(
-        pump_id, result.start, result.end, period, table, eps, drivers, onset, onset_exposure,
-        before, finding, (base_a, base_b), notes,
-        pd.Timestamp(failed_on) if failed_on is not None else None, ramp, plant.timezone,
+        pump_id, result.start, result.end, period, table, eps, drivers, found["step"],
+        found["exposure"], before, finding, (base_a, base_b), notes, failed_on, found["ramp"],
+        plant.timezone, daily_table, events, search_from, source, found["margin"],
     )  # fmt: skip
+
+
+def _failure_date(plant: Plant, pump_id: str, win, failed_on):
+    """The pump's events in the window and the failure instant [UTC] with its source: given
+    (checked to lie in the window), else the last failure event in the window, else None."""
+    start, end = win
+    pump = plant.pumps.get(pump_id)
+    area = pump.area if pump is not None else ""
+    events = events_for(plant.events, pump_id, area, start, end)
+    if failed_on is None:
+        failures = events[events["kind"] == FAILURE]
+        if failures.empty:
+            return events, None, None
+        return events, failures["time"].iloc[-1], "event"
+    when = pd.Timestamp(check_iso(failed_on, "--failed-on") if isinstance(failed_on, str)
+                        else failed_on)  # fmt: skip
+    when = when.tz_localize(plant.timezone) if when.tzinfo is None else when
+    when = when.tz_convert("UTC")
+    local = "{:%Y-%m-%d %H:%M}".format
+    if not start < when <= end:
+        side = "after the window's end" if when > end else "at or before the window's start"
+        raise ValueError(
+            f"failure date {local(when.tz_convert(plant.timezone))} is {side} "
+            f"({local(start.tz_convert(plant.timezone))} to "
+            f"{local(end.tz_convert(plant.timezone))}, {plant.timezone}): the onset is sought "
+            "before the failure inside the window; widen the window (--from/--to) or check "
+            "--failed-on"
+        )
+    return events, when, "given"
+
+
+def _after_maintenance(events: pd.DataFrame, start: pd.Timestamp, cut: pd.Timestamp):
+    """Where the onset is sought from [UTC]: the last maintenance event before ``cut``, else
+    the window's start (work on the pump resets its suction condition)."""
+    work = events[events["kind"].isin(MAINTENANCE) & (events["time"] < cut)]
+    return max(start, work["time"].iloc[-1]) if len(work) else start
+
+
+def _event_notes(events, source, failed_on, search_from, start, tz) -> list[str]:
+    """Notes on the page about what the known events changed."""
+    notes = []
+    local = lambda ts: f"{pd.Timestamp(ts).tz_convert(tz):%Y-%m-%d %H:%M}"  # noqa: E731
+    if source == "event":
+        notes.append(f"failure date {local(failed_on)} taken from the known events")
+    if search_from > start:
+        notes.append(
+            f"the onset is sought after the last maintenance ({local(search_from)}); the "
+            "baseline starts there"
+        )
+    return notes
+
+
+def _check_has_data(series: pd.DataFrame, pump_id: str, start, end) -> None:
+    """A clear error when the window holds no running sample with a known margin."""
+    known = series["state"].isin(BANDS).to_numpy() & (series["hours"].to_numpy() > 0)
+    if not known.any():
+        states = series.groupby("state")["hours"].sum().sort_values(ascending=False)
+        found = ", ".join(f"{k} {v:.0f} h" for k, v in states.items() if v > 0)
+        found = found or "no sample of the pump's tags at all"
+        raise ValueError(
+            f"pump {pump_id}: the window {start} to {end} (UTC) has no running sample with a "
+            f"known margin (hours: {found}); check the window against the exports' time range"
+        )
 
 
 def _scan_pump(plant: Plant, pump_id: str, start, end):
@@ -225,11 +313,11 @@ def _baseline_notes(series: pd.DataFrame, usable: np.ndarray) -> list[str]:
     return notes
 
 
-def _drivers_by_day(plant: Plant, pump, curve, series: pd.DataFrame, base: np.ndarray):
+def _drivers_by_day(plant: Plant, pump, curve, table, series: pd.DataFrame, base, model):
     """Each driver's share of the margin change [m], time-weighted per site day, and the shares."""
     # drivers over time: one input at a time put back at its baseline value
     names = drivers_for(pump)
-    shares = driver_shares(series, pump, curve, fluid_table(pump.fluid, pump.vapour_pressure), base)
+    shares = driver_shares(series, pump, curve, table, base, model)
     shares["date"] = local_day_starts(shares["time"], plant.timezone)
     w = shares["hours"]
     cols = ["change_m"] + [f"{k}_m" for k in names] + ["interaction_m"]
@@ -240,42 +328,60 @@ def _drivers_by_day(plant: Plant, pump, curve, series: pd.DataFrame, base: np.nd
 
 
 def _onset_series(
-    plant: Plant, series: pd.DataFrame, base: np.ndarray, daily: pd.DataFrame, failed_on
+    plant: Plant, series: pd.DataFrame, resid: np.ndarray, daily: pd.DataFrame, since, cut
 ) -> tuple[pd.Series, pd.Series]:
-    """Daily median flow-normalised residual [m] and daily hours below guidance [h]."""
+    """Daily time-weighted median flow-normalised residual [m] and daily hours below guidance
+    [h], on the days from ``since`` (the window's start or the last maintenance) to ``cut``
+    (the failure or the window's end) [UTC]."""
     # onset: change point in the flow-normalised suction condition and in the exposure rate
     times = series["time"]
-    resid = _residual(series, base)
-    rs = pd.DataFrame({"date": local_day_starts(times, plant.timezone), "r": resid})
-    daily_resid = rs.dropna().groupby("date")["r"].median()
+    keep = ((times >= since) & (times < cut)).to_numpy() & np.isfinite(resid)
+    keep &= series["hours"].to_numpy() > 0
+    days = local_day_starts(times[keep], plant.timezone)
+    rs = pd.DataFrame({"date": days, "r": resid[keep], "w": series["hours"].to_numpy()[keep]})
+    daily_resid = rs.groupby("date")[["r", "w"]].apply(
+        lambda g: weighted_median(g["r"].to_numpy(), g["w"].to_numpy())
+    )
+    # what happened at and after the failure (repair, cleaning) is not the onset; before the
+    # last maintenance neither
+    lo = pd.Timestamp(since).tz_convert(plant.timezone).tz_localize(None).normalize()
+    hi = pd.Timestamp(cut).tz_convert(plant.timezone).tz_localize(None)
     exposure = daily.set_index("date")["below_guidance_h"]
-    if failed_on is not None:
-        # what happened at and after the failure (repair, cleaning) is not the onset
-        cut = pd.Timestamp(failed_on).tz_localize(None).normalize()
-        daily_resid = daily_resid[daily_resid.index.tz_localize(None) < cut]
-        exposure = exposure[exposure.index < cut]
+    exposure = exposure[(exposure.index >= lo) & (exposure.index < hi.normalize())]
+    idx = pd.to_datetime(daily_resid.index).tz_localize(None)
+    daily_resid = daily_resid[(idx >= lo) & (idx < hi.normalize())]
     return daily_resid, exposure
 
 
-def _change_points(rules, daily_resid: pd.Series, exposure: pd.Series) -> tuple[dict, dict, dict]:
-    """Onset by a step in the residual [m], a step in exposure [h], a ramp in the residual."""
-    onset = cp.estimate_onset(
-        pd.to_datetime(daily_resid.index).tz_localize(None), daily_resid.to_numpy(),
-        min_change=rules.min_margin_change,
-    )  # fmt: skip
+def _margin_series(drivers: pd.DataFrame, days: pd.Index) -> pd.Series:
+    """The daily time-weighted margin change against the baseline [m] on the days sought."""
+    m = drivers.set_index(pd.to_datetime(drivers["date"]).dt.tz_localize(None))["change_m"]
+    return m.reindex(pd.to_datetime(days).tz_localize(None)).dropna()
+
+
+def _change_points(rules, daily_resid: pd.Series, exposure: pd.Series, drivers) -> dict:
+    """Onset by a step in the residual [m], a ramp in it, a step in the margin change [m] and
+    a step in exposure [h/day]; ``daily`` the daily table the page draws."""
+    days = pd.to_datetime(daily_resid.index).tz_localize(None)
+    onset = cp.estimate_onset(days, daily_resid.to_numpy(), min_change=rules.min_margin_change)
     onset_exposure = cp.estimate_onset(
         exposure.index, exposure.to_numpy(), min_change=rules.min_exposure_change
     )
     # a slow drift (a fouling strainer) is a ramp: where a hinge fits the margin better than a
     # step, the decline's start is the onset (see changepoint.estimate_ramp_onset)
-    ramp = cp.estimate_ramp_onset(
-        pd.to_datetime(daily_resid.index).tz_localize(None), daily_resid.to_numpy(),
-        min_change=rules.min_margin_change,
-    )  # fmt: skip
+    ramp = cp.estimate_ramp_onset(days, daily_resid.to_numpy(), min_change=rules.min_margin_change)
     ramp["chosen"] = bool(
         ramp["onset"] is not None and ramp["slope"] < 0 and ramp["sse"] < ramp["sse_step"]
     )
-    return onset, onset_exposure, ramp
+    # a change the normalisation explains (a hotter liquid) still moves the margin itself
+    margin = _margin_series(drivers, daily_resid.index)
+    onset_margin = cp.estimate_onset(
+        margin.index, margin.to_numpy(), min_change=rules.min_margin_change
+    )
+    daily = pd.DataFrame({"date": days, "residual_m": daily_resid.to_numpy()})
+    daily["margin_change_m"] = margin.reindex(days).to_numpy()
+    return {"step": onset, "ramp": ramp, "margin": onset_margin, "exposure": onset_exposure,
+            "daily": daily}  # fmt: skip
 
 
 def _episode_drivers(eps: pd.DataFrame, shares: pd.DataFrame, names) -> pd.DataFrame:
@@ -292,43 +398,3 @@ def _episode_drivers(eps: pd.DataFrame, shares: pd.DataFrame, names) -> pd.DataF
             values.append(float(np.sum(w * v) / np.sum(w)) if w.sum() > 0 else np.nan)
         out[f"{k}_m"] = pd.Series(values, index=out.index, dtype=float)
     return out
-
-
-def _finding(pump_id, onset, onset_exposure, drivers, eps, before, ramp=None) -> str:
-    when = onset.get("onset") or onset_exposure.get("onset")
-    if ramp and ramp.get("chosen"):
-        text = (
-            f"{pump_id}: the suction margin began to decline gradually from about "
-            f"{pd.Timestamp(ramp['onset']):%Y-%m-%d}"
-        )
-        if ramp.get("interval"):
-            lo, hi = ramp["interval"]
-            text += f" (between {pd.Timestamp(lo):%Y-%m-%d} and {pd.Timestamp(hi):%Y-%m-%d})"
-        text += f", by {-ramp['slope']:.3f} m a day"
-    elif when is None:
-        text = f"{pump_id}: no lasting change in suction margin found in the window"
-    else:
-        text = f"{pump_id}: the suction margin fell from about {pd.Timestamp(when):%Y-%m-%d}"
-        lo, hi = onset.get("interval", (None, None)) if onset.get("onset") else (None, None)
-        if lo is not None:
-            text += f" (between {pd.Timestamp(lo):%Y-%m-%d} and {pd.Timestamp(hi):%Y-%m-%d})"
-    if when is not None or (ramp and ramp.get("chosen")):
-        if len(drivers):
-            late = drivers.tail(max(1, len(drivers) // 4))
-            names = [c[:-2] for c in drivers.columns if c not in ("date", "change_m",
-                                                                  "interaction_m")]  # fmt: skip
-            shares = {k: float(late[f"{k}_m"].mean()) for k in names}
-            worst = min(shares, key=shares.get)
-            if shares[worst] < 0:
-                text += f", mostly from {worst.replace('_', ' ')} ({shares[worst]:+.2f} m)"
-    text += f"; {len(eps)} episode(s) below the guidance"
-    if before is not None and len(before):
-        # the longest span the data cover (NaN where a span reaches outside the window)
-        covered = before.dropna(subset=["below_guidance_h"])
-        if len(covered):
-            row = covered.iloc[-1]
-            text += (
-                f"; {row['below_guidance_h']:.1f} h below guidance in the "
-                f"{int(row['span_days'])} days before the failure"
-            )
-    return text + "."

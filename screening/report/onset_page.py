@@ -15,6 +15,7 @@ from screening.engine.drivers import DRIVERS
 from screening.onset.investigate import OnsetResult
 from screening.report.cautions import CAUTIONS
 from screening.report.figjson import plain_figure
+from screening.report.onset_evidence import before_rows, evidence_figure
 from screening.report.palette import STATE_COLOURS
 
 _ENV = Environment(loader=PackageLoader("screening.report", "templates"),
@@ -79,6 +80,11 @@ def _estimate(what: str, res: dict) -> dict:
     return row
 
 
+def _sentence(text: str) -> str:
+    """The text with its first letter upper-case (the rest as written)."""
+    return text[:1].upper() + text[1:]
+
+
 def write_onset_page(result, out: Path, failed_on=None) -> Path:
     """Write ``onset.html`` (and plotly.min.js) into ``out``; return the page's path."""
     h = result.hours
@@ -89,18 +95,24 @@ def write_onset_page(result, out: Path, failed_on=None) -> Path:
     drivers = _drivers_figure(d)
     eps = _display(result.episodes, result.timezone)
     estimates = _estimates(result)
+    local = lambda ts: pd.Timestamp(ts).tz_convert(result.timezone).strftime("%Y-%m-%d %H:%M")  # noqa: E731
+    events = _display(result.events, result.timezone) if len(result.events) else None
     html = _ENV.get_template("onset.html").render(
         r=result,
+        fig_evidence=_html(evidence_figure(result, local), "evidence"),
+        notes=_sentence("; ".join(result.notes)),
+        events=None if events is None else events.to_dict("records"),
+        event_columns=[] if events is None else list(events.columns),
         fig_timeline=_html(timeline, "timeline"),
         fig_cumulative=_html(cumul, "cumulative"),
         fig_drivers=_html(drivers, "drivers") if len(d) else "",
         estimates=estimates,
-        local=lambda ts: pd.Timestamp(ts).tz_convert(result.timezone).strftime("%Y-%m-%d %H:%M"),
+        local=local,
         episodes=eps.to_dict("records"),
         episode_columns=list(eps.columns),
         before=None
         if result.before_failure is None
-        else _display(result.before_failure, result.timezone).to_dict("records"),
+        else before_rows(result.before_failure, result),
         cautions=CAUTIONS,
     )
     (out / "plotly.min.js").write_text(get_plotlyjs(), encoding="utf-8")
@@ -132,7 +144,9 @@ def _timeline_figure(result, x: pd.Series) -> go.Figure:
     else:
         _mark(timeline, result.onset.get("onset"), "onset (margin)", "dash")
     _mark(timeline, result.onset_exposure.get("onset"), "onset (exposure)", "dot")
-    _mark(timeline, result.failed_on, "failure", "solid")
+    if result.failed_on is not None:
+        failed = pd.Timestamp(result.failed_on).tz_convert(result.timezone).tz_localize(None)
+        _mark(timeline, failed, "failure", "solid")
     return timeline
 
 
@@ -186,6 +200,7 @@ def _estimates(result) -> list[dict]:
     return [
         _estimate("step in the flow-normalised margin", result.onset),
         _estimate("start of a decline in it (broken stick)", result.ramp),
+        _estimate("step in the margin itself (all inputs)", result.onset_margin),
         _estimate("step in the daily hours below guidance", result.onset_exposure),
     ]
 
@@ -203,7 +218,8 @@ def write_onset_report(result: OnsetResult, out: str | Path) -> Path:
 def _write_onset_folder(result: OnsetResult, out: Path) -> None:
     """The onset tables and page, written into the (new) folder ``out``."""
     tables = {"onset_hours": result.hours, "episodes": result.episodes,
-              "drivers": result.drivers}  # fmt: skip
+              "drivers": result.drivers, "onset_daily": result.daily,
+              "events": result.events}  # fmt: skip
     if result.before_failure is not None:
         tables["before_failure"] = result.before_failure
     for name, frame in tables.items():

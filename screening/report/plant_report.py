@@ -220,6 +220,7 @@ def write_report(
         write_table(result.problems, tmp, "not_screened")
         write_table(result.file_problems, tmp, "files_not_read")
         write_table(worst_inputs_table(result, result.plots), tmp, "worst_inputs")
+        write_table(_events_table(result), tmp, "events")
         pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
         # the pump pages are written while the tables are (in forked processes, large plants)
         stack.enter_context(_pump_pages(result, tmp, pages, DISPLAY_UNITS[units]))
@@ -380,6 +381,14 @@ _FORKED: dict[int, ScanResult] = {}
 
 def _pages_in_child(key: int, folder: Path, pages: dict, units) -> None:
     write_some_pages(_FORKED[key], folder, pages, units)
+
+
+def _events_table(result: ScanResult) -> pd.DataFrame:
+    """The plant's known events in the window, times as text in the site's zone."""
+    ev = result.plant.events
+    ev = ev[(ev["time"] >= result.start) & (ev["time"] < result.end)].copy()
+    ev["time"] = ev["time"].dt.tz_convert(result.plant.timezone).astype("string")
+    return ev.reset_index(drop=True)
 
 
 def _points_table(points: dict) -> pd.DataFrame:

@@ -309,3 +309,38 @@ def pump_flags(row: dict | None, units: DisplayUnits) -> list[str]:
 def write_pump_page(path: Path, html: str) -> None:
     """Write one page (the folder exists; ``path`` comes from :func:`page_names`)."""
     path.write_text(html, encoding="utf-8")
+
+
+def event_rows(events: pd.DataFrame, tz: str) -> list[dict]:
+    """A pump's known events as rows for its page: time in the site's zone, kind, note, and
+    whether the event was the pump's own or its area's."""
+    return [
+        {
+            "time": f"{pd.Timestamp(e.time).tz_convert(tz):%Y-%m-%d %H:%M}",
+            "kind": e.kind.replace("_", " "),
+            "for": e.pump_id or f"area {e.area}",
+            "note": e.note,
+        }
+        for e in events.itertuples(index=False)
+    ]
+
+
+def mark_events(fig: dict, events: pd.DataFrame, tz: str) -> dict:
+    """Dotted vertical lines at the known events on a time figure (plotly.js shapes), each
+    labelled with its kind above the plot; a failure solid. Returns the figure."""
+    shapes, notes = [], []
+    for i, e in enumerate(events.itertuples(index=False)):
+        x = f"{pd.Timestamp(e.time).tz_convert(tz):%Y-%m-%d %H:%M}"
+        failure = e.kind == "failure"
+        shapes.append({"type": "line", "xref": "x", "yref": "paper", "x0": x, "x1": x,
+                       "y0": 0, "y1": 1, "line": {"color": "#1d1d1d" if failure else "#3d7a4a",
+                       "width": 1.5, "dash": "solid" if failure else "dot"}})  # fmt: skip
+        notes.append({"x": x, "xref": "x", "yref": "paper", "y": 1.0 + 0.06 * (i % 2),
+                      "yanchor": "bottom", "text": e.kind.replace("_", " "), "showarrow": False,
+                      "font": {"size": 11}})  # fmt: skip
+    layout = fig.setdefault("layout", {})
+    layout["shapes"] = layout.get("shapes", []) + shapes
+    layout["annotations"] = layout.get("annotations", []) + notes
+    if shapes:
+        layout["margin"] = {**layout.get("margin", {}), "t": 44}
+    return fig

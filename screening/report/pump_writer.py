@@ -10,6 +10,7 @@ import pandas as pd
 from screening.base import states
 from screening.base.text import hours_text
 from screening.engine.scan import ScanResult
+from screening.inputs.events import events_for
 from screening.physics import regions
 from screening.physics.properties import fluid_table
 from screening.report import field_page, pump_pages
@@ -63,11 +64,12 @@ def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: Displ
     for pid, name in pages.items():
         pump = plant.pumps[pid]
         g = plant.guidance[pid]
+        events = events_for(plant.events, pid, pump.area, result.start, result.end)
         plot = result.plots.get(pid)
         figs = {"fig_time": "", "fig_points": ""}
         if plot is not None and len(plot):
             fig = time_figure(plot, units, tz, g.ratio, ample, result.start, result.end)
-            figs["fig_time"] = figure_html(fig, "timeline")
+            figs["fig_time"] = figure_html(pump_pages.mark_events(fig, events, tz), "timeline")
         if pid in result.points:
             speed = running_speed(plot, pump.rated_speed)
             fig = pump_pages.points_figure(
@@ -94,6 +96,7 @@ def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: Displ
             ample_ratio=f"{ample:.2f}",
             register=pump_pages.register_rows(pump, g, model, units),
             flags=pump_pages.pump_flags(summary_of.get(pid), units),
+            events=pump_pages.event_rows(events, tz),
             cautions=CAUTIONS,
             field_section=field_page.section(
                 result.evidence.get(pid), pump, plant.curves[pump.curve_id], units
