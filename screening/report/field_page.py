@@ -190,7 +190,8 @@ def section(ev: FieldEvidence | None, pump, curve, units) -> str:
 def overview_cells(row: dict) -> dict:
     """The overview's two field-evidence cells of a summary row: the head loss while below
     the guidance and the field NPSH3 against the vendor's ('' without field evidence)."""
-    if not row.get("head_baseline") or row.get("head_baseline") == "none":
+    baseline = row.get("head_baseline")
+    if not isinstance(baseline, str) or baseline in ("", "none"):  # NaN: no field evidence
         return {"head_loss_text": "", "field_npsh3_text": ""}
     loss = f"{hours_text(row['head_loss_hours'], True)}"
     if row["head_loss_hours"] > 0:

@@ -475,6 +475,9 @@ def _overview_html(
         d["page"] = f"pumps/{pages[row.pump_id]}" if pages and row.pump_id in pages else None
         d["change"] = ""
         d.update(field_page.overview_cells(d))
+        if d["head_loss_text"]:  # field evidence after the worst time and its input
+            field = f"head loss {d['head_loss_text']}; field NPSH3 {d['field_npsh3_text']}"
+            d["why"] = f"{d['why']}; {field}" if d["why"] else field
         if changes is not None:
             c = changes.set_index("pump_id")
             if row.pump_id in c.index:
