@@ -40,6 +40,12 @@ def settings_for(plant: Plant) -> Settings:
     )
 
 
+#: The register flag saying whether each pressure role reads gauge.
+_GAUGE_FLAG = {
+    "suction": "gauge", "vessel_pressure": "vessel_gauge", "discharge_pressure": "discharge_gauge",
+}  # fmt: skip
+
+
 def check_range(role: str, pump, table):
     """Physically impossible values of a role (SI): flagged as bad data."""
     if role == "temperature":
@@ -48,21 +54,11 @@ def check_range(role: str, pump, table):
             mu = viscosity_table(pump.fluid)
             return lambda v: ~(table.in_range(v) & mu.in_range(v))
         return lambda v: ~table.in_range(v)
-    if role == "suction":
-        if pump.gauge:
+    if role in _GAUGE_FLAG:  # a pressure: gauge or absolute, as its register row says
+        if getattr(pump, _GAUGE_FLAG[role]):
             return lambda v: v < -110_000.0  # a gauge reading below full vacuum
         return lambda v: v <= 0.0
-    if role == "vessel_pressure":
-        if pump.vessel_gauge:
-            return lambda v: v < -110_000.0
-        return lambda v: v <= 0.0
-    if role == "speed":
-        return lambda v: v < 0.0
-    if role == "discharge_pressure":
-        if pump.discharge_gauge:
-            return lambda v: v < -110_000.0
-        return lambda v: v <= 0.0
-    if role == "vibration":
+    if role in ("speed", "vibration"):
         return lambda v: v < 0.0
     return None
 

@@ -22,7 +22,7 @@ from pydantic import (
     model_validator,
 )
 
-from screening.inputs.tagdata import DEFAULT_OFF_WORDS, DEFAULT_ON_WORDS
+from screening.inputs.tagdata import status_words
 from screening.inputs.units import UnitError, parse_duration, parse_quantity, parse_unit
 
 
@@ -39,24 +39,24 @@ class _Strict(BaseModel):
 MAX_DURATION = 366 * 86400.0
 
 
-def _length(value) -> float:
+def _finite(value, kind: str) -> float:
+    """A quantity of ``kind`` with its unit, in SI; a unit pint refuses or a non-finite number
+    is a validation error."""
     try:
-        length = parse_quantity(value, "length", None)
+        number = parse_quantity(value, kind, None)
     except UnitError as exc:
         raise ValueError(str(exc)) from exc
-    if not math.isfinite(length):
-        raise ValueError(f"{value!r} is not a finite length")
-    return length
+    if not math.isfinite(number):
+        raise ValueError(f"{value!r} is not a finite {kind}")
+    return number
+
+
+def _length(value) -> float:
+    return _finite(value, "length")
 
 
 def _pressure(value) -> float:
-    try:
-        pressure = parse_quantity(value, "pressure", None)
-    except UnitError as exc:
-        raise ValueError(str(exc)) from exc
-    if not math.isfinite(pressure):
-        raise ValueError(f"{value!r} is not a finite pressure")
-    return pressure
+    return _finite(value, "pressure")
 
 
 def _duration(value) -> float:
@@ -185,12 +185,7 @@ class Running(_Strict):
 
     @model_validator(mode="after")
     def _words_apart(self) -> Running:
-        on = {w.strip().lower() for w in self.on_words}
-        off = {w.strip().lower() for w in self.off_words}
-        from_defaults = set(DEFAULT_ON_WORDS), set(DEFAULT_OFF_WORDS)
-        both = sorted((on | from_defaults[0]) & (off | from_defaults[1]))
-        if both:
-            raise ValueError(f"word(s) {', '.join(map(repr, both))} in both on_words and off_words")
+        status_words(self.on_words, self.off_words)  # one rule, the readers' own
         return self
 
     #: Plant-wide minimum stable flow as a fraction of BEP flow [-] for pumps whose register

@@ -51,6 +51,13 @@ def not_regular(path: Path) -> str | None:
     return f"{path}: {kind}, not a regular file; not read"
 
 
+def long_columns(source: ExportSource) -> list[str]:
+    """The columns of a long-layout file that are read: tag, time, value and the optional
+    quality."""
+    cols = [source.tag_column, source.time_column, source.value_column]
+    return cols + [source.quality_column] if source.quality_column else cols
+
+
 def format_of(path: Path, source: ExportSource) -> str:
     if source.format:
         return source.format

@@ -13,7 +13,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from screening.inputs import dataset as _dataset
-from screening.inputs.export_files import FileInfo, read_csv_rows
+from screening.inputs.export_files import FileInfo, long_columns, read_csv_rows
 from screening.inputs.tagdata import (
     FILE_FAULTS,
     ExportError,
@@ -193,9 +193,7 @@ class TagReader:
 
     def _read_long(self, info, tags, chunks, quality, span=None) -> None:
         src = info.source
-        cols = [src.tag_column, src.time_column, src.value_column]
-        if src.quality_column:
-            cols.append(src.quality_column)
+        cols = long_columns(src)
         if info.fmt == "parquet":
             try:
                 time_filters = self._time_filter(info, span)

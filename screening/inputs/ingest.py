@@ -40,7 +40,7 @@ from screening.base.files import (
 )
 from screening.base.version import __version__
 from screening.inputs import dataset as ds
-from screening.inputs.export_files import FileInfo, read_csv_rows
+from screening.inputs.export_files import FileInfo, long_columns, read_csv_rows
 from screening.inputs.loader import ExportIndex
 from screening.inputs.plant import Plant, load_plant
 from screening.inputs.tagdata import ExportError, as_text
@@ -318,9 +318,7 @@ def _wide_columns(index: ExportIndex, info: FileInfo, tags: list[str]):
 def _long_rows(index: ExportIndex, info: FileInfo, tags: list[str], summary: IngestSummary):
     """A long file's rows; a row without a tag is counted, and not kept."""
     src = info.source
-    cols = [src.tag_column, src.time_column, src.value_column]
-    if src.quality_column:
-        cols.append(src.quality_column)
+    cols = long_columns(src)
     if info.fmt == "parquet":
         try:
             frame = pq.read_table(info.path, columns=cols).to_pandas()

@@ -28,6 +28,7 @@ from screening.inputs.export_files import (
     check_unique,
     csv_header,
     format_of,
+    long_columns,
     not_regular,
     parquet_time_range,
     read_csv_rows,
@@ -110,9 +111,7 @@ class ExportIndex:
                 )
             tags = frozenset(n for n in names if n != source.time_column)
         else:
-            needed = [source.tag_column, source.time_column, source.value_column]
-            if source.quality_column:
-                needed.append(source.quality_column)
+            needed = long_columns(source)
             if fmt == "parquet":
                 try:
                     names = pq.read_schema(path).names

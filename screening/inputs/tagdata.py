@@ -150,7 +150,7 @@ def status_words(on_words=(), off_words=()) -> dict[str, float]:
     off = {str(w).strip().lower() for w in (*DEFAULT_OFF_WORDS, *off_words)}
     both = sorted(on & off)
     if both:
-        raise ValueError(f"run-status word(s) {', '.join(map(repr, both))} mean both on and off")
+        raise ValueError(f"word(s) {', '.join(map(repr, both))} in both on_words and off_words")
     return {**{w: 1.0 for w in on}, **{w: 0.0 for w in off}}
 
 

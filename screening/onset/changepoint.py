@@ -193,6 +193,19 @@ def _sse(y: np.ndarray) -> float:
     return float(np.sum((y - y.mean()) ** 2))
 
 
+def _dependent_test(y, x, out: dict, random_state, null_draws: int):
+    """The AR(1) likelihood statistic of the change model ``x`` against one mean (into
+    ``out``: ``statistic``, ``phi_null``, ``phi``), and where it beats the penalty the Monte
+    Carlo p-value against simulated correlated noise (else None); see
+    :mod:`screening.onset.dependence`."""
+    stat, out["phi_null"], out["phi"] = dep.ar1_statistic(y, x)
+    out["statistic"] = stat
+    if not (stat > out["penalty"] and null_draws):
+        return stat, None
+    rng = dep.null_rng(random_state, y)
+    return stat, dep.monte_carlo_p(stat, out["phi_null"], x, rng, null_draws)
+
+
 def estimate_onset(
     dates: Any,
     values: Any,
@@ -276,14 +289,8 @@ def estimate_onset(
     k = _single_split(y, min_days)
     ks = np.arange(min_days, n - min_days + 1)
     x = dep.step_regressors(n, ks)
-    stat, result["phi_null"], result["phi"] = dep.ar1_statistic(y, x)
-    result["statistic"] = stat
-    rng = dep.null_rng(random_state, y)
-    if (
-        stat > pen
-        and null_draws
-        and (p := dep.monte_carlo_p(stat, result["phi_null"], x, rng, null_draws)) > 0.05
-    ):
+    stat, p = _dependent_test(y, x, result, random_state, null_draws)
+    if p is not None and p > 0.05:
         result["reason"] = (
             f"no change in the mean: the step is no larger than those of simulated correlated "
             f"noise (Monte Carlo p = {p:.2f}; lag-one correlation {result['phi_null']:.2f})"
@@ -426,14 +433,8 @@ def estimate_ramp_onset(
         sse_step=_sse(y[:step_k]) + _sse(y[step_k:]),
     )
     x = dep.hinge_regressors(t, ks)
-    stat, out["phi_null"], out["phi"] = dep.ar1_statistic(y, x)
-    out["statistic"] = stat
-    rng = dep.null_rng(random_state, y)
-    if (
-        stat > pen
-        and null_draws
-        and (p := dep.monte_carlo_p(stat, out["phi_null"], x, rng, null_draws)) > 0.05
-    ):
+    stat, p = _dependent_test(y, x, out, random_state, null_draws)
+    if p is not None and p > 0.05:
         out["reason"] = (
             f"no ramp: the broken stick is no better than on simulated correlated noise "
             f"(Monte Carlo p = {p:.2f}; lag-one correlation {out['phi_null']:.2f})"
