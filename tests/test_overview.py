@@ -106,3 +106,29 @@ def test_pump_pages_stay_small(demo):
     sizes = {p.name: p.stat().st_size for p in (out / "pumps").glob("*.html")}
     print(f"pump pages: largest {max(sizes.values())} bytes, total {sum(sizes.values())} bytes")
     assert max(sizes.values()) <= PAGE_LIMIT, max(sizes, key=sizes.get)
+
+
+def test_pump_page_points_out_bad_data_and_minimum_flow_hours(demo):
+    """The hours the overview's reason names are on the pump's own page too (issue 19)."""
+    result, out, _ = demo
+    s = result.summary.set_index("pump_id")
+    bad = s["bad_data_hours"].idxmax()
+    page = (out / "pumps" / _rows_page(out, bad)).read_text(encoding="utf-8")
+    look = page[page.index("<h2>Worth a look</h2>") :].split("</ul>")[0]
+    assert f"{s.loc[bad, 'bad_data_hours']:.1f} h of bad data from " in look
+    frozen = problem_quality(result.quality).query("pump_id == @bad and frozen > 0")["tag"]
+    assert any(str(t) in look for t in frozen)
+    low = s["below_min_flow_hours"].idxmax()
+    page = (out / "pumps" / _rows_page(out, low)).read_text(encoding="utf-8")
+    look = page[page.index("<h2>Worth a look</h2>") :].split("</ul>")[0]
+    assert f"{s.loc[low, 'below_min_flow_hours']:.1f} h running below the minimum flow" in look
+    # a pump without bad data says nothing of it
+    clean = s.index[s["bad_data_hours"] == 0][0]
+    page = (out / "pumps" / _rows_page(out, clean)).read_text(encoding="utf-8")
+    assert "of bad data" not in page
+
+
+def _rows_page(out: Path, pump_id: str) -> str:
+    """The file name of a pump's page, as the overview links it."""
+    html = (out / "index.html").read_text(encoding="utf-8")
+    return re.search(rf'<a href="pumps/([^"]+)">{re.escape(pump_id)}</a>', html).group(1)

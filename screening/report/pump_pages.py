@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 
 from screening.base import states
+from screening.base.text import hours_text
 from screening.engine.one_pump import BELOW_VAPOUR_FLAG
 from screening.inputs.units import si_to
 from screening.physics.curves import exponent_text
@@ -272,10 +273,14 @@ def _speed_text(pump) -> str:
     return "shaft revolutions per second"
 
 
-def pump_flags(row: dict | None, units: DisplayUnits) -> list[str]:
+def pump_flags(
+    row: dict | None, units: DisplayUnits, bad_tags: list[str] | None = None
+) -> list[str]:
     """What the pump page points out from the pump's summary row: suction pressure below
-    vapour pressure, the worst margins in metres, hours on the standard atmosphere, an
-    unregistered minimum flow."""
+    vapour pressure, the worst margins in the display length unit, hours of bad data (naming
+    ``bad_tags``, the tags with frozen, impossible, bad-quality or text samples) and of no
+    data, hours below the minimum flow, hours on the standard atmosphere, an unregistered
+    minimum flow."""
     if row is None:
         return []
     c, L = units.convert, units.label("length")  # noqa: N806
@@ -291,6 +296,7 @@ def pump_flags(row: dict | None, units: DisplayUnits) -> list[str]:
             f"NPSHa - guidance {float(c(row['worst_margin_to_guidance_m'], 'length')):+.2f} {L} "
             f"(worst ratio {row['worst_ratio']:.2f})"
         )
+    flags += _hour_flags(row, bad_tags or [])
     if row["standard_atmosphere_hours"] > 0:
         flags.append(
             f"{row['standard_atmosphere_hours']:.1f} running hours on the standard atmosphere "
@@ -302,6 +308,36 @@ def pump_flags(row: dict | None, units: DisplayUnits) -> list[str]:
         flags.append(
             "minimum flow not registered: hours below the minimum flow cannot be counted "
             "(give min_stable_flow or thermal_min_flow in the register)"
+        )
+    return flags
+
+
+#: Hours shorter than this [h] are not pointed out (three minutes).
+_NOTABLE_H = 0.05
+
+
+def _hour_flags(row: dict, bad_tags: list[str]) -> list[str]:
+    """Lines for the hours a reader must not overlook: bad data (with its tags), no data
+    while the window ran, running below the minimum flow."""
+    flags = []
+    bad = float(row.get("bad_data_hours", 0.0) or 0.0)
+    if bad >= _NOTABLE_H:
+        named = f" from {', '.join(bad_tags[:4])}" + (" and others" if len(bad_tags) > 4 else "")
+        flags.append(
+            f"{hours_text(bad, True)} of bad data{named if bad_tags else ''}: "
+            "frozen, impossible or bad-quality values, not screened (see data_quality.csv)"
+        )
+    none = float(row.get("no_data_hours", 0.0) or 0.0)
+    if none >= _NOTABLE_H:
+        flags.append(
+            f"{hours_text(none, True)} with no data (gaps longer than the hold allowance): "
+            "nothing is known of the margin then"
+        )
+    low = float(row.get("below_min_flow_hours", 0.0) or 0.0)
+    if low >= _NOTABLE_H:
+        flags.append(
+            f"{hours_text(low, True)} running below the minimum flow "
+            "(recirculation and heating, whatever the NPSH margin)"
         )
     return flags
 

@@ -20,6 +20,7 @@ from screening.report.palette import REGION_LABELS, STATE_LABELS
 from screening.report.pump_pages import DisplayUnits
 from screening.report.templating import ENV
 from screening.report.timeline import time_figure
+from screening.report.why import problem_tags_by_pump
 
 
 def hours_rows(h: pd.DataFrame) -> list[list[str]]:
@@ -61,6 +62,7 @@ def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: Displ
     thin = result.not_enough_data.set_index("pump_id")["coverage"].to_dict()
     least = plant.settings.data.min_coverage
     summary_of = {row["pump_id"]: row for row in result.summary.to_dict("records")}
+    bad_tags_of = problem_tags_by_pump(result.quality)
     for pid, name in pages.items():
         pump = plant.pumps[pid]
         g = plant.guidance[pid]
@@ -95,7 +97,7 @@ def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: Displ
             guidance_margin=units.length_text(g.margin),
             ample_ratio=f"{ample:.2f}",
             register=pump_pages.register_rows(pump, g, model, units),
-            flags=pump_pages.pump_flags(summary_of.get(pid), units),
+            flags=pump_pages.pump_flags(summary_of.get(pid), units, bad_tags_of.get(pid)),
             events=pump_pages.event_rows(events, tz),
             cautions=CAUTIONS,
             field_section=field_page.section(

@@ -84,11 +84,23 @@ def _input_text(w: WorstInput, units) -> str:
     return f"{w.input} {value:.{digits}f} {unit} (median {median:.{digits}f})"
 
 
+def _bad_rows(quality: pd.DataFrame) -> pd.DataFrame:
+    """Rows of the quality table of tags with frozen or impossible values, or bad-quality or
+    text samples."""
+    bad = quality[["frozen", "out_of_range", "bad_quality", "text_values"]].sum(axis=1) > 0
+    return quality[bad]
+
+
 def problem_tags(quality: pd.DataFrame, pump_id: str) -> list[str]:
     """Tags of a pump with frozen or impossible values, or bad-quality or text samples."""
-    q = quality[quality["pump_id"] == pump_id]
-    bad = q[["frozen", "out_of_range", "bad_quality", "text_values"]].sum(axis=1) > 0
-    return [str(t) for t in q.loc[bad, "tag"]]
+    return [str(t) for t in _bad_rows(quality[quality["pump_id"] == pump_id])["tag"]]
+
+
+def problem_tags_by_pump(quality: pd.DataFrame) -> dict[str, list[str]]:
+    """:func:`problem_tags` of every pump at once (pump id -> tags; pumps without any left
+    out)."""
+    bad = _bad_rows(quality)
+    return {str(pid): [str(t) for t in g["tag"]] for pid, g in bad.groupby("pump_id", sort=False)}
 
 
 def why_text(row: dict, plot: pd.DataFrame | None, quality: pd.DataFrame, units) -> str:
