@@ -175,3 +175,16 @@ def test_implausible_register_values_are_refused_with_the_range(tmp_path, column
     assert list(result.summary["pump_id"]) == ["P1"]  # the rest of the plant is screened
     reason = result.problems.set_index("pump_id")["message"]["P2"]
     assert f"(pump P2), column '{column}': " in reason and message in reason, reason
+
+
+@pytest.mark.parametrize("word", ["metric", "SI units", ""])
+def test_scan_refuses_unknown_display_units_before_the_work(two_pumps, tmp_path, word):
+    """``scan --units`` takes si or us (any case) and refuses the rest at once, writing
+    nothing (it used to screen the plant first and fail when writing the pages)."""
+    out = tmp_path / "never"
+    res = CliRunner().invoke(app, ["scan", str(two_pumps), "--out", str(out), "--units", word])
+    assert res.exit_code == 2 and f"{word!r} is not 'si' or 'us'" in res.output
+    assert not out.exists()
+    ok = CliRunner().invoke(app, ["scan", str(two_pumps), "--out", str(out), "--units", "US"])
+    assert ok.exit_code == 0, ok.output
+    assert "US customary" in next((out / "pumps").glob("*.html")).read_text()

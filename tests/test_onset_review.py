@@ -5,6 +5,9 @@ Invented plants (tests/plantmaker.py); the physics reference is CoolProp (IAPWS-
 
 from __future__ import annotations
 
+import re
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -15,6 +18,7 @@ import screening
 from screening.cli.main import app
 from screening.inputs.config import ConfigError
 
+ROOT = Path(__file__).resolve().parents[1]
 G = 9.80665  # standard gravity [m/s²] (CGPM 1901)
 
 
@@ -173,3 +177,49 @@ def test_a_window_without_data_is_a_clear_error(tmp_path):
     assert res.exit_code == 1
     assert "has no running sample with a known margin" in res.output
     assert "check the window against the exports' time range" in res.output
+
+
+FT = 0.3048  # the international foot [m] (exact; international yard and pound, 1959)
+
+
+def test_the_onset_page_and_finding_in_us_units(tmp_path):
+    """``--units us``: the printed finding, the page's finding, its charts and its episode
+    table in feet; the tables beside the page stay in metres (issue 19)."""
+    path = _hot_history(tmp_path)
+    out = tmp_path / "onset_us"
+    args = ["onset", str(path), "P1", "--from", "2026-01-01", "--to", "2026-04-01"]
+    res = CliRunner().invoke(app, [*args, "--out", str(out), "--units", "us"])
+    assert res.exit_code == 0, res.output
+    api = screening.investigate(path, "P1", "2026-01-01", "2026-04-01")
+    size = api.onset_margin["mean_before"] - api.onset_margin["mean_after"]
+    assert f"fell by {abs(size):.2f} m" in api.finding
+    assert f"fell by {abs(size) / FT:.2f} ft" in res.output  # the same step, in feet
+    assert " m " not in res.output.split("\n")[0]  # no length left in metres
+    html = (out / "onset.html").read_text()
+    assert f"fell by {abs(size) / FT:.2f} ft" in html
+    assert "against the baseline [ft]" in html and "margin change against baseline [ft]" in html
+    daily = pd.read_csv(out / "onset_daily.csv")
+    assert "residual_m" in daily.columns  # the tables stay SI
+    # a unit system the tool does not know is refused before any work
+    bad = CliRunner().invoke(app, ["onset", str(path), "P1", "--from", "2026-01-01",
+                                   "--to", "2026-04-01", "--out", str(tmp_path / "x"),
+                                   "--units", "imperial"])  # fmt: skip
+    assert bad.exit_code == 2 and "'imperial' is not 'si' or 'us'" in bad.output
+    assert not (tmp_path / "x").exists()
+
+
+def test_the_onset_episode_table_in_feet(tmp_path):
+    """The episode table of the invented year-long history (HX-701) in feet: each length cell
+    is the CSV's metres over 0.3048, to 0.01 ft."""
+    r = screening.investigate(ROOT / "configs" / "demo_history.toml", "HX-701",
+                              "2025-11-01", "2026-11-01")  # fmt: skip
+    page = screening.write_onset_report(r, tmp_path / "us", units="us")
+    html = page.read_text()
+    table = html[html.index("Episodes below the guidance") :].split("</table>")[0]
+    heads = re.findall(r"<th>([^<]*)</th>", table)
+    assert "suction_pressure [ft]" in heads and not any(h.endswith("_m") for h in heads)
+    first = re.findall(r"<td>([^<]*)</td>", table.split("<tbody>")[1].split("</tr>")[0])
+    metres = pd.read_csv(tmp_path / "us" / "episodes.csv")["suction_pressure_m"].iloc[0]
+    assert first[heads.index("suction_pressure [ft]")] == f"{metres / FT:.2f}"
+    with pytest.raises(ValueError, match="units must be one of"):
+        screening.write_onset_report(r, tmp_path / "x", units="imperial")

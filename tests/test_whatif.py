@@ -3,6 +3,8 @@ IAPWS-IF97 (the `iapws` package)."""
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -359,3 +361,34 @@ def test_whatif_refuses_unknown_units_before_the_work(tmp_path):
     scenarios = _scenarios(tmp_path, '[[scenario]]\nname = "x"\n')
     res = CliRunner().invoke(app, ["whatif", str(path), str(scenarios), "--units", "metric"])
     assert res.exit_code != 0 and "'metric' is not 'si' or 'us'" in res.output
+
+
+@pytest.mark.parametrize(
+    ("key", "text", "gauge", "si", "us"),
+    [
+        # 27 °C = 27 x 1.8 + 32 °F (definition of the Fahrenheit scale)
+        ("temperature_cap", "27 degC", False, "temperature_cap = 27 degC",
+         "temperature_cap = 27 degC (80.6 °F)"),
+        # a difference converts without the offset: 5 K = 9 °F
+        ("temperature_subtract", "5 K", False, "temperature_subtract = 5 K",
+         "temperature_subtract = 5 K (9.0 °F)"),
+        # 1 psi = 6.894757 kPa (NIST SP 811, appendix B)
+        ("suction_pressure_add", "25 kPa", False, "suction_pressure_add = 25 kPa",
+         "suction_pressure_add = 25 kPa (3.63 psi)"),
+        ("suction_pressure_floor", "30 psi", True,
+         "suction_pressure_floor = 30 psi (206.8 kPa gauge)", "suction_pressure_floor = 30 psi"),
+        # 1 ft = 0.3048 m exactly
+        ("level_floor", "1.2 m", False, "level_floor = 1.2 m", "level_floor = 1.2 m (3.94 ft)"),
+        ("speed_cap", "2950 rpm", False, "speed_cap = 2950 rpm", "speed_cap = 2950 rpm"),
+    ],
+)  # fmt: skip
+def test_a_change_is_shown_in_the_pages_units_too(key, text, gauge, si, us):
+    """Issue 19: a US page shows a change written in SI in US units beside it (and the other
+    way round), as written first, so the scenario file stays recognisable."""
+    from screening.report.pump_pages import DISPLAY_UNITS
+    from screening.report.whatif_page import change_text
+    from screening.scenarios.scenario import _convert
+
+    change = _convert(Path("s.toml"), "scenario 'x'", key, text, gauge)
+    assert change_text(change, DISPLAY_UNITS["si"]) == si
+    assert change_text(change, DISPLAY_UNITS["us"]) == us

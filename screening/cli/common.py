@@ -15,6 +15,7 @@ import typer
 from rich.console import Console
 
 from screening.inputs.window import WindowError, check_iso
+from screening.report.pump_pages import DISPLAY_UNITS
 
 #: Exit codes (documented in the README).
 EXIT_OK = 0  # every pump screened / everything valid
@@ -65,6 +66,24 @@ def iso_date_option(value: str | None) -> str | None:
         return check_iso(value)
     except WindowError as exc:
         raise typer.BadParameter(str(exc)) from None
+
+
+def units_option(value: str) -> str:
+    """The display units ``si`` or ``us`` (any case), refused otherwise before anything runs
+    (exit code 2)."""
+    if value.lower() not in DISPLAY_UNITS:
+        raise typer.BadParameter(f"{value!r} is not 'si' or 'us'")
+    return value.lower()
+
+
+#: ``--units``: the display units of the pages and the console's lengths.
+UNITS_OPTION = typer.Option(
+    "si",
+    "--units",
+    help="Display units of the pages and the printed finding: si (m, kPa, degC, m3/h) or us "
+    "(ft, psi, degF, gpm); the tables beside the pages stay SI.",
+    callback=units_option,
+)
 
 
 def iso_period_option(value: str | None) -> str | None:

@@ -9,8 +9,16 @@ import typer
 from screening.base.files import check_out, safe_name
 from screening.onset.investigate import investigate
 from screening.report.onset_page import write_onset_report
+from screening.report.pump_pages import DISPLAY_UNITS
 
-from .common import DEBUG_OPTION, EXIT_OK, friendly_errors, iso_date_option, iso_period_option
+from .common import (
+    DEBUG_OPTION,
+    EXIT_OK,
+    UNITS_OPTION,
+    friendly_errors,
+    iso_date_option,
+    iso_period_option,
+)
 
 
 @friendly_errors
@@ -54,6 +62,7 @@ def onset_command(
     bridge_hours: float = typer.Option(
         None, "--bridge-hours", help="Gaps bridged [h] (plant file [onset]; 1.0)."
     ),
+    units: str = UNITS_OPTION,
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Find when a pump's suction margin began to shrink, in which episodes, driven by what."""
@@ -65,7 +74,7 @@ def onset_command(
         enter_below=enter_below, leave_above=leave_above, min_duration_h=min_hours,
         bridge_gap_h=bridge_hours,
     )  # fmt: skip
-    page = write_onset_report(result, out)
-    typer.echo(result.finding)
+    page = write_onset_report(result, out, units=units)
+    typer.echo(result.finding_in(DISPLAY_UNITS[units].head))
     typer.echo(str(page.resolve()))
     raise typer.Exit(EXIT_OK)

@@ -22,6 +22,7 @@ from .common import (
     PUMP_OPTION,
     QUIET_OPTION,
     TO_OPTION,
+    UNITS_OPTION,
     WORKERS_OPTION,
     cluster_choice,
     finish,
@@ -39,7 +40,7 @@ def scan_command(
         None, "--out", help="Report folder (default: reports/<plant file>_<start>_<end>)."
     ),
     pump: list[str] = PUMP_OPTION,
-    units: str = typer.Option("si", "--units", help="Display units of the HTML: si or us."),
+    units: str = UNITS_OPTION,
     compare_to: list[Path] = typer.Option(
         None,
         "--compare-to",
@@ -73,7 +74,7 @@ def scan_command(
         a = result.start.tz_convert(tz).strftime("%Y%m%d")
         b = result.end.tz_convert(tz).strftime("%Y%m%d")
         out = Path("reports") / f"{config.stem}_{a}_{b}"
-    folder = write_report(result, out, units=units.lower(), compare_to=compare_to or None)
+    folder = write_report(result, out, units=units, compare_to=compare_to or None)
     if not quiet:
         print_ranking(result)
     finish(

@@ -10,7 +10,6 @@ import typer
 from screening.base.files import check_out
 from screening.base.text import hours_text
 from screening.inputs.plant import load_plant
-from screening.report.pump_pages import DISPLAY_UNITS
 from screening.report.whatif_page import write_whatif_report
 from screening.scenarios.whatif import whatif
 
@@ -21,6 +20,7 @@ from .common import (
     PUMP_OPTION,
     QUIET_OPTION,
     TO_OPTION,
+    UNITS_OPTION,
     finish,
     friendly_errors,
     progress_bar,
@@ -43,14 +43,12 @@ def whatif_command(
         help="Share of running hours the required setpoints must cover, e.g. 0.99 "
         "(repeatable; default 0.99 and 1).",
     ),
-    units: str = typer.Option("si", "--units", help="Display units of the pages: si or us."),
+    units: str = UNITS_OPTION,
     quiet: bool = QUIET_OPTION,
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Replay history with each scenario's changes; report hours moved and required setpoints."""
     shares = tuple(sorted(set(share))) if share else (0.99, 1.0)
-    if units.lower() not in DISPLAY_UNITS:  # refused before the work, not after it
-        raise typer.BadParameter(f"{units!r} is not 'si' or 'us'", param_hint="--units")
     if out is not None:
         check_out(out, "whatif")  # refuse a folder not ours before the work, not after it
     plant = load_plant(config)
@@ -68,7 +66,7 @@ def whatif_command(
         a = scan.start.tz_convert(tz).strftime("%Y%m%d")
         b = scan.end.tz_convert(tz).strftime("%Y%m%d")
         out = Path("reports") / f"whatif_{scenarios.stem}_{a}_{b}"
-    folder = write_whatif_report(result, out, units=units.lower())
+    folder = write_whatif_report(result, out, units=units)
     n_ok, n_bad = len(scan.summary), len(scan.problems)
     if not quiet:
         typer.echo(f"{len(result.scenarios)} scenario(s) on {n_ok} pump(s), {n_bad} not screened")

@@ -12,6 +12,8 @@ from __future__ import annotations
 
 import pandas as pd
 
+from screening.inputs.units import si_to
+
 #: Days in a mean Gregorian month (365.2425 / 12), for slopes per month.
 DAYS_PER_MONTH = 30.436875
 
@@ -36,14 +38,21 @@ def span_text(interval) -> str:
     return f"5-95 % between {first} and {day_text(hi)}"
 
 
-def _opening(pump_id: str, found: dict) -> tuple[str, pd.Timestamp | None]:
-    """The first sentence and the onset date it speaks of."""
+def length_text(metres: float, unit: str = "m", sign: bool = False) -> str:
+    """A length [m] as text in ``unit`` (``m`` or ``ft``) to two decimals, e.g. ``1.67 m``;
+    with ``sign`` always signed (``-2.60 m``)."""
+    value = float(si_to(metres, unit, "length"))
+    return f"{value:+.2f} {unit}" if sign else f"{value:.2f} {unit}"
+
+
+def _opening(pump_id: str, found: dict, unit: str = "m") -> tuple[str, pd.Timestamp | None]:
+    """The first sentence and the onset date it speaks of (lengths in ``unit``)."""
     ramp, step, margin, exposure = (found[k] for k in ("ramp", "step", "margin", "exposure"))
     if ramp.get("chosen"):
         per_month = -ramp["slope"] * DAYS_PER_MONTH
         text = (
-            f"{pump_id}: a steady decline of the suction condition of {per_month:.2f} m per "
-            f"month from about {day_text(ramp['onset'])}"
+            f"{pump_id}: a steady decline of the suction condition of "
+            f"{length_text(per_month, unit)} per month from about {day_text(ramp['onset'])}"
         )
         return text + (f" ({span_text(ramp['interval'])})" if ramp.get("interval") else ""), ramp[
             "onset"
@@ -53,7 +62,8 @@ def _opening(pump_id: str, found: dict) -> tuple[str, pd.Timestamp | None]:
             size = res["mean_before"] - res["mean_after"]
             verb = "fell" if size > 0 else "rose"
             text = (
-                f"{pump_id}: {what} {verb} by {abs(size):.2f} m from about {day_text(res['onset'])}"
+                f"{pump_id}: {what} {verb} by {length_text(abs(size), unit)} from about "
+                f"{day_text(res['onset'])}"
             )
             return text + (f" ({span_text(res['interval'])})" if res.get("interval") else ""), res[
                 "onset"
@@ -68,7 +78,12 @@ def _opening(pump_id: str, found: dict) -> tuple[str, pd.Timestamp | None]:
 
 
 def plain_finding(
-    pump_id: str, found: dict, drivers: pd.DataFrame, eps: pd.DataFrame, before
+    pump_id: str,
+    found: dict,
+    drivers: pd.DataFrame,
+    eps: pd.DataFrame,
+    before,
+    length_unit: str = "m",
 ) -> str:
     """The finding in words.
 
@@ -84,8 +99,10 @@ def plain_finding(
         The episodes below the guidance.
     before : DataFrame or None
         Exposure before the failure (:func:`screening.onset.episodes.exposure_before`).
+    length_unit : str
+        Unit of the lengths in the text: ``m`` (the default) or ``ft``.
     """
-    text, when = _opening(pump_id, found)
+    text, when = _opening(pump_id, found, length_unit)
     if when is not None and len(drivers):
         dates = pd.to_datetime(drivers["date"]).dt.tz_localize(None)
         late = drivers[dates >= pd.Timestamp(when)]
@@ -96,8 +113,8 @@ def plain_finding(
         worst = min(shares, key=shares.get)
         if shares[worst] < 0:
             text += (
-                f", mostly from {worst.replace('_', ' ')} ({shares[worst]:+.2f} m on average "
-                "since then)"
+                f", mostly from {worst.replace('_', ' ')} "
+                f"({length_text(shares[worst], length_unit, sign=True)} on average since then)"
             )
     text += f"; {len(eps)} episode(s) below the guidance"
     if before is not None and len(before):

@@ -64,6 +64,16 @@ class OnsetResult:
     failed_on_source: str | None = None
     #: a step in the daily margin change itself (temperature, flow and suction together) [m]
     onset_margin: dict = field(default_factory=dict)
+    #: the driver shares [m] on the days the onset was sought in (what the finding speaks of)
+    sought_drivers: pd.DataFrame = field(default_factory=pd.DataFrame)
+
+    def finding_in(self, length_unit: str = "m") -> str:
+        """The finding with its lengths in ``length_unit`` (``m`` or ``ft``); ``finding`` is
+        the same text in metres."""
+        found = {"step": self.onset, "ramp": self.ramp, "margin": self.onset_margin,
+                 "exposure": self.onset_exposure}  # fmt: skip
+        return plain_finding(self.pump_id, found, self.sought_drivers, self.episodes,
+                             self.before_failure, length_unit)  # fmt: skip
 
 
 def _baseline(plant: Plant, start, end, baseline) -> tuple[pd.Timestamp, pd.Timestamp]:
@@ -162,7 +172,7 @@ def investigate(
     return OnsetResult(
         pump_id, result.start, result.end, period, table, eps, drivers, found["step"],
         found["exposure"], before, finding, (base_a, base_b), notes, failed_on, found["ramp"],
-        plant.timezone, daily_table, events, search_from, source, found["margin"],
+        plant.timezone, daily_table, events, search_from, source, found["margin"], sought,
     )  # fmt: skip
 
 

@@ -140,16 +140,6 @@ def plain_trace(trace: dict) -> dict:
     return {k: plain_texts(v) if k in TEXT_KEYS else v for k, v in trace.items()}
 
 
-def plain_figure(fig) -> None:
-    """Make the texts of every trace of a plotly Python figure plain text, in place (the
-    onset and what-if pages, drawn with plotly's figure objects)."""
-    for trace in fig.data:
-        for key in TEXT_KEYS:
-            if key in trace and trace[key] is not None:
-                value = trace[key]
-                trace[key] = plain_texts(list(value) if isinstance(value, tuple) else value)
-
-
 def numbers(values) -> np.ndarray:
     """Numbers as a C-contiguous float64 array (any shape) that :func:`dumps` writes as a
     (nested) JSON list, with ``null`` where a value is NaN or infinite."""
@@ -328,3 +318,26 @@ def figure_html(fig: dict, div_id: str) -> str:
         + f"  Plotly.newPlot({dumps(div_id)}, f.data, f.layout, f.config);\n"
         "})();</script>"
     )
+
+
+def vline(x, colour: str = "#1d1d1d", dash: str = "solid", width: float = 1.5) -> dict:
+    """A layout shape: a vertical line at ``x`` (a date text or number) over the whole
+    height of the plot."""
+    return {"type": "line", "xref": "x", "yref": "paper", "x0": x, "x1": x, "y0": 0, "y1": 1,
+            "line": {"color": colour, "width": width, "dash": dash}}  # fmt: skip
+
+
+def vband(x0, x1, fill: str) -> dict:
+    """A layout shape: a shaded band from ``x0`` to ``x1`` behind the traces, full height."""
+    return {"type": "rect", "xref": "x", "yref": "paper", "x0": x0, "x1": x1, "y0": 0, "y1": 1,
+            "fillcolor": fill, "line": {"width": 0}, "layer": "below"}  # fmt: skip
+
+
+def label_at(x, text: str, y: float = 1.02, **font) -> dict:
+    """A layout annotation: ``text`` (escaped: it may come from the plant's files) at ``x``,
+    at height ``y`` as a fraction of the plot (above it for y > 1), without an arrow."""
+    note = {"x": x, "xref": "x", "yref": "paper", "y": y, "yanchor": "bottom",
+            "text": html.escape(text, quote=False), "showarrow": False}  # fmt: skip
+    if font:
+        note["font"] = font
+    return note

@@ -8,7 +8,8 @@ import math
 
 import numpy as np
 import pandas as pd
-import plotly.graph_objects as go
+
+from screening.report.figjson import label_at, numbers, vband, vline
 
 #: Colours of the evidence figure (ours): points, fit, interval, margin, events.
 POINTS, FIT, INTERVAL, MARGIN, EVENT = "#2d5f8f", "#b3261e", "#f3d9d6", "#9a9a9a", "#3d7a4a"
@@ -60,52 +61,49 @@ def chosen_estimate(result) -> dict:
     return result.onset_margin
 
 
-def evidence_figure(result, local) -> go.Figure:
-    """Daily suction condition [m] (points), the margin change (line), the fit, the interval
-    of its start (shaded), the baseline, failure and events (vertical lines)."""
+def evidence_figure(result, local, units) -> dict:
+    """Daily suction condition (points), the margin change (line), the fit, the interval of its
+    start (shaded), the baseline, failure and events (vertical lines), in the display length
+    unit of ``units`` (:class:`screening.report.pump_pages.DisplayUnits`); a plotly.js figure
+    dict for :func:`screening.report.figjson.figure_html`."""
     d = result.daily
-    fig = go.Figure()
-    x = d["date"].dt.strftime("%Y-%m-%d") if len(d) else []
-    fig.add_scatter(
-        x=x, y=d.get("residual_m", []), mode="markers", name="suction condition (daily)",
-        marker={"color": POINTS, "size": 4},
-    )  # fmt: skip
+    length = lambda v: numbers(units.convert(np.asarray(v, dtype=float), "length"))  # noqa: E731
+    x = d["date"].dt.strftime("%Y-%m-%d").tolist() if len(d) else []
+    data = [{"type": "scatter", "x": x, "y": length(d.get("residual_m", [])),
+             "mode": "markers", "name": "suction condition (daily)",
+             "marker": {"color": POINTS, "size": 4}}]  # fmt: skip
     if "margin_change_m" in d:
-        fig.add_scatter(
-            x=x, y=d["margin_change_m"], mode="lines", name="margin change, all inputs",
-            line={"color": MARGIN, "width": 1},
-        )  # fmt: skip
+        data.append({"type": "scatter", "x": x, "y": length(d["margin_change_m"]),
+                     "mode": "lines", "name": "margin change, all inputs",
+                     "line": {"color": MARGIN, "width": 1}})  # fmt: skip
+    shapes, notes = [], []
     chosen = chosen_estimate(result)
     if chosen.get("onset") is not None and chosen.get("interval"):
         lo, hi = chosen["interval"]
-        fig.add_vrect(
-            x0=_day(lo), x1=_day(pd.Timestamp(hi) + pd.Timedelta(days=1)), fillcolor=INTERVAL,
-            line_width=0, layer="below",
-        )  # fmt: skip
-        fig.add_scatter(  # a legend entry for the shading
-            x=[None], y=[None], mode="markers", name="5-95 % interval of the start",
-            marker={"color": INTERVAL, "size": 12, "symbol": "square"},
-        )  # fmt: skip
+        shapes.append(vband(_day(lo), _day(pd.Timestamp(hi) + pd.Timedelta(days=1)), INTERVAL))
+        data.append({"type": "scatter", "x": [None], "y": [None], "mode": "markers",
+                     "name": "5-95 % interval of the start",  # a legend entry for the shading
+                     "marker": {"color": INTERVAL, "size": 12, "symbol": "square"}})  # fmt: skip
     line = fitted_line(result)
     if line is not None:
-        fig.add_scatter(x=line[0], y=line[1], mode="lines", name=line[2],
-                        line={"color": FIT, "width": 3})  # fmt: skip
+        data.append({"type": "scatter", "x": line[0], "y": length(line[1]), "mode": "lines",
+                     "name": line[2], "line": {"color": FIT, "width": 3}})  # fmt: skip
     a, b = result.baseline
-    fig.add_vrect(x0=local(a)[:10], x1=local(b)[:10], fillcolor="#e7edf3", line_width=0,
-                  layer="below")  # fmt: skip
-    fig.add_annotation(x=local(a)[:10], xanchor="left", yref="paper", y=0.02, text="baseline",
-                       showarrow=False, font={"size": 11})  # fmt: skip
-    _marks(fig, result, local)
-    fig.update_layout(
-        height=380, yaxis_title="against the baseline [m]", hovermode="x unified",
-        legend={"orientation": "h", "y": -0.18}, margin={"l": 60, "r": 20, "t": 40, "b": 40},
-        plot_bgcolor="white", xaxis={"gridcolor": "#e3e3e3"},
-        yaxis={"gridcolor": "#e3e3e3", "zerolinecolor": "#8a8a8a"},
-    )  # fmt: skip
-    return fig
+    shapes.append(vband(local(a)[:10], local(b)[:10], "#e7edf3"))
+    notes.append({**label_at(local(a)[:10], "baseline", 0.02, size=11), "xanchor": "left"})
+    _marks(shapes, notes, result, local)
+    layout = {
+        "height": 380, "hovermode": "x unified", "legend": {"orientation": "h", "y": -0.18},
+        "margin": {"l": 60, "r": 20, "t": 64, "b": 40}, "plot_bgcolor": "white",
+        "xaxis": {"gridcolor": "#e3e3e3", "type": "date"},
+        "yaxis": {"gridcolor": "#e3e3e3", "zerolinecolor": "#8a8a8a",
+                  "title": {"text": f"against the baseline [{units.label('length')}]"}},
+        "shapes": shapes, "annotations": notes,
+    }  # fmt: skip
+    return {"data": data, "layout": layout}
 
 
-def _marks(fig: go.Figure, result, local) -> None:
+def _marks(shapes: list, notes: list, result, local) -> None:
     """Vertical lines for the failure and each known event, labelled above the plot."""
     labels: list[tuple[str, str, str, str]] = []
     for e in result.events.itertuples(index=False) if len(result.events) else []:
@@ -114,9 +112,8 @@ def _marks(fig: go.Figure, result, local) -> None:
     if result.failed_on is not None:
         labels.append((local(result.failed_on)[:10], "failure", "#1d1d1d", "solid"))
     for i, (x, text, colour, dash) in enumerate(labels):
-        fig.add_vline(x=x, line={"dash": dash, "color": colour, "width": 1.5})
-        fig.add_annotation(x=x, yref="paper", y=1.0 + 0.06 * (i % 2), text=text,
-                           showarrow=False, font={"size": 11, "color": colour})  # fmt: skip
+        shapes.append(vline(x, colour, dash))
+        notes.append(label_at(x, text, 1.0 + 0.06 * (i % 2), size=11, color=colour))
 
 
 def _why_empty(start: pd.Timestamp, window_start: pd.Timestamp) -> str:

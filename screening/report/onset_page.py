@@ -5,8 +5,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
-import plotly.graph_objects as go
 from jinja2 import Environment, PackageLoader, select_autoescape
 from plotly.offline import get_plotlyjs
 
@@ -14,9 +14,10 @@ from screening.base.files import atomic_folder
 from screening.engine.drivers import DRIVERS
 from screening.onset.investigate import OnsetResult
 from screening.report.cautions import CAUTIONS
-from screening.report.figjson import plain_figure
+from screening.report.figjson import figure_html, label_at, numbers, vline
 from screening.report.onset_evidence import before_rows, evidence_figure
 from screening.report.palette import STATE_COLOURS
+from screening.report.pump_pages import DISPLAY_UNITS, DisplayUnits
 
 _ENV = Environment(loader=PackageLoader("screening.report", "templates"),
                    autoescape=select_autoescape(["html"]))  # fmt: skip
@@ -31,21 +32,20 @@ DRIVER_COLOURS = {
 }
 
 
-def _html(fig: go.Figure, div_id: str) -> str:
-    plain_figure(fig)  # plotly.js reads HTML in trace texts: show them as written
-    return fig.to_html(full_html=False, include_plotlyjs=False, div_id=div_id)
-
-
-def _mark(fig, when, label, dash):
+def _mark(layout: dict, when, label: str, dash: str) -> None:
+    """A vertical line at the day ``when`` with ``label`` above the plot (nothing for None),
+    every other label a row higher so that close marks stay readable."""
     if when is not None:
         x = pd.Timestamp(when).strftime("%Y-%m-%d")
-        fig.add_vline(x=x, line={"dash": dash, "color": "#1d1d1d"})
-        fig.add_annotation(x=x, yref="paper", y=1.02, text=label, showarrow=False)
+        notes = layout.setdefault("annotations", [])
+        layout.setdefault("shapes", []).append(vline(x, dash=dash, width=2))
+        notes.append(label_at(x, label, 1.02 + 0.07 * (len(notes) % 2)))
 
 
-def _display(frame: pd.DataFrame, tz: str) -> pd.DataFrame:
+def _display(frame: pd.DataFrame, tz: str, units: DisplayUnits) -> pd.DataFrame:
     """The table as text for the page: times in the site's zone to the minute, hours to 0.1,
-    ratios to 0.001 and metres to 0.01 (the CSV and Parquet tables keep every digit)."""
+    ratios to 0.001 and lengths (columns ``*_m``) in the display unit to 0.01, their header
+    ``name [unit]`` (the CSV and Parquet tables keep every digit, in metres)."""
     out = pd.DataFrame(index=frame.index)
     for c in frame.columns:
         v = frame[c]
@@ -53,16 +53,20 @@ def _display(frame: pd.DataFrame, tz: str) -> pd.DataFrame:
             out[c] = v.dt.tz_convert(tz).dt.strftime("%Y-%m-%d %H:%M")
         elif v.dtype.kind == "M":
             out[c] = v.dt.strftime("%Y-%m-%d")
+        elif v.dtype.kind == "f" and c.endswith("_m"):
+            shown = units.convert(v.to_numpy(dtype=float), "length")
+            name = f"{c[:-2]} [{units.label('length')}]"
+            out[name] = ["" if np.isnan(x) else f"{x:.2f}" for x in shown]
         elif v.dtype.kind == "f":
-            digits = 3 if c.endswith("ratio") else 2 if c.endswith("_m") else 1
+            digits = 3 if c.endswith("ratio") else 1
             out[c] = v.map(lambda x, d=digits: "" if pd.isna(x) else f"{x:.{d}f}")
         else:
             out[c] = v.astype(str)
     return out
 
 
-def _estimate(what: str, res: dict) -> dict:
-    """One row of the page's table of onset estimates."""
+def _estimate(what: str, res: dict, units: DisplayUnits) -> dict:
+    """One row of the page's table of onset estimates (a slope in the display length unit)."""
     day = "{:%Y-%m-%d}".format
     row = {"what": what, "onset": "none found", "interval": "", "confidence": "",
            "method": res.get("method", ""), "note": res.get("reason") or ""}  # fmt: skip
@@ -74,7 +78,8 @@ def _estimate(what: str, res: dict) -> dict:
         if res.get("confidence") is not None:
             row["confidence"] = f"{100 * res['confidence']:.0f} %"
         if "slope" in res and res["slope"] == res["slope"]:
-            row["note"] = f"slope {res['slope']:+.3f} per day" + (
+            slope = float(units.convert(res["slope"], "length"))
+            row["note"] = f"slope {slope:+.3f} {units.label('length')} per day" + (
                 "; chosen: fits better than a step" if res.get("chosen") else ""
             )
     return row
@@ -85,28 +90,29 @@ def _sentence(text: str) -> str:
     return text[:1].upper() + text[1:]
 
 
-def write_onset_page(result, out: Path, failed_on=None) -> Path:
-    """Write ``onset.html`` (and plotly.min.js) into ``out``; return the page's path."""
+def write_onset_page(result, out: Path, units: DisplayUnits | None = None) -> Path:
+    """Write ``onset.html`` (and plotly.min.js) into ``out`` with lengths in the display
+    ``units`` (default SI); return the page's path."""
+    units = units or DISPLAY_UNITS["si"]
     h = result.hours
-    x = h["date"].dt.strftime("%Y-%m-%d")
-    timeline = _timeline_figure(result, x)
-    cumul = _cumulative_figure(h, x)
+    x = h["date"].dt.strftime("%Y-%m-%d").tolist()
     d = result.drivers
-    drivers = _drivers_figure(d)
-    eps = _display(result.episodes, result.timezone)
-    estimates = _estimates(result)
-    local = lambda ts: pd.Timestamp(ts).tz_convert(result.timezone).strftime("%Y-%m-%d %H:%M")  # noqa: E731
-    events = _display(result.events, result.timezone) if len(result.events) else None
+    tz = result.timezone
+    eps = _display(result.episodes, tz, units)
+    local = lambda ts: pd.Timestamp(ts).tz_convert(tz).strftime("%Y-%m-%d %H:%M")  # noqa: E731
+    events = _display(result.events, tz, units) if len(result.events) else None
     html = _ENV.get_template("onset.html").render(
         r=result,
-        fig_evidence=_html(evidence_figure(result, local), "evidence"),
+        finding=result.finding_in(units.head),
+        units_label=units.name,
+        fig_evidence=figure_html(evidence_figure(result, local, units), "evidence"),
         notes=_sentence("; ".join(result.notes)),
         events=None if events is None else events.to_dict("records"),
         event_columns=[] if events is None else list(events.columns),
-        fig_timeline=_html(timeline, "timeline"),
-        fig_cumulative=_html(cumul, "cumulative"),
-        fig_drivers=_html(drivers, "drivers") if len(d) else "",
-        estimates=estimates,
+        fig_timeline=figure_html(_timeline_figure(result, x), "timeline"),
+        fig_cumulative=figure_html(_cumulative_figure(h, x), "cumulative"),
+        fig_drivers=figure_html(_drivers_figure(d, units), "drivers") if len(d) else "",
+        estimates=[_estimate(what, res, units) for what, res in _estimates(result)],
         local=local,
         episodes=eps.to_dict("records"),
         episode_columns=list(eps.columns),
@@ -121,101 +127,91 @@ def write_onset_page(result, out: Path, failed_on=None) -> Path:
     return page
 
 
-def _timeline_figure(result, x: pd.Series) -> go.Figure:
+def _layout(height: int, y_title: str) -> dict:
+    """The layout the onset page's time charts share: dates along, one y title."""
+    return {"height": height, "xaxis": {"type": "date"}, "yaxis": {"title": {"text": y_title}},
+            "legend": {"orientation": "h", "y": -0.2},  # below: every chart the same width
+            "margin": {"l": 60, "r": 20, "t": 30, "b": 40}}  # fmt: skip
+
+
+def _timeline_figure(result, x: list[str]) -> dict:
     """Hours below NPSH3 and below guidance per period [h], the onset and failure marked."""
     h = result.hours
-    timeline = go.Figure()
-    timeline.add_bar(
-        x=x,
-        y=h["below_npsh3_h"],
-        name="below NPSH3",
-        marker={"color": STATE_COLOURS["below_npsh3"], "pattern": {"shape": "x"}},
-    )
-    timeline.add_bar(
-        x=x,
-        y=h["below_guidance_h"] - h["below_npsh3_h"],
-        name="below guidance",
-        marker={"color": STATE_COLOURS["below_guidance"], "pattern": {"shape": "/"}},
-    )
-    timeline.update_layout(barmode="stack", height=320, yaxis_title=f"hours per {result.period}",
-                           margin={"l": 60, "r": 20, "t": 30, "b": 40})  # fmt: skip
+    data = [
+        {"type": "bar", "x": x, "y": numbers(h["below_npsh3_h"]), "name": "below NPSH3",
+         "marker": {"color": STATE_COLOURS["below_npsh3"], "pattern": {"shape": "x"}}},
+        {"type": "bar", "x": x, "y": numbers(h["below_guidance_h"] - h["below_npsh3_h"]),
+         "name": "below guidance",
+         "marker": {"color": STATE_COLOURS["below_guidance"], "pattern": {"shape": "/"}}},
+    ]  # fmt: skip
+    layout = {**_layout(320, f"hours per {result.period}"), "barmode": "stack"}
+    layout["margin"]["t"] = 56  # the marks' labels above the plot, clear of the tool bar
     if result.ramp.get("chosen"):
-        _mark(timeline, result.ramp.get("onset"), "decline begins", "dash")
+        _mark(layout, result.ramp.get("onset"), "decline begins", "dash")
     else:
-        _mark(timeline, result.onset.get("onset"), "onset (margin)", "dash")
-    _mark(timeline, result.onset_exposure.get("onset"), "onset (exposure)", "dot")
+        _mark(layout, result.onset.get("onset"), "onset (margin)", "dash")
+    _mark(layout, result.onset_exposure.get("onset"), "onset (exposure)", "dot")
     if result.failed_on is not None:
         failed = pd.Timestamp(result.failed_on).tz_convert(result.timezone).tz_localize(None)
-        _mark(timeline, failed, "failure", "solid")
-    return timeline
+        _mark(layout, failed, "failure", "solid")
+    return {"data": data, "layout": layout}
 
 
-def _cumulative_figure(h: pd.DataFrame, x: pd.Series) -> go.Figure:
+def _cumulative_figure(h: pd.DataFrame, x: list[str]) -> dict:
     """Cumulative hours below NPSH3 and below guidance [h]."""
-    cumul = go.Figure()
-    for col, name, colour in (
-        ("cum_below_npsh3_h", "below NPSH3", "below_npsh3"),
-        ("cum_below_guidance_h", "below guidance", "below_guidance"),
-    ):
-        if col in h:
-            cumul.add_scatter(
-                x=x,
-                y=h[col],
-                name=name,
-                mode="lines",
-                line={"color": STATE_COLOURS[colour], "width": 2},
-            )
-    cumul.update_layout(height=300, yaxis_title="cumulative hours",
-                        margin={"l": 60, "r": 20, "t": 30, "b": 40})  # fmt: skip
-    return cumul
-
-
-def _drivers_figure(d: pd.DataFrame) -> go.Figure:
-    """Each driver's margin change against the baseline per day [m], and the total."""
-    drivers = go.Figure()
-    if len(d):
-        dx = pd.to_datetime(d["date"]).dt.strftime("%Y-%m-%d")
-        for k in (k for k in DRIVERS if f"{k}_m" in d):
-            drivers.add_scatter(
-                x=dx,
-                y=d[f"{k}_m"],
-                name=k.replace("_", " "),
-                mode="lines",
-                line={"color": DRIVER_COLOURS[k]},
-            )
-        drivers.add_scatter(
-            x=dx,
-            y=d["change_m"],
-            name="total change",
-            mode="lines",
-            line={"color": "#1d1d1d", "dash": "dash"},
+    data = [
+        {"type": "scatter", "x": x, "y": numbers(h[col]), "name": name, "mode": "lines",
+         "line": {"color": STATE_COLOURS[colour], "width": 2}}
+        for col, name, colour in (
+            ("cum_below_npsh3_h", "below NPSH3", "below_npsh3"),
+            ("cum_below_guidance_h", "below guidance", "below_guidance"),
         )
-    drivers.update_layout(height=320, yaxis_title="margin change against baseline [m]",
-                          margin={"l": 60, "r": 20, "t": 30, "b": 40})  # fmt: skip
-    return drivers
+        if col in h
+    ]  # fmt: skip
+    return {"data": data, "layout": _layout(300, "cumulative hours")}
 
 
-def _estimates(result) -> list[dict]:
-    """The rows of the page's table of onset estimates: step, ramp and exposure."""
+def _drivers_figure(d: pd.DataFrame, units: DisplayUnits) -> dict:
+    """Each driver's margin change against the baseline per day and the total, in the display
+    length unit."""
+    dx = pd.to_datetime(d["date"]).dt.strftime("%Y-%m-%d").tolist()
+    length = lambda col: numbers(units.convert(d[col].to_numpy(float), "length"))  # noqa: E731
+    data = [
+        {"type": "scatter", "x": dx, "y": length(f"{k}_m"), "name": k.replace("_", " "),
+         "mode": "lines", "line": {"color": DRIVER_COLOURS[k]}}
+        for k in DRIVERS
+        if f"{k}_m" in d
+    ]  # fmt: skip
+    data.append({"type": "scatter", "x": dx, "y": length("change_m"), "name": "total change",
+                 "mode": "lines", "line": {"color": "#1d1d1d", "dash": "dash"}})  # fmt: skip
+    title = f"margin change against baseline [{units.label('length')}]"
+    return {"data": data, "layout": _layout(320, title)}
+
+
+def _estimates(result) -> list[tuple[str, dict]]:
+    """The estimates of the page's table: step, ramp, step of the margin and exposure."""
     return [
-        _estimate("step in the flow-normalised margin", result.onset),
-        _estimate("start of a decline in it (broken stick)", result.ramp),
-        _estimate("step in the margin itself (all inputs)", result.onset_margin),
-        _estimate("step in the daily hours below guidance", result.onset_exposure),
+        ("step in the flow-normalised margin", result.onset),
+        ("start of a decline in it (broken stick)", result.ramp),
+        ("step in the margin itself (all inputs)", result.onset_margin),
+        ("step in the daily hours below guidance", result.onset_exposure),
     ]
 
 
-def write_onset_report(result: OnsetResult, out: str | Path) -> Path:
-    """Write the onset tables (CSV and Parquet) and an HTML page into the folder ``out``,
-    replaced whole when complete (only a folder the tool wrote: see
-    :func:`screening.base.files.check_out`); returns the page's path."""
+def write_onset_report(result: OnsetResult, out: str | Path, units: str = "si") -> Path:
+    """Write the onset tables (CSV and Parquet, SI) and an HTML page with lengths in display
+    ``units`` (``si`` or ``us``) into the folder ``out``, replaced whole when complete (only a
+    folder the tool wrote: see :func:`screening.base.files.check_out`); returns the page's
+    path."""
+    if units not in DISPLAY_UNITS:
+        raise ValueError(f"units must be one of {sorted(DISPLAY_UNITS)}, not {units!r}")
     out = Path(out)
     with atomic_folder(out, "onset") as tmp:
-        _write_onset_folder(result, tmp)
+        _write_onset_folder(result, tmp, DISPLAY_UNITS[units])
     return out / "onset.html"
 
 
-def _write_onset_folder(result: OnsetResult, out: Path) -> None:
+def _write_onset_folder(result: OnsetResult, out: Path, units: DisplayUnits) -> None:
     """The onset tables and page, written into the (new) folder ``out``."""
     tables = {"onset_hours": result.hours, "episodes": result.episodes,
               "drivers": result.drivers, "onset_daily": result.daily,
@@ -229,4 +225,4 @@ def _write_onset_folder(result: OnsetResult, out: Path) -> None:
                 f[c] = f[c].astype("string")
         f.to_csv(out / f"{name}.csv", index=False)
         f.to_parquet(out / f"{name}.parquet", index=False)
-    write_onset_page(result, out)
+    write_onset_page(result, out, units)

@@ -8,7 +8,6 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import plotly.graph_objects as go
 from jinja2 import Environment, PackageLoader, select_autoescape
 from plotly.offline import get_plotlyjs
 
@@ -16,10 +15,11 @@ from screening.base.files import atomic_folder, page_names
 from screening.base.states import BANDS
 from screening.inputs.units import UnitError, si_to
 from screening.report.cautions import CAUTIONS
-from screening.report.figjson import plain_figure
+from screening.report.figjson import figure_html
 from screening.report.palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
 from screening.report.plant_report import write_table
 from screening.report.pump_pages import DISPLAY_UNITS, DisplayUnits
+from screening.scenarios.scenario import ACTIONS
 from screening.scenarios.whatif import WhatIfResult
 
 _ENV = Environment(loader=PackageLoader("screening.report", "templates"),
@@ -153,19 +153,17 @@ def _before_after_figure(hours: pd.DataFrame, div_id: str) -> str:
     m = hours[(hours.kind == "margin") & hours.state.isin(BANDS)]
     pumps = list(dict.fromkeys(m["pump_id"]))
     x = [sum(([p, p] for p in pumps), []), ["before", "after"] * len(pumps)]
-    fig = go.Figure()
+    data = []
     for state in BANDS:
         s = m[m.state == state].set_index("pump_id")
         y = [float(s.loc[p, col]) for p in pumps for col in ("before_h", "after_h")]
-        fig.add_bar(
-            x=x, y=y, name=STATE_LABELS[state],
-            marker={"color": STATE_COLOURS[state],
-                    "pattern": {"shape": STATE_PATTERNS[state]}},
-        )  # fmt: skip
-    fig.update_layout(barmode="stack", height=360, yaxis_title="running hours in each band",
-                      margin={"l": 60, "r": 20, "t": 20, "b": 60})  # fmt: skip
-    plain_figure(fig)  # plotly.js reads HTML in trace texts: show pump ids as written
-    return fig.to_html(full_html=False, include_plotlyjs=False, div_id=div_id)
+        data.append({"type": "bar", "x": x, "y": y, "name": STATE_LABELS[state],
+                     "marker": {"color": STATE_COLOURS[state],
+                                "pattern": {"shape": STATE_PATTERNS[state]}}})  # fmt: skip
+    layout = {"barmode": "stack", "height": 360,
+              "yaxis": {"title": {"text": "running hours in each band"}},
+              "margin": {"l": 60, "r": 20, "t": 20, "b": 60}}  # fmt: skip
+    return figure_html({"data": data, "layout": layout}, div_id)  # pump ids shown as written
 
 
 def write_whatif_report(result: WhatIfResult, out: str | Path, units: str = "si") -> Path:
@@ -243,12 +241,51 @@ def write_whatif_report(result: WhatIfResult, out: str | Path, units: str = "si"
                     if len(summary)
                     else [],
                     moves=result.moves[result.moves.scenario == sc.name].to_dict("records"),
-                    changes=result.changes[result.changes.scenario == sc.name].to_dict("records"),
+                    changes=_change_rows(
+                        result.changes[result.changes.scenario == sc.name], sc, shown
+                    ),  # fmt: skip
                     fmt=_hours,
                 ),  # fmt: skip
                 encoding="utf-8",
             )
     return out
+
+
+def change_text(change, units: DisplayUnits) -> str:
+    """A scenario's change as written (``temperature_cap = 27 degC``), followed by its value
+    in the page's display units where those differ from the unit it was written in, e.g.
+    ``temperature_cap = 27 degC (80.6 °F)``. A difference (``add``, ``subtract``) converts
+    without an offset (1 K = 1.8 °F)."""
+    kind = ACTIONS[change.key][2]
+    if kind == "speed":
+        return change.label
+    unit = {"pressure": units.pressure, "temperature": units.temperature, "length": units.head,
+            "flow": units.flow}[kind]  # fmt: skip
+    written = change.text.replace(" ", "")
+    difference = kind == "temperature" and change.operation == "add"
+    same = ("degF", "°F", "F") if units.temperature == "degF" else ("K", "degC", "°C", "C")
+    if written.endswith(unit.replace("**3", "3")) or (difference and written.endswith(same)):
+        return change.label
+    if difference:
+        value = -change.value if change.key.endswith("subtract") else change.value
+        value *= 1.8 if units.temperature == "degF" else 1.0
+        shown = f"{value:.1f} {'°F' if units.temperature == 'degF' else 'K'}"
+    else:
+        v = float(units.convert(change.value, kind))
+        shown = f"{v:.{1 if abs(v) >= 10 else 2}f} {units.label(kind)}"
+        if kind == "pressure" and change.operation == "floor":
+            shown += " gauge" if change.gauge else " absolute"
+    return f"{change.label} ({shown})"
+
+
+def _change_rows(changes: pd.DataFrame, scenario, units: DisplayUnits) -> list[dict]:
+    """The scenario's rows of the changes table, each change also in the display units."""
+    by_label = {c.label: c for e in scenario.entries for c in e.changes}
+    rows = changes.to_dict("records")
+    for r in rows:
+        if r["change"] in by_label:
+            r["change"] = change_text(by_label[r["change"]], units)
+    return rows
 
 
 def _side_by_side(summary: pd.DataFrame, result: WhatIfResult) -> dict:
