@@ -37,6 +37,7 @@ class TagReader:
 
     def __init__(self, index):
         self.index = index
+        self._count: tuple[int, int] | None = None  # see read(count=)
         self._time_cache: OrderedDict[Path, tuple[np.ndarray, np.ndarray]] = OrderedDict()
 
     def _times(self, info: FileInfo, raw: pd.Series, rows, label: str, groups=None):
@@ -60,7 +61,7 @@ class TagReader:
         return cached
 
     def read(
-        self, tags: list[str], span: tuple[int, int] | None = None
+        self, tags: list[str], span: tuple[int, int] | None = None, count=None
     ) -> tuple[dict[str, TagSeries], dict[str, str]]:
         """Read ``tags`` from every file that holds them.
 
@@ -72,6 +73,10 @@ class TagReader:
             Keep only samples with ``span[0] <= time < span[1]`` [ns since epoch, UTC];
             time-zone-aware Parquet files are filtered while reading. Samples outside the span
             are not counted in the quality figures.
+        count : (int, int), optional
+            Count in the quality figures only the samples in this part of ``span`` [ns] (a
+            time chunk's own part, :mod:`screening.engine.chunked`); only time-zone-aware
+            Parquet files are read so.
 
         Returns
         -------
@@ -84,6 +89,7 @@ class TagReader:
         quality = {t: TagQuality(t) for t in wanted}
         problems: dict[str, str] = {}
         files: dict[Path, tuple[FileInfo, list[str]]] = {}
+        self._count = count
         for tag in wanted:
             for info in self.index._by_tag[tag]:
                 files.setdefault(info.path, (info, []))[1].append(tag)
@@ -107,7 +113,7 @@ class TagReader:
         for tag in wanted:
             if chunks[tag] or any(str(f.path) not in failed for f in self.index._by_tag[tag]):
                 # a tag with no sample in the span is an empty series: no data, not an error
-                series[tag] = assemble(tag, chunks[tag], quality[tag])
+                series[tag] = assemble(tag, chunks[tag], quality[tag], count)
         return series, problems
 
     def _time_filter(self, info: FileInfo, span) -> list | None:
@@ -177,7 +183,7 @@ class TagReader:
             add_chunk(
                 tag, info, raw[present], times[present], ok[present], rows[present],
                 None, chunks, quality, self.index.good_quality, "row", span, None,
-                self.index.status_words.get(tag),
+                self.index.status_words.get(tag), self._count,
             )  # fmt: skip
 
     def _read_dataset(self, info, tags, chunks, quality, span=None) -> None:
@@ -231,5 +237,5 @@ class TagReader:
             add_chunk(
                 tag, info, frame[src.value_column][sel], times[sel], ok[sel], rows[sel],
                 qual, chunks, quality, self.index.good_quality, label, span, malformed[sel],
-                self.index.status_words.get(tag),
+                self.index.status_words.get(tag), self._count,
             )  # fmt: skip

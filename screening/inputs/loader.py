@@ -196,6 +196,17 @@ class ExportIndex:
             out += self._datasets[f.path].tag_files.get(tag, []) if f.fmt == "dataset" else [f.path]
         return out
 
+    def file_infos(self, tag: str) -> list[FileInfo]:
+        """The indexed files (or dataset folders) that hold ``tag``."""
+        return list(self._by_tag.get(tag, []))
+
+    def row_count(self, info: FileInfo) -> int:
+        """Rows of a Parquet file from its footer (cached)."""
+        counts = self.__dict__.setdefault("_rows", {})
+        if info.path not in counts:
+            counts[info.path] = pq.ParquetFile(info.path).metadata.num_rows
+        return counts[info.path]
+
     def max_interval_of(self, tag: str, override: str | None = None) -> float | None:
         """How ``tag`` is drawn between samples, from its export family (``[[exports]]
         reconstruction``) or ``override`` ("step" or "linear", the register's): None for steps,
@@ -238,10 +249,10 @@ class ExportIndex:
         return int(min(t[0] for t in times)), int(max(t[-1] for t in times))
 
     def read(
-        self, tags: list[str], span: tuple[int, int] | None = None
+        self, tags: list[str], span: tuple[int, int] | None = None, count=None
     ) -> tuple[dict[str, TagSeries], dict[str, str]]:
         """Read ``tags`` from every file that holds them (see :meth:`TagReader.read`)."""
-        return self._reader.read(tags, span)
+        return self._reader.read(tags, span, count)
 
 
 def open_exports(plant) -> ExportIndex:
