@@ -94,21 +94,23 @@ def _signals(rng, n, t):
     return ps, tt, ft, run
 
 
-def _write(folder, chunk):
+def _write(folder, chunks):
     rng = np.random.default_rng(20261022)
     t = pd.date_range(START, END, freq="10s", inclusive="left")
     n = len(t)
     ps, tt, ft, run = _signals(rng, n, t)
     local = t.tz_convert("Europe/Berlin")
     # a frozen suction transmitter over the local midnight of the 24th, a gap over the 26th's
-    frozen = (local >= pd.Timestamp("2026-10-24 23:30", tz="Europe/Berlin")) & (
-        local < pd.Timestamp("2026-10-25 01:10", tz="Europe/Berlin")
-    )
-    ps[frozen] = 55.0
-    keep = ~(
-        (local >= pd.Timestamp("2026-10-25 23:50", tz="Europe/Berlin"))
-        & (local < pd.Timestamp("2026-10-26 00:20", tz="Europe/Berlin"))
-    )
+    def between(a, b):
+        return (local >= pd.Timestamp(a, tz="Europe/Berlin")) & (
+            local < pd.Timestamp(b, tz="Europe/Berlin")
+        )
+
+    # frozen from 22:00, with no sample from 23:20 to just before midnight: the run began
+    # before the next chunk's look-back, so only the carried run start flags it right
+    ps[between("2026-10-24 22:00", "2026-10-25 01:10")] = 55.0
+    keep = ~between("2026-10-25 23:50", "2026-10-26 00:20")
+    keep &= ~between("2026-10-24 23:20", "2026-10-24 23:59:50")
     ps[rng.random(n) < 0.001] = np.nan  # missing values
     tt[rng.random(n) < 0.0005] = 500.0  # impossible? no: counted as a reading
     (folder / "wide").mkdir(parents=True)
@@ -128,8 +130,9 @@ def _write(folder, chunk):
                                   "quality": q}))  # fmt: skip
     frame = pd.concat(rows, ignore_index=True)
     frame.loc[rng.choice(len(frame), 50, replace=False), "value"] = "Shutdown"
-    dups = frame.sample(40, random_state=1)
-    frame = pd.concat([frame, dups]).reset_index(drop=True)
+    again = np.sort(rng.choice(len(frame), 40, replace=False))  # a sample given twice
+    frame = frame.iloc[np.sort(np.concatenate([np.arange(len(frame)), again]))]
+    frame = frame.reset_index(drop=True)
     swap = rng.choice(len(frame) - 1, 30, replace=False)
     idx = np.arange(len(frame))
     idx[swap], idx[swap + 1] = idx[swap + 1], idx[swap]  # neighbours out of order
@@ -145,19 +148,20 @@ def _write(folder, chunk):
              for tag, v in (("P3.PS", ps3), ("P3.TT", tt3), ("P3.FT", ft3))]  # fmt: skip
     pq.write_table(pa.Table.from_pandas(pd.concat(parts), preserve_index=False),
                    folder / "lines" / "p3.parquet", row_group_size=5_000)  # fmt: skip
-    (folder / "plant.toml").write_text(TOML.format(chunk=chunk))
     rows = [pump_row("P1"), pump_row("P2"), pump_row("P3", run_tag="")]
     (folder / "pumps.csv").write_text(PUMP_HEADER + "\n" + "\n".join(rows) + "\n")
     (folder / "curves.csv").write_text(CURVES)
-    return folder / "plant.toml"
+    out = []
+    for name, chunk in zip(("whole", "daily", "twice"), chunks, strict=True):
+        (folder / f"{name}.toml").write_text(TOML.format(chunk=chunk))
+        out.append(folder / f"{name}.toml")
+    return out
 
 
 @pytest.fixture(scope="module")
 def plants(tmp_path_factory):
-    whole = _write(tmp_path_factory.mktemp("whole"), 0)
-    daily = _write(tmp_path_factory.mktemp("daily"), 100)  # one chunk per local day
-    twice = _write(tmp_path_factory.mktemp("twice"), 8640 * 2)  # two days per chunk
-    return whole, daily, twice
+    """One plant, three plant files: in one piece, one chunk per local day, two days."""
+    return _write(tmp_path_factory.mktemp("chunks"), (0, 100, 8640 * 2))
 
 
 def _scan(path, monkeypatch=None):

@@ -13,7 +13,12 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from screening.inputs import dataset as _dataset
-from screening.inputs.export_files import FileInfo, long_columns, read_csv_rows
+from screening.inputs.export_files import (
+    FileInfo,
+    long_columns,
+    read_csv_rows,
+    read_parquet_rows,
+)
 from screening.inputs.tagdata import (
     FILE_FAULTS,
     ExportError,
@@ -142,12 +147,16 @@ class TagReader:
             filters = self._time_filter(info, span)
             if filters is None:
                 return
+            rows = None
             try:
-                table = pq.read_table(info.path, columns=cols, filters=filters or None)
+                if filters and info.timestamp_typed:  # row groups in the span, rows numbered
+                    table, rows = read_parquet_rows(info, cols, span)
+                else:
+                    table = pq.read_table(info.path, columns=cols, filters=filters or None)
             except (pa.ArrowException, OSError) as exc:
                 raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
             if info.timestamp_typed:
-                self._wide_arrow(info, table, tags, chunks, quality, span)
+                self._wide_arrow(info, table, tags, chunks, quality, span, rows)
                 return
             frame = table.to_pandas()
             rows = np.arange(len(frame))
@@ -166,12 +175,12 @@ class TagReader:
                 self.index.status_words.get(tag),
             )  # fmt: skip
 
-    def _wide_arrow(self, info, table: pa.Table, tags, chunks, quality, span) -> None:
+    def _wide_arrow(self, info, table: pa.Table, tags, chunks, quality, span, rows=None) -> None:
         """Fast path: a wide Parquet file with a time-zone-aware time column, no pandas."""
         col = table.column(info.source.time_column).cast(pa.timestamp("ns", tz="UTC"))
         times = col.to_numpy(zero_copy_only=False).view(np.int64)
         ok = ~np.asarray(col.is_null().to_numpy(zero_copy_only=False), dtype=bool)
-        rows = np.arange(len(times))
+        rows = np.arange(len(times)) if rows is None else rows
         for tag in tags:
             column = table.column(tag)
             if pa.types.is_floating(column.type) or pa.types.is_integer(column.type):
@@ -209,13 +218,18 @@ class TagReader:
                 textual = pa.types.is_string(tag_type) or pa.types.is_large_string(tag_type)
                 # tags stored as numbers are matched as text (as the index names them)
                 filters = [(src.tag_column, "in", list(tags))] if textual else []
-                table = pq.read_table(
-                    info.path, columns=cols, filters=(filters + time_filters) or None
-                )
+                rows = None
+                if info.timestamp_typed and textual:  # rows numbered as in the file
+                    table, rows = read_parquet_rows(info, cols, span if time_filters else None,
+                                                    tags)  # fmt: skip
+                else:
+                    table = pq.read_table(
+                        info.path, columns=cols, filters=(filters + time_filters) or None
+                    )
             except (pa.ArrowException, OSError) as exc:
                 raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
             frame = table.to_pandas()
-            rows = np.arange(len(frame))
+            rows = np.arange(len(frame)) if rows is None else rows
             label = "row"
             malformed = np.zeros(len(frame), dtype=bool)
             if not textual:
