@@ -75,6 +75,7 @@ margin = "0.6 m"
 """
 
 START = pd.Timestamp("2026-10-21 22:00", tz="UTC")
+ROW_GROUP = 2_000  # rows of P1's file per row group (5.6 h at 10 s)
 END = pd.Timestamp("2026-10-28 02:00", tz="UTC")
 
 
@@ -109,7 +110,7 @@ def _write(folder, chunks):
     # frozen from 22:00, with no sample from 23:20 to just before midnight: the run began
     # before the next chunk's look-back, so only the carried run start flags it right
     ps[between("2026-10-24 22:00", "2026-10-25 01:10")] = 55.0
-    keep = ~between("2026-10-25 23:50", "2026-10-26 00:20")
+    keep = ~between("2026-10-25 23:00", "2026-10-26 00:20")  # longer than the look-back
     keep &= ~between("2026-10-24 23:20", "2026-10-24 23:59:50")
     ps[rng.random(n) < 0.001] = np.nan  # missing values
     tt[rng.random(n) < 0.0005] = 500.0  # impossible? no: counted as a reading
@@ -118,7 +119,7 @@ def _write(folder, chunks):
         "timestamp": pa.array(t[keep].as_unit("ns"), pa.timestamp("ns", tz="UTC")),
         "P1.PS": ps[keep], "P1.TT": tt[keep], "P1.FT": ft[keep], "P1.RUN": run[keep],
     })  # fmt: skip
-    pq.write_table(wide, folder / "wide" / "p1.parquet", row_group_size=20_000)
+    pq.write_table(wide, folder / "wide" / "p1.parquet", row_group_size=ROW_GROUP)
     # P2 in a long file with quality words, text values, duplicates and rows out of order
     ps2, tt2, ft2, run2 = _signals(rng, n, t)
     rows = []
@@ -209,3 +210,38 @@ def test_chunked_tables_equal_whole(plants, which):
     s = whole.summary.set_index("pump_id")
     assert (s["longest_below_npsh3_hours"] > 0.5).all()  # across a local midnight
     _same(whole, part)
+
+
+def test_chunk_reads_only_its_span(plants, monkeypatch):
+    """A chunk decodes only the row groups that overlap its span (look-back and look-ahead
+    included) and keeps only the rows inside it: the file is never read whole at once."""
+    decoded = []
+    real = pq.ParquetFile.read_row_groups
+
+    def counting(self, groups, *a, **k):
+        table = real(self, groups, *a, **k)
+        decoded.append(table.num_rows)
+        return table
+
+    monkeypatch.setattr(pq.ParquetFile, "read_row_groups", counting)
+    seen = []
+    from screening.inputs import export_reader
+
+    def recording(info, cols, span, tags=None):
+        n = len(decoded)
+        table, rows = real_rows(info, cols, span, tags)
+        if info.path.name == "p1.parquet":
+            t = table.column("timestamp").cast(pa.int64()).to_numpy()
+            assert t.min() >= span[0] and t.max() < span[1]
+            seen.append((span, decoded[n], table.num_rows))
+        return table, rows
+
+    real_rows = export_reader.read_parquet_rows
+    monkeypatch.setattr(export_reader, "read_parquet_rows", recording)
+    screening.scan(plants[1], pumps=["P1"], processes=1)
+    assert len(seen) == 6  # one read per chunk
+    rows_in_file = pq.ParquetFile(plants[1].parent / "wide" / "p1.parquet").metadata.num_rows
+    for span, n_decoded, n_kept in seen:
+        assert n_decoded <= n_kept + 2 * ROW_GROUP  # at most the two edge row groups' rest
+        assert n_kept <= (span[1] - span[0]) / 10e9 + 1  # 10 s samples in the span
+    assert sum(n for _, n, _ in seen) < 1.5 * rows_in_file

@@ -25,6 +25,7 @@ one-second CSV goes through ``pumpscreen ingest`` first (docs/scale.md).
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -103,6 +104,7 @@ def screen_chunked(plant, pump, index, barometer, settings, span, start_ns, end_
     grid = plotdata.BucketGrid(start_ns, end_ns, buckets) if buckets else 0
     n_days = len(edges) - 1
     results, qualities, samples, problems = [], [], 0, {}
+    carried: dict = {}  # tag -> its last sample before the next chunk
     with PointSpill(bool(buckets)) as spill:
         for i in range(0, n_days, days):
             j = min(i + days, n_days)
@@ -112,6 +114,7 @@ def screen_chunked(plant, pump, index, barometer, settings, span, start_ns, end_
             part.a, part.end, part.final = a, b, last
             part.count = (read[0] if first else a, read[1] if last else b)
             raw, read_problems = index.read(tags, read, part.count)
+            _carry_last(raw, carried, b)
             problems.update(read_problems)
             result, quality, n = screen_pump(
                 plant, pump, index, raw, barometer, settings, a, b, edges[i : j + 1], keep,
@@ -126,6 +129,23 @@ def screen_chunked(plant, pump, index, barometer, settings, span, start_ns, end_
             merged.points = spill.points()
     quality = chunk_merge.merge_quality(qualities, part.gaps, start_ns, index)
     return merged, quality, samples, problems
+
+
+def _carry_last(raw: dict, last: dict, end: int) -> None:
+    """Each tag's last sample before the chunk's look-back (kept from the chunk before) put in
+    front of its series, as one piece has it (a value held over a gap longer than the
+    look-back); then the last sample before ``end`` [ns] kept for the next chunk. In place."""
+    for tag, s in raw.items():
+        kept = last.get(tag)
+        if kept is not None and (len(s.times) == 0 or s.times[0] > kept[0]):
+            raw[tag] = s = dataclasses.replace(
+                s, times=np.concatenate(([kept[0]], s.times)),
+                values=np.concatenate(([kept[1]], s.values)),
+                bad=np.concatenate(([kept[2]], s.bad)),
+            )  # fmt: skip
+        i = int(np.searchsorted(s.times, end)) - 1
+        if i >= 0:
+            last[tag] = (s.times[i], s.values[i], s.bad[i])
 
 
 class PointSpill:
