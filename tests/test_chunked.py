@@ -245,3 +245,36 @@ def test_chunk_reads_only_its_span(plants, monkeypatch):
         assert n_decoded <= n_kept + 2 * ROW_GROUP  # at most the two edge row groups' rest
         assert n_kept <= (span[1] - span[0]) / 10e9 + 1  # 10 s samples in the span
     assert sum(n for _, n, _ in seen) < 1.5 * rows_in_file
+
+
+def test_whatif_sees_the_whole_pump_when_chunked(plants, tmp_path):
+    """The what-if hook is given the whole pump's series (the chunks joined): same tables."""
+    scenarios = tmp_path / "scenarios.toml"
+    scenarios.write_text(
+        '[[scenario]]\nname = "higher suction"\n  [[scenario.change]]\n  pumps = ["P*"]\n'
+        '  suction_pressure_add = "20 kPa"\n  temperature_cap = "30 degC"\n'
+    )
+    a = screening.whatif(plants[0], scenarios)
+    b = screening.whatif(plants[1], scenarios)
+    assert not a.hours.empty and (a.hours["change_h"] != 0).any()
+    for name in ("hours", "moves", "changes", "setpoints", "sensitivity"):
+        pd.testing.assert_frame_equal(getattr(a, name), getattr(b, name), check_exact=True)
+
+
+@pytest.mark.parametrize("failed_on", [None, "2026-10-27 03:00"])
+def test_onset_is_the_same_when_chunked(plants, monkeypatch, failed_on):
+    """``onset`` on a chunked pump, built chunk by chunk without the whole series: the same
+    hours, episodes (with their drivers), drivers per day, daily residuals and finding."""
+    from screening.onset import streamed
+
+    a = screening.investigate(plants[0], "P1", "2026-10-22 06:00", "2026-10-28", failed_on)
+    calls = []
+    real = streamed.evidence
+    monkeypatch.setattr(streamed, "evidence", lambda *x: calls.append(1) or real(*x))
+    b = screening.investigate(plants[1], "P1", "2026-10-22 06:00", "2026-10-28", failed_on)
+    assert calls == [1]
+    assert len(a.episodes) > 1 and a.episodes["temperature_m"].notna().all()
+    for name in ("hours", "episodes", "drivers", "daily"):
+        pd.testing.assert_frame_equal(getattr(a, name), getattr(b, name), check_exact=True)
+    assert a.onset == b.onset and a.ramp == b.ramp and a.finding == b.finding
+    assert a.notes == b.notes

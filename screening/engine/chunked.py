@@ -91,11 +91,12 @@ def chunk_days(plant, index, pump, start_ns: int, end_ns: int) -> int | None:
 
 
 def screen_chunked(plant, pump, index, barometer, settings, span, start_ns, end_ns, edges,
-                   keep: bool, buckets: int, days: int):  # fmt: skip
+                   keep: bool, buckets: int, days: int, each_chunk=None):  # fmt: skip
     """Screen one pump in chunks of ``days`` local days (``edges``: the window's day edges
     [ns]; ``span``: the scan's read span with its look-back and look-ahead [ns]). Returns what
     :func:`screening.engine.one_pump.screen_pump` returns for the whole window, and the files
-    that failed while read (path -> message)."""
+    that failed while read (path -> message) and what ``each_chunk(plant, chunk_result)``
+    returned after each chunk, given its per-piece series (an empty list without it)."""
     known = index.known_tags()
     tags = [s.tag for s in [*pump.tags().values(), *pump.peer_tags().values()]
             if s.tag in known]  # fmt: skip
@@ -105,6 +106,7 @@ def screen_chunked(plant, pump, index, barometer, settings, span, start_ns, end_
     n_days = len(edges) - 1
     results, qualities, samples, problems = [], [], 0, {}
     carried: dict = {}  # tag -> its last sample before the next chunk
+    extras: list = []
     with PointSpill(bool(buckets)) as spill:
         for i in range(0, n_days, days):
             j = min(i + days, n_days)
@@ -117,10 +119,14 @@ def screen_chunked(plant, pump, index, barometer, settings, span, start_ns, end_
             _carry_last(raw, carried, b)
             problems.update(read_problems)
             result, quality, n = screen_pump(
-                plant, pump, index, raw, barometer, settings, a, b, edges[i : j + 1], keep,
-                grid, read_problems, part,
+                plant, pump, index, raw, barometer, settings, a, b, edges[i : j + 1],
+                keep or each_chunk is not None, grid, read_problems, part,
             )  # fmt: skip
             del raw
+            if each_chunk is not None:
+                extras.append(each_chunk(plant, result))
+                if not keep:
+                    result.series = None
             samples += n
             results.append(result)
             qualities.append(quality)
@@ -128,7 +134,7 @@ def screen_chunked(plant, pump, index, barometer, settings, span, start_ns, end_
         if buckets:
             merged.points = spill.points()
     quality = chunk_merge.merge_quality(qualities, part.gaps, start_ns, index)
-    return merged, quality, samples, problems
+    return merged, quality, samples, problems, extras
 
 
 def _carry_last(raw: dict, last: dict, end: int) -> None:

@@ -55,6 +55,7 @@ class BatchContext:
     plot_buckets: int
     each_pump: Callable[[Plant, PumpResult], Any] | None
     tables: dict = field(default_factory=dict)  # (fluid, choice) -> FluidTable
+    each_chunk: Callable[[Plant, PumpResult], Any] | None = None  # see scan(each_chunk=)
 
 
 @dataclass
@@ -92,14 +93,21 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
             if days[pid] is None:
                 result, tag_quality, n = screen_pump(
                     plant, pump, index, raw, ctx.barometer, ctx.settings, ctx.start_ns,
-                    ctx.end_ns, ctx.edges, keep, ctx.plot_buckets, read_problems,
+                    ctx.end_ns, ctx.edges, keep or ctx.each_chunk is not None, ctx.plot_buckets,
+                    read_problems,
                 )  # fmt: skip
+                if ctx.each_chunk is not None:
+                    out.extras[pid] = [ctx.each_chunk(plant, result)]
+                    if not keep:
+                        result.series = None
             else:
-                result, tag_quality, n, problems = screen_chunked(
+                result, tag_quality, n, problems, extras = screen_chunked(
                     plant, pump, index, ctx.barometer, ctx.settings, ctx.span, ctx.start_ns,
-                    ctx.end_ns, ctx.edges, keep, ctx.plot_buckets, days[pid],
+                    ctx.end_ns, ctx.edges, keep, ctx.plot_buckets, days[pid], ctx.each_chunk,
                 )  # fmt: skip
                 out.file_problems.update(problems)
+                if ctx.each_chunk is not None:
+                    out.extras[pid] = extras
             if ctx.each_pump is not None:
                 out.extras[pid] = ctx.each_pump(plant, result)
                 if not ctx.keep_series:

@@ -29,6 +29,7 @@ from screening.inputs.plant import Plant, load_plant
 from screening.inputs.window import check_iso, local_day_starts, window_bounds
 from screening.onset import changepoint as cp
 from screening.onset import episodes as ep
+from screening.onset import streamed
 from screening.onset.finding import plain_finding
 from screening.physics.properties import fluid_table
 
@@ -127,30 +128,22 @@ def investigate(
     bridge_gap_h = rules.bridge_hours if bridge_gap_h is None else bridge_gap_h
     win = window_bounds(plant, start, end)
     events, failed_on, source = _failure_date(plant, pump_id, win, failed_on)
-    result = _scan_pump(plant, pump_id, start, end)
-    series = result.series[pump_id]
-    _check_has_data(series, pump_id, result.start, result.end)
-    pump = plant.pumps[pump_id]
-    curve = plant.curves[pump.curve_id]
-    g = plant.guidance[pump_id]
-    cut = result.end if failed_on is None else failed_on
-    search_from = _after_maintenance(events, result.start, cut)
+    _check_pump(plant, pump_id)
+    cut = win[1] if failed_on is None else failed_on
+    search_from = _after_maintenance(events, win[0], cut)
     base_a, base_b = _baseline(plant, search_from, cut, baseline)
-    base, known = _baseline_pieces(series, pump_id, base_a, base_b)
-    model = fit_baseline(series, pump, base)
-
+    eps_rules = (enter_below, leave_above, min_duration_h, bridge_gap_h)
+    if streamed.in_chunks(plant, pump_id, win):  # one-second data: bounded memory
+        result, ev = streamed.evidence(plant, pump_id, win, (base_a, base_b), search_from, cut,
+                                       eps_rules)  # fmt: skip
+    else:
+        result = _scan_pump(plant, pump_id, start, end)
+        ev = _evidence(plant, pump_id, result, (base_a, base_b), search_from, cut, eps_rules)
+    eps, drivers, notes, daily_resid = ev["episodes"], ev["drivers"], ev["notes"], ev["resid"]
     # hours per day or week
     daily = _daily_hours(result.daily)
     period, table = _hours_per_period(daily, result.start, result.end)
-    eps = _guidance_episodes(series, g, enter_below, leave_above, min_duration_h, bridge_gap_h)
-    notes = _baseline_notes(series, base & known) + ([model.note] if model.note else [])
-    table_ = fluid_table(pump.fluid, pump.vapour_pressure)
-    drivers, shares, names = _drivers_by_day(plant, pump, curve, table_, series, base, model)
-    eps = _episode_drivers(eps, shares, names)
-    resid = series["npsha_m"].to_numpy(np.float64) - expected_npsha(
-        series, pump, curve, table_, model
-    )
-    daily_resid, exposure = _onset_series(plant, series, resid, daily, search_from, cut)
+    daily_resid, exposure = _sought(plant, daily_resid, daily, search_from, cut)
     found = _change_points(rules, daily_resid, exposure, drivers)
     daily_table = found.pop("daily")
     before = None
@@ -229,13 +222,38 @@ def _check_has_data(series: pd.DataFrame, pump_id: str, start, end) -> None:
         )
 
 
-def _scan_pump(plant: Plant, pump_id: str, start, end):
-    """Scan one pump over the window keeping its per-piece series; a clear error if it can't."""
+def _check_pump(plant: Plant, pump_id: str) -> None:
+    """A clear error for a pump that is not in the register or could not be read from it."""
     if pump_id not in plant.pumps:
         raise ValueError(
             f"pump {pump_id!r} cannot be investigated: "
             + plant.problems.get(pump_id, "not in the register")
         )
+
+
+def _evidence(plant: Plant, pump_id: str, result, baseline, search_from, cut, eps_rules):
+    """Episodes (with their drivers), drivers per day, notes and the daily flow-normalised
+    residual of a pump from its whole per-piece series (``result.series``)."""
+    series = result.series[pump_id]
+    _check_has_data(series, pump_id, result.start, result.end)
+    pump = plant.pumps[pump_id]
+    curve = plant.curves[pump.curve_id]
+    base, known = _baseline_pieces(series, pump_id, *baseline)
+    model = fit_baseline(series, pump, base)
+    eps = _guidance_episodes(series, plant.guidance[pump_id], *eps_rules)
+    notes = _baseline_notes(series, base & known) + ([model.note] if model.note else [])
+    table_ = fluid_table(pump.fluid, pump.vapour_pressure)
+    drivers, shares, names = _drivers_by_day(plant, pump, curve, table_, series, base, model)
+    eps = _episode_drivers(eps, shares, names)
+    resid = series["npsha_m"].to_numpy(np.float64) - expected_npsha(
+        series, pump, curve, table_, model
+    )
+    daily_resid = _daily_residual(plant, series, resid, search_from, cut)
+    return {"episodes": eps, "drivers": drivers, "notes": notes, "resid": daily_resid}
+
+
+def _scan_pump(plant: Plant, pump_id: str, start, end):
+    """Scan one pump over the window keeping its per-piece series; a clear error if it can't."""
     result = scan(plant, start, end, pumps=[pump_id], keep_series=True)
     if pump_id not in result.series:
         raise ValueError(f"pump {pump_id}: {result.problems['message'].iloc[0]}")
@@ -315,6 +333,13 @@ def _baseline_notes(series: pd.DataFrame, usable: np.ndarray) -> list[str]:
 
 def _drivers_by_day(plant: Plant, pump, curve, table, series: pd.DataFrame, base, model):
     """Each driver's share of the margin change [m], time-weighted per site day, and the shares."""
+    names = drivers_for(pump)
+    shares, grouped = _driver_sums(plant, pump, curve, table, series, base, model)
+    return _drivers_of(grouped, names), shares, names
+
+
+def _driver_sums(plant: Plant, pump, curve, table, series: pd.DataFrame, base, model):
+    """The per-piece shares and their hour-weighted sums per site day (hours summed too)."""
     # drivers over time: one input at a time put back at its baseline value
     names = drivers_for(pump)
     shares = driver_shares(series, pump, curve, table, base, model)
@@ -322,26 +347,31 @@ def _drivers_by_day(plant: Plant, pump, curve, table, series: pd.DataFrame, base
     w = shares["hours"]
     cols = ["change_m"] + [f"{k}_m" for k in names] + ["interaction_m"]
     weighted = shares[cols].mul(w, axis=0).assign(date=shares["date"], hours=w)
-    grouped = weighted.groupby("date").sum()
-    drivers = grouped[cols].div(grouped["hours"].replace(0, np.nan), axis=0).reset_index()
-    return drivers, shares, names
+    return shares, weighted.groupby("date").sum()
 
 
-def _onset_series(
-    plant: Plant, series: pd.DataFrame, resid: np.ndarray, daily: pd.DataFrame, since, cut
-) -> tuple[pd.Series, pd.Series]:
-    """Daily time-weighted median flow-normalised residual [m] and daily hours below guidance
-    [h], on the days from ``since`` (the window's start or the last maintenance) to ``cut``
-    (the failure or the window's end) [UTC]."""
+def _drivers_of(grouped: pd.DataFrame, names) -> pd.DataFrame:
+    """Time-weighted mean shares per day [m] from the sums of :func:`_driver_sums`."""
+    cols = ["change_m"] + [f"{k}_m" for k in names] + ["interaction_m"]
+    return grouped[cols].div(grouped["hours"].replace(0, np.nan), axis=0).reset_index()
+
+
+def _daily_residual(plant: Plant, series: pd.DataFrame, resid: np.ndarray, since, cut):
+    """Daily time-weighted median flow-normalised residual [m] from ``since`` (the window's
+    start or the last maintenance) to ``cut`` (the failure or the window's end) [UTC]."""
     # onset: change point in the flow-normalised suction condition and in the exposure rate
     times = series["time"]
     keep = ((times >= since) & (times < cut)).to_numpy() & np.isfinite(resid)
     keep &= series["hours"].to_numpy() > 0
     days = local_day_starts(times[keep], plant.timezone)
     rs = pd.DataFrame({"date": days, "r": resid[keep], "w": series["hours"].to_numpy()[keep]})
-    daily_resid = rs.groupby("date")[["r", "w"]].apply(
+    return rs.groupby("date")[["r", "w"]].apply(
         lambda g: weighted_median(g["r"].to_numpy(), g["w"].to_numpy())
     )
+
+
+def _sought(plant: Plant, daily_resid, daily: pd.DataFrame, since, cut):
+    """The daily residual [m] and the daily hours below guidance [h] on the days sought."""
     # what happened at and after the failure (repair, cleaning) is not the onset; before the
     # last maintenance neither
     lo = pd.Timestamp(since).tz_convert(plant.timezone).tz_localize(None).normalize()
