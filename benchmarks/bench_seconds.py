@@ -20,7 +20,7 @@ The measures (each in its own subprocess, so that each peak resident memory, ``r
 of the process and of its largest child, is its own; run ``--runs`` times, min and median)
     fleet        ``screening.scan(fleet, processes=2)``: the target is 60 s on 2 cores.
     year_scan    ``screening.scan(year, processes=1)``: a pump-year in time chunks of
-                 ``[data] chunk_samples`` (default 1 M samples per tag, 10 days at 1 s).
+                 ``[data] chunk_samples`` (default 500 000 samples per tag: 5 days at 1 s).
     year_onset   ``screening.investigate(year, pump, start, end)`` over the pump-year.
     month        the first 30 days of the year pump, chunked (as shipped) ...
     month_whole  ... and in one piece (``chunk_samples = 0``): the naive baseline.

@@ -159,7 +159,7 @@ class DataRules(_Strict):
     #: days (one-second data: a pump-year in chunks of about this many samples per tag), with
     #: the same tables as in one piece; 0 screens every pump in one piece. Only for pumps whose
     #: tags are all in time-zone-aware Parquet files (see docs/scale.md).
-    chunk_samples: int = Field(1_000_000, ge=0)
+    chunk_samples: int = Field(500_000, ge=0)
 
     _dur = field_validator("stale_limit", "frozen_after", "max_interval", mode="before")(
         lambda v: None if v in (None, "", "none", "off") else _duration(v)

@@ -89,17 +89,17 @@ def gap_stretches(
         first = times[lo - 1] if lo > 0 else None
         held = first is not None and first + limit_ns > start_ns
         open_ = (int(first), limit_ns) if held else (start_ns, 0)
-    begin = np.concatenate(([open_[0]], inside)).astype(np.int64)
-    hold = np.full(len(begin), limit_ns, dtype=np.int64)
-    hold[0] = open_[1]
-    if final:
-        stop = np.concatenate((inside, [end_ns])).astype(np.int64)
-    else:
-        open_ = (int(begin[-1]), int(hold[-1]))
-        begin, hold, stop = begin[:-1], hold[:-1], inside
+    points = np.concatenate(([open_[0]], inside, [end_ns] if final else [])).astype(np.int64)
+    hold0 = open_[1]  # the first stretch's: the sample it begins at holds (or none does)
+    if not final:
+        open_ = (int(points[-1]), limit_ns if len(inside) else hold0)
+    # only the stretches longer than the limit are gaps: the rest is never looked at again
+    over = np.flatnonzero(np.diff(points) > limit_ns)
+    begin, stop = points[over], points[over + 1]
+    hold = np.where(over == 0, hold0, limit_ns)
     length = stop - begin
     missing = np.clip(np.minimum(stop, end_ns) - np.maximum(begin + hold, start_ns), 0, None)
-    idx = np.flatnonzero((length > limit_ns) & (missing > 0))
+    idx = np.flatnonzero(missing > 0)
     return (begin[idx], stop[idx], length[idx], missing[idx]), open_
 
 

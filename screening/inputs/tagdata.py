@@ -153,13 +153,19 @@ def _count_part(q, where, times, values, is_text, text, bad_q, rows, malformed, 
     bad = np.zeros(len(values), dtype=bool)
     back = np.zeros(len(values), dtype=bool)
     back[1:] = np.diff(times) < 0
-    for part, into in ((mine, q), (~mine, TagQuality(q.tag))):
-        if not part.any():
+    at = np.flatnonzero(mine)
+    parts = [(mine, q), (~mine, TagQuality(q.tag))]
+    if len(at) and at[-1] - at[0] + 1 == len(at):  # in time order: the counted rows in a row
+        lo, hi = int(at[0]), int(at[-1]) + 1
+        parts = [(slice(lo, hi), q), (slice(0, lo), TagQuality(q.tag)),
+                 (slice(hi, None), TagQuality(q.tag))]  # fmt: skip
+    for part, into in parts:
+        if len(times[part]) == 0:
             continue
         v = values[part]
-        t = None if text is None else text[part]
+        t = None if text is None else (text.iloc[part] if hasattr(text, "iloc") else text[part])
         if into is q:  # steps back whose earlier sample is outside the part
-            into.out_of_order += int((back & part).sum()) - int((np.diff(times[part]) < 0).sum())
+            into.out_of_order += int(back[part].sum()) - int((np.diff(times[part]) < 0).sum())
         bad[part] = count_samples(into, where, times[part], v, is_text[part], t, bad_q[part],
                                   rows[part], malformed[part], words)  # fmt: skip
         values[part] = v  # run-status words mapped to 1 and 0
