@@ -18,6 +18,7 @@ import pytest
 
 import screening
 from screening.engine import chunked
+from screening.inputs.loader import open_exports
 from tests.plantmaker import CURVES, PUMP_HEADER, pump_row
 
 TOML = """
@@ -101,7 +102,7 @@ def _write(folder, chunks):
     n = len(t)
     ps, tt, ft, run = _signals(rng, n, t)
     local = t.tz_convert("Europe/Berlin")
-    # a frozen suction transmitter over the local midnight of the 24th, a gap over the 26th's
+
     def between(a, b):
         return (local >= pd.Timestamp(a, tz="Europe/Berlin")) & (
             local < pd.Timestamp(b, tz="Europe/Berlin")
@@ -278,3 +279,30 @@ def test_onset_is_the_same_when_chunked(plants, monkeypatch, failed_on):
         pd.testing.assert_frame_equal(getattr(a, name), getattr(b, name), check_exact=True)
     assert a.onset == b.onset and a.ramp == b.ramp and a.finding == b.finding
     assert a.notes == b.notes
+
+
+def test_an_ingested_dataset_is_chunked_too(plants, tmp_path):
+    """The same plant ingested (``pumpscreen ingest``) and scanned from the dataset: chunked
+    (one chunk per local day) and in one piece give the same tables."""
+    from screening.inputs.ingest import ingest
+
+    folder = plants[0].parent
+    ingest(plants[0], tmp_path / "ds")
+    tables = []
+    for chunk in (0, 100):
+        text = TOML.format(chunk=chunk)
+        text = text[: text.index("[[exports]]")] + text[text.index("[policy]") :]
+        text += f'\n[[exports]]\nlayout = "dataset"\npath = "{tmp_path / "ds"}"\n'
+        text = text.replace('"pumps.csv"', f'"{folder / "pumps.csv"}"')
+        text = text.replace('"curves.csv"', f'"{folder / "curves.csv"}"')
+        (tmp_path / f"ds{chunk}.toml").write_text(text)
+        plant = screening.load_plant(tmp_path / f"ds{chunk}.toml")
+        index = open_exports(plant)
+        win = [
+            pd.Timestamp(x, tz="Europe/Berlin").value for x in ("2026-10-22 06:00", "2026-10-28")
+        ]
+        days = chunked.chunk_days(plant, index, plant.pumps["P1"], *win)
+        assert days == (None if chunk == 0 else 1)
+        tables.append(_scan(tmp_path / f"ds{chunk}.toml"))
+    assert tables[0].quality["text_values"].sum() > 0
+    _same(*tables)

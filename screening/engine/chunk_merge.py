@@ -118,6 +118,8 @@ def merge_quality(parts: list[dict], gaps: dict, start_ns: int, index) -> dict:
     files (the first file in the index's order, then the first chunk), the gaps of the
     stretches found chunk by chunk (``gaps``: role -> list of stretches)."""
     position = {str(f.path): i for i, f in enumerate(index.files)}
+    for ds in {id(d): d for d in index._datasets.values()}.values():  # the raw files ingested
+        position.update({str(src["path"]): len(position) + j for j, src in enumerate(ds.sources)})
     out = {}
     for role in parts[0]:
         qs = [p[role] for p in parts if role in p]

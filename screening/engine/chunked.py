@@ -77,6 +77,9 @@ def chunk_days(plant, index, pump, start_ns: int, end_ns: int) -> int | None:
     for spec in [*pump.tags().values(), *pump.peer_tags().values()]:
         estimate = 0.0
         for info in index.file_infos(spec.tag):
+            if info.fmt == "dataset":  # months of one folder, all its tags in each
+                estimate += index.dataset_rows(info, start_ns, end_ns) / max(len(info.tags), 1)
+                continue
             if info.fmt != "parquet" or not info.timestamp_typed or info.time_range is None:
                 return None
             rows = index.row_count(info) / (len(info.tags) if info.source.layout == "long" else 1)

@@ -200,9 +200,11 @@ class TagReader:
         ds = self.index._datasets[info.path]
         try:
             table = _dataset.read_rows(ds, info.path.name, tags, span)
+            count = self._count
             _dataset.add_chunks(
-                ds, table, tags, chunks, quality, self.index.good_quality, self.index.status_words
-            )
+                ds, table, tags, chunks, quality, self.index.good_quality, self.index.status_words,
+                count, count is None or span is None or count[0] <= span[0],
+            )  # fmt: skip
         except _dataset.DatasetError as exc:
             raise ExportError(str(exc)) from exc
 

@@ -207,6 +207,19 @@ class ExportIndex:
             counts[info.path] = pq.ParquetFile(info.path).metadata.num_rows
         return counts[info.path]
 
+    def dataset_rows(self, info: FileInfo, start_ns: int, end_ns: int) -> float:
+        """Rows of an ingested dataset's folder in the window [ns], from its months' footers
+        (each month's rows prorated by its overlap with the window)."""
+        total = 0.0
+        for path, unplaced in _dataset.partitions(info.path, (start_ns, end_ns)):
+            if unplaced:
+                continue
+            first = np.datetime64(path.parent.name.split("=", 1)[1], "M")
+            lo, hi = (m.astype("datetime64[ns]").astype(np.int64) for m in (first, first + 1))
+            share = max(0, min(hi, end_ns) - max(lo, start_ns)) / (hi - lo)
+            total += self.row_count(FileInfo(path, info.source, "parquet", info.tags)) * share
+        return total
+
     def max_interval_of(self, tag: str, override: str | None = None) -> float | None:
         """How ``tag`` is drawn between samples, from its export family (``[[exports]]
         reconstruction``) or ``override`` ("step" or "linear", the register's): None for steps,

@@ -138,12 +138,12 @@ def add_chunk(
     if count is None:
         bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed, status)
     else:
-        bad, values = _count_part(q, where, times, values, is_text, text, bad_q, rows, malformed,
+        bad, values = count_part(q, where, times, values, is_text, text, bad_q, rows, malformed,
                                   status, count)  # fmt: skip
     chunks[tag].append((times, values, bad, (where, rows)))
 
 
-def _count_part(q, where, times, values, is_text, text, bad_q, rows, malformed, words, count):
+def count_part(q, where, times, values, is_text, text, bad_q, rows, malformed, words, count):
     """:func:`count_samples` counting only the samples in the span ``count`` [ns]; the others
     (a chunk's look-back and look-ahead) are judged alike but counted in no figure. A step
     back in time is counted where its later sample is counted, as over the whole file."""
