@@ -270,8 +270,8 @@ def test_onset_is_the_same_when_chunked(plants, monkeypatch, failed_on):
 
     a = screening.investigate(plants[0], "P1", "2026-10-22 06:00", "2026-10-28", failed_on)
     calls = []
-    real = streamed.evidence
-    monkeypatch.setattr(streamed, "evidence", lambda *x: calls.append(1) or real(*x))
+    real = streamed.investigate_in_chunks
+    monkeypatch.setattr(streamed, "investigate_in_chunks", lambda *x: calls.append(1) or real(*x))
     b = screening.investigate(plants[1], "P1", "2026-10-22 06:00", "2026-10-28", failed_on)
     assert calls == [1]
     assert len(a.episodes) > 1 and a.episodes["temperature_m"].notna().all()

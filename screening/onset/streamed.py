@@ -26,6 +26,7 @@ from screening.engine.scan import scan
 from screening.inputs.loader import open_exports
 from screening.inputs.window import day_edges
 from screening.onset import episodes as ep
+from screening.onset import evidence
 from screening.physics.properties import fluid_table
 
 NS_PER_HOUR = 3_600_000_000_000
@@ -67,9 +68,7 @@ class _Chunks:
     """The hook of the second scan: what the onset keeps of each chunk's pieces."""
 
     def __init__(self, plant, pump_id, model, since, cut, eps_rules):
-        from screening.onset import investigate as inv
-
-        self.inv, self.plant, self.pump_id = inv, plant, pump_id
+        self.plant, self.pump_id = plant, pump_id
         self.pump = plant.pumps[pump_id]
         self.curve = plant.curves[self.pump.curve_id]
         self.table = fluid_table(self.pump.fluid, self.pump.vapour_pressure)
@@ -86,14 +85,14 @@ class _Chunks:
     def __call__(self, _plant, result) -> None:
         s = result.series
         self.known |= bool((s["state"].isin(BANDS).to_numpy() & (s["hours"].to_numpy() > 0)).any())
-        inv, pump = self.inv, self.pump
-        shares, grouped = inv._driver_sums(self.plant, pump, self.curve, self.table, s,
+        pump = self.pump
+        shares, grouped = evidence.driver_sums(self.plant, pump, self.curve, self.table, s,
                                            np.zeros(len(s), dtype=bool), self.model)  # fmt: skip
         self.sums.append(grouped)
         resid = s["npsha_m"].to_numpy(np.float64) - expected_npsha(
             s, pump, self.curve, self.table, self.model
         )
-        daily = inv._daily_residual(self.plant, s, resid, self.since, self.cut)
+        daily = evidence.daily_residual(self.plant, s, resid, self.since, self.cut)
         if len(daily):
             self.resid.append(daily)
         t = s["time"].astype("int64").to_numpy()
@@ -123,32 +122,31 @@ class _Chunks:
         names = drivers_for(self.pump)
         eps = self.stream.table(self.min_h, self.bridge_h)
         shares = pd.concat(self.shares, ignore_index=True)
-        eps = self.inv._episode_drivers(eps, shares, names)
+        eps = evidence.episode_drivers(eps, shares, names)
         grouped = pd.concat(self.sums) if len(self.sums) > 1 else self.sums[0]
-        drivers = self.inv._drivers_of(grouped, names)
+        drivers = evidence.drivers_of(grouped, names)
         resid = pd.concat(self.resid) if len(self.resid) > 1 else self.resid[0]
         return eps, drivers, resid
 
 
-def evidence(plant, pump_id: str, win, baseline, since, cut, eps_rules):
-    """The scan of the window and what :func:`screening.onset.investigate._evidence` gives,
+def investigate_in_chunks(plant, pump_id: str, win, baseline, since, cut, eps_rules):
+    """The scan of the window and what :func:`screening.onset.evidence.whole_series` gives,
     built chunk by chunk (see the module's docstring)."""
-    from screening.onset import investigate as inv
 
     rows = _baseline_rows(plant, pump_id, win, baseline)
     every = np.ones(len(rows), dtype=bool)
     known = rows["state"].isin(BANDS).to_numpy() & (rows["hours"].to_numpy() > 0)
     if not known.any():
-        inv._baseline_pieces(rows, pump_id, *baseline)  # raises, saying so
+        evidence.baseline_pieces(rows, pump_id, *baseline)  # raises, saying so
     model = fit_baseline(rows, plant.pumps[pump_id], every)
-    notes = inv._baseline_notes(rows, known) + ([model.note] if model.note else [])
+    notes = evidence.baseline_notes(rows, known) + ([model.note] if model.note else [])
     del rows
     hook = _Chunks(plant, pump_id, model, since, cut, eps_rules)
     result = scan(plant, win[0], win[1], pumps=[pump_id], each_chunk=hook)
     _raise_if_failed(result, pump_id)
     if not hook.known:
         hours = result.hours[(result.hours["pump_id"] == pump_id)]
-        inv._check_has_data(_as_series(hours), pump_id, result.start, result.end)
+        evidence.check_has_data(_as_series(hours), pump_id, result.start, result.end)
     eps, drivers, resid = hook.results()
     return result, {"episodes": eps, "drivers": drivers, "notes": notes, "resid": resid}
 
