@@ -166,6 +166,7 @@ class PointSpill:
         self.active = active
         self.files: list = []
         self.flow_max = -np.inf
+        self.tops = [0, 0.0, 1.0]  # points, largest flow and NPSHa (as operating_points has)
 
     def __enter__(self):
         if self.active:
@@ -187,12 +188,18 @@ class PointSpill:
         np.save(path, np.stack([flow[ok], npsha[ok], weight[ok]]))
         self.files.append(path)
         self.flow_max = max(self.flow_max, flow_max)
+        if ok.any():
+            first = self.tops[0] == 0
+            self.tops[0] += int(ok.sum())
+            f_top, top = float(np.max(flow[ok])), float(np.max(npsha[ok]))
+            self.tops[1] = f_top if first else max(self.tops[1], f_top)
+            self.tops[2] = top if first else max(self.tops[2], top)
 
     def points(self) -> dict:
         """The histogram of :func:`~screening.engine.plotdata.operating_points` over every
-        chunk's points, summed in the same order."""
-        parts = [np.load(p, mmap_mode="r") for p in self.files]
-        return plotdata.operating_points_parts(parts, self.flow_max)
+        chunk's points, summed in the same order, one chunk's points in memory at a time."""
+        parts = (np.load(p) for p in self.files)
+        return plotdata.operating_points_parts(parts, self.flow_max, tops=tuple(self.tops))
 
 
 def frame_of(parts: list[pd.DataFrame]) -> pd.DataFrame:

@@ -117,12 +117,16 @@ def operating_points(
     return operating_points_parts([(flow[ok], npsha[ok], weight[ok])], flow_max, bins)
 
 
-def operating_points_parts(parts, flow_max: float, bins: int = 50) -> dict:
+def operating_points_parts(parts, flow_max: float, bins: int = 50, tops=None) -> dict:
     """:func:`operating_points` of the running points (flow, NPSHa, hours; all finite, hours
-    positive) given in parts in time order: the same histogram, summed in the same order."""
-    n = sum(len(p[0]) for p in parts)
-    top = max((float(np.max(p[1])) for p in parts if len(p[1])), default=1.0)
-    f_top = max((float(np.max(p[0])) for p in parts if len(p[0])), default=0.0)
+    positive) given in parts in time order: the same histogram, summed in the same order.
+    ``tops``: the points' count and largest flow and NPSHa, known beforehand (then ``parts``
+    may be an iterator that loads one part at a time)."""
+    if tops is None:
+        tops = (sum(len(p[0]) for p in parts),
+                max((float(np.max(p[0])) for p in parts if len(p[0])), default=0.0),
+                max((float(np.max(p[1])) for p in parts if len(p[1])), default=1.0))  # fmt: skip
+    n, f_top, top = tops
     f_edges = np.linspace(0.0, max(flow_max, f_top if n else 0) * 1.05, bins + 1)
     h_edges = np.linspace(0.0, max(top, 1e-3) * 1.05, bins + 1)
     hist = None
