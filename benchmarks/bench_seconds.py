@@ -317,10 +317,10 @@ def report(args, r: dict[str, list[dict]]) -> None:
         rate = samples / s[1] / 1e6
         print(f"{label:<44}{len(r[kind]):>5}{s[0]:>9.1f}{s[1]:>10.1f}{rate:>10.2f}"
               f"{mb[1]:>9,.0f}")  # fmt: skip
+    imports = [m["import_mb"] for runs in r.values() for m in runs if m]
     print(
         "\n(peak MB: median of the runs' largest of the measuring process and its largest "
-        "child; memory after imports about "
-        f"{stat('year_scan', 'import_mb')[1] if stat('year_scan', 'import_mb') else 0:,.0f} MB)"
+        f"child; of which the interpreter and imports about {max(imports, default=0):,.0f} MB)"
     )
     checks = []
     s = stat("fleet", "seconds")
