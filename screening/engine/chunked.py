@@ -29,7 +29,6 @@ import dataclasses
 from dataclasses import dataclass, field
 
 import numpy as np
-import pandas as pd
 
 from screening.engine import chunk_merge, plotdata
 from screening.engine.one_pump import screen_pump
@@ -201,7 +200,3 @@ class PointSpill:
         parts = (np.load(p) for p in self.files)
         return plotdata.operating_points_parts(parts, self.flow_max, tops=tuple(self.tops))
 
-
-def frame_of(parts: list[pd.DataFrame]) -> pd.DataFrame:
-    """Chunks' per-piece series as one frame."""
-    return pd.concat(parts, ignore_index=True) if len(parts) > 1 else parts[0]
