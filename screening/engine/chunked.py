@@ -199,4 +199,3 @@ class PointSpill:
         chunk's points, summed in the same order, one chunk's points in memory at a time."""
         parts = (np.load(p) for p in self.files)
         return plotdata.operating_points_parts(parts, self.flow_max, tops=tuple(self.tops))
-
