@@ -102,11 +102,11 @@ def test_only_overlapping_months_are_opened(tmp_path):
     oct1 = pd.Timestamp("2026-10-01", tz="UTC").value
     hour = 3600 * 10**9
     folder = tmp_path / "ds" / "pump=P1"
-    opened = [p.parent.name for p, _ in dataset._partitions(folder, (oct1, oct1 + hour))]
+    opened = [p.parent.name for p, _ in dataset.partitions(folder, (oct1, oct1 + hour))]
     assert opened == ["month=2026-10"]
-    opened = [p.parent.name for p, _ in dataset._partitions(folder, (oct1 - hour, oct1))]
+    opened = [p.parent.name for p, _ in dataset.partitions(folder, (oct1 - hour, oct1))]
     assert opened == ["month=2026-09"]  # the end is exclusive
-    assert len(dataset._partitions(folder, None)) == 2
+    assert len(dataset.partitions(folder, None)) == 2
     assert ds.tags["P1.TT"] == "pump=P1"
 
 

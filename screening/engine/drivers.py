@@ -277,7 +277,7 @@ def driver_shares(
     actual = margin_m(pump, curve, table, _with_friction(model, data))
     out = pd.DataFrame(
         {
-            "time": series["time"].to_numpy()[ok],
+            "time": series["time"].array[ok],  # tz-aware, without a Timestamp object each
             "hours": series["hours"].to_numpy()[ok],
             "margin_m": actual,
         }

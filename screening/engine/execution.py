@@ -30,6 +30,7 @@ import pyarrow
 
 from screening.base.allocator import keep_freed_memory
 from screening.engine.calculator import PumpResult, Settings
+from screening.engine.chunked import chunk_days, screen_chunked
 from screening.engine.one_pump import quality_flags, quality_row, screen_pump
 from screening.inputs.loader import ExportIndex
 from screening.inputs.plant import Plant
@@ -54,6 +55,7 @@ class BatchContext:
     plot_buckets: int
     each_pump: Callable[[Plant, PumpResult], Any] | None
     tables: dict = field(default_factory=dict)  # (fluid, choice) -> FluidTable
+    each_chunk: Callable[[Plant, PumpResult], Any] | None = None  # see scan(each_chunk=)
 
 
 @dataclass
@@ -76,18 +78,36 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
     adopt_fluid_tables(ctx.tables)
     plant, index = ctx.plant, ctx.index
     known = index.known_tags()
-    tags = [t.tag for pid in batch for t in plant.pumps[pid].all_tags() if t.tag in known]
-    raw, read_problems = index.read(tags, ctx.span)
+    # one-second data: pumps read and calculated in time chunks, each on its own
+    days = {pid: chunk_days(plant, index, plant.pumps[pid], ctx.start_ns, ctx.end_ns)
+            for pid in batch}  # fmt: skip
+    tags = [t.tag for pid in batch if days[pid] is None for t in plant.pumps[pid].all_tags()
+            if t.tag in known]  # fmt: skip
+    raw, read_problems = index.read(tags, ctx.span) if tags else ({}, {})
     # files read in part (dates without a declared order): the worker's index says so
     out = BatchOutput([], {}, [], [], {**index.partly_read, **read_problems}, 0, len(batch))
+    keep = ctx.keep_series or ctx.each_pump is not None
     for pid in batch:
         pump = plant.pumps[pid]
         try:
-            result, tag_quality, n = screen_pump(
-                plant, pump, index, raw, ctx.barometer, ctx.settings, ctx.start_ns, ctx.end_ns,
-                ctx.edges, ctx.keep_series or ctx.each_pump is not None, ctx.plot_buckets,
-                read_problems,
-            )  # fmt: skip
+            if days[pid] is None:
+                result, tag_quality, n = screen_pump(
+                    plant, pump, index, raw, ctx.barometer, ctx.settings, ctx.start_ns,
+                    ctx.end_ns, ctx.edges, keep or ctx.each_chunk is not None, ctx.plot_buckets,
+                    read_problems,
+                )  # fmt: skip
+                if ctx.each_chunk is not None:
+                    out.extras[pid] = [ctx.each_chunk(plant, result)]
+                    if not keep:
+                        result.series = None
+            else:
+                result, tag_quality, n, problems, extras = screen_chunked(
+                    plant, pump, index, ctx.barometer, ctx.settings, ctx.span, ctx.start_ns,
+                    ctx.end_ns, ctx.edges, keep, ctx.plot_buckets, days[pid], ctx.each_chunk,
+                )  # fmt: skip
+                out.file_problems.update(problems)
+                if ctx.each_chunk is not None:
+                    out.extras[pid] = extras
             if ctx.each_pump is not None:
                 out.extras[pid] = ctx.each_pump(plant, result)
                 if not ctx.keep_series:

@@ -86,11 +86,12 @@ def _files_not_read(messages: list[str], most: int = 3) -> str:
 
 def screen_pump(
     plant, pump, index, raw, barometer, settings, start_ns, end_ns, edges, keep, buckets,
-    read_problems=None,
+    read_problems=None, chunk=None,
 ):  # fmt: skip
     """Read, check and calculate one pump; returns its result, tag quality and samples.
     ``read_problems`` (path -> message) are the files that failed while the tags were read:
-    a tag that could not be read is reported with its files' reasons."""
+    a tag that could not be read is reported with its files' reasons. ``chunk``: one time
+    chunk of the pump's window [start_ns, end_ns) (:mod:`screening.engine.chunked`)."""
     roles = pump.tags()
     known = index.known_tags()
     missing = [f"{spec.tag} ({role})" for role, spec in roles.items() if spec.tag not in known]
@@ -118,13 +119,20 @@ def screen_pump(
             )
         s = _drawn(s, spec, index)
         try:
-            prepared[role] = prepare_tag(s, spec, settings, role, check_range(role, pump, table))
+            prepared[role] = prepare_tag(
+                s, spec, settings, role, check_range(role, pump, table), chunk, role
+            )
         except UnitError as exc:
             raise ExportError(f"tag {spec.tag} ({role}): {exc}") from exc
         n += int(np.searchsorted(s.times, end_ns) - np.searchsorted(s.times, start_ns))
-        _count_gaps(prepared[role], spec, settings, start_ns, end_ns, s.max_interval)
-    prepared.update(_peer_tags(pump, index, raw, settings))
-    field = _field_inputs(pump, raw, settings, table, start_ns, end_ns)
+        limit = _gap_limit(spec, settings, s.max_interval)
+        if chunk is None:
+            _count_gaps(prepared[role], spec, settings, start_ns, end_ns, s.max_interval)
+        else:
+            chunk.add_gaps(role, prepared[role].times, limit)
+    prepared.update(_peer_tags(pump, index, raw, settings, chunk))
+    field = None if chunk is not None else _field_inputs(pump, raw, settings, table, start_ns,
+                                                          end_ns)  # fmt: skip
     result = calculate_pump(
         pump, plant.curves[pump.curve_id], plant.guidance[pump.pump_id], table, prepared,
         barometer if pump.needs_barometer else None, settings, start_ns, end_ns, edges, keep,
@@ -139,14 +147,19 @@ def screen_pump(
 def _count_gaps(series, spec, settings, start_ns: int, end_ns: int, max_interval=None) -> None:
     """Gaps longer than the tag's stale limit [s] (a compressed record's longest interval
     [s]) in the window [ns], into its quality."""
+    q = series.quality
+    q.gaps, missing, q.longest_gaps = sample_gaps(
+        series.times, start_ns, end_ns, _gap_limit(spec, settings, max_interval)
+    )
+    q.gap_hours = missing / 3.6e12
+
+
+def _gap_limit(spec, settings, max_interval=None) -> int:
+    """The gap limit of a tag [ns]: its stale limit, a compressed record's longest interval."""
     limit = spec.stale_limit if spec.stale_limit is not None else settings.stale_limit
     if max_interval is not None:  # a compressed record: gaps beyond the longest interval
         limit = max_interval
-    q = series.quality
-    q.gaps, missing, q.longest_gaps = sample_gaps(
-        series.times, start_ns, end_ns, int(round(limit * 1e9))
-    )
-    q.gap_hours = missing / 3.6e12
+    return int(round(limit * 1e9))
 
 
 def _field_inputs(pump, raw, settings, table, start_ns: int, end_ns: int):
@@ -183,7 +196,7 @@ def _drawn(series, spec, index):
     return series if interval is None else dataclasses.replace(series, max_interval=interval)
 
 
-def _peer_tags(pump, index, raw, settings) -> dict:
+def _peer_tags(pump, index, raw, settings, chunk=None) -> dict:
     """The other members' flow, run and speed tags of a pump's shared suction line, in SI
     (counted under their own pumps, not here); a tag that cannot be read leaves the line's
     flow unknown, so the pump cannot be screened."""
@@ -199,7 +212,9 @@ def _peer_tags(pump, index, raw, settings) -> dict:
         role = key.rpartition(":")[2]
         s = _drawn(s, spec, index)
         try:
-            out[key] = prepare_tag(s, spec, settings, role, check_range(role, pump, None))
+            out[key] = prepare_tag(
+                s, spec, settings, role, check_range(role, pump, None), chunk, key
+            )
         except UnitError as exc:
             raise ExportError(f"tag {spec.tag} ({key}): {exc}") from exc
     return out

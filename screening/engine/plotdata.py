@@ -8,6 +8,9 @@ time-weighted two-dimensional histogram of flow and NPSHa.
 
 from __future__ import annotations
 
+from contextvars import ContextVar
+from dataclasses import dataclass
+
 import numpy as np
 import pandas as pd
 
@@ -15,6 +18,20 @@ from screening.base.kernels import bucket_min_max
 
 #: Buckets per window for the time plots (each keeps a minimum and a maximum).
 DEFAULT_BUCKETS = 1500
+
+
+@dataclass(frozen=True)
+class BucketGrid:
+    """The buckets of a whole window [ns] (``count`` of them), for a calculation over a part
+    of it: a pump screened in time chunks (:mod:`screening.engine.chunked`) gets the same
+    buckets as in one piece. Passed where a number of buckets is expected."""
+
+    start_ns: int
+    end_ns: int
+    count: int
+
+    def __bool__(self) -> bool:
+        return self.count > 0
 
 
 def min_max_buckets(
@@ -37,14 +54,16 @@ def min_max_buckets(
         Values per piece (NaN where not defined, e.g. not running).
     start_ns, end_ns : int
         Window [ns].
-    buckets : int
-        Number of equal time buckets.
+    buckets : int or BucketGrid
+        Number of equal time buckets of [start_ns, end_ns), or those of a whole window.
 
     Returns
     -------
     DataFrame with ``time`` (bucket start, UTC) and ``<name>_min``, ``<name>_max`` columns;
     buckets without any value are left out.
     """
+    if isinstance(buckets, BucketGrid):
+        start_ns, end_ns, buckets = buckets.start_ns, buckets.end_ns, buckets.count
     width = max(1, -(-(end_ns - start_ns) // buckets))
     keep = weight > 0
     g = grid[keep]
@@ -62,9 +81,14 @@ def min_max_buckets(
     return pd.DataFrame(out)
 
 
+#: Set by :class:`screening.engine.chunked.PointSpill` while a pump is screened in time
+#: chunks: :func:`operating_points` hands the running points to it instead of binning them.
+POINT_SINK: ContextVar = ContextVar("point_sink", default=None)
+
+
 def operating_points(
     flow: np.ndarray, npsha: np.ndarray, weight: np.ndarray, flow_max: float, bins: int = 50
-) -> dict:
+) -> dict | None:
     """Time-weighted histogram of running points: hours per (flow, NPSHa) cell.
 
     Parameters
@@ -82,20 +106,42 @@ def operating_points(
 
     Returns
     -------
-    dict with ``flow_edges`` [m³/s], ``npsha_edges`` [m] and ``hours`` [h] (flow by NPSHa).
+    dict with ``flow_edges`` [m³/s], ``npsha_edges`` [m] and ``hours`` [h] (flow by NPSHa);
+    None while :data:`POINT_SINK` takes the points.
     """
+    sink = POINT_SINK.get()
+    if sink is not None:
+        sink(flow, npsha, weight, flow_max)
+        return None
     ok = np.isfinite(flow) & np.isfinite(npsha) & (weight > 0)
-    top = float(np.nanmax(npsha[ok])) if ok.any() else 1.0
-    f_edges = np.linspace(0.0, max(flow_max, float(np.nanmax(flow[ok])) if ok.any() else 0) * 1.05,
-                          bins + 1)  # fmt: skip
+    return operating_points_parts([(flow[ok], npsha[ok], weight[ok])], flow_max, bins)
+
+
+def operating_points_parts(parts, flow_max: float, bins: int = 50, tops=None) -> dict:
+    """:func:`operating_points` of the running points (flow, NPSHa, hours; all finite, hours
+    positive) given in parts in time order: the same histogram, summed in the same order.
+    ``tops``: the points' count and largest flow and NPSHa, known beforehand (then ``parts``
+    may be an iterator that loads one part at a time)."""
+    if tops is None:
+        tops = (sum(len(p[0]) for p in parts),
+                max((float(np.max(p[0])) for p in parts if len(p[0])), default=0.0),
+                max((float(np.max(p[1])) for p in parts if len(p[1])), default=1.0))  # fmt: skip
+    n, f_top, top = tops
+    f_edges = np.linspace(0.0, max(flow_max, f_top if n else 0) * 1.05, bins + 1)
     h_edges = np.linspace(0.0, max(top, 1e-3) * 1.05, bins + 1)
-    # uniform cells: the cell index is arithmetic (np.histogram2d's general search is slower)
-    fi = np.minimum(((flow[ok] - f_edges[0]) / (f_edges[1] - f_edges[0])).astype(np.int64),
-                    bins - 1)  # fmt: skip
-    hi = np.minimum(((npsha[ok] - h_edges[0]) / (h_edges[1] - h_edges[0])).astype(np.int64),
-                    bins - 1)  # fmt: skip
-    inside = (fi >= 0) & (hi >= 0)
-    hist = np.bincount(
-        fi[inside] * bins + hi[inside], weights=weight[ok][inside], minlength=bins * bins
-    ).reshape(bins, bins)
-    return {"flow_edges": f_edges, "npsha_edges": h_edges, "hours": hist}
+    hist = None
+    for flow, npsha, weight in parts:
+        # uniform cells: the cell index is arithmetic (np.histogram2d's search is slower)
+        fi = np.minimum(((flow - f_edges[0]) / (f_edges[1] - f_edges[0])).astype(np.int64),
+                        bins - 1)  # fmt: skip
+        hi = np.minimum(((npsha - h_edges[0]) / (h_edges[1] - h_edges[0])).astype(np.int64),
+                        bins - 1)  # fmt: skip
+        inside = (fi >= 0) & (hi >= 0)
+        cells = fi[inside] * bins + hi[inside]
+        if hist is None:
+            hist = np.bincount(cells, weights=weight[inside], minlength=bins * bins)
+        else:  # one sample after the other, as bincount adds them
+            np.add.at(hist, cells, weight[inside])
+    if hist is None:
+        hist = np.zeros(bins * bins)
+    return {"flow_edges": f_edges, "npsha_edges": h_edges, "hours": hist.reshape(bins, bins)}

@@ -10,7 +10,7 @@ import pandas as pd
 
 from screening.engine.calculator import Settings
 from screening.inputs.pumpspec import TagSpec
-from screening.inputs.quality import frozen_samples
+from screening.inputs.quality import frozen_continued, frozen_samples
 from screening.inputs.tagdata import TagSeries
 from screening.inputs.units import to_si
 
@@ -20,11 +20,19 @@ def _at(time_ns: int, what: str) -> str:
 
 
 def prepare_tag(
-    series: TagSeries | None, spec: TagSpec, settings: Settings, role: str, check=None
-) -> TagSeries | None:
-    """Convert a tag's raw values to SI, flag frozen and impossible samples (counted)."""
+    series: TagSeries | None, spec: TagSpec, settings: Settings, role: str, check=None,
+    chunk=None, key: str | None = None,
+) -> TagSeries | None:  # fmt: skip
+    """Convert a tag's raw values to SI, flag frozen and impossible samples (counted).
+
+    ``chunk`` (a :class:`screening.engine.chunked.ChunkPart`): the series is one time chunk's
+    read; only samples in ``chunk.count`` are counted, and a frozen run continues from the
+    chunk before (``chunk.frozen[key]``)."""
     if series is None:
         return None
+    mine = slice(None)
+    if chunk is not None:
+        mine = (series.times >= chunk.count[0]) & (series.times < chunk.count[1])
     # a tag may serve several pumps (a shared basin temperature): count per pump
     q = dataclasses.replace(
         series.quality,
@@ -45,20 +53,30 @@ def prepare_tag(
     # a finite reading that overflows on conversion (1e308 kPa) is not a number either
     overflow = ~np.isfinite(values) & ~bad
     if overflow.any():
-        q.not_finite += int(overflow.sum())
         bad |= overflow
-        q.note("not_finite", _at(series.times[overflow][0], "too large to convert to SI"))
+        if overflow[mine].any():
+            q.not_finite += int(overflow[mine].sum())
+            t = series.times[mine][overflow[mine]][0]
+            q.note("not_finite", _at(t, "too large to convert to SI"))
     if settings.frozen_after is not None and role != "run":
-        frozen = frozen_samples(series.times, values, bad, int(settings.frozen_after * 1e9))
+        limit = int(settings.frozen_after * 1e9)
+        if chunk is None:
+            frozen = frozen_samples(series.times, values, bad, limit)
+        else:
+            frozen, chunk.frozen[key] = frozen_continued(
+                series.times, values, bad, limit, chunk.frozen.get(key), chunk.end
+            )
         frozen &= ~bad
         if frozen.any():
-            q.frozen = int(frozen.sum())
+            q.frozen = int(frozen[mine].sum())
             bad |= frozen
     if check is not None:
         with np.errstate(invalid="ignore"):
             impossible = check(values) & ~bad
         if impossible.any():
-            q.out_of_range = int(impossible.sum())
             bad |= impossible
-            q.note("out_of_range", _at(series.times[impossible][0], "physically impossible"))
+            if impossible[mine].any():
+                q.out_of_range = int(impossible[mine].sum())
+                t = series.times[mine][impossible[mine]][0]
+                q.note("out_of_range", _at(t, "physically impossible"))
     return TagSeries(series.tag, series.times, values, bad, q, series.max_interval)

@@ -40,6 +40,7 @@ def scan(
     processes: int | None = None,
     cluster: Any = None,
     progress: Callable[[BatchOutput], None] | None = None,
+    each_chunk: Callable[[Plant, PumpResult], Any] | None = None,
 ) -> ScanResult:
     """Screen every pump of a plant over a window.
 
@@ -74,6 +75,12 @@ def scan(
         cluster started for this run (see :mod:`screening.engine.execution`).
     progress : callable, optional
         Called with each batch's output (``pumps``, ``samples``) as it completes.
+    each_chunk : callable, optional
+        Like ``each_pump``, but called for each time chunk of a pump screened in chunks
+        (one-second data, :mod:`screening.engine.chunked`) with that chunk's result and
+        per-piece series, in time order, and once with the whole result for a pump screened
+        in one piece; what it returns is kept in a list in ``ScanResult.extras[pump_id]``.
+        The onset analysis uses it to stay within bounded memory.
 
     The results do not depend on where the work ran.
 
@@ -125,7 +132,7 @@ def scan(
     ctx = BatchContext(
         plant, index, settings, barometer, start_ns, end_ns, edges, span, keep_series,
         plot_buckets, each_pump,
-        fluid_tables_for(plant, selected) if len(batches) > 1 else {},
+        fluid_tables_for(plant, selected) if len(batches) > 1 else {}, each_chunk,
     )  # fmt: skip
     outputs = run_batches(ctx, batches, processes, cluster, progress)
     results: list[PumpResult] = []

@@ -16,7 +16,7 @@ duration); no standard prescribes it.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
@@ -24,6 +24,25 @@ import pandas as pd
 from screening.base import states
 
 NS_PER_HOUR = 3_600_000_000_000
+#: The depth integrals are summed per quarter hour of UTC time, then over the quarters: every
+#: local midnight is on a quarter hour, so a pump screened in time chunks of whole local days
+#: (:mod:`screening.engine.chunked`) gets the same sums to the last bit.
+BLOCK_NS = 15 * 60 * 1_000_000_000
+
+
+@dataclass
+class SeverityParts:
+    """What one time chunk's severity hands on: the depth integrals per quarter hour [m·h]
+    (below NPSH3, below the guidance), the stretches below NPSH3 (fresh time [ns] and start
+    [ns]), and whether the first starts at the chunk's first piece (``head``) and the last
+    is still going on at its end (``tail``)."""
+
+    npsh3_blocks: np.ndarray
+    guidance_blocks: np.ndarray
+    run_ns: np.ndarray
+    run_start: np.ndarray
+    head: bool = False
+    tail: bool = False
 
 
 @dataclass
@@ -35,6 +54,7 @@ class Severity:
     below_guidance_m_h: float = 0.0
     longest_below_npsh3_h: float = 0.0
     longest_start: pd.Timestamp | None = None
+    parts: SeverityParts | None = field(default=None, repr=False, compare=False)
 
 
 def _depth(upper, npsha) -> np.ndarray:
@@ -79,6 +99,9 @@ def severity(
     full = f == span
     hours = f / NS_PER_HOUR
     a, n3 = left[0][idx], left[1][idx]
+    block = g // BLOCK_NS
+    block = np.cumsum(np.concatenate(([0], block[1:] != block[:-1])))  # sorted: 0, 1, ...
+    sums = []
     for attr, upper in (("below_npsh3_m_h", n3), ("below_guidance_m_h", guidance.head(n3))):
         d = _depth(upper, a)
         if right is not None:
@@ -86,16 +109,25 @@ def severity(
             up_r = n3_r if attr == "below_npsh3_m_h" else guidance.head(n3_r)
             # trapezoid rule on a fully fresh piece drawn by lines
             d = np.where(full & np.isfinite(a_r), 0.5 * (d + _depth(up_r, a_r)), d)
-        setattr(out, attr, float(np.sum(d * hours)))
+        sums.append(np.bincount(block, weights=d * hours))
+        setattr(out, attr, float(np.sum(sums[-1])))
     below = code[idx] == states.BELOW_NPSH3
+    run_ns, run_start = np.zeros(0), np.zeros(0, dtype=np.int64)
     if below.any():
         # a stretch continues while the next piece follows on directly, fresh to its end
         follows = np.zeros(len(idx), dtype=bool)
         follows[1:] = (idx[1:] == idx[:-1] + 1) & below[1:] & below[:-1] & full[:-1]
         run_id = np.cumsum(~follows)
-        sums = np.bincount(run_id[below], weights=f[below])
-        best = int(np.argmax(sums))
-        out.longest_below_npsh3_h = float(sums[best] / NS_PER_HOUR)
+        per_run = np.bincount(run_id[below], weights=f[below])
+        best = int(np.argmax(per_run))
+        out.longest_below_npsh3_h = float(per_run[best] / NS_PER_HOUR)
         first = int(np.flatnonzero((run_id == best) & below)[0])
         out.longest_start = pd.Timestamp(int(g[first]), tz="UTC")
+        ids, firsts = np.unique(run_id[below], return_index=True)
+        run_ns, run_start = per_run[ids], g[below][firsts]
+    out.parts = SeverityParts(
+        sums[0], sums[1], run_ns, run_start,
+        head=bool(idx[0] == 0 and below[0]),
+        tail=bool(idx[-1] == len(grid) - 1 and below[-1] and full[-1]),
+    )  # fmt: skip
     return out

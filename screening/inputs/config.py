@@ -155,6 +155,11 @@ class DataRules(_Strict):
     #: long, and the rest of the gap is no data. 8 h is a common setting; the historian's own
     #: setting governs. Per export family in ``[[exports]] max_interval``.
     max_interval: float = 8 * 3600.0
+    #: Samples per tag above which a pump's window is screened in time chunks of whole local
+    #: days (one-second data: a pump-year in chunks of about this many samples per tag), with
+    #: the same tables as in one piece; 0 screens every pump in one piece. Only for pumps whose
+    #: tags are all in time-zone-aware Parquet files (see docs/scale.md).
+    chunk_samples: int = Field(500_000, ge=0)
 
     _dur = field_validator("stale_limit", "frozen_after", "max_interval", mode="before")(
         lambda v: None if v in (None, "", "none", "off") else _duration(v)

@@ -39,7 +39,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
-from screening.inputs.tagdata import count_samples
+from screening.inputs.tagdata import count_part, count_samples
 
 LAYOUT_VERSION = 1
 MANIFEST = "manifest.json"
@@ -152,7 +152,7 @@ def open_dataset(root: str | Path) -> Dataset:
     return Dataset(root, tags, sources, kept, not_read, tag_files)
 
 
-def _partitions(folder: Path, span: tuple[int, int] | None) -> list[tuple[Path, bool]]:
+def partitions(folder: Path, span: tuple[int, int] | None) -> list[tuple[Path, bool]]:
     """Part files of a folder whose month overlaps ``span``, and whether each is unplaced."""
     out = []
     if not folder.is_dir():
@@ -201,7 +201,7 @@ def read_rows(ds: Dataset, folder: str, tags: list[str], span: tuple[int, int] |
     if not target.is_relative_to(ds.root.resolve()):
         raise DatasetError(f"{ds.root}: folder {folder!r} leaves the dataset")
     tables = []
-    for path, unplaced in _partitions(ds.root / folder, span):
+    for path, unplaced in partitions(ds.root / folder, span):
         filters = [("tag", "in", list(tags))]
         if span is not None and not unplaced:
             t = pa.timestamp("ns", tz="UTC")
@@ -227,6 +227,8 @@ def add_chunks(
     quality: dict,
     good: set[str],
     status_words: dict[str, dict[str, float]] | None = None,
+    count: tuple[int, int] | None = None,
+    unplaced: bool = True,
 ) -> None:
     """Turn a folder's rows into the loader's per-file chunks and quality counts.
 
@@ -248,6 +250,10 @@ def add_chunks(
         Quality words (lower case) meaning good.
     status_words : dict, optional
         tag -> run-status words and their values (1 running, 0 stopped), for run tags.
+    count : (int, int), optional
+        Count only the samples in this span [ns] (a time chunk's own part, see
+        :func:`screening.inputs.tagdata.add_chunk`); ``unplaced``: count the rows without a
+        placeable time (in the first chunk only).
     """
     status_words = status_words or {}
     if table.num_rows == 0:
@@ -281,17 +287,23 @@ def add_chunks(
         where = f"{src['path']} {src['label']} "
         _count(quality[tag], chunks[tag], where, ok[sel], times[sel], values[sel],
                is_text[sel], text[sel], bad_q[sel], rows[sel], malformed[sel],
-               status_words.get(tag))  # fmt: skip
+               status_words.get(tag), count, unplaced)  # fmt: skip
 
 
 def _count(q, chunk_list, where, ok, times, values, is_text, text, bad_q, rows, malformed,
-           words=None):  # fmt: skip
+           words=None, count=None, unplaced=True):  # fmt: skip
     """One file's samples of one tag: the loader's counts (see ``tagdata.add_chunk``)."""
     if not ok.all():
-        q.bad_timestamps += int((~ok).sum())
-        q.note("bad timestamp", where + str(rows[~ok][0]))
+        if unplaced:
+            q.bad_timestamps += int((~ok).sum())
+            q.note("bad timestamp", where + str(rows[~ok][0]))
         times, values, is_text, text, bad_q, rows, malformed = (
             x[ok] for x in (times, values, is_text, text, bad_q, rows, malformed)
         )
-    bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed, words)
-    chunk_list.append((times, values.astype(np.float64, copy=False), bad, (where, rows)))
+    values = values.astype(np.float64, copy=False)
+    if count is None:
+        bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed, words)
+    else:
+        bad, values = count_part(q, where, times, values, is_text, text, bad_q, rows, malformed,
+                                 words, count)  # fmt: skip
+    chunk_list.append((times, values, bad, (where, rows)))

@@ -13,6 +13,8 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
 from screening.inputs.config import ExportSource
@@ -398,3 +400,47 @@ def parquet_time_range(path: Path, column: str) -> tuple[int, int] | None:
         lo = a.value if lo is None else min(lo, a.value)
         hi = b.value if hi is None else max(hi, b.value)
     return None if lo is None else (lo, hi)
+
+
+def read_parquet_rows(info: FileInfo, columns: list[str], span, tags=None):
+    """The rows of a Parquet file with a time-zone-aware time column whose time is in
+    ``span`` [ns] (None: every row; rows without a time are then kept), and of ``tags`` when
+    given (a long file's tag column): only the row groups whose time statistics overlap the
+    span are read. Returns the table and each row's number in the file (from 0), so that a
+    problem is named at the same row however the file is cut in time (a pump screened in
+    time chunks, :mod:`screening.engine.chunked`)."""
+    src = info.source
+    pf = pq.ParquetFile(info.path)
+    meta = pf.metadata
+    at = meta.schema.to_arrow_schema().get_field_index(src.time_column)
+    groups, numbers, offset = [], [], 0
+    for i in range(meta.num_row_groups):
+        n = meta.row_group(i).num_rows
+        if span is None or _overlaps(meta.row_group(i).column(at).statistics, span):
+            groups.append(i)
+            numbers.append(np.arange(offset, offset + n))
+        offset += n
+    table = pf.read_row_groups(groups, columns=columns)
+    rows = np.concatenate(numbers) if numbers else np.zeros(0, dtype=np.int64)
+    keep = None
+    if span is not None:
+        t = table.column(src.time_column).cast(pa.timestamp("ns", tz="UTC")).cast(pa.int64())
+        keep = pc.and_(pc.greater_equal(t, span[0]), pc.less(t, span[1]))
+    if tags is not None:
+        wanted = pc.is_in(table.column(src.tag_column), value_set=pa.array(list(tags)))
+        keep = wanted if keep is None else pc.and_(keep, wanted)
+    if keep is not None:
+        keep = pc.fill_null(keep, False)
+        table = table.filter(keep)
+        rows = rows[keep.to_numpy(zero_copy_only=False)]
+    return table, rows
+
+
+def _overlaps(stats, span) -> bool:
+    """Whether a row group's time statistics may hold a time in ``span`` [ns]."""
+    if stats is None or not stats.has_min_max:
+        return True
+    lo, hi = pd.Timestamp(stats.min), pd.Timestamp(stats.max)
+    if lo.tzinfo is None:
+        lo, hi = lo.tz_localize("UTC"), hi.tz_localize("UTC")
+    return hi.value >= span[0] and lo.value < span[1]

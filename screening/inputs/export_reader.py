@@ -13,7 +13,12 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from screening.inputs import dataset as _dataset
-from screening.inputs.export_files import FileInfo, long_columns, read_csv_rows
+from screening.inputs.export_files import (
+    FileInfo,
+    long_columns,
+    read_csv_rows,
+    read_parquet_rows,
+)
 from screening.inputs.tagdata import (
     FILE_FAULTS,
     ExportError,
@@ -37,6 +42,7 @@ class TagReader:
 
     def __init__(self, index):
         self.index = index
+        self._count: tuple[int, int] | None = None  # see read(count=)
         self._time_cache: OrderedDict[Path, tuple[np.ndarray, np.ndarray]] = OrderedDict()
 
     def _times(self, info: FileInfo, raw: pd.Series, rows, label: str, groups=None):
@@ -60,7 +66,7 @@ class TagReader:
         return cached
 
     def read(
-        self, tags: list[str], span: tuple[int, int] | None = None
+        self, tags: list[str], span: tuple[int, int] | None = None, count=None
     ) -> tuple[dict[str, TagSeries], dict[str, str]]:
         """Read ``tags`` from every file that holds them.
 
@@ -72,6 +78,10 @@ class TagReader:
             Keep only samples with ``span[0] <= time < span[1]`` [ns since epoch, UTC];
             time-zone-aware Parquet files are filtered while reading. Samples outside the span
             are not counted in the quality figures.
+        count : (int, int), optional
+            Count in the quality figures only the samples in this part of ``span`` [ns] (a
+            time chunk's own part, :mod:`screening.engine.chunked`); only time-zone-aware
+            Parquet files are read so.
 
         Returns
         -------
@@ -84,6 +94,7 @@ class TagReader:
         quality = {t: TagQuality(t) for t in wanted}
         problems: dict[str, str] = {}
         files: dict[Path, tuple[FileInfo, list[str]]] = {}
+        self._count = count
         for tag in wanted:
             for info in self.index._by_tag[tag]:
                 files.setdefault(info.path, (info, []))[1].append(tag)
@@ -107,7 +118,7 @@ class TagReader:
         for tag in wanted:
             if chunks[tag] or any(str(f.path) not in failed for f in self.index._by_tag[tag]):
                 # a tag with no sample in the span is an empty series: no data, not an error
-                series[tag] = assemble(tag, chunks[tag], quality[tag])
+                series[tag] = assemble(tag, chunks[tag], quality[tag], count)
         return series, problems
 
     def _time_filter(self, info: FileInfo, span) -> list | None:
@@ -136,12 +147,16 @@ class TagReader:
             filters = self._time_filter(info, span)
             if filters is None:
                 return
+            rows = None
             try:
-                table = pq.read_table(info.path, columns=cols, filters=filters or None)
+                if filters and info.timestamp_typed:  # row groups in the span, rows numbered
+                    table, rows = read_parquet_rows(info, cols, span)
+                else:
+                    table = pq.read_table(info.path, columns=cols, filters=filters or None)
             except (pa.ArrowException, OSError) as exc:
                 raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
             if info.timestamp_typed:
-                self._wide_arrow(info, table, tags, chunks, quality, span)
+                self._wide_arrow(info, table, tags, chunks, quality, span, rows)
                 return
             frame = table.to_pandas()
             rows = np.arange(len(frame))
@@ -160,12 +175,12 @@ class TagReader:
                 self.index.status_words.get(tag),
             )  # fmt: skip
 
-    def _wide_arrow(self, info, table: pa.Table, tags, chunks, quality, span) -> None:
+    def _wide_arrow(self, info, table: pa.Table, tags, chunks, quality, span, rows=None) -> None:
         """Fast path: a wide Parquet file with a time-zone-aware time column, no pandas."""
         col = table.column(info.source.time_column).cast(pa.timestamp("ns", tz="UTC"))
         times = col.to_numpy(zero_copy_only=False).view(np.int64)
         ok = ~np.asarray(col.is_null().to_numpy(zero_copy_only=False), dtype=bool)
-        rows = np.arange(len(times))
+        rows = np.arange(len(times)) if rows is None else rows
         for tag in tags:
             column = table.column(tag)
             if pa.types.is_floating(column.type) or pa.types.is_integer(column.type):
@@ -177,7 +192,7 @@ class TagReader:
             add_chunk(
                 tag, info, raw[present], times[present], ok[present], rows[present],
                 None, chunks, quality, self.index.good_quality, "row", span, None,
-                self.index.status_words.get(tag),
+                self.index.status_words.get(tag), self._count,
             )  # fmt: skip
 
     def _read_dataset(self, info, tags, chunks, quality, span=None) -> None:
@@ -185,9 +200,11 @@ class TagReader:
         ds = self.index._datasets[info.path]
         try:
             table = _dataset.read_rows(ds, info.path.name, tags, span)
+            count = self._count
             _dataset.add_chunks(
-                ds, table, tags, chunks, quality, self.index.good_quality, self.index.status_words
-            )
+                ds, table, tags, chunks, quality, self.index.good_quality, self.index.status_words,
+                count, count is None or span is None or count[0] <= span[0],
+            )  # fmt: skip
         except _dataset.DatasetError as exc:
             raise ExportError(str(exc)) from exc
 
@@ -203,13 +220,18 @@ class TagReader:
                 textual = pa.types.is_string(tag_type) or pa.types.is_large_string(tag_type)
                 # tags stored as numbers are matched as text (as the index names them)
                 filters = [(src.tag_column, "in", list(tags))] if textual else []
-                table = pq.read_table(
-                    info.path, columns=cols, filters=(filters + time_filters) or None
-                )
+                rows = None
+                if info.timestamp_typed and textual:  # rows numbered as in the file
+                    table, rows = read_parquet_rows(info, cols, span if time_filters else None,
+                                                    tags)  # fmt: skip
+                else:
+                    table = pq.read_table(
+                        info.path, columns=cols, filters=(filters + time_filters) or None
+                    )
             except (pa.ArrowException, OSError) as exc:
                 raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
             frame = table.to_pandas()
-            rows = np.arange(len(frame))
+            rows = np.arange(len(frame)) if rows is None else rows
             label = "row"
             malformed = np.zeros(len(frame), dtype=bool)
             if not textual:
@@ -231,5 +253,5 @@ class TagReader:
             add_chunk(
                 tag, info, frame[src.value_column][sel], times[sel], ok[sel], rows[sel],
                 qual, chunks, quality, self.index.good_quality, label, span, malformed[sel],
-                self.index.status_words.get(tag),
+                self.index.status_words.get(tag), self._count,
             )  # fmt: skip

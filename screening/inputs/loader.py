@@ -196,6 +196,30 @@ class ExportIndex:
             out += self._datasets[f.path].tag_files.get(tag, []) if f.fmt == "dataset" else [f.path]
         return out
 
+    def file_infos(self, tag: str) -> list[FileInfo]:
+        """The indexed files (or dataset folders) that hold ``tag``."""
+        return list(self._by_tag.get(tag, []))
+
+    def row_count(self, info: FileInfo) -> int:
+        """Rows of a Parquet file from its footer (cached)."""
+        counts = self.__dict__.setdefault("_rows", {})
+        if info.path not in counts:
+            counts[info.path] = pq.ParquetFile(info.path).metadata.num_rows
+        return counts[info.path]
+
+    def dataset_rows(self, info: FileInfo, start_ns: int, end_ns: int) -> float:
+        """Rows of an ingested dataset's folder in the window [ns], from its months' footers
+        (each month's rows prorated by its overlap with the window)."""
+        total = 0.0
+        for path, unplaced in _dataset.partitions(info.path, (start_ns, end_ns)):
+            if unplaced:
+                continue
+            first = np.datetime64(path.parent.name.split("=", 1)[1], "M")
+            lo, hi = (m.astype("datetime64[ns]").astype(np.int64) for m in (first, first + 1))
+            share = max(0, min(hi, end_ns) - max(lo, start_ns)) / (hi - lo)
+            total += self.row_count(FileInfo(path, info.source, "parquet", info.tags)) * share
+        return total
+
     def max_interval_of(self, tag: str, override: str | None = None) -> float | None:
         """How ``tag`` is drawn between samples, from its export family (``[[exports]]
         reconstruction``) or ``override`` ("step" or "linear", the register's): None for steps,
@@ -238,10 +262,10 @@ class ExportIndex:
         return int(min(t[0] for t in times)), int(max(t[-1] for t in times))
 
     def read(
-        self, tags: list[str], span: tuple[int, int] | None = None
+        self, tags: list[str], span: tuple[int, int] | None = None, count=None
     ) -> tuple[dict[str, TagSeries], dict[str, str]]:
         """Read ``tags`` from every file that holds them (see :meth:`TagReader.read`)."""
-        return self._reader.read(tags, span)
+        return self._reader.read(tags, span, count)
 
 
 def open_exports(plant) -> ExportIndex:

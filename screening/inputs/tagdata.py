@@ -89,10 +89,12 @@ def as_text(value) -> str | None:
 
 def add_chunk(
     tag, info, raw, times, ok, rows, qual, chunks, quality, good, label="line", span=None,
-    malformed=None, status=None,
+    malformed=None, status=None, count=None,
 ):  # fmt: skip
     """Parse one file's values of one tag into numbers and bad flags; count the problems.
-    ``status``: a run-status tag's words (see :func:`status_words`)."""
+    ``status``: a run-status tag's words (see :func:`status_words`). ``count`` [ns]: count
+    only the samples in this span (a time chunk's own part of a read with look-back and
+    look-ahead, :mod:`screening.engine.chunked`); None counts all."""
     q: TagQuality = quality[tag]
     if malformed is None:
         malformed = np.zeros(len(raw), dtype=bool)
@@ -133,8 +135,41 @@ def add_chunk(
     if qual is not None:
         words = qual.astype("string").str.strip().str.lower().fillna("")
         bad_q = (~words.isin(good) & (words != "")).to_numpy()
-    bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed, status)
+    if count is None:
+        bad = count_samples(q, where, times, values, is_text, text, bad_q, rows, malformed, status)
+    else:
+        bad, values = count_part(q, where, times, values, is_text, text, bad_q, rows, malformed,
+                                  status, count)  # fmt: skip
     chunks[tag].append((times, values, bad, (where, rows)))
+
+
+def count_part(q, where, times, values, is_text, text, bad_q, rows, malformed, words, count):
+    """:func:`count_samples` counting only the samples in the span ``count`` [ns]; the others
+    (a chunk's look-back and look-ahead) are judged alike but counted in no figure. A step
+    back in time is counted where its later sample is counted, as over the whole file."""
+    mine = (times >= count[0]) & (times < count[1])
+    if not values.flags.writeable:
+        values = values.copy()
+    bad = np.zeros(len(values), dtype=bool)
+    back = np.zeros(len(values), dtype=bool)
+    back[1:] = np.diff(times) < 0
+    at = np.flatnonzero(mine)
+    parts = [(mine, q), (~mine, TagQuality(q.tag))]
+    if len(at) and at[-1] - at[0] + 1 == len(at):  # in time order: the counted rows in a row
+        lo, hi = int(at[0]), int(at[-1]) + 1
+        parts = [(slice(lo, hi), q), (slice(0, lo), TagQuality(q.tag)),
+                 (slice(hi, None), TagQuality(q.tag))]  # fmt: skip
+    for part, into in parts:
+        if len(times[part]) == 0:
+            continue
+        v = values[part]
+        t = None if text is None else (text.iloc[part] if hasattr(text, "iloc") else text[part])
+        if into is q:  # steps back whose earlier sample is outside the part
+            into.out_of_order += int(back[part].sum()) - int((np.diff(times[part]) < 0).sum())
+        bad[part] = count_samples(into, where, times[part], v, is_text[part], t, bad_q[part],
+                                  rows[part], malformed[part], words)  # fmt: skip
+        values[part] = v  # run-status words mapped to 1 and 0
+    return bad, values
 
 
 #: Words a run-status tag may be exported as (any case, surrounding spaces ignored): running.
@@ -219,11 +254,12 @@ def _place(parts: list[tuple], position: int) -> str | None:
     return None
 
 
-def assemble(tag: str, parts: list[tuple], q: TagQuality) -> TagSeries:
+def assemble(tag: str, parts: list[tuple], q: TagQuality, count=None) -> TagSeries:
     """Merge a tag's chunks: sort by time (stable) and keep the last of duplicate times.
 
     ``parts`` are ``(times, values, bad)``, optionally with ``(where, rows)`` to name the
-    place of the first duplicate in the quality table."""
+    place of the first duplicate in the quality table. ``count`` [ns]: count only the
+    duplicates at times in this span (see :func:`add_chunk`)."""
     order = None
     if len(parts) == 1:
         times, values, bad = parts[0][:3]
@@ -240,16 +276,20 @@ def assemble(tag: str, parts: list[tuple], q: TagQuality) -> TagSeries:
             order = np.argsort(times, kind="stable")
             times, values, bad = times[order], values[order], bad[order]
         last = np.append(times[1:] != times[:-1], True)
-        dup = int((~last).sum())
+        counted = ~last
+        if count is not None:
+            counted &= (times >= count[0]) & (times < count[1])
+        dup = int(counted.sum())
         if dup:
             # Several samples at one instant: the last in file order stands (a historian's
             # later correction); the others are counted as duplicates.
             q.duplicates += dup
             # the first instant held twice: where it first appears, and where again
-            i = int(np.flatnonzero(~last)[0])
+            i = int(np.flatnonzero(counted)[0])
             a, b = (int(order[i]), int(order[i + 1])) if order is not None else (i, i + 1)
             place, again = _place(parts, a), _place(parts, b)
             if place is not None:
                 q.note("duplicate time", f"{place}, again at {again}")
+        if not last.all():
             times, values, bad = times[last], values[last], bad[last]
     return TagSeries(tag, times, values, bad, q)

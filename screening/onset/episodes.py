@@ -146,36 +146,71 @@ def _raw_episodes(
     gap_ns: float,
 ) -> list[list[Any]]:
     """Episodes of the hysteresis state machine (starts [ns], hours [h], ratios [-], gap [ns])."""
-    # Raw episodes as [first piece, end time in ns) with the hysteresis state machine.
-    raw: list[list[Any]] = []  # [start_ns, end_ns, exposure_h, worst_ratio, worst_ns]
-    current: list[Any] | None = None
-    known_end = 0  # end of the current episode's last piece with a ratio [ns]
-    for i in range(len(t)):
-        ri = r[i]
+    stream = EpisodeStream(enter_below, leave_above, gap_ns)
+    stream.feed(t, h, r)
+    return stream.close()
+
+
+class EpisodeStream:
+    """The hysteresis state machine of :func:`find_episodes` fed piece by piece in time order,
+    in as many parts as wanted (a pump screened in time chunks): the episodes are those of one
+    pass over all the pieces."""
+
+    def __init__(self, enter_below: float, leave_above: float, gap_ns: float):
+        self.enter, self.leave, self.gap_ns = enter_below, leave_above, gap_ns
+        # Raw episodes as [first piece, end time in ns) with the hysteresis state machine.
+        self.raw: list[list[Any]] = []  # [start_ns, end_ns, exposure_h, worst_ratio, worst_ns]
+        self.current: list[Any] | None = None
+        self.known_end = 0  # end of the current episode's last piece with a ratio [ns]
+
+    def feed(self, t: np.ndarray, h: np.ndarray, r: np.ndarray) -> None:
+        """The next pieces: starts [ns], fresh hours [h], ratios [-] (NaN: no ratio)."""
+        enters = np.flatnonzero(r < self.enter)  # outside an episode only these matter
+        i, n = 0, len(t)
+        while i < n:
+            if self.current is None:
+                k = int(np.searchsorted(enters, i))
+                if k == len(enters):
+                    break
+                i = int(enters[k])  # outside an episode, no other piece changes anything
+            self._step(int(t[i]), float(h[i]), float(r[i]))
+            i += 1
+
+    def _step(self, ti: int, hi: float, ri: float) -> None:
         if math.isnan(ri):
-            continue
-        gap = int(t[i]) - known_end
-        if current is not None and gap > 0 and gap >= gap_ns:
-            current[1] = known_end  # a long stop or data gap ends the episode
-            raw.append(current)
+            return
+        current = self.current
+        gap = ti - self.known_end
+        if current is not None and gap > 0 and gap >= self.gap_ns:
+            current[1] = self.known_end  # a long stop or data gap ends the episode
+            self.raw.append(current)
             current = None
         if current is None:
-            if ri < enter_below:
-                current = [int(t[i]), None, float(h[i]), float(ri), int(t[i])]
-        elif ri > leave_above:
-            current[1] = int(t[i])
-            raw.append(current)
+            if ri < self.enter:
+                current = [ti, None, hi, ri, ti]
+        elif ri > self.leave:
+            current[1] = ti
+            self.raw.append(current)
             current = None
         else:
-            if ri < enter_below:
-                current[2] += float(h[i])
+            if ri < self.enter:
+                current[2] += hi
             if ri < current[3]:
-                current[3], current[4] = float(ri), int(t[i])
-        known_end = int(t[i]) + int(round(h[i] * NS_PER_HOUR))
-    if current is not None:
-        current[1] = known_end
-        raw.append(current)
-    return raw
+                current[3], current[4] = ri, ti
+        self.current = current
+        self.known_end = ti + int(round(hi * NS_PER_HOUR))
+
+    def close(self) -> list[list[Any]]:
+        """The raw episodes, the one still going on ended at its last piece with a ratio."""
+        if self.current is not None:
+            self.current[1] = self.known_end
+            self.raw.append(self.current)
+            self.current = None
+        return self.raw
+
+    def table(self, min_duration_h: float, bridge_gap_h: float) -> pd.DataFrame:
+        """The episodes (:func:`find_episodes`' table) after the last part."""
+        return _episode_table(_bridged(self.close(), bridge_gap_h * NS_PER_HOUR, min_duration_h))
 
 
 def _bridged(raw: list[list[Any]], gap_ns: float, min_duration_h: float) -> list[list[Any]]:

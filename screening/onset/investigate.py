@@ -12,25 +12,16 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-import numpy as np
 import pandas as pd
 
-from screening.base.states import BANDS
-from screening.engine.drivers import (
-    driver_shares,
-    drivers_for,
-    expected_npsha,
-    fit_baseline,
-    weighted_median,
-)
 from screening.engine.scan import scan
 from screening.inputs.events import FAILURE, MAINTENANCE, events_for
 from screening.inputs.plant import Plant, load_plant
-from screening.inputs.window import check_iso, local_day_starts, window_bounds
+from screening.inputs.window import check_iso, window_bounds
 from screening.onset import changepoint as cp
 from screening.onset import episodes as ep
+from screening.onset import evidence, streamed
 from screening.onset.finding import plain_finding
-from screening.physics.properties import fluid_table
 
 
 @dataclass
@@ -137,30 +128,22 @@ def investigate(
     bridge_gap_h = rules.bridge_hours if bridge_gap_h is None else bridge_gap_h
     win = window_bounds(plant, start, end)
     events, failed_on, source = _failure_date(plant, pump_id, win, failed_on)
-    result = _scan_pump(plant, pump_id, start, end)
-    series = result.series[pump_id]
-    _check_has_data(series, pump_id, result.start, result.end)
-    pump = plant.pumps[pump_id]
-    curve = plant.curves[pump.curve_id]
-    g = plant.guidance[pump_id]
-    cut = result.end if failed_on is None else failed_on
-    search_from = _after_maintenance(events, result.start, cut)
+    _check_pump(plant, pump_id)
+    cut = win[1] if failed_on is None else failed_on
+    search_from = _after_maintenance(events, win[0], cut)
     base_a, base_b = _baseline(plant, search_from, cut, baseline)
-    base, known = _baseline_pieces(series, pump_id, base_a, base_b)
-    model = fit_baseline(series, pump, base)
-
+    eps_rules = (enter_below, leave_above, min_duration_h, bridge_gap_h)
+    asked = ((base_a, base_b), search_from, cut, eps_rules)
+    if streamed.in_chunks(plant, pump_id, win):  # one-second data: bounded memory
+        result, ev = streamed.investigate_in_chunks(plant, pump_id, win, *asked)
+    else:
+        result = _scan_pump(plant, pump_id, start, end)
+        ev = evidence.whole_series(plant, pump_id, result, *asked)
+    eps, drivers, notes, daily_resid = ev["episodes"], ev["drivers"], ev["notes"], ev["resid"]
     # hours per day or week
     daily = _daily_hours(result.daily)
     period, table = _hours_per_period(daily, result.start, result.end)
-    eps = _guidance_episodes(series, g, enter_below, leave_above, min_duration_h, bridge_gap_h)
-    notes = _baseline_notes(series, base & known) + ([model.note] if model.note else [])
-    table_ = fluid_table(pump.fluid, pump.vapour_pressure)
-    drivers, shares, names = _drivers_by_day(plant, pump, curve, table_, series, base, model)
-    eps = _episode_drivers(eps, shares, names)
-    resid = series["npsha_m"].to_numpy(np.float64) - expected_npsha(
-        series, pump, curve, table_, model
-    )
-    daily_resid, exposure = _onset_series(plant, series, resid, daily, search_from, cut)
+    daily_resid, exposure = _sought(plant, daily_resid, daily, search_from, cut)
     found = _change_points(rules, daily_resid, exposure, drivers)
     daily_table = found.pop("daily")
     before = None
@@ -226,45 +209,21 @@ def _event_notes(events, source, failed_on, search_from, start, tz) -> list[str]
     return notes
 
 
-def _check_has_data(series: pd.DataFrame, pump_id: str, start, end) -> None:
-    """A clear error when the window holds no running sample with a known margin."""
-    known = series["state"].isin(BANDS).to_numpy() & (series["hours"].to_numpy() > 0)
-    if not known.any():
-        states = series.groupby("state")["hours"].sum().sort_values(ascending=False)
-        found = ", ".join(f"{k} {v:.0f} h" for k, v in states.items() if v > 0)
-        found = found or "no sample of the pump's tags at all"
-        raise ValueError(
-            f"pump {pump_id}: the window {start} to {end} (UTC) has no running sample with a "
-            f"known margin (hours: {found}); check the window against the exports' time range"
-        )
-
-
-def _scan_pump(plant: Plant, pump_id: str, start, end):
-    """Scan one pump over the window keeping its per-piece series; a clear error if it can't."""
+def _check_pump(plant: Plant, pump_id: str) -> None:
+    """A clear error for a pump that is not in the register or could not be read from it."""
     if pump_id not in plant.pumps:
         raise ValueError(
             f"pump {pump_id!r} cannot be investigated: "
             + plant.problems.get(pump_id, "not in the register")
         )
+
+
+def _scan_pump(plant: Plant, pump_id: str, start, end):
+    """Scan one pump over the window keeping its per-piece series; a clear error if it can't."""
     result = scan(plant, start, end, pumps=[pump_id], keep_series=True)
     if pump_id not in result.series:
         raise ValueError(f"pump {pump_id}: {result.problems['message'].iloc[0]}")
     return result
-
-
-def _baseline_pieces(
-    series: pd.DataFrame, pump_id: str, base_a: pd.Timestamp, base_b: pd.Timestamp
-) -> tuple[np.ndarray, np.ndarray]:
-    """Masks of the pieces in the baseline and of those running with a known margin."""
-    times = series["time"]
-    base = ((times >= base_a) & (times < base_b)).to_numpy()
-    known = series["state"].isin(BANDS).to_numpy() & (series["hours"].to_numpy() > 0)
-    if not (base & known).any():
-        raise ValueError(
-            f"pump {pump_id}: the baseline {base_a} to {base_b} (UTC) has no running sample with "
-            "a known margin; choose a baseline when the pump ran (--baseline FROM..TO)"
-        )
-    return base, known
 
 
 def _daily_hours(scan_daily: pd.DataFrame) -> pd.DataFrame:
@@ -294,64 +253,8 @@ def _hours_per_period(
     return period, ep.cumulative_exposure(table)
 
 
-def _guidance_episodes(
-    series: pd.DataFrame, g, enter_below, leave_above, min_duration_h, bridge_gap_h
-) -> pd.DataFrame:
-    """Episodes below the guidance head (thresholds [-] on NPSHa/guidance, durations [h])."""
-    # episodes below the guidance, with hysteresis
-    times = series["time"]
-    npsha = series["npsha_m"].to_numpy(dtype=np.float64)
-    guide = g.head(series["npsh3_m"].to_numpy(dtype=np.float64))
-    with np.errstate(invalid="ignore", divide="ignore"):
-        r_guide = npsha / guide
-    return ep.find_episodes(
-        times.astype("int64").to_numpy() if times.dtype.kind == "M" else times.to_numpy(),
-        series["hours"].to_numpy(), r_guide, enter_below, leave_above, min_duration_h,
-        bridge_gap_h,
-    )  # fmt: skip
-
-
-def _baseline_notes(series: pd.DataFrame, usable: np.ndarray) -> list[str]:
-    """A note when the baseline holds less than a week of running hours with a known margin."""
-    notes: list[str] = []
-    base_hours = float(series["hours"].to_numpy()[usable].sum())
-    if base_hours < 7 * 24:
-        notes.append(
-            f"the baseline holds only {base_hours:.0f} running hours with a known margin; "
-            "its medians and the flow-normalised fit rest on little data"
-        )
-    return notes
-
-
-def _drivers_by_day(plant: Plant, pump, curve, table, series: pd.DataFrame, base, model):
-    """Each driver's share of the margin change [m], time-weighted per site day, and the shares."""
-    # drivers over time: one input at a time put back at its baseline value
-    names = drivers_for(pump)
-    shares = driver_shares(series, pump, curve, table, base, model)
-    shares["date"] = local_day_starts(shares["time"], plant.timezone)
-    w = shares["hours"]
-    cols = ["change_m"] + [f"{k}_m" for k in names] + ["interaction_m"]
-    weighted = shares[cols].mul(w, axis=0).assign(date=shares["date"], hours=w)
-    grouped = weighted.groupby("date").sum()
-    drivers = grouped[cols].div(grouped["hours"].replace(0, np.nan), axis=0).reset_index()
-    return drivers, shares, names
-
-
-def _onset_series(
-    plant: Plant, series: pd.DataFrame, resid: np.ndarray, daily: pd.DataFrame, since, cut
-) -> tuple[pd.Series, pd.Series]:
-    """Daily time-weighted median flow-normalised residual [m] and daily hours below guidance
-    [h], on the days from ``since`` (the window's start or the last maintenance) to ``cut``
-    (the failure or the window's end) [UTC]."""
-    # onset: change point in the flow-normalised suction condition and in the exposure rate
-    times = series["time"]
-    keep = ((times >= since) & (times < cut)).to_numpy() & np.isfinite(resid)
-    keep &= series["hours"].to_numpy() > 0
-    days = local_day_starts(times[keep], plant.timezone)
-    rs = pd.DataFrame({"date": days, "r": resid[keep], "w": series["hours"].to_numpy()[keep]})
-    daily_resid = rs.groupby("date")[["r", "w"]].apply(
-        lambda g: weighted_median(g["r"].to_numpy(), g["w"].to_numpy())
-    )
+def _sought(plant: Plant, daily_resid, daily: pd.DataFrame, since, cut):
+    """The daily residual [m] and the daily hours below guidance [h] on the days sought."""
     # what happened at and after the failure (repair, cleaning) is not the onset; before the
     # last maintenance neither
     lo = pd.Timestamp(since).tz_convert(plant.timezone).tz_localize(None).normalize()
@@ -392,19 +295,3 @@ def _change_points(rules, daily_resid: pd.Series, exposure: pd.Series, drivers) 
     daily["margin_change_m"] = margin.reindex(days).to_numpy()
     return {"step": onset, "ramp": ramp, "margin": onset_margin, "exposure": onset_exposure,
             "daily": daily}  # fmt: skip
-
-
-def _episode_drivers(eps: pd.DataFrame, shares: pd.DataFrame, names) -> pd.DataFrame:
-    """Add each driver's time-weighted mean margin change [m] inside every episode."""
-    out = eps.copy()
-    t = shares["time"]
-    w_all = shares["hours"].to_numpy()
-    for k in names:
-        values = []
-        for e in eps.itertuples(index=False):
-            inside = ((t >= e.start) & (t < e.end)).to_numpy()
-            w = w_all[inside]
-            v = shares[f"{k}_m"].to_numpy()[inside]
-            values.append(float(np.sum(w * v) / np.sum(w)) if w.sum() > 0 else np.nan)
-        out[f"{k}_m"] = pd.Series(values, index=out.index, dtype=float)
-    return out
