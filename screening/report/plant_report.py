@@ -45,7 +45,7 @@ from screening.report.pump_pages import DISPLAY_UNITS
 from screening.report.pump_writer import write_some_pages
 from screening.report.templating import ENV
 from screening.report.trend import trend_cells
-from screening.report.why import why_text, worst_inputs_table
+from screening.report.why import why_text, worst_inputs_by_pump, worst_inputs_table
 
 _ENV = ENV
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -224,7 +224,8 @@ def write_report(
         write_table(result.quality, tmp, "data_quality")
         write_table(result.problems, tmp, "not_screened")
         write_table(result.file_problems, tmp, "files_not_read")
-        write_table(worst_inputs_table(result, result.plots), tmp, "worst_inputs")
+        ranked = worst_inputs_by_pump(result.summary, result.plots)
+        write_table(worst_inputs_table(result, result.plots, ranked), tmp, "worst_inputs")
         write_table(_events_table(result), tmp, "events")
         pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
         # the pump pages are written while the tables are (in forked processes, large plants)
@@ -268,6 +269,7 @@ def write_report(
                 changes,
                 DISPLAY_UNITS[units],
                 trend_cells(months) if months is not None else None,
+                ranked,
             ),
             encoding="utf-8",
         )
@@ -503,14 +505,16 @@ def _ranking_row(row, units, why: str) -> dict:
 
 
 def _overview_html(
-    result: ScanResult, meta: dict, pages=None, changes=None, units=None, trend=None
-) -> str:
+    result: ScanResult, meta: dict, pages=None, changes=None, units=None, trend=None,
+    ranked: dict | None = None,
+) -> str:  # fmt: skip
     tz = result.plant.timezone
     site = result.plant.settings.site
     units = units or DISPLAY_UNITS["si"]
     ranking = []
     for row in result.ranked.itertuples(index=False):
-        why = why_text(row._asdict(), result.plots.get(row.pump_id), result.quality, units)
+        why = why_text(row._asdict(), result.plots.get(row.pump_id), result.quality, units,
+                       None if ranked is None else ranked.get(row.pump_id))  # fmt: skip
         d = _ranking_row(row, units, why)
         d["trend"] = trend.get(row.pump_id, "") if trend else ""
         d["page"] = f"pumps/{pages[row.pump_id]}" if pages and row.pump_id in pages else None

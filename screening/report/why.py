@@ -94,15 +94,19 @@ def problem_tags(quality: pd.DataFrame, pump_id: str) -> list[str]:
     return [str(t) for t in q.loc[bad, "tag"]]
 
 
-def why_text(row: dict, plot: pd.DataFrame | None, quality: pd.DataFrame, units) -> str:
-    """The overview's one-line reason for a pump's place (see the module docstring)."""
+def why_text(
+    row: dict, plot: pd.DataFrame | None, quality: pd.DataFrame, units, ranked=None
+) -> str:
+    """The overview's one-line reason for a pump's place (see the module docstring);
+    ``ranked``: the pump's :func:`worst_inputs` where already known."""
     parts = []
     below = row["below_guidance_hours"] > 0 or (
         pd.notna(row["worst_margin_to_guidance_m"]) and row["worst_margin_to_guidance_m"] < 0
     )
     if below and pd.notna(row.get("worst_time")):
         when = pd.Timestamp(row["worst_time"]).strftime("%d %b %H:%M")
-        ranked = worst_inputs(plot, row["worst_time"])
+        if ranked is None:
+            ranked = worst_inputs(plot, row["worst_time"])
         if ranked and ranked[0].score > 0:
             parts.append(f"worst {when}: {_input_text(ranked[0], units)}")
         else:
@@ -125,12 +129,24 @@ def why_text(row: dict, plot: pd.DataFrame | None, quality: pd.DataFrame, units)
     return "; ".join(parts)
 
 
-def worst_inputs_table(result, pages_plots: dict) -> pd.DataFrame:
+def worst_inputs_by_pump(summary: pd.DataFrame, plots: dict) -> dict[str, list[WorstInput]]:
+    """Every pump's :func:`worst_inputs`, by pump id (worked out once for the table and the
+    overview)."""
+    return {
+        row["pump_id"]: worst_inputs(plots.get(row["pump_id"]), row.get("worst_time"))
+        for row in summary.to_dict("records")
+    }
+
+
+def worst_inputs_table(result, pages_plots: dict, ranked: dict | None = None) -> pd.DataFrame:
     """Every pump's inputs at its worst time against their running medians (SI), the tidy
-    table behind the overview's reasons."""
+    table behind the overview's reasons; ``ranked``: :func:`worst_inputs_by_pump` where
+    already known."""
+    if ranked is None:
+        ranked = worst_inputs_by_pump(result.summary, pages_plots)
     rows = []
     for row in result.summary.to_dict("records"):
-        for w in worst_inputs(pages_plots.get(row["pump_id"]), row.get("worst_time")):
+        for w in ranked[row["pump_id"]]:
             rows.append({
                 "pump_id": row["pump_id"], "worst_time": str(row["worst_time"]),
                 "input": w.input, "unit": _SI_UNITS[w.kind], "at_worst": w.at_worst,
