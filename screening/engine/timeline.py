@@ -29,7 +29,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from screening.base.kernels import hold
+from screening.base.kernels import hold, union_sorted
 from screening.inputs.tagdata import TagSeries
 
 NEVER = np.iinfo(np.int64).min // 4
@@ -135,12 +135,10 @@ def align(pump, tags, barometer, stale_limit: float, start_ns, end_ns, day_edges
         parts.append(expiry[(expiry > start_ns) & (expiry < end_ns)])
     if extra is not None and len(extra):
         parts.append(np.asarray(extra, dtype=np.int64))
-    # every part is sorted: one stable sort (timsort, which merges the sorted runs it finds)
-    # and a pass dropping repeats give the sorted unique grid; faster than merging the time
-    # axes into it one by one (a pump's tags in a wide file differ by a few missing samples)
-    grid = np.concatenate(parts + seen)
-    grid.sort(kind="stable")
-    grid = grid[np.concatenate(([True], grid[1:] != grid[:-1]))] if len(grid) else grid
+    # every part is sorted: merge them one by one into the sorted unique grid
+    grid = np.unique(np.concatenate(parts))
+    for piece in seen:
+        grid = union_sorted(grid, np.ascontiguousarray(piece))
     t_next = np.append(grid[1:], end_ns)
     return Timeline(grid, t_next, held_at(pump, tags, grid, stale_limit))
 
