@@ -189,6 +189,7 @@ def _speed_factor(unit: pint.Unit) -> float:
     return float(per_second * 60.0)
 
 
+@lru_cache(maxsize=64)  # pint's formatting of the root units costs 2 ms a call
 def is_bare_frequency(unit: str) -> bool:
     """True when a speed ``unit`` is a frequency without an angle other than per minute (Hz,
     1/s, kHz): such a tag may be the shaft's revolutions per second or a drive's output
