@@ -69,25 +69,27 @@ def sample_gaps(
         ``limit_ns`` its first sample holds), and the ``keep`` longest as (from [ns], length [ns]).
     """
     lo, hi = np.searchsorted(times, [start_ns, end_ns])
-    inside = times[lo:hi].astype(np.int64)
+    inside = times[lo:hi].astype(np.int64, copy=False)
     first = times[lo - 1] if lo > 0 else None
     held = first is not None and first + limit_ns > start_ns
     # points from which a stretch is measured, and where each stretch ends
     begin = np.concatenate(([first if held else start_ns], inside))
     stop = np.concatenate((inside, [end_ns]))
     length = stop - begin
+    over = np.flatnonzero(length > limit_ns)  # few: the rest of the work is on these only
+    if not len(over):
+        return 0, 0, []
     # a stretch from the window start with no sample behind it has no sample to hold: all of
     # it is without data, but like any stretch it is a gap only when longer than the limit
-    hold = np.full(len(begin), limit_ns, dtype=np.int64)
+    hold = np.full(len(over), limit_ns, dtype=np.int64)
     if not held:
-        hold[0] = 0
-    over = length > limit_ns
-    if not over.any():
-        return 0, 0, []
-    missing = np.clip(np.minimum(stop, end_ns) - np.maximum(begin + hold, start_ns), 0, None)
-    idx = np.flatnonzero(over & (missing > 0))
+        hold[over == 0] = 0
+    b, e = begin[over], stop[over]
+    missing = np.clip(np.minimum(e, end_ns) - np.maximum(b + hold, start_ns), 0, None)
+    gap = missing > 0
+    idx, missing = over[gap], missing[gap]
     order = idx[np.argsort(-length[idx], kind="stable")][:keep]
     longest = [
         (int(max(begin[i], start_ns)), int(stop[i] - max(begin[i], start_ns))) for i in order
     ]
-    return len(idx), int(missing[idx].sum()), longest
+    return len(idx), int(missing.sum()), longest
