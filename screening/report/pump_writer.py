@@ -71,7 +71,8 @@ def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: Displ
     # each pump's rows picked once (a mask per pump would cost pumps x rows)
     hours_of = hours_by_pump(result.hours)
     margin_days = result.daily[result.daily.kind == "margin"]
-    daily_of = dict(list(margin_days.groupby("pump_id", sort=False)))
+    calendars = pump_pages.calendars_by_pump(margin_days)
+    daily_of = {} if calendars else dict(list(margin_days.groupby("pump_id", sort=False)))
     thin = result.not_enough_data.set_index("pump_id")["coverage"].to_dict()
     least = plant.settings.data.min_coverage
     summary_of = {row["pump_id"]: row for row in result.summary.to_dict("records")}
@@ -94,8 +95,10 @@ def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: Displ
                 result.points[pid], plant.curves[pump.curve_id], pump, units, g, speed
             )
             figs["fig_points"] = figure_html(fig, "points")
-        daily = daily_of.get(pid, margin_days.iloc[:0])
-        figs["fig_calendar"] = figure_html(pump_pages.calendar_figure(daily), "calendar")
+        calendar = (calendars or {}).get(pid)
+        if calendar is None:
+            calendar = pump_pages.calendar_figure(daily_of.get(pid, margin_days.iloc[:0]))
+        figs["fig_calendar"] = figure_html(calendar, "calendar")
         model = fluid_table(pump.fluid, pump.vapour_pressure).vapour_pressure_model
         html = template.render(
             pump=pump,
