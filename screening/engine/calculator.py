@@ -126,18 +126,12 @@ def _weigh(code, until, grid, t_next, span, day_base, n_days: int, n_states: int
     fresh = np.minimum(until, t_next)  # one array, worked in place
     fresh -= grid
     np.maximum(fresh, 0, out=fresh)
-    # weights as float64 here: bincount's own cast of int64 weights is five times slower
-    # (the same conversion, so the same sums)
-    daily = np.bincount(
-        day_base + code, weights=fresh.astype(np.float64), minlength=n_days * n_states
-    )
+    daily = np.bincount(day_base + code, weights=fresh, minlength=n_days * n_states)
     stale = span - fresh
     gaps = np.flatnonzero(stale)
     if len(gaps):
         daily += np.bincount(
-            day_base[gaps] + states.NO_DATA,
-            weights=stale[gaps].astype(np.float64),
-            minlength=n_days * n_states,
+            day_base[gaps] + states.NO_DATA, weights=stale[gaps], minlength=n_days * n_states
         )
     return daily.reshape(n_days, n_states) / NS_PER_HOUR, fresh
 

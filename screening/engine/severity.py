@@ -93,7 +93,7 @@ def severity(
         follows = np.zeros(len(idx), dtype=bool)
         follows[1:] = (idx[1:] == idx[:-1] + 1) & below[1:] & below[:-1] & full[:-1]
         run_id = np.cumsum(~follows)
-        sums = np.bincount(run_id[below], weights=f[below].astype(np.float64))
+        sums = np.bincount(run_id[below], weights=f[below])
         best = int(np.argmax(sums))
         out.longest_below_npsh3_h = float(sums[best] / NS_PER_HOUR)
         first = int(np.flatnonzero((run_id == best) & below)[0])
