@@ -368,8 +368,10 @@ def _evaluate(pump, curve, table, timeline: Timeline, barometer, settings, run) 
     if pump.source == "transmitter":
         p_abs = npsh.absolute_pressure(held["suction"].value, baro, pump.gauge)
         npsha = npsh.npsha_from_pressure(p_abs, p_v, rho, flow, pump.tap_bore, pump.tap_elevation)
-        # a vertical can from its nozzle to the impeller eye (register; counted once)
-        npsha = npsha - suction.can_loss(pump.can_loss_k, flow)
+        # a vertical can from its nozzle to the impeller eye (register; counted once); none
+        # registered: no loss (subtracting zeros would change no number)
+        if pump.can_loss_k is not None:
+            npsha = npsha - suction.can_loss(pump.can_loss_k, flow)
     else:
         p_abs, npsha = _vessel_npsha(
             pump, held, baro, p_v, rho, flow, temp, table.fluid, run.line_flow
