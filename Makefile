@@ -24,6 +24,10 @@ lint: $(STAMP)
 	$(BIN)/ruff check screening tests benchmarks demo_exports
 	$(BIN)/ruff format --check screening tests benchmarks demo_exports
 
+# The scan benchmark at full size (500 pumps x 30 days of one-minute data): every measure run
+# three times, median and least printed with the machine and its load (docs/scale.md). Takes
+# about 4 minutes on a quiet 2-core machine, 8 or more on a busy one, and 10 s more the first
+# time (it builds the synthetic plant under benchmarks/_data/).
 bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_scan.py
 

@@ -3,7 +3,7 @@
 Run from the repository root::
 
     .venv/bin/python benchmarks/bench_scan.py                 # 500 pumps, 30 days (full size)
-    .venv/bin/python benchmarks/bench_scan.py --pumps 20 --days 3   # quick run
+    .venv/bin/python benchmarks/bench_scan.py --pumps 20 --days 3 --repeat 1   # quick run
 
 The data
     An invented plant of ``--pumps`` centrifugal pumps sampled every minute for ``--days`` days
@@ -19,7 +19,9 @@ The data
 
 The measures (each in its own subprocess, so that each peak resident memory, ``ru_maxrss``,
 is its own; the files are in the page cache, having just been written or read; ``--only``
-picks some of the measures)
+picks some of the measures). Every subprocess imports the package of the checkout this file
+sits in (``benchmarks/runs.py`` puts it first on ``PYTHONPATH``), not whatever the venv's
+editable install points at.
     read    pyarrow.parquet.read_table of every file, all columns, to pandas, one file at a time
             (each frame dropped before the next; pyarrow uses its own thread pool).
     scan    ``screening.scan(plant_toml, start, end, processes=1)``. The calculation-only
@@ -33,15 +35,24 @@ picks some of the measures)
             so only the total is measured; "largest worker" is the peak of the biggest child).
     dask    the same on a local Dask cluster of 2 worker processes (``cluster=client``); the
             cluster's start-up is timed apart.
-    cli     ``pumpscreen scan`` as a child process (every core), including writing the report
-            folder.
+    cli     ``pumpscreen scan`` of this checkout as a child process (every core), including
+            writing the report folder; inside it the scan and the report writing
+            (``write_report``) are timed apart.
     naive   a Python loop over the first pump's samples calling CoolProp's PropsSI twice per
             sample (vapour pressure and density) plus the NPSHa formula, timed on a slice
             (``--naive-samples``, 20 000 by default) and scaled to the whole plant.
 
+Each measure runs ``--repeat`` times (3 by default), the measures interleaved so that a busy
+spell on the machine touches all of them; the table gives the median and the least seconds,
+and the medians of the rest. The machine (CPU model from /proc/cpuinfo, cores) and the load
+average before and after are printed: figures from a shared machine vary by tens of percent.
+At full size with three runs the whole benchmark takes about 4 minutes on a quiet 2-core
+machine (8 minutes or more on a busy one), plus 10 s the first time to build the plant.
+
 Samples/s always means pump-samples (pumps x minutes) per second. "CPU s" is the user plus
 system CPU time of the measure's process (above the wall time where pyarrow reads with more than
-one thread). Targets are printed as PASS or MISS; the process never fails on a miss.
+one thread). Targets (issue 20) are printed as PASS or MISS, judged on the medians; the process
+never fails on a miss.
 """
 
 from __future__ import annotations
