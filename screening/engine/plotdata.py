@@ -55,9 +55,13 @@ def min_max_buckets(
     names = list(series)
     # the kept pieces of every series, written straight into one array (no stacked copy)
     stacked = np.empty((len(names), len(g)))
-    kept = np.flatnonzero(keep)
+    kept = None if len(g) == len(grid) else np.flatnonzero(keep)  # as a rule every piece
     for i, k in enumerate(names):
-        np.take(np.asarray(series[k], dtype=np.float64), kept, out=stacked[i])
+        values = np.asarray(series[k], dtype=np.float64)
+        if kept is None:
+            stacked[i] = values
+        else:
+            np.take(values, kept, out=stacked[i])
     lo, hi = bucket_min_max(stacked, starts.astype(np.int64))
     # one block of floats, columns <name>_min, <name>_max in turn (a frame built column by
     # column cost more than the buckets themselves)
