@@ -115,20 +115,23 @@ def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str, 
     return np.broadcast_to(np.asarray(p_abs, dtype=np.float64), npsha.shape), npsha
 
 
-def _weigh(code, until, grid, t_next, day, n_days: int, n_states: int):
+def _weigh(code, until, grid, t_next, span, day_base, n_days: int, n_states: int):
     """Hours per day and state [h] and the fresh part of each piece [ns].
 
     The fresh part of each piece (until its needed tags go stale) has the piece's state; the
-    rest of it has no data (code 6 in both kinds of state). Sums are exact: integer
+    rest of it has no data (code 6 in both kinds of state). ``span`` is each piece's length
+    [ns] and ``day_base`` its day index times ``n_states``. Sums are exact: integer
     nanoseconds below 2^53 per bin.
     """
-    fresh = np.clip(np.minimum(until, t_next) - grid, 0, None)
-    stale = (t_next - grid) - fresh
-    daily = np.bincount(day * n_states + code, weights=fresh, minlength=n_days * n_states)
+    fresh = np.minimum(until, t_next)  # one array, worked in place
+    fresh -= grid
+    np.maximum(fresh, 0, out=fresh)
+    daily = np.bincount(day_base + code, weights=fresh, minlength=n_days * n_states)
+    stale = span - fresh
     gaps = np.flatnonzero(stale)
     if len(gaps):
         daily += np.bincount(
-            day[gaps] * n_states + states.NO_DATA, weights=stale[gaps], minlength=n_days * n_states
+            day_base[gaps] + states.NO_DATA, weights=stale[gaps], minlength=n_days * n_states
         )
     return daily.reshape(n_days, n_states) / NS_PER_HOUR, fresh
 
@@ -365,8 +368,10 @@ def _evaluate(pump, curve, table, timeline: Timeline, barometer, settings, run) 
     if pump.source == "transmitter":
         p_abs = npsh.absolute_pressure(held["suction"].value, baro, pump.gauge)
         npsha = npsh.npsha_from_pressure(p_abs, p_v, rho, flow, pump.tap_bore, pump.tap_elevation)
-        # a vertical can from its nozzle to the impeller eye (register; counted once)
-        npsha = npsha - suction.can_loss(pump.can_loss_k, flow)
+        # a vertical can from its nozzle to the impeller eye (register; counted once); none
+        # registered: no loss (subtracting zeros would change no number)
+        if pump.can_loss_k is not None:
+            npsha = npsha - suction.can_loss(pump.can_loss_k, flow)
     else:
         p_abs, npsha = _vessel_npsha(
             pump, held, baro, p_v, rho, flow, temp, table.fluid, run.line_flow
@@ -429,9 +434,13 @@ def _summarise(
     n_days = len(day_edges) - 1
     # every local midnight is a grid point: the day index is a run-length repeat
     first = np.searchsorted(grid, day_edges[:-1], side="left")
-    day = np.repeat(np.arange(n_days), np.diff(np.append(first, len(grid))))
-    daily, fresh = _weigh(code, until, grid, t_next, day, n_days, len(states.STATES))
-    r_daily, r_fresh = _weigh(rcode, r_until, grid, t_next, day, n_days, len(regions.REGIONS))
+    per_day = np.diff(np.append(first, len(grid)))
+    span = t_next - grid
+    n_m, n_r = len(states.STATES), len(regions.REGIONS)
+    base = np.repeat(np.arange(n_days) * n_m, per_day)  # day index x states, per piece
+    r_base = base if n_r == n_m else np.repeat(np.arange(n_days) * n_r, per_day)
+    daily, fresh = _weigh(code, until, grid, t_next, span, base, n_days, n_m)
+    r_daily, r_fresh = _weigh(rcode, r_until, grid, t_next, span, r_base, n_days, n_r)
     hours = daily.sum(axis=0)
     window_hours = (end_ns - start_ns) / NS_PER_HOUR
 

@@ -216,6 +216,31 @@ def run_batches(
             if progress:
                 progress(outputs[-1])
         return outputs
+    return _run_pool(ctx, _finer_tail(ctx.plant, batches, n), n, progress)
+
+
+def _finer_tail(plant: Plant, batches: list[list[str]], n: int) -> list[list[str]]:
+    """The batches with the last ``n`` [-] each cut in two (keeping a shared suction line's
+    members together), so that the workers finish together: the last batches of a pool
+    otherwise leave one worker idle for up to a batch's time. Results do not depend on the
+    cut: what is read for a pump never depends on the pumps beside it."""
+    if len(batches) < 2 * n:
+        return batches
+    out = batches[:-n]
+    for batch in batches[-n:]:
+        units: dict = {}
+        for pid in batch:
+            line = plant.pumps[pid].suction_line_id
+            units.setdefault(pid if line is None else ("line", line), []).append(pid)
+        groups = list(units.values())
+        half = len(groups) // 2
+        parts = [sum(groups[:half], []), sum(groups[half:], [])]
+        out.extend(p for p in parts if p)
+    return out
+
+
+def _run_pool(ctx: BatchContext, batches, n: int, progress) -> list[BatchOutput]:
+    """Run the batches in a pool of ``n`` forked worker processes; outputs in batch order."""
     done: dict[int, BatchOutput] = {}
     with ProcessPoolExecutor(
         max_workers=n, mp_context=_pool_context(), initializer=_init_worker, initargs=(ctx,)

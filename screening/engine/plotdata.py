@@ -71,14 +71,25 @@ def min_max_buckets(
         return pd.DataFrame({"time": pd.to_datetime([], utc=True)})
     b = (g - start_ns) // width
     starts = np.flatnonzero(np.concatenate(([True], b[1:] != b[:-1])))
-    out = {"time": pd.to_datetime(start_ns + b[starts] * width, utc=True)}
     names = list(series)
-    stacked = np.stack([np.asarray(series[k], dtype=np.float64)[keep] for k in names])
+    # the kept pieces of every series, written straight into one array (no stacked copy)
+    stacked = np.empty((len(names), len(g)))
+    kept = None if len(g) == len(grid) else np.flatnonzero(keep)  # as a rule every piece
+    for i, k in enumerate(names):
+        values = np.asarray(series[k], dtype=np.float64)
+        if kept is None:
+            stacked[i] = values
+        else:
+            np.take(values, kept, out=stacked[i])
     lo, hi = bucket_min_max(stacked, starts.astype(np.int64))
-    for i, name in enumerate(names):
-        out[f"{name}_min"] = lo[i]
-        out[f"{name}_max"] = hi[i]
-    return pd.DataFrame(out)
+    # one block of floats, columns <name>_min, <name>_max in turn (a frame built column by
+    # column cost more than the buckets themselves)
+    both = np.empty((len(starts), 2 * len(names)))
+    both[:, 0::2], both[:, 1::2] = lo.T, hi.T
+    frame = pd.DataFrame(both, columns=[f"{k}_{m}" for k in names for m in ("min", "max")])
+    times = (start_ns + b[starts] * width).astype("datetime64[ns]")
+    frame.insert(0, "time", pd.DatetimeIndex(times).tz_localize("UTC"))
+    return frame
 
 
 #: Set by :class:`screening.engine.chunked.PointSpill` while a pump is screened in time

@@ -428,7 +428,9 @@ def read_pump_register(
     pumps: dict[str, PumpSpec] = {}
     problems: list[RowProblem] = []
     failed: dict[str, list[tuple[int, str]]] = {}  # shared line -> rows naming it, not read
-    for (_, row), (line, fault) in zip(frame.iterrows(), lines, strict=True):
+    # rows as plain dicts of text: iterrows made a Series per row (with pandas' string
+    # dtype, read back cell by cell), most of the plant file's loading time
+    for row, (line, fault) in zip(frame.to_dict("records"), lines, strict=True):
         pid = row.get("pump_id", "") or f"(line {line})"
         if fault is None:
             try:
@@ -470,7 +472,9 @@ def read_curves(path: str | Path) -> tuple[dict[str, Npsh3Curve], dict[str, str]
     flows: dict[str, list[float]] = {}
     heads: dict[str, list[float]] = {}
     developed: dict[str, list[float | None]] = {}  # the vendor's developed head, optional
-    for (_, row), (line, fault) in zip(frame.iterrows(), lines, strict=True):
+    # rows as plain dicts of text: iterrows made a Series per row (with pandas' string
+    # dtype, read back cell by cell), most of the plant file's loading time
+    for row, (line, fault) in zip(frame.to_dict("records"), lines, strict=True):
         cid = row["curve_id"]
         if not cid:
             raise ConfigError(f"{path} line {line}, column 'curve_id': is empty")

@@ -189,6 +189,7 @@ def _speed_factor(unit: pint.Unit) -> float:
     return float(per_second * 60.0)
 
 
+@lru_cache(maxsize=64)  # pint's formatting of the root units costs 2 ms a call
 def is_bare_frequency(unit: str) -> bool:
     """True when a speed ``unit`` is a frequency without an angle other than per minute (Hz,
     1/s, kHz): such a tag may be the shaft's revolutions per second or a drive's output
@@ -210,7 +211,24 @@ def si_to(values, unit: str, kind: str) -> np.ndarray:
     arr = np.asarray(values, dtype=np.float64)
     if kind == "speed":
         return arr / _speed_factor(dst)
-    return ureg.Quantity(arr, ureg.parse_units(SI_UNITS[kind])).to(dst).magnitude
+    factor = _display_factor(unit, kind)
+    if factor is None:  # an offset unit (degC, degF): pint's own arithmetic
+        return ureg.Quantity(arr, ureg.parse_units(SI_UNITS[kind])).to(dst).magnitude
+    # a multiplicative unit: pint multiplies by this same factor (the same numbers, without
+    # building a Quantity: a report converts some 30 series a pump page)
+    return arr if factor == 1.0 else arr * factor
+
+
+@lru_cache(maxsize=64)
+def _display_factor(unit: str, kind: str) -> float | None:
+    """The factor taking SI values of ``kind`` to the multiplicative ``unit`` [unit/SI], or
+    None for a unit with an offset (temperatures)."""
+    src = ureg.parse_units(SI_UNITS[kind])
+    dst = parse_unit(unit, kind)
+    one = ureg.Quantity(1.0, src)
+    if not (one._is_multiplicative and ureg.Quantity(1.0, dst)._is_multiplicative):
+        return None
+    return float(one.to(dst).magnitude)
 
 
 _QUANTITY = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")

@@ -210,7 +210,8 @@ def _pack_trace(trace: dict, series16: bool = False) -> dict:
 def local_ms(times: pd.Series, tz: str) -> np.ndarray:
     """Timestamps as the wall-clock time in ``tz`` in milliseconds since 1970 [ms] (float64),
     which a plotly.js date axis draws as that wall-clock time."""
-    wall = times.dt.tz_convert(tz).dt.tz_localize(None).to_numpy(dtype="datetime64[ms]")
+    # on the datetime array itself: the Series accessors cost three times the conversion
+    wall = np.asarray(times.array.tz_convert(tz).tz_localize(None), dtype="datetime64[ms]")
     return wall.astype(np.int64).astype(np.float64)
 
 

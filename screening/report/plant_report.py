@@ -45,7 +45,7 @@ from screening.report.pump_pages import DISPLAY_UNITS
 from screening.report.pump_writer import write_some_pages
 from screening.report.templating import ENV
 from screening.report.trend import trend_cells
-from screening.report.why import why_text, worst_inputs_table
+from screening.report.why import why_text, worst_inputs_by_pump, worst_inputs_table
 
 _ENV = ENV
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -93,8 +93,13 @@ def write_table(
     Parquet file keeps floats in 32 bits (7 significant digits; for the plot tables, whose
     pages show less) and is compressed with zstd."""
     if float32:
-        small = frame.astype({c: "float32" for c in frame.columns if frame[c].dtype == "float64"})
-        small.to_parquet(folder / f"{name}.parquet", index=False, compression="zstd")
+        floats = [c for c in frame.columns if frame[c].dtype == "float64"]
+        small = frame.astype(dict.fromkeys(floats, "float32"))
+        # dictionary encoding only where values repeat (pump ids, times): tried on a float
+        # column it is given up after each page, at three times the cost of the whole write
+        dictionary = [c for c in frame.columns if frame[c].dtype.kind not in "fc"]
+        small.to_parquet(folder / f"{name}.parquet", index=False, compression="zstd",
+                         use_dictionary=dictionary)  # fmt: skip
     else:
         frame.to_parquet(folder / f"{name}.parquet", index=False)
     if csv_max_rows is not None and len(frame) > csv_max_rows:
@@ -110,6 +115,16 @@ def write_table(
                          folder / f"{name}.csv")  # fmt: skip
     except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError):
         text.to_csv(folder / f"{name}.csv", index=False)  # a column of mixed Python objects
+
+
+def _as_text(column: pd.Series) -> pd.Series:
+    """``column.astype("string")``, each distinct value turned to text once (a 500-pump
+    month's daily table repeats 31 dates 279 000 times)."""
+    codes, uniques = pd.factorize(column)
+    if (codes < 0).any():  # missing values: pandas' own way
+        return column.astype("string")
+    text = np.array([str(u) for u in uniques], dtype=object)[codes]
+    return pd.Series(text, index=column.index, name=column.name).astype("string")
 
 
 def _hours_figure(result: ScanResult, kind: str = "margin") -> str:
@@ -214,12 +229,13 @@ def write_report(
             summary["worst_time"] = summary["worst_time"].astype("string")
         write_table(summary, tmp, "summary")
         daily = result.daily.copy()
-        daily["date"] = daily["date"].astype("string")
+        daily["date"] = _as_text(daily["date"])
         write_table(daily, tmp, "daily_hours", CSV_MAX_ROWS)
         write_table(result.quality, tmp, "data_quality")
         write_table(result.problems, tmp, "not_screened")
         write_table(result.file_problems, tmp, "files_not_read")
-        write_table(worst_inputs_table(result, result.plots), tmp, "worst_inputs")
+        ranked = worst_inputs_by_pump(result.summary, result.plots)
+        write_table(worst_inputs_table(result, result.plots, ranked), tmp, "worst_inputs")
         write_table(_events_table(result), tmp, "events")
         pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
         # the pump pages are written while the tables are (in forked processes, large plants)
@@ -248,11 +264,7 @@ def write_report(
             write_table(months, tmp, "monthly_hours")
         if result.plots:
             # the numbers behind the pump pages' plots, tidy, beside them
-            buckets = pd.concat(
-                [p.assign(pump_id=pid) for pid, p in result.plots.items()], ignore_index=True
-            )
-            buckets["time"] = buckets["time"].dt.tz_convert(result.plant.timezone)
-            buckets = buckets[["pump_id"] + [c for c in buckets.columns if c != "pump_id"]]
+            buckets = _buckets_table(result)
             write_table(buckets, tmp, "plot_buckets", CSV_MAX_ROWS, float32=True)
             points = _points_table(result.points)
             write_table(points, tmp, "operating_points", CSV_MAX_ROWS, float32=True)
@@ -267,6 +279,7 @@ def write_report(
                 changes,
                 DISPLAY_UNITS[units],
                 trend_cells(months) if months is not None else None,
+                ranked,
             ),
             encoding="utf-8",
         )
@@ -338,7 +351,39 @@ def _write_workbook(path: Path, result: ScanResult, changes) -> None:
                     f[col] = f[col].astype("string")
                 elif f[col].dtype == object or pd.api.types.is_string_dtype(f[col]):
                     f[col] = _neutralised(f[col])
-            f.to_excel(xl, sheet_name=name, index=False)
+            columns = [_excel_cells(f[c]) for c in f.columns]
+            if any(c is None for c in columns):  # a kind of value not handled below
+                f.to_excel(xl, sheet_name=name, index=False)
+                continue
+            sheet = xl.book.add_worksheet(name)
+            for j, head in enumerate(f.columns):  # pandas' order: the header, then by column
+                sheet.write(0, j, str(head), None)
+            for j, cells in enumerate(columns):
+                for i, value in enumerate(cells, start=1):
+                    sheet.write(i, j, value, None)
+
+
+def _excel_cells(column: pd.Series) -> list | None:
+    """A column's cells as pandas' ``to_excel`` writes them (without its per-cell objects,
+    two thirds of the workbook's time): missing -> "" (a blank), ±inf -> "inf"/"-inf",
+    numbers, booleans and text as Python values; None for anything else (datetimes, long
+    text), which is then left to pandas."""
+    out = []
+    for v in column.tolist():
+        if v is None or v is pd.NA or v is pd.NaT:
+            out.append("")
+        elif isinstance(v, bool | np.bool_):
+            out.append(bool(v))
+        elif isinstance(v, int | np.integer):
+            out.append(int(v))
+        elif isinstance(v, float | np.floating):
+            v = float(v)
+            out.append("" if v != v else "inf" if v == np.inf else "-inf" if v == -np.inf else v)
+        elif isinstance(v, str) and len(v) <= 32767:
+            out.append(v)
+        else:
+            return None
+    return out
 
 
 #: From this many pump pages on, they are written by forked worker processes (one per core):
@@ -391,25 +436,33 @@ def _events_table(result: ScanResult) -> pd.DataFrame:
     return ev.reset_index(drop=True)
 
 
+def _buckets_table(result: ScanResult) -> pd.DataFrame:
+    """Every pump's plot buckets in one tidy table, ``pump_id`` first, times in the site's
+    zone (one concatenation: a copy per pump cost a second on a 500-pump plant)."""
+    plots = result.plots
+    buckets = pd.concat(list(plots.values()), ignore_index=True)
+    pids = np.array(list(plots), dtype=object)
+    buckets.insert(0, "pump_id", np.repeat(pids, [len(p) for p in plots.values()]))
+    buckets["time"] = buckets["time"].dt.tz_convert(result.plant.timezone)
+    return buckets
+
+
 def _points_table(points: dict) -> pd.DataFrame:
     """Operating-point histograms as a tidy table: one row per non-empty cell."""
-    frames = []
-    for pid, p in points.items():
+    if not points:
+        return pd.DataFrame()
+    cols: dict[str, list] = {k: [] for k in ("flow_low_m3_s", "flow_high_m3_s", "npsha_low_m",
+                                             "npsha_high_m", "hours")}  # fmt: skip
+    counts = []
+    for p in points.values():
         fi, hi = np.nonzero(p["hours"])
         fe, he = p["flow_edges"], p["npsha_edges"]
-        frames.append(
-            pd.DataFrame(
-                {
-                    "pump_id": pid,
-                    "flow_low_m3_s": fe[fi],
-                    "flow_high_m3_s": fe[fi + 1],
-                    "npsha_low_m": he[hi],
-                    "npsha_high_m": he[hi + 1],
-                    "hours": p["hours"][fi, hi],
-                }
-            )
-        )
-    return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
+        for key, part in zip(cols, (fe[fi], fe[fi + 1], he[hi], he[hi + 1], p["hours"][fi, hi]),
+                             strict=True):  # fmt: skip
+            cols[key].append(part)
+        counts.append(len(fi))
+    pids = np.repeat(np.array(list(points), dtype=object), counts)
+    return pd.DataFrame({"pump_id": pids, **{k: np.concatenate(v) for k, v in cols.items()}})
 
 
 def _fig(fig: dict, div_id: str) -> str:
@@ -462,14 +515,16 @@ def _ranking_row(row, units, why: str) -> dict:
 
 
 def _overview_html(
-    result: ScanResult, meta: dict, pages=None, changes=None, units=None, trend=None
-) -> str:
+    result: ScanResult, meta: dict, pages=None, changes=None, units=None, trend=None,
+    ranked: dict | None = None,
+) -> str:  # fmt: skip
     tz = result.plant.timezone
     site = result.plant.settings.site
     units = units or DISPLAY_UNITS["si"]
     ranking = []
     for row in result.ranked.itertuples(index=False):
-        why = why_text(row._asdict(), result.plots.get(row.pump_id), result.quality, units)
+        why = why_text(row._asdict(), result.plots.get(row.pump_id), result.quality, units,
+                       None if ranked is None else ranked.get(row.pump_id))  # fmt: skip
         d = _ranking_row(row, units, why)
         d["trend"] = trend.get(row.pump_id, "") if trend else ""
         d["page"] = f"pumps/{pages[row.pump_id]}" if pages and row.pump_id in pages else None

@@ -168,13 +168,20 @@ def points_figure(
 
 def calendar_figure(daily: pd.DataFrame) -> dict:
     """Stacked daily hours [h] per margin state (one bar per local day)."""
-    wide = daily.pivot(index="date", columns="state", values="hours")
-    days = [str(d) for d in wide.index]
+    wide = _wide_days(daily)
+    return calendar_of(
+        [str(d) for d in wide.index], {s: wide[s] for s in states.STATES if s in wide}
+    )
+
+
+def calendar_of(days: list[str], hours: dict) -> dict:
+    """The calendar figure from the days' labels and each margin state's hours [h] per day
+    (in report order)."""
     traces = [
         {
             "type": "bar",
             "x": days,
-            "y": numbers(wide[s]),
+            "y": numbers(y),
             "name": STATE_LABELS[s],
             "marker": {
                 "color": STATE_COLOURS[s],
@@ -182,8 +189,7 @@ def calendar_figure(daily: pd.DataFrame) -> dict:
                 "pattern": {"shape": STATE_PATTERNS[s], "fgcolor": "#ffffff"},
             },
         }
-        for s in states.STATES
-        if s in wide
+        for s, y in hours.items()
     ]
     layout = {
         "barmode": "stack",
@@ -193,6 +199,48 @@ def calendar_figure(daily: pd.DataFrame) -> dict:
         "legend": {"orientation": "h", "y": -0.3, "traceorder": "normal"},
     }
     return {"data": traces, "layout": layout}
+
+
+def _laid_out(state: np.ndarray) -> bool:
+    """Whether a daily table's states run through every state in order on every day (as the
+    scan writes it, :mod:`screening.engine.tables`)."""
+    n = len(states.STATES)
+    return (
+        bool(len(state))
+        and not len(state) % n
+        and np.array_equal(state, np.tile(states.STATES, len(state) // n))
+    )
+
+
+def _wide_days(daily: pd.DataFrame) -> pd.DataFrame:
+    """Hours [h] by day (rows) and margin state (columns): a reshape of the scan's daily table,
+    else a pivot (the same frame, ten times slower)."""
+    n = len(states.STATES)
+    if not _laid_out(daily["state"].to_numpy()):
+        return daily.pivot(index="date", columns="state", values="hours")
+    hours = daily["hours"].to_numpy(dtype=np.float64).reshape(-1, n)
+    return pd.DataFrame(hours, index=daily["date"].to_numpy()[::n], columns=list(states.STATES))
+
+
+def calendars_by_pump(daily: pd.DataFrame) -> dict[str, dict] | None:
+    """Every pump's calendar figure from the scan's margin rows of the daily table at once
+    (one block of rows per pump, every state of every day in order); None for a table laid
+    out otherwise (then :func:`calendar_figure` per pump)."""
+    n = len(states.STATES)
+    pids = daily["pump_id"].to_numpy()
+    if not _laid_out(daily["state"].to_numpy()):
+        return None
+    cut = np.flatnonzero(pids[1:] != pids[:-1]) + 1
+    starts, ends = np.append(0, cut), np.append(cut, len(pids))
+    if len(set(pids[starts])) != len(starts) or ((ends - starts) % n).any():
+        return None  # a pump's rows in two blocks, or a block cutting a day
+    hours, dates = daily["hours"].to_numpy(dtype=np.float64), daily["date"].to_numpy()
+    out = {}
+    for a, b in zip(starts, ends, strict=True):
+        block = hours[a:b].reshape(-1, n)
+        days = [str(d) for d in dates[a:b:n]]
+        out[pids[a]] = calendar_of(days, {s: block[:, i] for i, s in enumerate(states.STATES)})
+    return out
 
 
 def register_rows(pump, guidance, table_model: str, units: DisplayUnits) -> list[tuple[str, str]]:
@@ -357,7 +405,7 @@ def event_rows(events: pd.DataFrame, tz: str) -> list[dict]:
             "for": e.pump_id or f"area {e.area}",
             "note": e.note,
         }
-        for e in events.itertuples(index=False)
+        for e in (events.itertuples(index=False) if len(events) else ())  # a tuple type a call
     ]
 
 
@@ -365,7 +413,7 @@ def mark_events(fig: dict, events: pd.DataFrame, tz: str) -> dict:
     """Dotted vertical lines at the known events on a time figure (plotly.js shapes), each
     labelled with its kind above the plot; a failure solid. Returns the figure."""
     shapes, notes = [], []
-    for i, e in enumerate(events.itertuples(index=False)):
+    for i, e in enumerate(events.itertuples(index=False) if len(events) else ()):
         x = f"{pd.Timestamp(e.time).tz_convert(tz):%Y-%m-%d %H:%M}"
         failure = e.kind == "failure"
         shapes.append({"type": "line", "xref": "x", "yref": "paper", "x0": x, "x1": x,

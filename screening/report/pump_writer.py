@@ -23,17 +23,31 @@ from screening.report.timeline import time_figure
 from screening.report.why import problem_tags_by_pump
 
 
-def hours_rows(h: pd.DataFrame) -> list[list[str]]:
+def hours_rows(h: pd.DataFrame | dict) -> list[list[str]]:
     """The hours table of a pump page: one row per kind of state, each cell a state's label
-    and its hours (``19.0 h``, ``2 min``), in report order."""
+    and its hours (``19.0 h``, ``2 min``), in report order. ``h`` is the pump's rows of the
+    hours table, or its hours [h] by (kind, state) (:func:`hours_by_pump`)."""
+    if isinstance(h, pd.DataFrame):
+        h = dict(zip(zip(h["kind"], h["state"], strict=True), h["hours"], strict=True))
     rows = []
     for kind, title, names, labels in (
         ("margin", "margin band", states.STATES, STATE_LABELS),
         ("region", "operating region", regions.REGIONS, REGION_LABELS),
     ):
-        part = h[h.kind == kind].set_index("state")["hours"]
-        rows.append([title] + [f"{labels[n]}: {hours_text(part.get(n, 0.0), True)}" for n in names])
+        rows.append(
+            [title] + [f"{labels[n]}: {hours_text(h.get((kind, n), 0.0), True)}" for n in names]
+        )
     return rows
+
+
+def hours_by_pump(hours: pd.DataFrame) -> dict[str, dict[tuple[str, str], float]]:
+    """Every pump's hours [h] by (kind, state), from the hours table in one pass (a mask per
+    pump would cost pumps x rows)."""
+    out: dict[str, dict[tuple[str, str], float]] = {}
+    cols = (hours[c].tolist() for c in ("pump_id", "kind", "state", "hours"))
+    for pid, kind, state, value in zip(*cols, strict=True):
+        out.setdefault(pid, {}).setdefault((kind, state), value)
+    return out
 
 
 def running_speed(plot: pd.DataFrame | None, rated: float) -> float:
@@ -56,9 +70,10 @@ def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: Displ
     window = f"{a:%Y-%m-%d %H:%M} to {b:%Y-%m-%d %H:%M}"
     ample = plant.settings.policy.ample_ratio
     # each pump's rows picked once (a mask per pump would cost pumps x rows)
-    hours_of = dict(list(result.hours.groupby("pump_id", sort=False)))
+    hours_of = hours_by_pump(result.hours)
     margin_days = result.daily[result.daily.kind == "margin"]
-    daily_of = dict(list(margin_days.groupby("pump_id", sort=False)))
+    calendars = pump_pages.calendars_by_pump(margin_days)
+    daily_of = {} if calendars else dict(list(margin_days.groupby("pump_id", sort=False)))
     thin = result.not_enough_data.set_index("pump_id")["coverage"].to_dict()
     least = plant.settings.data.min_coverage
     summary_of = {row["pump_id"]: row for row in result.summary.to_dict("records")}
@@ -66,7 +81,11 @@ def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: Displ
     for pid, name in pages.items():
         pump = plant.pumps[pid]
         g = plant.guidance[pid]
-        events = events_for(plant.events, pid, pump.area, result.start, result.end)
+        events = (
+            events_for(plant.events, pid, pump.area, result.start, result.end)
+            if len(plant.events)
+            else plant.events
+        )
         plot = result.plots.get(pid)
         figs = {"fig_time": "", "fig_points": ""}
         if plot is not None and len(plot):
@@ -78,15 +97,17 @@ def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: Displ
                 result.points[pid], plant.curves[pump.curve_id], pump, units, g, speed
             )
             figs["fig_points"] = figure_html(fig, "points")
-        daily = daily_of.get(pid, margin_days.iloc[:0])
-        figs["fig_calendar"] = figure_html(pump_pages.calendar_figure(daily), "calendar")
+        calendar = (calendars or {}).get(pid)
+        if calendar is None:
+            calendar = pump_pages.calendar_figure(daily_of.get(pid, margin_days.iloc[:0]))
+        figs["fig_calendar"] = figure_html(calendar, "calendar")
         model = fluid_table(pump.fluid, pump.vapour_pressure).vapour_pressure_model
         html = template.render(
             pump=pump,
             plant_name=plant.name,
             window=window,
             units_label=units.name,
-            hours_rows=hours_rows(hours_of.get(pid, result.hours.iloc[:0])),
+            hours_rows=hours_rows(hours_of.get(pid, {})),
             downsample_note=(
                 f"Downsampled for the browser: the window is cut into "
                 f"{len(plot) if plot is not None else 0} time buckets and each keeps the minimum "

@@ -10,6 +10,8 @@ traces share one packed time axis.
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 import pandas as pd
 
@@ -141,6 +143,14 @@ def _axis_title(text: str) -> dict:
     return {"text": text, "font": {"size": AXIS_FONT}}
 
 
+@functools.lru_cache(maxsize=8)
+def _window_ms(start: pd.Timestamp, end: pd.Timestamp, tz: str) -> np.ndarray:
+    """The window's ends as wall-clock milliseconds (:func:`local_ms`), once per report."""
+    out = local_ms(pd.Series([start, end]), tz)
+    out.flags.writeable = False  # shared by every page
+    return out
+
+
 def time_figure(
     plot: pd.DataFrame, units, tz: str, guidance_ratio: float, ample: float,
     start: pd.Timestamp, end: pd.Timestamp,
@@ -161,7 +171,7 @@ def time_figure(
         The screening window (shaded as no data where it has no bucket).
     """
     times = local_ms(plot["time"], tz)
-    window = local_ms(pd.Series([start, end]), tz)
+    window = _window_ms(start, end, tz)
     rows = _rows(plot)
     heights = [HEAD_PX, RATIO_PX] + [ROW_PX] * len(rows)
     traces = _head_traces(plot, units) + _ratio_traces(plot, times, guidance_ratio, ample)

@@ -53,26 +53,29 @@ def worst_inputs(plot: pd.DataFrame | None, worst_time) -> list[WorstInput]:
     first; empty without plot data or a worst time."""
     if plot is None or not len(plot) or worst_time is None or pd.isna(worst_time):
         return []
-    times = plot["time"].dt.tz_convert("UTC").dt.tz_localize(None).to_numpy()
-    when = pd.Timestamp(worst_time).tz_convert("UTC").tz_localize(None).to_datetime64()
+    # numpy arrays of the columns (pandas' indexing per value cost 4 ms a pump)
+    times = plot["time"].to_numpy(dtype="datetime64[ns]")  # UTC
+    when = np.datetime64(pd.Timestamp(worst_time).tz_convert("UTC").tz_localize(None), "ns")
     at = int(np.searchsorted(times, when, "right"))
     if at == 0:
         return []
-    row = plot.iloc[at - 1]
-    running = plot["npsha_m_min"].notna()
+    running = ~np.isnan(plot["npsha_m_min"].to_numpy(dtype=np.float64))
     out = []
     for col, label, kind, low_side in INPUTS:
         if f"{col}_min" not in plot:
             continue
-        mid = ((plot[f"{col}_min"] + plot[f"{col}_max"]) / 2)[running].dropna()
-        value = row[f"{col}_min"] if low_side else row[f"{col}_max"]
-        if not len(mid) or pd.isna(value):
+        lo = plot[f"{col}_min"].to_numpy(dtype=np.float64)
+        hi = plot[f"{col}_max"].to_numpy(dtype=np.float64)
+        mid = ((lo + hi) / 2)[running]
+        mid = mid[~np.isnan(mid)]
+        value = lo[at - 1] if low_side else hi[at - 1]
+        if not len(mid) or np.isnan(value):
             continue
         median = float(np.median(mid))
         p10, p90 = np.percentile(mid, [10, 90])
         spread = max(float(p90 - p10), MIN_SPREAD * abs(median), 1e-12)
         toward = (median - value) if low_side else (value - median)
-        out.append(WorstInput(label, kind, float(value), median, spread, toward / spread))
+        out.append(WorstInput(label, kind, float(value), median, spread, float(toward / spread)))
     return sorted(out, key=lambda w: -w.score)
 
 
@@ -103,15 +106,19 @@ def problem_tags_by_pump(quality: pd.DataFrame) -> dict[str, list[str]]:
     return {str(pid): [str(t) for t in g["tag"]] for pid, g in bad.groupby("pump_id", sort=False)}
 
 
-def why_text(row: dict, plot: pd.DataFrame | None, quality: pd.DataFrame, units) -> str:
-    """The overview's one-line reason for a pump's place (see the module docstring)."""
+def why_text(
+    row: dict, plot: pd.DataFrame | None, quality: pd.DataFrame, units, ranked=None
+) -> str:
+    """The overview's one-line reason for a pump's place (see the module docstring);
+    ``ranked``: the pump's :func:`worst_inputs` where already known."""
     parts = []
     below = row["below_guidance_hours"] > 0 or (
         pd.notna(row["worst_margin_to_guidance_m"]) and row["worst_margin_to_guidance_m"] < 0
     )
     if below and pd.notna(row.get("worst_time")):
         when = pd.Timestamp(row["worst_time"]).strftime("%d %b %H:%M")
-        ranked = worst_inputs(plot, row["worst_time"])
+        if ranked is None:
+            ranked = worst_inputs(plot, row["worst_time"])
         if ranked and ranked[0].score > 0:
             parts.append(f"worst {when}: {_input_text(ranked[0], units)}")
         else:
@@ -134,12 +141,24 @@ def why_text(row: dict, plot: pd.DataFrame | None, quality: pd.DataFrame, units)
     return "; ".join(parts)
 
 
-def worst_inputs_table(result, pages_plots: dict) -> pd.DataFrame:
+def worst_inputs_by_pump(summary: pd.DataFrame, plots: dict) -> dict[str, list[WorstInput]]:
+    """Every pump's :func:`worst_inputs`, by pump id (worked out once for the table and the
+    overview)."""
+    return {
+        row["pump_id"]: worst_inputs(plots.get(row["pump_id"]), row.get("worst_time"))
+        for row in summary.to_dict("records")
+    }
+
+
+def worst_inputs_table(result, pages_plots: dict, ranked: dict | None = None) -> pd.DataFrame:
     """Every pump's inputs at its worst time against their running medians (SI), the tidy
-    table behind the overview's reasons."""
+    table behind the overview's reasons; ``ranked``: :func:`worst_inputs_by_pump` where
+    already known."""
+    if ranked is None:
+        ranked = worst_inputs_by_pump(result.summary, pages_plots)
     rows = []
     for row in result.summary.to_dict("records"):
-        for w in worst_inputs(pages_plots.get(row["pump_id"]), row.get("worst_time")):
+        for w in ranked[row["pump_id"]]:
             rows.append({
                 "pump_id": row["pump_id"], "worst_time": str(row["worst_time"]),
                 "input": w.input, "unit": _SI_UNITS[w.kind], "at_worst": w.at_worst,
