@@ -4,7 +4,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test lint bench clean-venv
+.PHONY: demo test lint bench bench-seconds clean-venv
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -34,3 +34,10 @@ bench: $(STAMP)
 
 clean-venv:
 	rm -rf $(VENV)
+
+# One-second data (docs/scale.md, "One-second data"): 50 pumps x 30 days at 1 s on 2 cores, a
+# pump-year through scan and onset within 1 GB, chunked tables against one piece; three runs
+# of each. Takes about 6 minutes, and about 1.5 minutes and 1.3 GB of disk more the first time
+# (it builds the plants under benchmarks/_data/). `--runs 1` for a third of that.
+bench-seconds: $(STAMP)
+	$(BIN)/python benchmarks/bench_seconds.py
