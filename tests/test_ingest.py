@@ -324,6 +324,7 @@ def fall_back_plant(tmp_path: Path) -> Path:
         rows.append(("P2.FT", t, f"{70 + i % 7}", word))
         if i % 3 == 0:
             rows.append(("P2.RUN", t, "1", "OK " if i % 2 else "ok"))
+    rows.insert(60, rows.pop(64))  # out of order: its tag's rows are sorted when written
     rows.insert(40, ("", clock[40], "80", "ok"))  # no tag
     rows.insert(90, ("  ", clock[90], "80", "ok"))
     plant = make_plant(
@@ -380,11 +381,13 @@ def test_a_file_read_in_tiny_blocks_gives_the_same_dataset(tmp_path, monkeypatch
     plant = fall_back_plant(tmp_path)
     monkeypatch.setattr(ingest_module, "ROW_GROUP", 97)  # several row groups per part
     whole = ingested(plant, tmp_path / "whole", monkeypatch, 1 << 40, keep)
-    tiny = ingested(plant, tmp_path / "tiny", monkeypatch, 7, keep)
+    tiny = ingested(plant, tmp_path / "tiny", monkeypatch, 23, keep)
     assert list(whole[0]) == list(tiny[0])
     for name, (table, groups) in whole[0].items():
         assert tiny[0][name][0].schema.equals(table.schema, check_metadata=True), name
         assert_frame_equal(tiny[0][name][0].to_pandas(), table.to_pandas(), check_exact=True)
+        order = [(k, "ascending") for k in ("tag", "time", "source", "row")]
+        assert_frame_equal(table.sort_by(order).to_pandas(), table.to_pandas(), check_exact=True)
         assert tiny[0][name][1] == groups, name
         # the row groups of the partition sorted whole: ROW_GROUP rows each, then the rest
         assert groups == [97] * (table.num_rows // 97) + [table.num_rows % 97] * bool(
@@ -412,7 +415,7 @@ def test_the_repeated_hour_across_block_edges(tmp_path, monkeypatch):
     # EU summer time ends at 01:00 UTC on the last Sunday of October (Directive 2000/84/EC):
     # local 02:00-02:59 is 00:00-00:59 UTC on its first pass, 01:00-01:59 UTC on its second
     plant = fall_back_plant(tmp_path)
-    for cells in (1 << 40, 5, 61 * 5):  # one block; blocks of one row; edges in the hour
+    for cells in (1 << 40, 7 * 5, 61 * 5):  # one block; blocks of 7 or 61 rows
         parts = ingested(plant, tmp_path / f"ds{cells}", monkeypatch, cells)[0]
         table = parts["pump=P1/month=2026-10/part-0.parquet"][0].to_pandas()
         ps = table[table.tag == "P1.PS"].set_index("row")["time"]

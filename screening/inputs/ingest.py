@@ -275,13 +275,20 @@ def _block_table(index: ExportIndex, rows: Rows, ordinal: int, kept, notes: File
             "time": pa.array(rows.times, pa.int64(), mask=~ok).cast(ds.SCHEMA.field("time").type),
             "tag": tag,
             "value": pa.array(rows.values, pa.float64()),
-            "text": pa.array(rows.text, pa.string()),
-            "quality": pa.array(qual if qual is not None else [None] * n, pa.string()),
+            "text": _strings(rows.text, n),
+            "quality": _strings(qual, n),
             "source": pa.array(np.full(n, ordinal, np.int32)),
             "row": pa.array(rows.rows.astype(np.int64)),
             "malformed": pa.array(rows.malformed.astype(bool)),
         }
     )
+
+
+def _strings(words: np.ndarray | None, n: int) -> pa.Array:
+    """Words as a string column; all null without a Python list when there are none."""
+    if words is None or not pd.notna(words).any():
+        return pa.nulls(n, pa.string())
+    return pa.array(words, pa.string())
 
 
 class _Staging:
@@ -353,11 +360,13 @@ STAGED = ds.SCHEMA
 def _write_partition(groups: dict[str, list[tuple[Path, int]]], final: Path) -> int:
     """Sort one folder-month's staged rows by tag, time, source and row; write it (zstd).
 
-    The tags are taken one at a time in order (each staged row group holds one tag), so
-    memory is bounded by one tag's month and a row group, not by the partition; the row
-    groups written are those of the partition sorted whole (:data:`ROW_GROUP` rows each).
-    Each tag's series is one run in time order, so the times and row numbers delta-encode to
-    a few bits each and the values (historians round them) dictionary-encode.
+    The tags are taken one at a time in order (each staged row group holds one tag). A tag
+    whose staged rows are already in order (blocks of a file in time order: the usual case)
+    is passed through a staged row group at a time, so memory is bounded by a row group;
+    another is read whole and sorted (memory: that tag's month). The row groups written are
+    those of the partition sorted whole (:data:`ROW_GROUP` rows each, then the rest). Each
+    tag's series is one run in time order, so the times and row numbers delta-encode to a few
+    bits each and the values (historians round them) dictionary-encode.
     """
     final.mkdir(parents=True, exist_ok=True)
     writer = pq.ParquetWriter(
@@ -367,34 +376,67 @@ def _write_partition(groups: dict[str, list[tuple[Path, int]]], final: Path) -> 
         use_dictionary=["tag", "value", "text", "quality", "source"],
         column_encoding={"time": "DELTA_BINARY_PACKED", "row": "DELTA_BINARY_PACKED"},
     )
-    pending: list[pa.Table] = []
-    waiting = total = 0
+    out = _RowGroups(writer)
     with writer:
         for tag in sorted(groups):
-            table = _staged_tag(groups[tag])
-            table = table.sort_by([("time", "ascending"), ("source", "ascending"),
-                                   ("row", "ascending")])  # fmt: skip
-            pending.append(table)
-            waiting += table.num_rows
-            total += table.num_rows
-            if waiting >= ROW_GROUP:
-                rest = pa.concat_tables(pending)
-                full = (waiting // ROW_GROUP) * ROW_GROUP
-                writer.write_table(rest.slice(0, full), row_group_size=ROW_GROUP)
-                pending, waiting = [rest.slice(full)], waiting - full
-        if waiting:
-            writer.write_table(pa.concat_tables(pending), row_group_size=ROW_GROUP)
-    return total
+            pieces = _staged_pieces(groups[tag])
+            if _in_order(pieces):
+                for piece in pieces:
+                    out.add(piece())
+            else:
+                table = pa.concat_tables([piece() for piece in pieces])
+                out.add(table.sort_by([("time", "ascending"), ("source", "ascending"),
+                                       ("row", "ascending")]))  # fmt: skip
+        out.flush()
+    return out.total
 
 
-def _staged_tag(groups: list[tuple[Path, int]]) -> pa.Table:
-    """One tag's staged row groups, file by file."""
-    by_file: dict[Path, list[int]] = {}
-    for path, group in groups:
-        by_file.setdefault(path, []).append(group)
-    return pa.concat_tables(
-        [pq.ParquetFile(p).read_row_groups(g) for p, g in sorted(by_file.items())]
-    )
+class _RowGroups:
+    """Rows given in order, written in row groups of :data:`ROW_GROUP` rows."""
+
+    def __init__(self, writer: pq.ParquetWriter):
+        self.writer, self.pending, self.waiting, self.total = writer, [], 0, 0
+
+    def add(self, table: pa.Table) -> None:
+        self.pending.append(table)
+        self.waiting += table.num_rows
+        self.total += table.num_rows
+        if self.waiting >= ROW_GROUP:
+            rest = pa.concat_tables(self.pending)
+            full = (self.waiting // ROW_GROUP) * ROW_GROUP
+            self.writer.write_table(rest.slice(0, full), row_group_size=ROW_GROUP)
+            self.pending, self.waiting = [rest.slice(full)], self.waiting - full
+
+    def flush(self) -> None:
+        if self.waiting:
+            self.writer.write_table(pa.concat_tables(self.pending), row_group_size=ROW_GROUP)
+        self.pending, self.waiting = [], 0
+
+
+def _staged_pieces(groups: list[tuple[Path, int]]) -> list:
+    """One tag's staged row groups, file by file, as functions that read them."""
+    files: dict[Path, pq.ParquetFile] = {}
+    pieces = []
+    for path, group in sorted(groups):
+        pf = files.setdefault(path, pq.ParquetFile(path))
+        pieces.append(lambda pf=pf, group=group, columns=None: pf.read_row_group(group, columns))
+    return pieces
+
+
+def _in_order(pieces: list) -> bool:
+    """Whether the rows of ``pieces`` are in (time, source, row) order (a null time last)."""
+    last = None
+    for piece in pieces:
+        keys = piece(columns=["time", "source", "row"])
+        t = keys.column("time").cast(pa.int64()).fill_null(np.iinfo(np.int64).max)
+        k = [np.asarray(c.to_numpy()) for c in (t, keys.column("source"), keys.column("row"))]
+        if last is not None:
+            k = [np.concatenate(([a], b)) for a, b in zip(last, k, strict=True)]
+        (gt_t, eq_t), (gt_s, eq_s), (gt_r, _) = ((x[1:] > x[:-1], x[1:] == x[:-1]) for x in k)
+        if not (gt_t | (eq_t & (gt_s | (eq_s & gt_r)))).all():
+            return False
+        last = [x[-1] for x in k]
+    return True
 
 
 def _sha256(path: Path) -> str:

@@ -27,9 +27,9 @@ from screening.inputs.export_files import FileInfo, long_columns, read_csv_block
 from screening.inputs.tagdata import ExportError, as_text
 from screening.inputs.timestamps import RepeatedHour, parse_times
 
-#: Cells (rows x columns read) per block of an export file read by ``ingest``: about 2 M,
-#: a few tens of MB of dataset rows in memory at a time.
-BLOCK_CELLS = 1 << 21
+#: Cells (rows x columns read) per block of an export file read by ``ingest``: about 0.5 M,
+#: some 20 MB of dataset rows in memory at a time.
+BLOCK_CELLS = 1 << 19
 
 #: The kinds of problem noted, in the order a file's notes are made.
 KINDS = (
