@@ -323,7 +323,8 @@ def fall_back_plant(tmp_path: Path) -> Path:
         word = "suspect" if i % 50 == 3 else "ok"
         rows.append(("P2.FT", t, f"{70 + i % 7}", word))
         if i % 3 == 0:
-            rows.append(("P2.RUN", t, "1", "OK " if i % 2 else "ok"))
+            # the first bad quality word is on the file's second tag (line 3)
+            rows.append(("P2.RUN", t, "1", "suspect" if i == 0 else "OK " if i % 2 else "ok"))
     rows.insert(60, rows.pop(64))  # out of order: its tag's rows are sorted when written
     rows.insert(40, ("", clock[40], "80", "ok"))  # no tag
     rows.insert(90, ("  ", clock[90], "80", "ok"))
@@ -403,7 +404,7 @@ def test_a_file_read_in_tiny_blocks_gives_the_same_dataset(tmp_path, monkeypatch
         assert first["text value"].endswith("a.csv line 9")
         assert first["row with a wrong number of fields"].endswith("a.csv line 362")
         assert first["missing or infinite value"].endswith("wide_typed.parquet row 17")
-        assert first["bad quality"].endswith("t.csv line 6")
+        assert first["bad quality"].endswith("t.csv line 3")
         # two in the CSV file; one in the Parquet file, which does not strip "  " (a tag)
         assert whole[2]["bad_rows"]["no tag"] == 3
         assert whole[2]["outside_window"] == 0

@@ -265,8 +265,9 @@ def _block_table(index: ExportIndex, rows: Rows, ordinal: int, kept, notes: File
     if qual is not None:
         good = pd.Series(qual).isin(index.good_quality).to_numpy()
         flags["bad quality"] = ok & ~pd.isna(qual) & ~good
+    keys = rows.keys()
     for kind, mask in flags.items():
-        notes.add(kind, mask, rows.codes, rows.rows)
+        notes.add(kind, mask, keys, rows.rows)
     n = len(rows.times)
     tag = pa.DictionaryArray.from_arrays(pa.array(rows.codes, pa.int32()),
                                          pa.array(rows.tags, pa.string()))  # fmt: skip

@@ -55,12 +55,17 @@ class Rows:
     quality: np.ndarray | None  # object: quality words as written
     rows: np.ndarray  # int64: row (from 0) or line of the file
     malformed: np.ndarray
+    by_tag: bool = True  # rows ordered tag by tag (a wide file), else in file order (long)
+
+    def keys(self) -> np.ndarray:
+        """Keys of :meth:`FileNotes.add`: the tag index of a wide file's rows, else 0."""
+        return self.codes if self.by_tag else np.zeros(len(self.codes), dtype=np.int32)
 
     def take(self, keep: np.ndarray) -> Rows:
         q = self.quality[keep] if self.quality is not None else None
         return Rows(self.tags, self.codes[keep], self.times[keep], self.ok[keep],
                     self.values[keep], self.text[keep], q, self.rows[keep],
-                    self.malformed[keep])  # fmt: skip
+                    self.malformed[keep], self.by_tag)  # fmt: skip
 
 
 @dataclass
@@ -196,7 +201,7 @@ def _long_blocks(index, info: FileInfo, notes: FileNotes) -> Iterator[Rows]:
         qual = frame[src.quality_column].to_numpy(dtype=object) if src.quality_column else None
         codes, names = pd.factorize(tag.to_numpy(dtype=object))
         yield Rows(list(names), codes.astype(np.int32), times, ok, values, text, qual, rows,
-                   malformed)  # fmt: skip
+                   malformed, by_tag=False)  # fmt: skip
 
 
 def _numbers(raw: pd.Series, decimal: str, malformed: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
