@@ -26,6 +26,12 @@ of the process and of its largest child, is its own; run ``--runs`` times, min a
     month_whole  ... and in one piece (``chunk_samples = 0``): the naive baseline.
     same         both month runs in one process, every table compared exactly (hours,
                  summary, daily, quality, per-piece series, plot buckets, operating points).
+    ingest       ``pumpscreen ingest`` of the year pump's export (one wide Parquet file of
+                 ``--year-days`` days) into a dataset in a temporary folder: each file read in
+                 blocks of rows, each partition written tag by tag. ``--checkout`` measures
+                 another checkout's code instead (the naive baseline: the whole-file ingest
+                 before blocks, run only with a small ``--year-days``, since it holds the
+                 whole file melted into rows: about 22 GB for a pump-year).
 
 Load average is printed before and after (the machine may be shared: timings are noisy,
 peaks are not). Targets are printed as PASS or MISS; the process never fails on a miss.
@@ -41,6 +47,7 @@ import resource
 import statistics
 import subprocess
 import sys
+import tempfile
 import time
 from pathlib import Path
 
@@ -214,14 +221,16 @@ def _peaks() -> dict:
 
 
 def measure(kind: str, args) -> dict:
+    if args.checkout:  # the code measured is that checkout's
+        sys.path.insert(0, str(Path(args.checkout).resolve()))
     import screening
 
-    fleet = ensure("fleet", args.pumps, FLEET_START, args.days)
     year = ensure("year", 1, YEAR_START, args.year_days)
     import_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
     t = time.perf_counter()
     out: dict = {}
     if kind == "fleet":
+        fleet = ensure("fleet", args.pumps, FLEET_START, args.days)
         r = screening.scan(plant_file(fleet, "fleet", FLEET_START, args.days), processes=2)
         out["samples"] = int(r.samples)
         out["screened"] = len(r.summary)
@@ -235,6 +244,14 @@ def measure(kind: str, args) -> dict:
         end = YEAR_START + pd.Timedelta(days=args.year_days)
         r = screening.investigate(toml, "P001", YEAR_START, end)
         out["episodes"] = len(r.episodes)
+    elif kind == "ingest":
+        from screening.inputs.ingest import ingest
+
+        toml = plant_file(year, "ingest", YEAR_START, args.year_days)
+        with tempfile.TemporaryDirectory(dir=DATA, prefix="ingest-") as tmp:
+            s = ingest(toml, Path(tmp) / "dataset")
+        out["rows"], out["partitions"], out["bytes_written"] = s.rows, s.partitions, s.bytes_written
+        out["code"] = str(Path(screening.__file__).resolve().parents[1])
     elif kind == "same":
         days = min(30, args.year_days)
         runs = []
@@ -266,6 +283,7 @@ def _compare(a, b) -> tuple[bool, str]:
 def run_worker(kind: str, args) -> dict | None:
     """Run one measure in a fresh interpreter; return its JSON result (None if it failed)."""
     opts = [f"--pumps={args.pumps}", f"--days={args.days}", f"--year-days={args.year_days}"]
+    opts += [f"--checkout={args.checkout}"] if args.checkout else []
     proc = subprocess.run([sys.executable, __file__, "--worker", kind, *opts],
                           capture_output=True, text=True)  # fmt: skip
     lines = [ln for ln in proc.stdout.splitlines() if ln.startswith("RESULT ")]
@@ -310,6 +328,11 @@ def report(args, r: dict[str, list[dict]]) -> None:
         ("year_onset", f"pump-year onset ({args.year_days} d)", args.year_days * 86_400),
         ("month", "pump-month scan, chunked", min(30, args.year_days) * 86_400),
         ("month_whole", "pump-month scan, one piece (naive)", min(30, args.year_days) * 86_400),
+        (
+            "ingest",
+            f"pump-year ingest ({args.year_days} d){' (--checkout)' * bool(args.checkout)}",
+            args.year_days * 86_400,
+        ),
     ):
         s, mb = stat(kind, "seconds"), stat(kind, "peak_mb")
         if s is None:
@@ -327,7 +350,7 @@ def report(args, r: dict[str, list[dict]]) -> None:
     if s:
         checks.append((s[1] <= 60, f"{args.pumps} pumps x {args.days} d x 1 s on 2 cores <= 60 s"
                        f" (median {s[1]:.1f} s, min {s[0]:.1f} s)"))  # fmt: skip
-    for kind, label in (("year_scan", "scan"), ("year_onset", "onset")):
+    for kind, label in (("year_scan", "scan"), ("year_onset", "onset"), ("ingest", "ingest")):
         mb = stat(kind, "peak_mb")
         if mb:
             checks.append((mb[1] <= 1024, f"pump-year ({args.year_days} d) {label} peak <= 1 GB"
@@ -351,14 +374,16 @@ def main() -> None:
     parser.add_argument(
         "--only", nargs="*",
         default=["fleet", "year_scan", "year_onset", "month", "month_whole", "same"],
-        help="measures to run (fleet, year_scan, year_onset, month, month_whole, same)",
+        help="measures to run (fleet, year_scan, year_onset, month, month_whole, same, ingest)",
     )  # fmt: skip
+    parser.add_argument("--checkout", help="measure the code of another checkout (ingest)")
     parser.add_argument("--worker", help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.worker:
         print("RESULT " + json.dumps(measure(args.worker, args)), flush=True)
         return
-    ensure("fleet", args.pumps, FLEET_START, args.days)
+    if "fleet" in args.only:
+        ensure("fleet", args.pumps, FLEET_START, args.days)
     ensure("year", 1, YEAR_START, args.year_days)
     print(f"CPU: {cpu_model()}; {os.cpu_count()} cores; Python {platform.python_version()}")
     print(f"load average before: {load()}")

@@ -11,6 +11,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 from pandas.testing import assert_frame_equal
@@ -281,3 +282,200 @@ def test_ingest_command(tmp_path):
     res = CliRunner().invoke(app, ["ingest", str(tmp_path / "missing.toml")])
     assert res.exit_code == 1 and "plant file not found" in res.output
     assert np.isfinite(screening.scan(plant).summary.coverage).all()
+
+
+# --- reading export files in blocks of rows ------------------------------------------------
+PARQUET_EXPORTS = """
+[[exports]]
+files = "pq/wide_*.parquet"
+layout = "wide"
+time_column = "timestamp"
+
+[[exports]]
+files = "pq/long_*.parquet"
+layout = "long"
+tag_column = "tag"
+time_column = "time"
+value_column = "value"
+quality_column = "quality"
+"""
+
+
+def fall_back_plant(tmp_path: Path) -> Path:
+    """An invented plant in Europe/Berlin over the day clocks go back (25 October 2026), its
+    exports in every layout and format: local text times without an offset (the hour from
+    02:00 comes twice), typed UTC times, malformed CSV rows, text values, bad timestamps, rows
+    without a tag and bad quality words."""
+    local = pd.date_range("2026-10-25 00:00", periods=6 * 60, freq="1min").strftime(
+        "%Y-%m-%d %H:%M:%S"
+    )
+    # the local clock as the historian writes it: 02:00-02:59 twice (summer, then winter time)
+    clock = list(local[:180]) + list(local[120:300])
+    frame = steady_frame(start="2026-10-25", periods=len(clock))
+    frame["timestamp"] = clock
+    frame["P1.PS"] = np.linspace(90.0, 110.0, len(clock))
+    frame = frame.astype({"P1.TT": object, "timestamp": object})
+    frame.loc[7, "P1.TT"] = "Comm Fail"
+    frame.loc[11, "timestamp"] = "not a time"
+    frame.loc[13, "P1.FT"] = None
+    rows = []
+    for i, t in enumerate(clock):
+        word = "suspect" if i % 50 == 3 else "ok"
+        rows.append(("P2.FT", t, f"{70 + i % 7}", word))
+        if i % 3 == 0:
+            # the first bad quality word is on the file's second tag (line 3)
+            rows.append(("P2.RUN", t, "1", "suspect" if i == 0 else "OK " if i % 2 else "ok"))
+    rows.insert(60, rows.pop(64))  # out of order: its tag's rows are sorted when written
+    rows.insert(40, ("", clock[40], "80", "ok"))  # no tag
+    rows.insert(90, ("  ", clock[90], "80", "ok"))
+    plant = make_plant(
+        tmp_path,
+        wide={"a.csv": frame},
+        long={"t.csv": long_csv(rows)},
+        rows=[pump_row("P1"), pump_row("P2"), pump_row("P3")],
+        start="2026-10-25",
+        end="2026-10-26",
+        timezone="Europe/Berlin",
+    )
+    with open(tmp_path / "exports" / "a.csv", "a") as fh:
+        fh.write("2026-10-25 06:00:00,100\n")  # too few fields: a bad sample of each tag
+        fh.write("2026-10-25 06:01:00,100,20,80,1,9\n")  # too many
+    (tmp_path / "pq").mkdir()
+    typed = steady_frame("P3", start="2026-10-24 22:00", periods=300, freq="1min")
+    typed["timestamp"] = pd.to_datetime(typed["timestamp"]).dt.tz_localize("UTC")
+    typed.loc[17, "P3.PS"] = np.inf
+    typed.loc[19:23, "P3.TT"] = np.nan
+    typed.to_parquet(tmp_path / "pq" / "wide_typed.parquet", row_group_size=64)
+    text = steady_frame("P1", periods=len(clock)).rename(columns=lambda c: c.replace("P1", "X1"))
+    text["timestamp"] = clock
+    text.to_parquet(tmp_path / "pq" / "wide_text.parquet", row_group_size=100)
+    long_pq = pd.DataFrame(rows, columns=["tag", "time", "value", "quality"])
+    long_pq["tag"] = long_pq["tag"].str.replace("P2", "X2")
+    long_pq.to_parquet(tmp_path / "pq" / "long_a.parquet", row_group_size=77)
+    with open(plant, "a") as fh:
+        fh.write(PARQUET_EXPORTS)
+    return plant
+
+
+def ingested(plant: Path, out: Path, monkeypatch, cells: int, keep=(None, None)):
+    """The dataset written with blocks of ``cells`` cells: every part's table and row group
+    sizes, the manifest without its time, and the summary without its duration."""
+    from screening.inputs import ingest_blocks
+
+    monkeypatch.setattr(ingest_blocks, "BLOCK_CELLS", cells)
+    summary = ingest(plant, out, *keep)
+    parts = {}
+    for path in sorted(out.rglob("*.parquet")):
+        meta = pq.ParquetFile(path).metadata
+        groups = [meta.row_group(i).num_rows for i in range(meta.num_row_groups)]
+        parts[str(path.relative_to(out))] = (pq.read_table(path), groups)
+    manifest = json.loads((out / dataset.MANIFEST).read_text())
+    manifest.pop("written_utc")
+    found = {k: v for k, v in vars(summary).items() if k not in ("elapsed_s", "out_dir")}
+    return parts, manifest, found
+
+
+@pytest.mark.parametrize("keep", [(None, None), ("2026-10-25 01:30", "2026-10-25 04:10")])
+def test_a_file_read_in_tiny_blocks_gives_the_same_dataset(tmp_path, monkeypatch, keep):
+    from screening.inputs import ingest as ingest_module
+
+    plant = fall_back_plant(tmp_path)
+    monkeypatch.setattr(ingest_module, "ROW_GROUP", 97)  # several row groups per part
+    whole = ingested(plant, tmp_path / "whole", monkeypatch, 1 << 40, keep)
+    tiny = ingested(plant, tmp_path / "tiny", monkeypatch, 23, keep)
+    assert list(whole[0]) == list(tiny[0])
+    for name, (table, groups) in whole[0].items():
+        assert tiny[0][name][0].schema.equals(table.schema, check_metadata=True), name
+        assert_frame_equal(tiny[0][name][0].to_pandas(), table.to_pandas(), check_exact=True)
+        order = [(k, "ascending") for k in ("tag", "time", "source", "row")]
+        assert_frame_equal(table.sort_by(order).to_pandas(), table.to_pandas(), check_exact=True)
+        assert tiny[0][name][1] == groups, name
+        # the row groups of the partition sorted whole: ROW_GROUP rows each, then the rest
+        assert groups == [97] * (table.num_rows // 97) + [table.num_rows % 97] * bool(
+            table.num_rows % 97
+        )
+    assert tiny[1] == whole[1]
+    assert tiny[2] == whole[2]
+    assert list(tiny[2]["bad_rows"]) == list(whole[2]["bad_rows"])  # the order of the notes
+    first = whole[2]["first_bad"]
+    if keep == (None, None):
+        assert first["no tag"].endswith("t.csv line 42")  # header, 40 rows, then the row
+        assert first["bad timestamp"].endswith("a.csv line 13")
+        assert first["text value"].endswith("a.csv line 9")
+        assert first["row with a wrong number of fields"].endswith("a.csv line 362")
+        assert first["missing or infinite value"].endswith("wide_typed.parquet row 17")
+        assert first["bad quality"].endswith("t.csv line 3")
+        # two in the CSV file; one in the Parquet file, which does not strip "  " (a tag)
+        assert whole[2]["bad_rows"]["no tag"] == 3
+        assert whole[2]["outside_window"] == 0
+    else:
+        assert whole[2]["outside_window"] > 0
+
+
+def test_the_repeated_hour_across_block_edges(tmp_path, monkeypatch):
+    # EU summer time ends at 01:00 UTC on the last Sunday of October (Directive 2000/84/EC):
+    # local 02:00-02:59 is 00:00-00:59 UTC on its first pass, 01:00-01:59 UTC on its second
+    plant = fall_back_plant(tmp_path)
+    for cells in (1 << 40, 7 * 5, 61 * 5):  # one block; blocks of 7 or 61 rows
+        parts = ingested(plant, tmp_path / f"ds{cells}", monkeypatch, cells)[0]
+        table = parts["pump=P1/month=2026-10/part-0.parquet"][0].to_pandas()
+        ps = table[table.tag == "P1.PS"].set_index("row")["time"]
+        # CSV line 2 is local 00:00 (22:00 UTC the day before); lines 122-181 the first pass
+        # of 02:00-02:59, lines 182-241 the second
+        assert ps[2] == pd.Timestamp("2026-10-24 22:00", tz="UTC")
+        assert ps[122] == pd.Timestamp("2026-10-25 00:00", tz="UTC")
+        assert ps[181] == pd.Timestamp("2026-10-25 00:59", tz="UTC")
+        assert ps[182] == pd.Timestamp("2026-10-25 01:00", tz="UTC")
+        assert ps[241] == pd.Timestamp("2026-10-25 01:59", tz="UTC")
+        assert ps.drop(12).is_monotonic_increasing and ps.drop(12).is_unique
+        long = parts["pump=P2/month=2026-10/part-0.parquet"][0].to_pandas()
+        ft = long[long.tag == "P2.FT"]
+        assert ft.time.is_unique and len(ft) == 360
+
+
+def test_export_files_are_read_in_blocks(tmp_path, monkeypatch):
+    from screening.inputs import ingest_blocks
+    from screening.inputs.loader import ExportIndex
+
+    plant = screening.load_plant(fall_back_plant(tmp_path))
+    index = ExportIndex(plant.settings, plant.base)
+    monkeypatch.setattr(ingest_blocks, "BLOCK_CELLS", 5 * 50)  # 50 rows of the wide files
+    for info in index.files:
+        width = 1 + len(info.tags) if info.source.layout == "wide" else 4
+        size = ingest_blocks.block_rows(width)
+        notes = ingest_blocks.FileNotes()
+        blocks, label = ingest_blocks.file_blocks(index, info, notes)
+        blocks = list(blocks)
+        rows = np.unique(np.concatenate([b.rows for b in blocks]))
+        assert label == ("row" if info.fmt == "parquet" else "line")
+        assert len(blocks) >= 3, info.path.name
+        spans = [np.unique(b.rows) for b in blocks]
+        assert all(len(s) <= size for s in spans), info.path.name
+        assert all(a[-1] < b[0] for a, b in zip(spans, spans[1:], strict=False))  # file order
+        if info.fmt == "parquet":  # the file's own row numbers, from 0
+            n = pq.ParquetFile(info.path).metadata.num_rows
+            assert rows.tolist() == list(range(n)) or info.source.layout == "long"
+
+
+def test_a_file_failing_part_way_leaves_nothing(tmp_path, monkeypatch):
+    from screening.inputs import ingest_blocks
+    from screening.inputs.tagdata import ExportError
+
+    plant = fall_back_plant(tmp_path)
+    real = ingest_blocks._raw_blocks
+
+    def failing(info, columns):
+        for i, block in enumerate(real(info, columns)):
+            if i == 2 and info.path.name == "t.csv":
+                raise ExportError(f"{info.path}: cannot be read (test)")
+            yield block
+
+    monkeypatch.setattr(ingest_blocks, "_raw_blocks", failing)
+    parts, manifest, summary = ingested(plant, tmp_path / "ds", monkeypatch, 4 * 10)
+    assert any(k.endswith("t.csv") for k in summary["files_not_read"])
+    sources = [Path(s["path"]).name for s in manifest["sources"]]
+    assert "t.csv" not in sources
+    table = pa.concat_tables([t for t, _ in parts.values()])
+    assert "P2.FT" not in table.column("tag").to_pylist()  # not a row of t.csv kept
+    assert not any("t.csv" in v for v in summary["first_bad"].values())
+    assert summary["bad_rows"]["no tag"] == 1  # only that of the long Parquet file

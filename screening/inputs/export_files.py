@@ -329,37 +329,39 @@ def _csv_layout(path: Path, source: ExportSource):
     )
 
 
+def _csv_options(source: ExportSource, columns: list[str], skip: set[int] | None) -> dict:
+    return dict(
+        skiprows=skip or None,
+        usecols=lambda c: c.strip().strip('"').lstrip("\ufeff") in columns,
+        index_col=False,  # never take a row with extra fields as an index
+        dtype=str,
+        keep_default_na=False,
+        na_values=[""],
+        sep=source.delimiter,
+        encoding=source.encoding,
+        skipinitialspace=True,
+    )
+
+
+def _clean_names(frame: pd.DataFrame) -> pd.DataFrame:
+    return frame.rename(columns=lambda c: c.strip().strip('"').lstrip("\ufeff"))
+
+
 def read_csv(
     path: Path, source: ExportSource, columns: list[str], skip: set[int] | None = None
 ) -> pd.DataFrame:
     """The ``columns`` of a CSV file as text, leaving out the lines in ``skip`` (0-based line
     indices; the bad lines :func:`record_layout` found)."""
     try:
-        return pd.read_csv(
-            path,
-            skiprows=skip or None,
-            usecols=lambda c: c.strip().strip('"').lstrip("\ufeff") in columns,
-            index_col=False,  # never take a row with extra fields as an index
-            dtype=str,
-            keep_default_na=False,
-            na_values=[""],
-            sep=source.delimiter,
-            encoding=source.encoding,
-            skipinitialspace=True,
-        ).rename(columns=lambda c: c.strip().strip('"').lstrip("\ufeff"))
+        return _clean_names(pd.read_csv(path, **_csv_options(source, columns, skip)))
     except UnicodeDecodeError as exc:
         raise ExportError(encoding_message(path, source.encoding)) from exc
     except (pd.errors.ParserError, OSError, EOFError, ValueError) as exc:
         raise ExportError(f"{path}: cannot be read as CSV ({exc})") from exc
 
 
-def read_csv_rows(
-    path: Path, source: ExportSource, columns: list[str]
-) -> tuple[pd.DataFrame, np.ndarray, np.ndarray]:
-    """Read CSV columns with the line number of each row and whether the row is malformed
-    (more or fewer fields than the header: a truncated copy or a garbled line; or a line
-    holding NUL bytes; a line longer than :data:`MAX_LINE` is not read and comes back as an
-    empty malformed row). Memory is bounded by the rows read, never by a long line."""
+def _checked_layout(path: Path, source: ExportSource):
+    """:func:`record_layout` with its errors as :class:`ExportError` and the header checked."""
     try:
         lines, fields, bad, long = record_layout(path, source)
     except UnicodeDecodeError as exc:
@@ -370,19 +372,83 @@ def read_csv_rows(
         raise ExportError(f"{path}: cannot be read as CSV ({exc})") from exc
     if len(lines) and bad[0]:
         raise ExportError(f"{path} line {lines[0]}: the header is not text; not a CSV export")
+    return lines, fields, bad, long
+
+
+def _count_mismatch(path: Path, read: int, good: np.ndarray) -> ExportError:
+    return ExportError(
+        f"{path}: {read} rows read but {int(good.sum())} data lines "
+        "counted; check the quoting and the line endings of the file"
+    )
+
+
+def read_csv_rows(
+    path: Path, source: ExportSource, columns: list[str]
+) -> tuple[pd.DataFrame, np.ndarray, np.ndarray]:
+    """Read CSV columns with the line number of each row and whether the row is malformed
+    (more or fewer fields than the header: a truncated copy or a garbled line; or a line
+    holding NUL bytes; a line longer than :data:`MAX_LINE` is not read and comes back as an
+    empty malformed row). Memory is bounded by the rows read, never by a long line."""
+    lines, fields, bad, long = _checked_layout(path, source)
     skip = {int(n) - 1 for n in lines[long]}
     frame = read_csv(path, source, columns, skip)
     good = ~long[1:]
     if int(good.sum()) != len(frame):
-        raise ExportError(
-            f"{path}: {len(frame)} rows read but {int(good.sum())} data lines "
-            "counted; check the quoting and the line endings of the file"
-        )
+        raise _count_mismatch(path, len(frame), good)
     if skip:
         # the bad lines come back as empty rows flagged malformed: counted, never dropped
         frame = frame.set_axis(np.flatnonzero(good)).reindex(np.arange(len(good)))
     malformed = (fields[1:] != fields[0]) | bad[1:]
     return frame, lines[1:], malformed
+
+
+def read_csv_blocks(path: Path, source: ExportSource, columns: list[str], block_rows: int):
+    """:func:`read_csv_rows` a block of about ``block_rows`` data rows at a time, in file
+    order: yields (frame, lines, malformed) whose concatenation is exactly what
+    :func:`read_csv_rows` returns, so memory is bounded by the block, not by the file.
+
+    Raises
+    ------
+    ExportError
+        As :func:`read_csv_rows`; a count mismatch is raised after the last block.
+    """
+    lines, fields, bad, long = _checked_layout(path, source)
+    skip = {int(n) - 1 for n in lines[long]}
+    good = ~long[1:]
+    where = np.flatnonzero(good)  # position among the data lines of each row read
+    malformed = (fields[1:] != fields[0]) | bad[1:]
+    lines = lines[1:]
+    read, done = 0, 0  # rows read; data lines given out
+    opts = _csv_options(source, columns, skip)
+    try:
+        with pd.read_csv(path, chunksize=max(1, int(block_rows)), **opts) as reader:
+            for chunk in reader:
+                frame = _clean_names(chunk)
+                a, read = read, read + len(frame)
+                if read > len(where) or not len(frame):
+                    continue  # counted; the mismatch is raised at the end
+                end = int(where[read - 1]) + 1
+                if skip:  # the long lines of this stretch as empty malformed rows
+                    frame = frame.set_axis(where[a:read]).reindex(np.arange(done, end))
+                frame = frame.set_axis(np.arange(end - done))
+                yield frame, lines[done:end], malformed[done:end]
+                done = end
+    except UnicodeDecodeError as exc:
+        raise ExportError(encoding_message(path, source.encoding)) from exc
+    except (pd.errors.ParserError, OSError, EOFError, ValueError) as exc:
+        raise ExportError(f"{path}: cannot be read as CSV ({exc})") from exc
+    if read != len(where):
+        raise _count_mismatch(path, read, good)
+    if done < len(good):  # long lines after the last row read
+        names = frame_columns(path, source, columns)
+        tail = pd.DataFrame(np.nan, index=np.arange(len(good) - done), columns=names)
+        tail = tail.astype(object)
+        yield tail, lines[done:], malformed[done:]
+
+
+def frame_columns(path: Path, source: ExportSource, columns: list[str]) -> list[str]:
+    """Which of ``columns`` the CSV file's header holds."""
+    return [c for c in csv_header(path, source) if c in columns]
 
 
 def parquet_time_range(path: Path, column: str) -> tuple[int, int] | None:

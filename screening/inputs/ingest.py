@@ -10,8 +10,9 @@ the same tables as a scan of the raw exports. Rows whose time cannot be placed a
 ``month=unplaced``; a long-layout row without a tag cannot belong to any series and is counted
 and named in the summary.
 
-Memory stays bounded by one export file and one partition: each file is staged in parts per
-folder and month, and each partition is then sorted and written once.
+Memory stays bounded by a block of rows and one tag's month: each file is read a block at a
+time (:mod:`screening.inputs.ingest_blocks`) and staged per folder, month and tag, and each
+partition is then sorted and written tag by tag.
 """
 
 from __future__ import annotations
@@ -40,11 +41,11 @@ from screening.base.files import (
 )
 from screening.base.version import __version__
 from screening.inputs import dataset as ds
-from screening.inputs.export_files import FileInfo, long_columns, read_csv_rows
+from screening.inputs.export_files import FileInfo
+from screening.inputs.ingest_blocks import FileNotes, Rows, file_blocks
 from screening.inputs.loader import ExportIndex
 from screening.inputs.plant import Plant, load_plant
-from screening.inputs.tagdata import ExportError, as_text
-from screening.inputs.timestamps import parse_times
+from screening.inputs.tagdata import ExportError
 from screening.inputs.window import window_bounds
 
 #: Rows per Parquet row group of a partition (a month of one pump is one or a few groups).
@@ -159,22 +160,25 @@ def ingest(
     with ExitStack() as stack:
         staging = stack.enter_context(claimed_folder(out.parent, prefix, "staging"))
         stack.callback(shutil.rmtree, staging, ignore_errors=True)
+        stage = _Staging(staging, homes)
         for info in index.files:
             try:
-                table, label = _read_file(index, info, len(sources), kept, summary)
+                label = _read_file(
+                    index, info, len(sources), kept, summary, stage.start(len(sources))
+                )
             except ExportError as exc:
                 summary.files_not_read[str(info.path)] = str(exc)
                 continue
             sources.append(_file_record(info, label))
-            _stage(table, homes, staging, len(sources) - 1)
         if not sources:
             raise IngestError(
                 "no export file could be read: "
                 + "; ".join(f"{k}: {v}" for k, v in summary.files_not_read.items())
             )
         with atomic_folder(out, "dataset") as tmp:
-            for part in sorted(staging.glob("*/*")):
-                summary.rows += _write_partition(part, tmp / part.parent.name / part.name)
+            for part in sorted(stage.parts):
+                rows = _write_partition(stage.parts[part], tmp / part.parent.name / part.name)
+                summary.rows += rows
                 summary.partitions += 1
             manifest = _manifest(plant, sources, homes, summary, kept, window)
             (tmp / ds.MANIFEST).write_text(json.dumps(manifest, indent=1), encoding="utf-8")
@@ -220,185 +224,220 @@ def _homes(plant: Plant, index: ExportIndex) -> dict[str, str]:
     return homes
 
 
-def _read_file(
-    index: ExportIndex, info: FileInfo, ordinal: int, kept, summary: IngestSummary
-) -> tuple[pa.Table, str]:
-    """Every row of one export file as dataset rows; the label of its rows (row or line)."""
-    src = info.source
-    tags = sorted(info.tags)
-    if src.layout == "wide":
-        parts, label = _wide_columns(index, info, tags)
-    else:
-        parts, label = _long_rows(index, info, tags, summary)
+def _read_file(index: ExportIndex, info: FileInfo, ordinal: int, kept, summary: IngestSummary,
+               stage: _Staging) -> str:  # fmt: skip
+    """Every row of one export file as dataset rows, staged a block at a time; the label of
+    its rows (row or line). Nothing of a file that fails part-way is kept or counted."""
+    notes = FileNotes()
+    blocks, label = file_blocks(index, info, notes)
+    try:
+        for block in blocks:
+            stage.add(_block_table(index, block, ordinal, kept, notes))
+    except BaseException:
+        stage.discard()
+        raise
+    stage.keep()
     where = f"{info.path} {label} "
-    tag, times, ok, values, text, qual, rows, malformed = parts
-    if qual is not None:
-        words = qual.astype("string").str.strip().str.lower()
-        qual = words.where(words != "", None).to_numpy(dtype=object, na_value=None)
+    for kind, count, row in notes.places():
+        summary.note(kind, count, where + str(row))
+    summary.outside_window += notes.outside_window
+    return label
+
+
+def _block_table(index: ExportIndex, rows: Rows, ordinal: int, kept, notes: FileNotes):
+    """One block's rows as a table of the dataset's columns (tag codes as a dictionary);
+    its problems counted in ``notes``."""
+    if rows.quality is not None:
+        words = pd.Series(rows.quality, dtype=object).astype("string").str.strip().str.lower()
+        rows.quality = words.where(words != "", None).to_numpy(dtype=object, na_value=None)
     if kept != (None, None):
-        inside = ~ok | ((times >= kept[0]) & (times < kept[1]))
-        summary.outside_window += int((~inside).sum())
-        tag, times, ok, values, text, rows, malformed = (
-            x[inside] for x in (tag, times, ok, values, text, rows, malformed)
-        )
-        qual = qual[inside] if qual is not None else None
-    is_text = ok & ~pd.isna(text)
+        inside = ~rows.ok | ((rows.times >= kept[0]) & (rows.times < kept[1]))
+        notes.outside_window += int((~inside).sum())
+        rows = rows.take(inside)
+    ok, qual = rows.ok, rows.quality
+    is_text = ok & ~pd.isna(rows.text)
     flags = {
         "bad timestamp": ~ok,
         "text value": is_text,
-        "row with a wrong number of fields": ok & malformed,
-        "missing or infinite value": ok & ~is_text & ~malformed & ~np.isfinite(values),
+        "row with a wrong number of fields": ok & rows.malformed,
+        "missing or infinite value": ok & ~is_text & ~rows.malformed & ~np.isfinite(rows.values),
     }
     if qual is not None:
-        flags["bad quality"] = (
-            ok & ~pd.isna(qual) & ~pd.Series(qual).isin(index.good_quality).to_numpy()
-        )
+        good = pd.Series(qual).isin(index.good_quality).to_numpy()
+        flags["bad quality"] = ok & ~pd.isna(qual) & ~good
+    keys = rows.keys()
     for kind, mask in flags.items():
-        if mask.any():
-            summary.note(kind, int(mask.sum()), where + str(rows[mask][0]))
-    n = len(times)
-    table = pa.table(
+        notes.add(kind, mask, keys, rows.rows)
+    n = len(rows.times)
+    tag = pa.DictionaryArray.from_arrays(pa.array(rows.codes, pa.int32()),
+                                         pa.array(rows.tags, pa.string()))  # fmt: skip
+    return pa.table(
         {
-            "time": pa.array(times, pa.int64(), mask=~ok).cast(ds.SCHEMA.field("time").type),
-            "tag": pa.array(tag, pa.string()),
-            "value": pa.array(values, pa.float64()),
-            "text": pa.array(text, pa.string()),
-            "quality": pa.array(qual if qual is not None else [None] * n, pa.string()),
+            "time": pa.array(rows.times, pa.int64(), mask=~ok).cast(ds.SCHEMA.field("time").type),
+            "tag": tag,
+            "value": pa.array(rows.values, pa.float64()),
+            "text": _strings(rows.text, n),
+            "quality": _strings(qual, n),
             "source": pa.array(np.full(n, ordinal, np.int32)),
-            "row": pa.array(rows.astype(np.int64)),
-            "malformed": pa.array(malformed.astype(bool)),
-        },
-        schema=ds.SCHEMA,
+            "row": pa.array(rows.rows.astype(np.int64)),
+            "malformed": pa.array(rows.malformed.astype(bool)),
+        }
     )
-    return table, label
 
 
-def _wide_columns(index: ExportIndex, info: FileInfo, tags: list[str]):
-    """A wide file melted to rows: one per non-empty cell (an empty cell is not a sample)."""
-    src = info.source
-    if info.fmt == "parquet":
-        try:
-            table = pq.read_table(info.path, columns=[src.time_column, *tags])
-        except (pa.ArrowException, OSError) as exc:
-            raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
-        if info.timestamp_typed:  # as the loader's fast path: rows from 0
-            col = table.column(src.time_column).cast(pa.timestamp("ns", tz="UTC"))
-            ok = np.asarray(col.is_valid().to_numpy(zero_copy_only=False), dtype=bool)
-            times = col.cast(pa.int64()).fill_null(0).to_numpy(zero_copy_only=False)
-            frame = table.drop_columns([src.time_column]).to_pandas()
-            rows, label = np.arange(len(times)), "row"
-        else:
-            frame = table.to_pandas()
-            times, ok = parse_times(frame[src.time_column], index.timezone, None, src.date_order)
-            rows, label = np.arange(len(frame)), "row"
-        malformed = np.zeros(len(times), dtype=bool)
-    else:  # line numbers, and rows with more or fewer fields than the header
-        frame, rows, malformed = read_csv_rows(info.path, src, [src.time_column, *tags])
-        times, ok = parse_times(frame[src.time_column], index.timezone, None, src.date_order)
-        label = "line"
-    keys = ("tag", "times", "ok", "values", "text", "rows", "malformed")
-    out: dict[str, list] = {k: [] for k in keys}
-    for tag in tags:
-        raw = frame[tag]
-        present = raw.notna().to_numpy() | malformed  # a malformed row: a bad sample of each tag
-        values, text = _numbers(raw[present], src.decimal, malformed[present])
-        out["tag"].append(np.full(int(present.sum()), tag, dtype=object))
-        out["times"].append(times[present])
-        out["ok"].append(ok[present])
-        out["values"].append(values)
-        out["text"].append(text)
-        out["rows"].append(rows[present])
-        out["malformed"].append(malformed[present])
-    cat = {k: np.concatenate(v) if v else np.zeros(0) for k, v in out.items()}
-    return (cat["tag"].astype(object), cat["times"].astype(np.int64), cat["ok"].astype(bool),
-            cat["values"].astype(np.float64), cat["text"].astype(object), None,
-            cat["rows"].astype(np.int64), cat["malformed"].astype(bool)), label  # fmt: skip
+def _strings(words: np.ndarray | None, n: int) -> pa.Array:
+    """Words as a string column; all null without a Python list when there are none."""
+    if words is None or not pd.notna(words).any():
+        return pa.nulls(n, pa.string())
+    return pa.array(words, pa.string())
 
 
-def _long_rows(index: ExportIndex, info: FileInfo, tags: list[str], summary: IngestSummary):
-    """A long file's rows; a row without a tag is counted, and not kept."""
-    src = info.source
-    cols = long_columns(src)
-    if info.fmt == "parquet":
-        try:
-            frame = pq.read_table(info.path, columns=cols).to_pandas()
-        except (pa.ArrowException, OSError) as exc:
-            raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
-        rows, label = np.arange(len(frame)), "row"
-        malformed = np.zeros(len(frame), dtype=bool)
-        tag = frame[src.tag_column].astype("string")
-    else:
-        frame, rows, malformed = read_csv_rows(info.path, src, cols)
-        label = "line"
-        tag = frame[src.tag_column].astype("string").str.strip()
-    has_tag = (tag.notna() & (tag != "")).fillna(False).to_numpy(dtype=bool)
-    if not has_tag.all():
-        summary.note("no tag", int((~has_tag).sum()), f"{info.path} {label} {rows[~has_tag][0]}")
-        frame, rows, tag = frame[has_tag].reset_index(drop=True), rows[has_tag], tag[has_tag]
-        malformed = malformed[has_tag]
-    tag = tag.reset_index(drop=True)
-    times, ok = parse_times(frame[src.time_column], index.timezone, tag, src.date_order)
-    values, text = _numbers(frame[src.value_column], src.decimal, malformed)
-    qual = frame[src.quality_column] if src.quality_column else None
-    return (tag.to_numpy(dtype=object), times, ok, values, text, qual, rows, malformed), label
+class _Staging:
+    """The staged rows: one Parquet file per export file, folder and month, one row group per
+    tag and block, and the list of each folder-month's row groups by tag."""
+
+    def __init__(self, root: Path, homes: dict[str, str]):
+        self.root, self.homes = root, homes
+        self.parts: dict[Path, dict[str, list[tuple[Path, int]]]] = {}
+        self._open: dict[Path, list] = {}  # staged file -> [writer, row groups written]
+        self._new: list[tuple[Path, str, Path, int]] = []
+        self.ordinal = 0
+
+    def start(self, ordinal: int) -> _Staging:
+        self.ordinal, self._open, self._new = ordinal, {}, []
+        return self
+
+    def add(self, table: pa.Table) -> None:
+        """Stage one block's rows by folder, month and tag."""
+        if table.num_rows == 0:
+            return
+        tag = table.column("tag").combine_chunks()
+        names = tag.dictionary.to_pylist()
+        folders = np.array([self.homes.get(t, ds.OTHER_FOLDER) for t in names], dtype=object)
+        codes = tag.indices.to_numpy(zero_copy_only=False)
+        t = table.column("time").cast(pa.int64())
+        ok = t.is_valid().to_numpy(zero_copy_only=False)
+        ns = t.fill_null(0).to_numpy(zero_copy_only=False).astype("datetime64[ns]")
+        month = np.where(ok, ns.astype("datetime64[M]").astype(np.int64), -1)
+        table = table.set_column(1, "tag", tag.cast(pa.string()))
+        groups = pd.DataFrame({"c": codes, "m": month}).groupby(["c", "m"], sort=True).indices
+        for (c, m), idx in groups.items():
+            name = f"month={ds.UNPLACED}" if m < 0 else ds.month_name(np.datetime64(int(m), "M"))
+            part = self.root / folders[c] / name
+            path = part / f"{self.ordinal:06d}.parquet"
+            if path not in self._open:
+                part.mkdir(parents=True, exist_ok=True)
+                self._open[path] = [pq.ParquetWriter(path, STAGED, compression="none"), 0]
+            writer = self._open[path]
+            sub = table.take(pa.array(idx))
+            writer[0].write_table(sub, row_group_size=sub.num_rows)
+            self._new.append((part, names[c], path, writer[1]))
+            writer[1] += 1
+
+    def keep(self) -> None:
+        """The export file is read: its staged rows join the dataset's."""
+        self._close()
+        for part, tag, path, group in self._new:
+            self.parts.setdefault(part, {}).setdefault(tag, []).append((path, group))
+        self._new = []
+
+    def discard(self) -> None:
+        """The export file failed part-way: its staged rows are removed."""
+        self._close()
+        for path in {p for _, _, p, _ in self._new}:
+            path.unlink(missing_ok=True)
+        self._new = []
+
+    def _close(self) -> None:
+        for writer, _ in self._open.values():
+            writer.close()
+        self._open = {}
 
 
-def _numbers(raw: pd.Series, decimal: str, malformed: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Numbers [tag unit] and, where a value is not a number, its text (as the loader reads:
-    booleans are 1 and 0; the cell of a malformed row is not a text value)."""
-    if raw.dtype.kind in "fiub":
-        values = raw.to_numpy(dtype=np.float64, na_value=np.nan)
-        return values, np.full(len(values), None, dtype=object)
-    try:
-        text = raw.astype("string").str.strip()
-    except (UnicodeDecodeError, TypeError, ValueError):
-        text = pd.Series([as_text(v) for v in raw], dtype="string").str.strip()
-    if decimal != ".":
-        text = text.str.replace(decimal, ".", regex=False)
-    values = pd.to_numeric(text, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan)
-    is_text = np.isnan(values) & text.notna().to_numpy() & ~malformed
-    words = np.full(len(values), None, dtype=object)
-    words[is_text] = text[is_text].to_numpy(dtype=object)
-    return values, words
+#: The schema of staged rows (the dataset's; tags as strings).
+STAGED = ds.SCHEMA
 
 
-def _stage(table: pa.Table, homes: dict[str, str], staging: Path, ordinal: int) -> None:
-    """Write one file's rows into staging parts per folder and month."""
-    if table.num_rows == 0:
-        return
-    tags = table.column("tag").to_numpy(zero_copy_only=False)
-    folder = pd.Series(tags).map(homes).fillna(ds.OTHER_FOLDER).to_numpy()
-    t = table.column("time").cast(pa.int64())
-    ok = t.is_valid().to_numpy(zero_copy_only=False)
-    ns = t.fill_null(0).to_numpy(zero_copy_only=False).astype("datetime64[ns]")
-    month = np.where(ok, ns.astype("datetime64[M]").astype(np.int64), -1)
-    groups = pd.DataFrame({"f": folder, "m": month}).groupby(["f", "m"]).indices
-    for (f, m), idx in groups.items():
-        name = f"month={ds.UNPLACED}" if m < 0 else ds.month_name(np.datetime64(int(m), "M"))
-        path = staging / f / name / f"{ordinal:06d}.parquet"
-        path.parent.mkdir(parents=True, exist_ok=True)
-        pq.write_table(table.take(pa.array(idx)), path, compression="none")
-
-
-def _write_partition(staged: Path, final: Path) -> int:
+def _write_partition(groups: dict[str, list[tuple[Path, int]]], final: Path) -> int:
     """Sort one folder-month's staged rows by tag, time, source and row; write it (zstd).
 
-    Each tag's series is one run in time order, so the times and row numbers delta-encode to
-    a few bits each and the values (historians round them) dictionary-encode.
+    The tags are taken one at a time in order (each staged row group holds one tag). A tag
+    whose staged rows are already in order (blocks of a file in time order: the usual case)
+    is passed through a staged row group at a time, so memory is bounded by a row group;
+    another is read whole and sorted (memory: that tag's month). The row groups written are
+    those of the partition sorted whole (:data:`ROW_GROUP` rows each, then the rest). Each
+    tag's series is one run in time order, so the times and row numbers delta-encode to a few
+    bits each and the values (historians round them) dictionary-encode.
     """
-    table = pa.concat_tables([pq.read_table(p) for p in sorted(staged.glob("*.parquet"))])
-    table = table.sort_by([("tag", "ascending"), ("time", "ascending"),
-                           ("source", "ascending"), ("row", "ascending")])  # fmt: skip
     final.mkdir(parents=True, exist_ok=True)
-    pq.write_table(
-        table,
+    writer = pq.ParquetWriter(
         final / "part-0.parquet",
+        ds.SCHEMA,
         compression="zstd",
-        row_group_size=ROW_GROUP,
         use_dictionary=["tag", "value", "text", "quality", "source"],
         column_encoding={"time": "DELTA_BINARY_PACKED", "row": "DELTA_BINARY_PACKED"},
     )
-    return table.num_rows
+    out = _RowGroups(writer)
+    with writer:
+        for tag in sorted(groups):
+            pieces = _staged_pieces(groups[tag])
+            if _in_order(pieces):
+                for piece in pieces:
+                    out.add(piece())
+            else:
+                table = pa.concat_tables([piece() for piece in pieces])
+                out.add(table.sort_by([("time", "ascending"), ("source", "ascending"),
+                                       ("row", "ascending")]))  # fmt: skip
+        out.flush()
+    return out.total
+
+
+class _RowGroups:
+    """Rows given in order, written in row groups of :data:`ROW_GROUP` rows."""
+
+    def __init__(self, writer: pq.ParquetWriter):
+        self.writer, self.pending, self.waiting, self.total = writer, [], 0, 0
+
+    def add(self, table: pa.Table) -> None:
+        self.pending.append(table)
+        self.waiting += table.num_rows
+        self.total += table.num_rows
+        if self.waiting >= ROW_GROUP:
+            rest = pa.concat_tables(self.pending)
+            full = (self.waiting // ROW_GROUP) * ROW_GROUP
+            self.writer.write_table(rest.slice(0, full), row_group_size=ROW_GROUP)
+            self.pending, self.waiting = [rest.slice(full)], self.waiting - full
+
+    def flush(self) -> None:
+        if self.waiting:
+            self.writer.write_table(pa.concat_tables(self.pending), row_group_size=ROW_GROUP)
+        self.pending, self.waiting = [], 0
+
+
+def _staged_pieces(groups: list[tuple[Path, int]]) -> list:
+    """One tag's staged row groups, file by file, as functions that read them."""
+    files: dict[Path, pq.ParquetFile] = {}
+    pieces = []
+    for path, group in sorted(groups):
+        pf = files.setdefault(path, pq.ParquetFile(path))
+        pieces.append(lambda pf=pf, group=group, columns=None: pf.read_row_group(group, columns))
+    return pieces
+
+
+def _in_order(pieces: list) -> bool:
+    """Whether the rows of ``pieces`` are in (time, source, row) order (a null time last)."""
+    last = None
+    for piece in pieces:
+        keys = piece(columns=["time", "source", "row"])
+        t = keys.column("time").cast(pa.int64()).fill_null(np.iinfo(np.int64).max)
+        k = [np.asarray(c.to_numpy()) for c in (t, keys.column("source"), keys.column("row"))]
+        if last is not None:
+            k = [np.concatenate(([a], b)) for a, b in zip(last, k, strict=True)]
+        (gt_t, eq_t), (gt_s, eq_s), (gt_r, _) = ((x[1:] > x[:-1], x[1:] == x[:-1]) for x in k)
+        if not (gt_t | (eq_t & (gt_s | (eq_s & gt_r)))).all():
+            return False
+        last = [x[-1] for x in k]
+    return True
 
 
 def _sha256(path: Path) -> str:

@@ -45,6 +45,15 @@ DATE_ORDERS = ("day_first", "month_first")
 
 
 @dataclass
+class RepeatedHour:
+    """The clock times of the repeated hour already met in a file (with their tag, for the long
+    layout), carried from one block of a file's rows to the next so that a file read in blocks
+    resolves the repeated hour exactly as when it is read whole."""
+
+    keys: pd.Index | None = None
+
+
+@dataclass
 class DateNotes:
     """Rows whose day-month dates could not be placed, by why (positions in the column)."""
 
@@ -100,6 +109,7 @@ def parse_times(
     groups: pd.Series | None = None,
     date_order: str | None = None,
     notes: DateNotes | None = None,
+    repeated: RepeatedHour | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Parse a column of timestamps to UTC.
 
@@ -116,6 +126,9 @@ def parse_times(
         placed (see the module notes).
     notes : DateNotes, optional
         Filled with the day-month rows that could not be placed and why.
+    repeated : RepeatedHour, optional
+        The repeated hour's clock times met in earlier blocks of the same file (updated):
+        given when a file is parsed a block of rows at a time.
 
     Returns
     -------
@@ -131,7 +144,7 @@ def parse_times(
         utc = raw.dt.tz_convert("UTC")
         return _to_ns(utc)
     if pd.api.types.is_datetime64_dtype(raw.dtype):
-        return _localise(pd.Series(raw.to_numpy()), timezone, groups)
+        return _localise(pd.Series(raw.to_numpy()), timezone, groups, repeated)
     text = raw.astype("string").str.strip().str.replace(_ZERO_ZONE, "+00:00", regex=True)
     has_offset = text.str.contains(_OFFSET, regex=True, na=False).to_numpy()
     times = np.zeros(n, dtype=np.int64)
@@ -144,7 +157,7 @@ def parse_times(
     if naive.any():
         parsed = _parse_naive(text[naive], date_order, notes)
         sub = None if groups is None else groups[naive].reset_index(drop=True)
-        t, k = _localise(parsed, timezone, sub)
+        t, k = _localise(parsed, timezone, sub, repeated)
         times[naive], ok[naive] = t, k
     return times, ok
 
@@ -270,22 +283,31 @@ def _to_ns(parsed: pd.Series) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _localise(
-    naive: pd.Series, timezone: str, groups: pd.Series | None = None
+    naive: pd.Series,
+    timezone: str,
+    groups: pd.Series | None = None,
+    repeated: RepeatedHour | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Localise naive local times (file order kept) to UTC; see the module notes."""
     naive = pd.Series(pd.to_datetime(naive.to_numpy(), errors="coerce"))
     # Which local times are ambiguous: localise both ways and compare.
     early = naive.dt.tz_localize(timezone, ambiguous=True, nonexistent="NaT")
     late = naive.dt.tz_localize(timezone, ambiguous=False, nonexistent="NaT")
-    ambiguous = (early != late) & early.notna()
+    ambiguous = ((early != late) & early.notna()).to_numpy()
     if ambiguous.any():
+        clock = naive.to_numpy()[ambiguous]
         if groups is None:
-            first = ~naive[ambiguous].duplicated(keep="first")
+            keys = pd.Index(clock)
         else:
-            keys = pd.DataFrame({"g": groups.to_numpy(), "t": naive.to_numpy()})[ambiguous]
-            first = ~keys.duplicated(keep="first")
-        choice = pd.Series(True, index=naive.index)
-        choice[ambiguous] = first.to_numpy()
+            keys = pd.MultiIndex.from_arrays([groups.to_numpy()[ambiguous], clock])
+        first = ~keys.duplicated(keep="first")
+        if repeated is not None:
+            if repeated.keys is not None:
+                first &= ~keys.isin(repeated.keys)
+            met = keys[first]
+            repeated.keys = met if repeated.keys is None else repeated.keys.append(met)
+        choice = np.ones(len(naive), dtype=bool)
+        choice[ambiguous] = first
         local = early.where(~ambiguous | choice, late)
     else:
         local = early
