@@ -41,8 +41,6 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
-import platform
 import resource
 import statistics
 import subprocess
@@ -58,6 +56,7 @@ import pyarrow.parquet as pq
 
 # the checkout this script sits in is the one measured (a worktree beside an installed copy)
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+import runs  # noqa: E402  benchmarks/runs.py: the machine, the load, repeated runs
 
 DATA = Path(__file__).resolve().parent / "_data"
 FIXED_RANDOM_STATE = 20261203
@@ -294,23 +293,6 @@ def run_worker(kind: str, args) -> dict | None:
 
 
 # --- the report ----------------------------------------------------------------------------
-def cpu_model() -> str:
-    try:
-        for line in Path("/proc/cpuinfo").read_text().splitlines():
-            if line.startswith("model name"):
-                return line.split(":", 1)[1].strip()
-    except OSError:
-        pass
-    return platform.processor() or "unknown"
-
-
-def load() -> str:
-    try:
-        return " ".join(f"{x:.2f}" for x in os.getloadavg())
-    except OSError:
-        return "unknown"
-
-
 def report(args, r: dict[str, list[dict]]) -> None:
     """Print min and median of each measure and the targets (PASS or MISS)."""
 
@@ -385,15 +367,14 @@ def main() -> None:
     if "fleet" in args.only:
         ensure("fleet", args.pumps, FLEET_START, args.days)
     ensure("year", 1, YEAR_START, args.year_days)
-    print(f"CPU: {cpu_model()}; {os.cpu_count()} cores; Python {platform.python_version()}")
-    print(f"load average before: {load()}")
+    before = runs.load()
     results: dict[str, list[dict]] = {}
     for kind in args.only:
-        runs = 1 if kind == "same" else args.runs
-        for i in range(runs):
-            print(f"measuring {kind} ({i + 1}/{runs}) ...", flush=True)
+        count = 1 if kind == "same" else args.runs
+        for i in range(count):
+            print(f"measuring {kind} ({i + 1}/{count}) ...", flush=True)
             results.setdefault(kind, []).append(run_worker(kind, args))
-    print(f"load average after: {load()}")
+    print(runs.machine_text(before, runs.load()))
     report(args, results)
 
 
