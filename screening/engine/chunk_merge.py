@@ -134,7 +134,7 @@ def merge_quality(parts: list[dict], gaps: dict, start_ns: int, index) -> dict:
         if found:
             stretches = tuple(np.concatenate([f[k] for f in found]) for k in range(4))
             q.gaps, missing, q.longest_gaps = gaps_summary(stretches, start_ns)
-            q.gap_hours = missing / 3.6e12
+            q.gap_hours = missing / NS_PER_HOUR
         out[role] = q
     return out
 

@@ -26,6 +26,7 @@ one-second CSV goes through ``pumpscreen ingest`` first (docs/scale.md).
 from __future__ import annotations
 
 import dataclasses
+import tempfile
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -169,8 +170,6 @@ class PointSpill:
 
     def __enter__(self):
         if self.active:
-            import tempfile
-
             self._dir = tempfile.TemporaryDirectory(prefix="pumpscreen-points-")
             self._token = plotdata.POINT_SINK.set(self._keep)
         return self

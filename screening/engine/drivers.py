@@ -57,6 +57,12 @@ COLUMNS = {
 }
 
 
+def known_pieces(series: pd.DataFrame) -> np.ndarray:
+    """Which pieces of a per-piece series ran with a known margin: a margin band as their
+    state and some time [h] in the window."""
+    return series["state"].isin(BANDS).to_numpy() & (series["hours"].to_numpy() > 0)
+
+
 def drivers_for(pump: PumpSpec) -> tuple[str, ...]:
     """The inputs that move a pump's margin, in report order."""
     if pump.source == "transmitter":
@@ -184,7 +190,7 @@ def fit_baseline(
         When the baseline has no running piece with a known margin.
     """
     names = drivers_for(pump)
-    ok = series["state"].isin(BANDS).to_numpy() & (series["hours"].to_numpy() > 0)
+    ok = known_pieces(series)
     base = ok & baseline_mask
     if not base.any():
         raise ValueError("the baseline period has no running sample with a known margin")
@@ -268,7 +274,7 @@ def driver_shares(
     """
     names = drivers_for(pump)
     model = model or fit_baseline(series, pump, baseline_mask)
-    ok = series["state"].isin(BANDS).to_numpy() & (series["hours"].to_numpy() > 0)
+    ok = known_pieces(series)
     data = {k: series[COLUMNS[k]].to_numpy(dtype=np.float64)[ok] for k in names}
     if model.friction != 0.0:
         data["suction_pressure"] = (

@@ -8,12 +8,12 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from screening.base.states import BANDS
 from screening.engine.drivers import (
     driver_shares,
     drivers_for,
     expected_npsha,
     fit_baseline,
+    known_pieces,
     weighted_median,
 )
 from screening.inputs.plant import Plant
@@ -43,9 +43,15 @@ def whole_series(plant: Plant, pump_id: str, result, baseline, search_from, cut,
     return {"episodes": eps, "drivers": drivers, "notes": notes, "resid": daily_resid}
 
 
+def scanned_or_raise(result, pump_id: str) -> None:
+    """A clear error when the scan could not screen the pump (its problem's message)."""
+    if pump_id not in result.extras and pump_id not in result.series:
+        raise ValueError(f"pump {pump_id}: {result.problems['message'].iloc[0]}")
+
+
 def check_has_data(series: pd.DataFrame, pump_id: str, start, end) -> None:
     """A clear error when the window holds no running sample with a known margin."""
-    known = series["state"].isin(BANDS).to_numpy() & (series["hours"].to_numpy() > 0)
+    known = known_pieces(series)
     if not known.any():
         states = series.groupby("state")["hours"].sum().sort_values(ascending=False)
         found = ", ".join(f"{k} {v:.0f} h" for k, v in states.items() if v > 0)
@@ -62,7 +68,7 @@ def baseline_pieces(
     """Masks of the pieces in the baseline and of those running with a known margin."""
     times = series["time"]
     base = ((times >= base_a) & (times < base_b)).to_numpy()
-    known = series["state"].isin(BANDS).to_numpy() & (series["hours"].to_numpy() > 0)
+    known = known_pieces(series)
     if not (base & known).any():
         raise ValueError(
             f"pump {pump_id}: the baseline {base_a} to {base_b} (UTC) has no running sample with "

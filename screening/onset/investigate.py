@@ -221,8 +221,7 @@ def _check_pump(plant: Plant, pump_id: str) -> None:
 def _scan_pump(plant: Plant, pump_id: str, start, end):
     """Scan one pump over the window keeping its per-piece series; a clear error if it can't."""
     result = scan(plant, start, end, pumps=[pump_id], keep_series=True)
-    if pump_id not in result.series:
-        raise ValueError(f"pump {pump_id}: {result.problems['message'].iloc[0]}")
+    evidence.scanned_or_raise(result, pump_id)
     return result
 
 

@@ -19,17 +19,21 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from screening.base.states import BANDS
 from screening.engine.chunked import chunk_days
-from screening.engine.drivers import COLUMNS, drivers_for, expected_npsha, fit_baseline
+from screening.engine.drivers import (
+    COLUMNS,
+    drivers_for,
+    expected_npsha,
+    fit_baseline,
+    known_pieces,
+)
 from screening.engine.scan import scan
 from screening.inputs.loader import open_exports
 from screening.inputs.window import day_edges
 from screening.onset import episodes as ep
 from screening.onset import evidence
+from screening.onset.episodes import NS_PER_HOUR
 from screening.physics.properties import fluid_table
-
-NS_PER_HOUR = 3_600_000_000_000
 
 
 def in_chunks(plant, pump_id: str, win) -> bool:
@@ -52,16 +56,11 @@ def _baseline_rows(plant, pump_id: str, win, baseline) -> pd.DataFrame:
 
     result = scan(plant, win[0], pd.Timestamp(int(end), tz="UTC"), pumps=[pump_id],
                   each_chunk=keep)  # fmt: skip
-    _raise_if_failed(result, pump_id)
+    evidence.scanned_or_raise(result, pump_id)
     parts = [p for p in result.extras[pump_id] if len(p)]
     if not parts:
         return pd.DataFrame({c: [] for c in names})
     return pd.concat(parts, ignore_index=True) if len(parts) > 1 else parts[0]
-
-
-def _raise_if_failed(result, pump_id: str) -> None:
-    if pump_id not in result.extras:
-        raise ValueError(f"pump {pump_id}: {result.problems['message'].iloc[0]}")
 
 
 class _Chunks:
@@ -84,7 +83,7 @@ class _Chunks:
 
     def __call__(self, _plant, result) -> None:
         s = result.series
-        self.known |= bool((s["state"].isin(BANDS).to_numpy() & (s["hours"].to_numpy() > 0)).any())
+        self.known |= bool(known_pieces(s).any())
         pump = self.pump
         shares, grouped = evidence.driver_sums(self.plant, pump, self.curve, self.table, s,
                                            np.zeros(len(s), dtype=bool), self.model)  # fmt: skip
@@ -135,7 +134,7 @@ def investigate_in_chunks(plant, pump_id: str, win, baseline, since, cut, eps_ru
 
     rows = _baseline_rows(plant, pump_id, win, baseline)
     every = np.ones(len(rows), dtype=bool)
-    known = rows["state"].isin(BANDS).to_numpy() & (rows["hours"].to_numpy() > 0)
+    known = known_pieces(rows)
     if not known.any():
         evidence.baseline_pieces(rows, pump_id, *baseline)  # raises, saying so
     model = fit_baseline(rows, plant.pumps[pump_id], every)
@@ -143,7 +142,7 @@ def investigate_in_chunks(plant, pump_id: str, win, baseline, since, cut, eps_ru
     del rows
     hook = _Chunks(plant, pump_id, model, since, cut, eps_rules)
     result = scan(plant, win[0], win[1], pumps=[pump_id], each_chunk=hook)
-    _raise_if_failed(result, pump_id)
+    evidence.scanned_or_raise(result, pump_id)
     if not hook.known:
         hours = result.hours[(result.hours["pump_id"] == pump_id)]
         evidence.check_has_data(_as_series(hours), pump_id, result.start, result.end)

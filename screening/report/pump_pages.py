@@ -20,7 +20,7 @@ from screening.engine.one_pump import BELOW_VAPOUR_FLAG
 from screening.inputs.units import si_to
 from screening.physics.curves import exponent_text
 from screening.physics.regions import MIN_FLOW_NOT_REGISTERED
-from screening.report.figjson import numbers
+from screening.report.figjson import label_at, numbers, vline
 from screening.report.palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
 
 
@@ -167,8 +167,10 @@ def points_figure(
 
 
 def calendar_figure(daily: pd.DataFrame) -> dict:
-    """Stacked daily hours [h] per margin state (one bar per local day)."""
-    wide = _wide_days(daily)
+    """Stacked daily hours [h] per margin state (one bar per local day), from one pump's rows
+    of the daily table in any layout (:func:`calendars_by_pump` does every pump at once where
+    the table is laid out as the scan writes it)."""
+    wide = daily.pivot(index="date", columns="state", values="hours")
     return calendar_of(
         [str(d) for d in wide.index], {s: wide[s] for s in states.STATES if s in wide}
     )
@@ -210,16 +212,6 @@ def _laid_out(state: np.ndarray) -> bool:
         and not len(state) % n
         and np.array_equal(state, np.tile(states.STATES, len(state) // n))
     )
-
-
-def _wide_days(daily: pd.DataFrame) -> pd.DataFrame:
-    """Hours [h] by day (rows) and margin state (columns): a reshape of the scan's daily table,
-    else a pivot (the same frame, ten times slower)."""
-    n = len(states.STATES)
-    if not _laid_out(daily["state"].to_numpy()):
-        return daily.pivot(index="date", columns="state", values="hours")
-    hours = daily["hours"].to_numpy(dtype=np.float64).reshape(-1, n)
-    return pd.DataFrame(hours, index=daily["date"].to_numpy()[::n], columns=list(states.STATES))
 
 
 def calendars_by_pump(daily: pd.DataFrame) -> dict[str, dict] | None:
@@ -416,12 +408,9 @@ def mark_events(fig: dict, events: pd.DataFrame, tz: str) -> dict:
     for i, e in enumerate(events.itertuples(index=False) if len(events) else ()):
         x = f"{pd.Timestamp(e.time).tz_convert(tz):%Y-%m-%d %H:%M}"
         failure = e.kind == "failure"
-        shapes.append({"type": "line", "xref": "x", "yref": "paper", "x0": x, "x1": x,
-                       "y0": 0, "y1": 1, "line": {"color": "#1d1d1d" if failure else "#3d7a4a",
-                       "width": 1.5, "dash": "solid" if failure else "dot"}})  # fmt: skip
-        notes.append({"x": x, "xref": "x", "yref": "paper", "y": 1.0 + 0.06 * (i % 2),
-                      "yanchor": "bottom", "text": e.kind.replace("_", " "), "showarrow": False,
-                      "font": {"size": 11}})  # fmt: skip
+        colour, dash = ("#1d1d1d", "solid") if failure else ("#3d7a4a", "dot")
+        shapes.append(vline(x, colour, dash))
+        notes.append(label_at(x, e.kind.replace("_", " "), 1.0 + 0.06 * (i % 2), size=11))
     layout = fig.setdefault("layout", {})
     layout["shapes"] = layout.get("shapes", []) + shapes
     layout["annotations"] = layout.get("annotations", []) + notes
