@@ -8,9 +8,10 @@ import dataclasses
 import numpy as np
 import pandas as pd
 
+from screening.base.read_kernels import overflow_frozen
 from screening.engine.calculator import Settings
 from screening.inputs.pumpspec import TagSpec
-from screening.inputs.quality import frozen_continued, frozen_samples
+from screening.inputs.quality import frozen_continued
 from screening.inputs.tagdata import TagSeries
 from screening.inputs.units import to_si
 
@@ -49,27 +50,20 @@ def prepare_tag(
             values = to_si(series.values, spec.unit, spec.kind)
             if spec.scale != 1.0:  # a drive frequency: n = n_rated·f/f_rated (register)
                 values = values * spec.scale
-    bad = series.bad.copy()
-    # a finite reading that overflows on conversion (1e308 kPa) is not a number either
-    overflow = ~np.isfinite(values) & ~bad
-    if overflow.any():
-        bad |= overflow
-        if overflow[mine].any():
-            q.not_finite += int(overflow[mine].sum())
-            t = series.times[mine][overflow[mine]][0]
-            q.note("not_finite", _at(t, "too large to convert to SI"))
-    if settings.frozen_after is not None and role != "run":
-        limit = int(settings.frozen_after * 1e9)
-        if chunk is None:
-            frozen = frozen_samples(series.times, values, bad, limit)
-        else:
+    frozen_on = settings.frozen_after is not None and role != "run"
+    limit = int(settings.frozen_after * 1e9) if frozen_on else 0
+    if chunk is None:  # one pass: overflowed and frozen samples, counted
+        bad = _overflow_frozen(series, values, q, frozen_on, limit)
+    else:
+        bad = _overflow(series, values, q, mine)
+        if frozen_on:
             frozen, chunk.frozen[key] = frozen_continued(
                 series.times, values, bad, limit, chunk.frozen.get(key), chunk.end
             )
-        frozen &= ~bad
-        if frozen.any():
-            q.frozen = int(frozen[mine].sum())
-            bad |= frozen
+            frozen &= ~bad
+            if frozen.any():
+                q.frozen = int(frozen[mine].sum())
+                bad |= frozen
     if check is not None:
         with np.errstate(invalid="ignore"):
             impossible = check(values) & ~bad
@@ -80,3 +74,31 @@ def prepare_tag(
                 t = series.times[mine][impossible[mine]][0]
                 q.note("out_of_range", _at(t, "physically impossible"))
     return TagSeries(series.tag, series.times, values, bad, q, series.max_interval)
+
+
+def _overflow_frozen(series: TagSeries, values, q, frozen_on: bool, limit: int) -> np.ndarray:
+    """The bad flags of a whole series with the samples that overflowed on conversion (a
+    finite reading such as 1e308 kPa is not a number in SI either) and, when ``frozen_on``,
+    the frozen ones (:func:`screening.inputs.quality.frozen_samples` with ``limit`` [ns])
+    added and counted into ``q``."""
+    bad, counts = overflow_frozen(series.times, values, series.bad, np.int64(limit), frozen_on)
+    if counts[0]:
+        q.not_finite += int(counts[0])
+        q.note("not_finite", _at(series.times[counts[1]], "too large to convert to SI"))
+    if counts[2]:
+        q.frozen = int(counts[2])
+    return bad
+
+
+def _overflow(series: TagSeries, values, q, mine) -> np.ndarray:
+    """The bad flags with the samples that overflowed on conversion added, those in ``mine``
+    counted into ``q``."""
+    bad = series.bad.copy()
+    overflow = ~np.isfinite(values) & ~bad
+    if overflow.any():
+        bad |= overflow
+        if overflow[mine].any():
+            q.not_finite += int(overflow[mine].sum())
+            t = series.times[mine][overflow[mine]][0]
+            q.note("not_finite", _at(t, "too large to convert to SI"))
+    return bad

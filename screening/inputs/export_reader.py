@@ -25,6 +25,7 @@ from screening.inputs.tagdata import (
     TagQuality,
     TagSeries,
     add_chunk,
+    add_numbers,
     as_text,
     assemble,
     unexpected,
@@ -180,12 +181,16 @@ class TagReader:
         col = table.column(info.source.time_column).cast(pa.timestamp("ns", tz="UTC"))
         times = col.to_numpy(zero_copy_only=False).view(np.int64)
         ok = ~np.asarray(col.is_null().to_numpy(zero_copy_only=False), dtype=bool)
-        rows = np.arange(len(times)) if rows is None else rows
+        rows = np.arange(len(times), dtype=np.int64) if rows is None else rows
+        times.setflags(write=False)  # shared by the tags read whole (add_numbers)
         for tag in tags:
             column = table.column(tag)
             if pa.types.is_floating(column.type) or pa.types.is_integer(column.type):
                 raw = column.to_numpy(zero_copy_only=False).astype(np.float64, copy=False)
-                present = ~np.isnan(raw)  # a null (or NaN) cell: not sampled at this instant
+                if self._count is None:  # a null (or NaN) cell: not sampled at this instant
+                    add_numbers(tag, info.path, raw, times, ok, rows, chunks, quality, span)
+                    continue
+                present = ~np.isnan(raw)
             else:
                 raw = column.to_pandas()
                 present = raw.notna().to_numpy()

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from screening.base.read_kernels import long_steps
+
 
 def frozen_samples(times: np.ndarray, values: np.ndarray, bad: np.ndarray, limit_ns: int):
     """Flag samples of a transmitter that has reported exactly the same value for too long.
@@ -83,19 +85,22 @@ def gap_stretches(
     the gap count of one time chunk. ``open_`` is the stretch the chunk before left open, as
     (its begin [ns], the hold of its first sample [ns]); None at the window's start. Returns
     (begin, stop, length, missing) of the gaps [ns] and the stretch left open."""
+    times = np.asarray(times, dtype=np.int64)
     lo, hi = np.searchsorted(times, [a, b])
-    inside = np.asarray(times[lo:hi], dtype=np.int64)
     if open_ is None:
         first = times[lo - 1] if lo > 0 else None
         held = first is not None and first + limit_ns > start_ns
         open_ = (int(first), limit_ns) if held else (start_ns, 0)
-    points = np.concatenate(([open_[0]], inside, [end_ns] if final else [])).astype(np.int64)
     hold0 = open_[1]  # the first stretch's: the sample it begins at holds (or none does)
+    # the stretches between the points open_[0], the samples and (when final) end_ns; only
+    # those longer than the limit are gaps: the rest is never looked at again
+    over, begin, stop = long_steps(
+        times, int(lo), int(hi), np.int64(open_[0]), np.int64(end_ns), final, np.int64(limit_ns)
+    )
     if not final:
-        open_ = (int(points[-1]), limit_ns if len(inside) else hold0)
-    # only the stretches longer than the limit are gaps: the rest is never looked at again
-    over = np.flatnonzero(np.diff(points) > limit_ns)
-    begin, stop = points[over], points[over + 1]
+        open_ = (int(times[hi - 1]) if hi > lo else int(open_[0]), limit_ns if hi > lo else hold0)
+    if len(over) == 0:
+        return (begin, stop, stop - begin, np.zeros(0, dtype=np.int64)), open_
     hold = np.where(over == 0, hold0, limit_ns)
     length = stop - begin
     missing = np.clip(np.minimum(stop, end_ns) - np.maximum(begin + hold, start_ns), 0, None)

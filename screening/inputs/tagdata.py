@@ -15,6 +15,8 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 
+from screening.base.read_kernels import strictly_increasing, wide_column
+
 
 class ExportError(ValueError):
     """An export file that cannot be read; the message names the file and the column."""
@@ -141,6 +143,36 @@ def add_chunk(
         bad, values = count_part(q, where, times, values, is_text, text, bad_q, rows, malformed,
                                   status, count)  # fmt: skip
     chunks[tag].append((times, values, bad, (where, rows)))
+
+
+def add_numbers(tag, path, raw, times, ok, rows, chunks, quality, span=None) -> None:
+    """:func:`add_chunk` of a wide file's column of numbers with every sample counted (no
+    ``count`` span), in one compiled pass: ``raw`` float64 with NaN for an empty cell (not
+    sampled), ``times`` [ns] and ``ok`` (a time was placed) of every row, ``rows`` their
+    numbers. The same chunk and the same counts and first places (bad timestamps, infinite
+    values, steps back in time) as :func:`add_chunk`; when every row is kept the chunk holds
+    the arrays given (shared by the file's tags: never written to)."""
+    lo, hi = span if span is not None else (0, 0)
+    kept, all_kept, t, v, r, bad, c = wide_column(
+        times, ok, raw, rows, np.int64(lo), np.int64(hi), span is not None
+    )
+    if c[6] == 0:  # nothing sampled (in the span): as add_chunk, no chunk
+        return
+    q: TagQuality = quality[tag]
+    where = f"{path} row "
+    if c[0]:
+        q.bad_timestamps += int(c[0])
+        q.note("bad timestamp", where + str(c[1]))
+    if c[2]:
+        q.not_finite += int(c[2])
+        q.note("missing or infinite value", where + str(c[3]))
+    if c[4]:
+        q.out_of_order += int(c[4])
+        q.note("out of order", where + str(c[5]))
+    q.samples += int(kept)
+    if all_kept:
+        t, v, r = times, raw, rows
+    chunks[tag].append((t, v, bad, (where, r)))
 
 
 def count_part(q, where, times, values, is_text, text, bad_q, rows, malformed, words, count):
@@ -271,7 +303,7 @@ def assemble(tag: str, parts: list[tuple], q: TagQuality, count=None) -> TagSeri
         times = np.zeros(0, np.int64)
         values = np.zeros(0)
         bad = np.zeros(0, bool)
-    if len(times) > 1 and not np.all(times[1:] > times[:-1]):
+    if len(times) > 1 and not strictly_increasing(times):
         if np.any(times[1:] < times[:-1]):
             order = np.argsort(times, kind="stable")
             times, values, bad = times[order], values[order], bad[order]

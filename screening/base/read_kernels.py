@@ -1,0 +1,271 @@
+"""Compiled single passes (numba) over one tag's samples for the readers and checks, with plain
+numpy forms giving the same results.
+
+Reading a wide export file and making its tags ready took about ten numpy passes per tag and
+step (a mask, then a copy of each array through the mask, then one comparison per kind of
+problem), each allocating a temporary as long as the tag; at a month of one-minute data these
+passes, not the decoding of the file, were most of the reading time
+(benchmarks/bench_scan.py). Each kernel below walks the samples once and returns the arrays
+the numpy steps returned together with the counts and the first places the callers report.
+The callers in :mod:`screening.inputs.tagdata`, :mod:`screening.inputs.quality` and
+:mod:`screening.engine.prepare` keep every message; a test compares each kernel with its
+numpy form.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from screening.base.kernels import _compile
+
+# ----------------------------------------------------------------- one wide column of numbers
+
+
+def wide_column_numpy(times, ok, raw, rows, lo, hi, use_span):
+    """One numeric column of a wide file as the readers count it (numpy form).
+
+    ``raw`` [any unit] with NaN for an empty cell (not sampled), ``times`` [ns] and ``ok``
+    (a time was placed) per row, ``rows`` the row numbers; with ``use_span`` only samples with
+    ``lo <= time < hi`` [ns] are kept (and every sample without a time, which is counted).
+
+    Returns ``(kept, all_kept, t, v, r, bad, counts)``: how many samples have a time, whether
+    those are every row (then ``t``, ``v`` and ``r`` are empty and the caller uses the
+    inputs as they are), the kept samples' times [ns], values and rows, which of them are
+    infinite (``bad``), and ``counts`` = (bad times, the row of the first, infinite values,
+    the row of the first, steps back in time, the row of the first later sample, samples
+    without a time or in the span, 1 when the kept times strictly increase), a row being -1
+    where there is none.
+    """
+    present = ~np.isnan(raw)
+    untimed = present & ~ok
+    timed = present & ok
+    if use_span:
+        timed &= (times >= lo) & (times < hi)
+    idx = np.flatnonzero(timed)
+    t, v, r = times[idx], raw[idx], rows[idx]
+    bad = np.isinf(v)
+    back = np.flatnonzero(np.diff(t) < 0)
+    first_bad_time = np.flatnonzero(untimed)
+    counts = np.array(
+        [
+            int(untimed.sum()),
+            int(rows[first_bad_time[0]]) if len(first_bad_time) else -1,
+            int(bad.sum()),
+            int(r[np.flatnonzero(bad)[0]]) if bad.any() else -1,
+            len(back),
+            int(r[back[0] + 1]) if len(back) else -1,
+            int(untimed.sum()) + len(idx),
+            int(bool(np.all(t[1:] > t[:-1]))),
+        ],
+        dtype=np.int64,
+    )
+    n = len(raw)
+    if len(idx) == n:
+        empty = np.zeros(0, dtype=np.int64)
+        return n, True, empty, np.zeros(0), empty, bad, counts
+    return len(idx), False, t, v, r, bad, counts
+
+
+def _wide_column_loop(times, ok, raw, rows, lo, hi, use_span):  # pragma: no cover - compiled
+    """One numeric column of a wide file as the readers count it, in two passes."""
+    n = raw.shape[0]
+    idx = np.empty(n, np.int64)
+    kept = 0
+    bad_times = 0
+    first_bad_time = -1
+    for i in range(n):
+        x = raw[i]
+        if x != x:  # an empty cell: not sampled at this instant
+            continue
+        if not ok[i]:  # a sample without a time: counted whatever the span
+            bad_times += 1
+            if first_bad_time < 0:
+                first_bad_time = rows[i]
+            continue
+        if use_span and not (times[i] >= lo and times[i] < hi):
+            continue
+        idx[kept] = i
+        kept += 1
+    all_kept = kept == n
+    m = 0 if all_kept else kept
+    t = np.empty(m, np.int64)
+    v = np.empty(m)
+    r = np.empty(m, np.int64)
+    bad = np.empty(kept, np.bool_)
+    infinite = 0
+    first_infinite = -1
+    back = 0
+    first_back = -1
+    increasing = 1
+    for j in range(kept):
+        i = idx[j]
+        x = raw[i]
+        if not all_kept:
+            t[j] = times[i]
+            v[j] = x
+            r[j] = rows[i]
+        b = x == np.inf or x == -np.inf
+        bad[j] = b
+        if b:
+            infinite += 1
+            if first_infinite < 0:
+                first_infinite = rows[i]
+        if j > 0:
+            step = times[i] - times[idx[j - 1]]
+            if step <= 0:
+                increasing = 0
+                if step < 0:
+                    back += 1
+                    if first_back < 0:
+                        first_back = rows[i]
+    counts = np.empty(8, np.int64)
+    counts[0] = bad_times
+    counts[1] = first_bad_time
+    counts[2] = infinite
+    counts[3] = first_infinite
+    counts[4] = back
+    counts[5] = first_back
+    counts[6] = bad_times + kept
+    counts[7] = increasing
+    return kept, all_kept, t, v, r, bad, counts
+
+
+# ------------------------------------------------------- overflow and frozen transmitters
+
+
+def overflow_frozen_numpy(times, values, bad, limit_ns, frozen_on):
+    """Samples not finite (an overflow on conversion to SI) and, when ``frozen_on``, samples
+    of a run of identical good non-zero values that has lasted more than ``limit_ns`` [ns]
+    (numpy form of :func:`screening.inputs.quality.frozen_samples` after the overflow).
+
+    Returns ``(bad, counts)``: ``bad`` the input's bad flags with both added, ``counts`` =
+    (samples not finite that were good, the index of the first, frozen samples)."""
+    overflow = ~np.isfinite(values) & ~bad
+    out = bad | overflow
+    first = np.flatnonzero(overflow)
+    frozen_n = 0
+    if frozen_on and len(values) >= 2:
+        same = (values[1:] == values[:-1]) & ~out[1:] & ~out[:-1] & (values[1:] != 0)
+        if same.any():
+            new_run = np.concatenate(([True], ~same))
+            start = times[np.flatnonzero(new_run)][np.cumsum(new_run) - 1]
+            frozen = ((times - start) > limit_ns) & ~out
+            frozen_n = int(frozen.sum())
+            out |= frozen
+    counts = np.array(
+        [int(overflow.sum()), int(first[0]) if len(first) else -1, frozen_n], dtype=np.int64
+    )
+    return out, counts
+
+
+def _overflow_frozen_loop(times, values, bad, limit_ns, frozen_on):  # pragma: no cover
+    """Overflowed and frozen samples in one pass (and a second only where some are frozen)."""
+    n = values.shape[0]
+    out = np.empty(n, np.bool_)
+    held = np.empty(n, np.bool_)  # the run has lasted longer than the limit at this sample
+    overflow = 0
+    first = -1
+    same_any = False
+    start = 0
+    for i in range(n):
+        x = values[i]
+        b = bad[i]
+        if not b and not np.isfinite(x):
+            overflow += 1
+            if first < 0:
+                first = i
+            b = True
+        out[i] = b
+        if frozen_on:
+            if i > 0 and x == values[i - 1] and not b and not out[i - 1] and x != 0:
+                same_any = True
+            else:
+                start = times[i]
+            held[i] = (times[i] - start) > limit_ns
+    frozen = 0
+    if frozen_on and same_any and n >= 2:
+        for i in range(n):
+            if held[i] and not out[i]:
+                out[i] = True
+                frozen += 1
+    counts = np.empty(3, np.int64)
+    counts[0] = overflow
+    counts[1] = first
+    counts[2] = frozen
+    return out, counts
+
+
+# ------------------------------------------------------------------------ gaps and order
+
+
+def long_steps_numpy(times, lo, hi, first, end, final, limit_ns):
+    """The steps longer than ``limit_ns`` [ns] along the points ``first``, ``times[lo:hi]``
+    and (when ``final``) ``end`` [ns] (numpy form): their index among the steps, and the
+    points they begin and stop at [ns]."""
+    tail = [end] if final else []
+    points = np.concatenate(([first], times[lo:hi], tail)).astype(np.int64)
+    over = np.flatnonzero(np.diff(points) > limit_ns)
+    return over, points[over], points[over + 1]
+
+
+def _long_steps_loop(times, lo, hi, first, end, final, limit_ns):  # pragma: no cover
+    """The steps longer than the limit along the points, in one pass."""
+    m = hi - lo + (1 if final else 0)
+    over = np.empty(m, np.int64)
+    begin = np.empty(m, np.int64)
+    stop = np.empty(m, np.int64)
+    k = 0
+    prev = first
+    for j in range(lo, hi):
+        t = times[j]
+        if t - prev > limit_ns:
+            over[k] = j - lo
+            begin[k] = prev
+            stop[k] = t
+            k += 1
+        prev = t
+    if final and end - prev > limit_ns:
+        over[k] = hi - lo
+        begin[k] = prev
+        stop[k] = end
+        k += 1
+    return over[:k], begin[:k], stop[:k]
+
+
+def strictly_increasing_numpy(times) -> bool:
+    """Whether every time [ns] is later than the one before (numpy form)."""
+    return bool(np.all(times[1:] > times[:-1]))
+
+
+def _strictly_increasing_loop(times):  # pragma: no cover - compiled
+    """Whether every time is later than the one before; stops at the first that is not."""
+    for i in range(1, times.shape[0]):
+        if times[i] <= times[i - 1]:
+            return False
+    return True
+
+
+wide_column = _compile(_wide_column_loop, wide_column_numpy)
+overflow_frozen = _compile(_overflow_frozen_loop, overflow_frozen_numpy)
+long_steps = _compile(_long_steps_loop, long_steps_numpy)
+strictly_increasing = _compile(_strictly_increasing_loop, strictly_increasing_numpy)
+
+
+def _warm_up() -> None:
+    """Load (or compile, the first time) every kernel at import, for the types the readers
+    pass (numba compiles a read-only array, such as one Arrow lends, as a type of its own),
+    so that the first tag read pays nothing (see :func:`screening.base.kernels._warm_up`)."""
+    yes = np.ones(2, dtype=np.bool_)
+    for write in (True, False):
+        t = np.array([0, 1], dtype=np.int64)
+        x = np.array([0.0, 1.0])
+        t.setflags(write=write)
+        x.setflags(write=write)
+        for raw in (x, np.array([0.0, 1.0])):
+            wide_column(t, yes, raw, np.array([0, 1]), np.int64(0), np.int64(2), True)
+        overflow_frozen(t, x, ~yes, np.int64(1), True)
+        long_steps(t, 0, 2, np.int64(0), np.int64(3), True, np.int64(1))
+        strictly_increasing(t)
+
+
+_warm_up()
