@@ -21,12 +21,14 @@ from screening.base.kernels import _compile
 # ----------------------------------------------------------------- one wide column of numbers
 
 
-def wide_column_numpy(times, ok, raw, rows, lo, hi, use_span):
+def wide_column_numpy(times, ok, raw, rows, lo, hi, use_span, ordered=False):
     """One numeric column of a wide file as the readers count it (numpy form).
 
     ``raw`` [any unit] with NaN for an empty cell (not sampled), ``times`` [ns] and ``ok``
     (a time was placed) per row, ``rows`` the row numbers; with ``use_span`` only samples with
     ``lo <= time < hi`` [ns] are kept (and every sample without a time, which is counted).
+    ``ordered``: the placed times of the file strictly increase (a shortcut of the compiled
+    form; the result is the same).
 
     Returns ``(kept, all_kept, t, v, r, bad, counts)``: how many samples have a time, whether
     those are every row (then ``t``, ``v`` and ``r`` are empty and the caller uses the
@@ -66,58 +68,72 @@ def wide_column_numpy(times, ok, raw, rows, lo, hi, use_span):
     return len(idx), False, t, v, r, bad, counts
 
 
-def _wide_column_loop(times, ok, raw, rows, lo, hi, use_span):  # pragma: no cover - compiled
-    """One numeric column of a wide file as the readers count it, in two passes."""
+def _wide_column_loop(times, ok, raw, rows, lo, hi, use_span, ordered):  # pragma: no cover
+    """One numeric column of a wide file as the readers count it: a pass without branches
+    that counts, a pass for the first places only where there is something to place (or the
+    file's times are not in order), and a copy of the kept samples where some rows are not
+    kept (written without branches: a row not kept is overwritten by the next)."""
     n = raw.shape[0]
-    idx = np.empty(n, np.int64)
     kept = 0
     bad_times = 0
-    first_bad_time = -1
+    infinite = 0
     for i in range(n):
         x = raw[i]
-        if x != x:  # an empty cell: not sampled at this instant
-            continue
-        if not ok[i]:  # a sample without a time: counted whatever the span
-            bad_times += 1
-            if first_bad_time < 0:
-                first_bad_time = rows[i]
-            continue
-        if use_span and not (times[i] >= lo and times[i] < hi):
-            continue
-        idx[kept] = i
-        kept += 1
-    all_kept = kept == n
-    m = 0 if all_kept else kept
-    t = np.empty(m, np.int64)
-    v = np.empty(m)
-    r = np.empty(m, np.int64)
-    bad = np.empty(kept, np.bool_)
-    infinite = 0
+        t = times[i]
+        present = x == x  # NaN: an empty cell, not sampled at this instant
+        keep = present & ok[i] & ((not use_span) | ((t >= lo) & (t < hi)))
+        kept += keep
+        bad_times += present & ~ok[i]  # a sample without a time: counted whatever the span
+        infinite += keep & ((x - x) != 0)
+    first_bad_time = -1
     first_infinite = -1
     back = 0
     first_back = -1
     increasing = 1
-    for j in range(kept):
-        i = idx[j]
-        x = raw[i]
-        if not all_kept:
-            t[j] = times[i]
-            v[j] = x
-            r[j] = rows[i]
-        b = x == np.inf or x == -np.inf
-        bad[j] = b
-        if b:
-            infinite += 1
-            if first_infinite < 0:
+    if bad_times or infinite or not ordered:
+        last = 0  # the time of the last sample kept
+        seen = False
+        for i in range(n):
+            x = raw[i]
+            if x != x:
+                continue
+            if not ok[i]:
+                if first_bad_time < 0:
+                    first_bad_time = rows[i]
+                continue
+            t = times[i]
+            if use_span and not (t >= lo and t < hi):
+                continue
+            if (x - x) != 0 and first_infinite < 0:
                 first_infinite = rows[i]
-        if j > 0:
-            step = times[i] - times[idx[j - 1]]
-            if step <= 0:
+            if seen and t <= last:
                 increasing = 0
-                if step < 0:
+                if t < last:
                     back += 1
                     if first_back < 0:
                         first_back = rows[i]
+            last = t
+            seen = True
+    all_kept = kept == n
+    m = 0 if all_kept else kept
+    t_out = np.empty(m + 1, np.int64)
+    v_out = np.empty(m + 1)
+    r_out = np.empty(m + 1, np.int64)
+    bad = np.zeros(kept + 1, np.bool_)
+    if all_kept:
+        if infinite:
+            for i in range(n):
+                bad[i] = (raw[i] - raw[i]) != 0
+    else:
+        j = 0
+        for i in range(n):
+            x = raw[i]
+            t = times[i]
+            t_out[j] = t
+            v_out[j] = x
+            r_out[j] = rows[i]
+            bad[j] = (x - x) != 0
+            j += (x == x) & ok[i] & ((not use_span) | ((t >= lo) & (t < hi)))
     counts = np.empty(8, np.int64)
     counts[0] = bad_times
     counts[1] = first_bad_time
@@ -127,7 +143,7 @@ def _wide_column_loop(times, ok, raw, rows, lo, hi, use_span):  # pragma: no cov
     counts[5] = first_back
     counts[6] = bad_times + kept
     counts[7] = increasing
-    return kept, all_kept, t, v, r, bad, counts
+    return kept, all_kept, t_out[:m], v_out[:m], r_out[:m], bad[:kept], counts
 
 
 # ------------------------------------------------------- overflow and frozen transmitters
@@ -159,33 +175,54 @@ def overflow_frozen_numpy(times, values, bad, limit_ns, frozen_on):
 
 
 def _overflow_frozen_loop(times, values, bad, limit_ns, frozen_on):  # pragma: no cover
-    """Overflowed and frozen samples in one pass (and a second only where some are frozen)."""
+    """Overflowed samples in one pass without branches on the values, then the runs of
+    identical values in a second."""
     n = values.shape[0]
     out = np.empty(n, np.bool_)
-    held = np.empty(n, np.bool_)  # the run has lasted longer than the limit at this sample
     overflow = 0
-    first = -1
-    same_any = False
-    start = 0
     for i in range(n):
         x = values[i]
-        b = bad[i]
-        if not b and not np.isfinite(x):
-            overflow += 1
-            if first < 0:
-                first = i
-            b = True
+        b = bad[i] | ((x - x) != 0)  # x - x is NaN for NaN and for an infinity
         out[i] = b
-        if frozen_on:
-            if i > 0 and x == values[i - 1] and not b and not out[i - 1] and x != 0:
-                same_any = True
-            else:
-                start = times[i]
-            held[i] = (times[i] - start) > limit_ns
-    frozen = 0
-    if frozen_on and same_any and n >= 2:
+        overflow += b & ~bad[i]
+    first = -1
+    if overflow:
         for i in range(n):
-            if held[i] and not out[i]:
+            if out[i] and not bad[i]:
+                first = i
+                break
+    frozen = 0
+    if frozen_on and limit_ns >= 0 and n:
+        prev_x = values[0]
+        prev_b = out[0]  # the sample before: bad before this check
+        began = times[0]  # the time the run of identical values began
+        for i in range(1, n):
+            x = values[i]
+            b = out[i]
+            if x == prev_x and x != 0 and not b and not prev_b:
+                if times[i] - began > limit_ns:
+                    out[i] = True
+                    frozen += 1
+            else:
+                began = times[i]
+            prev_x = x
+            prev_b = b
+    elif frozen_on:  # a limit below zero: once two neighbours are alike, every good sample
+        same_any = False  # has outlasted it (as frozen_samples has it)
+        for i in range(1, n):
+            x = values[i]
+            if x == values[i - 1] and x != 0 and not out[i] and not out[i - 1]:
+                same_any = True
+                break
+        start = 0
+        prev_b = True  # the sample before: bad before this check
+        for i in range(n if same_any else 0):
+            x = values[i]
+            b = out[i]
+            if not (i > 0 and x == values[i - 1] and not b and not prev_b and x != 0):
+                start = times[i]
+            prev_b = b
+            if not b and times[i] - start > limit_ns:
                 out[i] = True
                 frozen += 1
     counts = np.empty(3, np.int64)
@@ -238,11 +275,11 @@ def strictly_increasing_numpy(times) -> bool:
 
 
 def _strictly_increasing_loop(times):  # pragma: no cover - compiled
-    """Whether every time is later than the one before; stops at the first that is not."""
+    """Whether every time is later than the one before (no early exit: the loop vectorises)."""
+    later = True
     for i in range(1, times.shape[0]):
-        if times[i] <= times[i - 1]:
-            return False
-    return True
+        later &= times[i] > times[i - 1]
+    return later
 
 
 wide_column = _compile(_wide_column_loop, wide_column_numpy)
@@ -262,7 +299,7 @@ def _warm_up() -> None:
         t.setflags(write=write)
         x.setflags(write=write)
         for raw in (x, np.array([0.0, 1.0])):
-            wide_column(t, yes, raw, np.array([0, 1]), np.int64(0), np.int64(2), True)
+            wide_column(t, yes, raw, np.array([0, 1]), np.int64(0), np.int64(2), True, True)
         overflow_frozen(t, x, ~yes, np.int64(1), True)
         long_steps(t, 0, 2, np.int64(0), np.int64(3), True, np.int64(1))
         strictly_increasing(t)

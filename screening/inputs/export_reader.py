@@ -28,6 +28,7 @@ from screening.inputs.tagdata import (
     add_numbers,
     as_text,
     assemble,
+    placed_in_order,
     unexpected,
 )
 from screening.inputs.timestamps import DateNotes, parse_times
@@ -183,12 +184,15 @@ class TagReader:
         ok = ~np.asarray(col.is_null().to_numpy(zero_copy_only=False), dtype=bool)
         rows = np.arange(len(times), dtype=np.int64) if rows is None else rows
         times.setflags(write=False)  # shared by the tags read whole (add_numbers)
+        ordered = placed_in_order(times, ok)
         for tag in tags:
             column = table.column(tag)
             if pa.types.is_floating(column.type) or pa.types.is_integer(column.type):
                 raw = column.to_numpy(zero_copy_only=False).astype(np.float64, copy=False)
                 if self._count is None:  # a null (or NaN) cell: not sampled at this instant
-                    add_numbers(tag, info.path, raw, times, ok, rows, chunks, quality, span)
+                    add_numbers(
+                        tag, info.path, raw, times, ok, rows, chunks, quality, span, ordered
+                    )
                     continue
                 present = ~np.isnan(raw)
             else:

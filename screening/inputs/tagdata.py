@@ -145,16 +145,17 @@ def add_chunk(
     chunks[tag].append((times, values, bad, (where, rows)))
 
 
-def add_numbers(tag, path, raw, times, ok, rows, chunks, quality, span=None) -> None:
+def add_numbers(tag, path, raw, times, ok, rows, chunks, quality, span=None, ordered=False):
     """:func:`add_chunk` of a wide file's column of numbers with every sample counted (no
     ``count`` span), in one compiled pass: ``raw`` float64 with NaN for an empty cell (not
     sampled), ``times`` [ns] and ``ok`` (a time was placed) of every row, ``rows`` their
-    numbers. The same chunk and the same counts and first places (bad timestamps, infinite
-    values, steps back in time) as :func:`add_chunk`; when every row is kept the chunk holds
-    the arrays given (shared by the file's tags: never written to)."""
+    numbers; ``ordered``: the placed ``times`` strictly increase (:func:`placed_in_order`).
+    The same chunk and the same counts and first places (bad timestamps, infinite values,
+    steps back in time) as :func:`add_chunk`; when every row is kept the chunk holds the
+    arrays given (shared by the file's tags: never written to)."""
     lo, hi = span if span is not None else (0, 0)
     kept, all_kept, t, v, r, bad, c = wide_column(
-        times, ok, raw, rows, np.int64(lo), np.int64(hi), span is not None
+        times, ok, raw, rows, np.int64(lo), np.int64(hi), span is not None, ordered
     )
     if c[6] == 0:  # nothing sampled (in the span): as add_chunk, no chunk
         return
@@ -173,6 +174,11 @@ def add_numbers(tag, path, raw, times, ok, rows, chunks, quality, span=None) -> 
     if all_kept:
         t, v, r = times, raw, rows
     chunks[tag].append((t, v, bad, (where, r)))
+
+
+def placed_in_order(times: np.ndarray, ok: np.ndarray) -> bool:
+    """Whether the times [ns] of the rows with a placed time (``ok``) strictly increase."""
+    return bool(strictly_increasing(times if ok.all() else times[ok]))
 
 
 def count_part(q, where, times, values, is_text, text, bad_q, rows, malformed, words, count):
