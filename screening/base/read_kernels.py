@@ -121,19 +121,19 @@ def _wide_column_loop(times, ok, raw, rows, lo, hi, use_span, ordered):  # pragm
     r_out = np.empty(m + 1, np.int64)
     bad = np.zeros(kept + 1, np.bool_)
     if all_kept:
-        if infinite:
-            for i in range(n):
-                bad[i] = (raw[i] - raw[i]) != 0
+        for i in range(n if infinite else 0):
+            bad[i] = (raw[i] - raw[i]) != 0
     else:
-        j = 0
+        j = np.uint64(0)  # unsigned: no check for an index from the end
         for i in range(n):
             x = raw[i]
             t = times[i]
             t_out[j] = t
             v_out[j] = x
             r_out[j] = rows[i]
-            bad[j] = (x - x) != 0
-            j += (x == x) & ok[i] & ((not use_span) | ((t >= lo) & (t < hi)))
+            if infinite:
+                bad[j] = (x - x) != 0
+            j += np.uint64((x == x) & ok[i] & ((not use_span) | ((t >= lo) & (t < hi))))
     counts = np.empty(8, np.int64)
     counts[0] = bad_times
     counts[1] = first_bad_time
