@@ -23,7 +23,7 @@ from screening.engine.execution import (
     run_batches,
 )
 from screening.engine.one_pump import quality_row, read_barometer, settings_for
-from screening.engine.tables import ScanResult, scan_tables
+from screening.engine.tables import ScanResult, scan_tables, table_part
 from screening.inputs.loader import ExportIndex, open_exports
 from screening.inputs.plant import Plant, load_plant
 from screening.inputs.window import day_edges, window_bounds
@@ -112,29 +112,21 @@ def scan(
 
     baro_span = (start_ns - int(settings.barometer_stale_limit * 1e9) - 1, end_ns)
     barometer, baro_quality = read_barometer(plant, index, settings, baro_span)
-    # One look-back for the whole plant, so that what is read (and counted) never depends on
-    # which pumps share a batch: the longest hold or frozen allowance of any tag.
-    longest = max(
-        [settings.stale_limit, settings.frozen_after or 0.0]
-        + [t.stale_limit or 0.0 for p in selected for t in plant.pumps[p].all_tags()]
-    )
-    # a compressed record also needs the stored point after the window's end to draw the
-    # line up to it, and the point before its start within the longest interval
-    default = plant.settings.data.max_interval
-    linear = [s.max_interval or default for s in plant.settings.exports
-              if s.reconstruction == "linear"] or [0.0]  # fmt: skip
-    if any(t.reconstruction == "linear" for p in selected for t in plant.pumps[p].all_tags()):
-        # a tag drawn by lines by the register's word, whatever its family says
-        linear += [s.max_interval or default for s in plant.settings.exports] + [default]
-    span = (start_ns - int(max(longest, max(linear)) * 1e9) - 1,
-            end_ns + int(max(linear) * 1e9))  # fmt: skip
+    span = _read_span(plant, settings, selected, start_ns, end_ns)
     batches = _batches(plant, index, selected, end_ts - start_ts)
     ctx = BatchContext(
         plant, index, settings, barometer, start_ns, end_ns, edges, span, keep_series,
         plot_buckets, each_pump,
         fluid_tables_for(plant, selected) if len(batches) > 1 else {}, each_chunk,
     )  # fmt: skip
-    outputs = run_batches(ctx, batches, processes, cluster, progress)
+    parts = {}  # each batch's rows of the tables, built as it comes back (the others still run)
+
+    def arrived(o: BatchOutput) -> None:
+        parts[id(o)] = table_part(plant, o.results)
+        if progress is not None:
+            progress(o)
+
+    outputs = run_batches(ctx, batches, processes, cluster, arrived)
     results: list[PumpResult] = []
     extras: dict[str, Any] = {}
     quality_rows: list[dict] = []
@@ -150,8 +142,9 @@ def scan(
     if baro_quality is not None:
         quality_rows.append(quality_row("(site)", "barometer", baro_quality))
     out = scan_tables(
-        plant, results, start_ts, end_ts, edges, quality_rows, problems, file_problems
-    )
+        plant, results, start_ts, end_ts, edges, quality_rows, problems, file_problems,
+        [parts[id(o)] for o in outputs],
+    )  # fmt: skip
     out.series = {r.pump_id: r.series for r in results if r.series is not None}
     out.extras = extras
     out.plots = {r.pump_id: r.plot for r in results if r.plot is not None}
@@ -167,6 +160,27 @@ def scan(
             out.data_span = (pd.Timestamp(span[0], tz="UTC"), pd.Timestamp(span[1], tz="UTC"))
     out.elapsed_s = time.perf_counter() - t0
     return out
+
+
+def _read_span(plant: Plant, settings, selected: list[str], start_ns: int, end_ns: int):
+    """The span read for every pump [ns]: the window with one look-back for the whole plant,
+    so that what is read (and counted) never depends on which pumps share a batch."""
+    # the longest hold or frozen allowance of any tag
+    longest = max(
+        [settings.stale_limit, settings.frozen_after or 0.0]
+        + [t.stale_limit or 0.0 for p in selected for t in plant.pumps[p].all_tags()]
+    )
+    # a compressed record also needs the stored point after the window's end to draw the
+    # line up to it, and the point before its start within the longest interval
+    default = plant.settings.data.max_interval
+    linear = [s.max_interval or default for s in plant.settings.exports
+              if s.reconstruction == "linear"] or [0.0]  # fmt: skip
+    if any(t.reconstruction == "linear" for p in selected for t in plant.pumps[p].all_tags()):
+        # a tag drawn by lines by the register's word, whatever its family says
+        linear += [s.max_interval or default for s in plant.settings.exports] + [default]
+    span = (start_ns - int(max(longest, max(linear)) * 1e9) - 1,
+            end_ns + int(max(linear) * 1e9))  # fmt: skip
+    return span
 
 
 #: Pumps read together for a window of a month: the files they share are read once per batch.

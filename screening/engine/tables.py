@@ -121,15 +121,29 @@ SUMMARY_COLUMNS = [
 
 def _daily(results, days, kind: str, names: list[str], get) -> pd.DataFrame:
     n_days, n_states = len(days), len(names)
+    if not results:
+        return pd.DataFrame(
+            {"pump_id": np.repeat([], 0), "kind": kind, "date": np.tile(np.repeat(days, 0), 0),
+             "state": np.tile(names, 0), "hours": []}
+        )  # fmt: skip
+    n = len(results)
+    # the text columns taken from their few distinct words: as pandas builds them from the
+    # long arrays of words, many times faster
+    pumps = _words([r.pump_id for r in results], np.repeat(np.arange(n), n_days * n_states))
     return pd.DataFrame(
         {
-            "pump_id": np.repeat([r.pump_id for r in results], n_days * n_states),
-            "kind": kind,
-            "date": np.tile(np.repeat(days, n_states), len(results)),
-            "state": np.tile(names, n_days * len(results)),
-            "hours": np.concatenate([get(r).ravel() for r in results]) if results else [],
+            "pump_id": pumps,
+            "kind": _words([kind], np.zeros(n * n_days * n_states, dtype=np.intp)),
+            "date": np.tile(np.repeat(days, n_states), n),
+            "state": _words(names, np.tile(np.arange(n_states), n_days * n)),
+            "hours": np.concatenate([get(r).ravel() for r in results]),
         }
     )
+
+
+def _words(words: list[str], codes: np.ndarray):
+    """The column of ``words[codes]``, of the type pandas gives a column of words."""
+    return pd.Series(words).array.take(codes)
 
 
 def _summary_row(plant, r) -> dict:
@@ -202,11 +216,20 @@ def _summary_row(plant, r) -> dict:
     }
 
 
-def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_problems):
-    """The tidy tables of a scan from the pumps' results (see :class:`ScanResult`)."""
+@dataclass
+class TablePart:
+    """The rows of one batch of results in the hours and summary tables, built while the
+    other batches still run (see :func:`table_part`)."""
+
+    hours: list[dict]
+    summary: list[dict]
+
+
+def table_part(plant, results) -> TablePart:
+    """One batch's rows of the hours and summary tables; :func:`scan_tables` joins the parts
+    in batch order into the tables it would build from all the results at once."""
     names = list(states.STATES)
     hours_rows, summary_rows = [], []
-    days = pd.to_datetime(edges[:-1], utc=True).tz_convert(plant.timezone).date
     for r in results:
         for name, h in zip(names, r.hours, strict=True):
             hours_rows.append(
@@ -217,8 +240,21 @@ def scan_tables(plant, results, start, end, edges, quality_rows, problems, file_
                 {"pump_id": r.pump_id, "kind": "region", "state": name, "hours": float(h)}
             )
         summary_rows.append(_summary_row(plant, r))
+    return TablePart(hours_rows, summary_rows)
+
+
+def scan_tables(
+    plant, results, start, end, edges, quality_rows, problems, file_problems, parts=None
+):  # fmt: skip
+    """The tidy tables of a scan from the pumps' results (see :class:`ScanResult`).
+    ``parts``: the results' rows already built batch by batch (:func:`table_part`), in the
+    order of ``results``; None builds them here."""
+    names = list(states.STATES)
+    days = pd.to_datetime(edges[:-1], utc=True).tz_convert(plant.timezone).date
+    parts = [table_part(plant, results)] if parts is None else parts
+    hours_rows = [row for p in parts for row in p.hours]
     hours = pd.DataFrame(hours_rows, columns=["pump_id", "kind", "state", "hours"])
-    summary = pd.DataFrame(summary_rows, columns=SUMMARY_COLUMNS)
+    summary = pd.DataFrame([row for p in parts for row in p.summary], columns=SUMMARY_COLUMNS)
     if len(summary):
         # pumps with enough data ranked by severity (depth times duration below NPSH3, then
         # below guidance: a string of short dips weighs less than one long deep stretch); those

@@ -451,9 +451,10 @@ def frame_columns(path: Path, source: ExportSource, columns: list[str]) -> list[
     return [c for c in csv_header(path, source) if c in columns]
 
 
-def parquet_time_range(path: Path, column: str) -> tuple[int, int] | None:
-    """First and last time [ns, UTC] of a Parquet file from its statistics, if it has them."""
-    meta = pq.ParquetFile(path).metadata
+def parquet_time_range(path: Path, column: str, meta=None) -> tuple[int, int] | None:
+    """First and last time [ns, UTC] of a Parquet file from its statistics, if it has them
+    (``meta``: the file's metadata when it is open already)."""
+    meta = pq.ParquetFile(path).metadata if meta is None else meta
     idx = meta.schema.to_arrow_schema().get_field_index(column)
     lo = hi = None
     for i in range(meta.num_row_groups):

@@ -95,10 +95,12 @@ class ExportIndex:
     # -- discovery ---------------------------------------------------------------------------
     def _inspect(self, path: Path, source: ExportSource) -> FileInfo:
         fmt = format_of(path, source)
+        pf = None  # the Parquet file opened once: its schema, then its time statistics
         if source.layout == "wide":
             if fmt == "parquet":
                 try:
-                    names = pq.read_schema(path).names
+                    pf = pq.ParquetFile(path)
+                    names = pf.schema_arrow.names
                 except (pa.ArrowException, OSError) as exc:
                     raise ExportError(f"{path}: not a readable Parquet file ({exc})") from exc
             else:
@@ -114,7 +116,8 @@ class ExportIndex:
             needed = long_columns(source)
             if fmt == "parquet":
                 try:
-                    names = pq.read_schema(path).names
+                    pf = pq.ParquetFile(path)
+                    names = pf.schema_arrow.names
                     check_unique(path, [n for n in names if n in needed])
                     missing = [c for c in needed if c not in names]
                     if missing:
@@ -145,11 +148,12 @@ class ExportIndex:
         typed, time_range, unit, zone = False, None, "ns", None
         if fmt == "parquet":
             try:
-                field_type = pq.read_schema(path).field(source.time_column).type
+                pf = pf or pq.ParquetFile(path)
+                field_type = pf.schema_arrow.field(source.time_column).type
                 typed = pa.types.is_timestamp(field_type) and field_type.tz is not None
                 if typed:
                     unit, zone = field_type.unit, field_type.tz
-                    time_range = parquet_time_range(path, source.time_column)
+                    time_range = parquet_time_range(path, source.time_column, pf.metadata)
             except (KeyError, pa.ArrowException, OSError):
                 typed = False
         return FileInfo(path, source, fmt, tags, typed, time_range, unit, zone)
