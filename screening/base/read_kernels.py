@@ -246,14 +246,22 @@ def long_steps_numpy(times, lo, hi, first, end, final, limit_ns):
 
 
 def _long_steps_loop(times, lo, hi, first, end, final, limit_ns):  # pragma: no cover
-    """The steps longer than the limit along the points, in one pass."""
-    m = hi - lo + (1 if final else 0)
-    over = np.empty(m, np.int64)
-    begin = np.empty(m, np.int64)
-    stop = np.empty(m, np.int64)
+    """The steps longer than the limit along the points: counted in a pass that vectorises,
+    then placed in a second only where there are any."""
+    x = times[lo:hi]  # a slice: indices numba knows are not from the end (the loop vectorises)
+    k = 0
+    if x.shape[0]:
+        k += np.int64(x[0] - first > limit_ns)
+        for j in range(1, x.shape[0]):
+            k += np.int64(x[j] - x[j - 1] > limit_ns)
+    last = x[-1] if x.shape[0] else first
+    k += final and end - last > limit_ns
+    over = np.empty(k, np.int64)
+    begin = np.empty(k, np.int64)
+    stop = np.empty(k, np.int64)
     k = 0
     prev = first
-    for j in range(lo, hi):
+    for j in range(lo, hi if over.shape[0] else lo):
         t = times[j]
         if t - prev > limit_ns:
             over[k] = j - lo
@@ -261,12 +269,11 @@ def _long_steps_loop(times, lo, hi, first, end, final, limit_ns):  # pragma: no 
             stop[k] = t
             k += 1
         prev = t
-    if final and end - prev > limit_ns:
+    if final and end - last > limit_ns:
         over[k] = hi - lo
-        begin[k] = prev
+        begin[k] = last
         stop[k] = end
-        k += 1
-    return over[:k], begin[:k], stop[:k]
+    return over, begin, stop
 
 
 def strictly_increasing_numpy(times) -> bool:
