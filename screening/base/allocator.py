@@ -1,4 +1,5 @@
-"""Keep freed array memory in the process for reuse (glibc only).
+"""Keep freed array memory in the process for reuse (glibc only), and the objects of the
+imports out of the garbage collector's passes.
 
 The calculation allocates many short-lived arrays of a few hundred kilobytes per pump. glibc
 serves blocks above its mmap threshold with fresh pages from the kernel and gives them back on
@@ -12,11 +13,13 @@ from __future__ import annotations
 
 import ctypes
 import ctypes.util
+import gc
 import sys
 
 _M_TRIM_THRESHOLD = -1
 _M_MMAP_THRESHOLD = -3
 _done = False
+_frozen = False
 
 
 def keep_freed_memory(threshold: int = 256 * 1024 * 1024) -> bool:
@@ -33,3 +36,22 @@ def keep_freed_memory(threshold: int = 256 * 1024 * 1024) -> bool:
         return False
     _done = bool(ok)
     return _done
+
+
+def keep_collector_off_imports() -> bool:
+    """Move every object alive now out of the cyclic garbage collector's passes, once per
+    process; True if done now.
+
+    After the imports (numba, pandas, scipy, CoolProp) some hundred thousand objects are
+    alive, and they stay alive; the collector's first full pass over them came during the
+    scan's serial set-up (about 0.2 s on the benchmark plant, benchmarks/bench_scan.py), and a
+    forked worker's passes would write to their pages. ``gc.freeze`` (Python documentation,
+    module gc) leaves them out of every later pass; objects made afterwards are collected as
+    before.
+    """
+    global _frozen
+    if _frozen:
+        return False
+    gc.freeze()
+    _frozen = True
+    return True

@@ -28,7 +28,7 @@ from typing import Any
 import numpy as np
 import pyarrow
 
-from screening.base.allocator import keep_freed_memory
+from screening.base.allocator import keep_collector_off_imports, keep_freed_memory
 from screening.engine.calculator import PumpResult, Settings
 from screening.engine.chunked import chunk_days, screen_chunked
 from screening.engine.one_pump import quality_flags, quality_row, screen_pump
@@ -75,6 +75,7 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
     """Screen one batch of pumps (see :func:`screening.engine.scan.scan` for what is screened)."""
 
     keep_freed_memory()  # a Dask worker is a fresh process (and Dask asks glibc to trim)
+    keep_collector_off_imports()
     adopt_fluid_tables(ctx.tables)
     plant, index = ctx.plant, ctx.index
     known = index.known_tags()

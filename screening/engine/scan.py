@@ -13,7 +13,7 @@ from typing import Any
 
 import pandas as pd
 
-from screening.base.allocator import keep_freed_memory
+from screening.base.allocator import keep_collector_off_imports, keep_freed_memory
 from screening.engine.calculator import PumpResult
 from screening.engine.execution import (
     BatchContext,
@@ -91,6 +91,7 @@ def scan(
     t0 = time.perf_counter()
     check_workers(processes, cluster)  # before any work
     keep_freed_memory()
+    keep_collector_off_imports()
     plant = config if isinstance(config, Plant) else load_plant(config)
     start_ts, end_ts = window_bounds(plant, start, end)
     start_ns, end_ns = start_ts.value, end_ts.value
