@@ -298,14 +298,20 @@ strictly_increasing = _compile(_strictly_increasing_loop, strictly_increasing_nu
 def _warm_up() -> None:
     """Load (or compile, the first time) every kernel at import, for the types the readers
     pass (numba compiles a read-only array, such as one Arrow lends, as a type of its own),
-    so that the first tag read pays nothing (see :func:`screening.base.kernels._warm_up`)."""
-    yes = np.ones(2, dtype=np.bool_)
-    for write in (True, False):
+    so that the first tag read, in this process or a forked worker, pays nothing (see
+    :func:`screening.base.kernels._warm_up`)."""
+
+    def arrays(write: bool):
         t = np.array([0, 1], dtype=np.int64)
         x = np.array([0.0, 1.0])
         t.setflags(write=write)
         x.setflags(write=write)
-        for raw in (x, np.array([0.0, 1.0])):
+        return t, x
+
+    yes = np.ones(2, dtype=np.bool_)
+    for write in (True, False):
+        t, x = arrays(write)
+        for raw in (arrays(True)[1], arrays(False)[1]):
             wide_column(t, yes, raw, np.array([0, 1]), np.int64(0), np.int64(2), True, True)
         overflow_frozen(t, x, ~yes, np.int64(1), True)
         long_steps(t, 0, 2, np.int64(0), np.int64(3), True, np.int64(1))

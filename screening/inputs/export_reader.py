@@ -183,7 +183,8 @@ class TagReader:
         times = col.to_numpy(zero_copy_only=False).view(np.int64)
         ok = ~np.asarray(col.is_null().to_numpy(zero_copy_only=False), dtype=bool)
         rows = np.arange(len(times), dtype=np.int64) if rows is None else rows
-        times.setflags(write=False)  # shared by the tags read whole (add_numbers)
+        if not times.flags.writeable:  # one writable copy for the file, shared by the tags
+            times = times.copy()  # read whole (add_numbers), as a tag's own times are
         ordered = placed_in_order(times, ok)
         for tag in tags:
             column = table.column(tag)

@@ -152,7 +152,7 @@ def add_numbers(tag, path, raw, times, ok, rows, chunks, quality, span=None, ord
     numbers; ``ordered``: the placed ``times`` strictly increase (:func:`placed_in_order`).
     The same chunk and the same counts and first places (bad timestamps, infinite values,
     steps back in time) as :func:`add_chunk`; when every row is kept the chunk holds the
-    arrays given (shared by the file's tags: never written to)."""
+    times and rows given (shared by the file's tags: never written to)."""
     lo, hi = span if span is not None else (0, 0)
     kept, all_kept, t, v, r, bad, c = wide_column(
         times, ok, raw, rows, np.int64(lo), np.int64(hi), span is not None, ordered
@@ -171,8 +171,8 @@ def add_numbers(tag, path, raw, times, ok, rows, chunks, quality, span=None, ord
         q.out_of_order += int(c[4])
         q.note("out of order", where + str(c[5]))
     q.samples += int(kept)
-    if all_kept:
-        t, v, r = times, raw, rows
+    if all_kept:  # the file's arrays (the values writable, as a tag's own copy is)
+        t, v, r = times, raw if raw.flags.writeable else raw.copy(), rows
     chunks[tag].append((t, v, bad, (where, r)))
 
 
