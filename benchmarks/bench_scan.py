@@ -28,9 +28,9 @@ editable install points at.
             time is the sum of the wall time spent inside ``calculate_pump`` during that same
             scan: ``calculate_pump`` and ``prepare_tag`` of one pump, the scan's ``scan_tables``
             (with ``table_part``, each batch's rows) and the loader's ``ExportIndex.read`` are
-            wrapped by timers (about a microsecond each, some 3 000 calls at full size). numpy runs these array operations on one
-            thread, so that time is one core's. Peak memory includes the interpreter and
-            imports (printed beside it).
+            wrapped by timers (about a microsecond each, some 3 000 calls at full size). numpy
+            runs these array operations on one thread, so that time is one core's. Peak memory
+            includes the interpreter and imports (printed beside it).
     scan2   the same with ``processes=2`` (a process pool; the parts then run in the workers,
             so only the total is measured; "largest worker" is the peak of the biggest child).
     dask    the same on a local Dask cluster of 2 worker processes (``cluster=client``); the
