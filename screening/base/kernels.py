@@ -179,7 +179,8 @@ def _bucket_min_max_loop(values, starts):  # pragma: no cover - compiled
     return lo, hi
 
 
-def _compile(func, fallback):
+def compile_kernel(func, fallback):
+    """``func`` compiled by numba (machine code cached beside the module), else ``fallback``."""
     if numba is None:  # pragma: no cover
         return fallback
     try:
@@ -188,11 +189,11 @@ def _compile(func, fallback):
         return numba.njit(nogil=True)(func)
 
 
-hold = _compile(_hold_loop, hold_numpy)
-union_sorted = _compile(_union_sorted_loop, union_sorted_numpy)
-pchip_eval = _compile(_pchip_eval_loop, pchip_eval_numpy)
-table_eval = _compile(_table_eval_loop, table_eval_numpy)
-bucket_min_max = _compile(_bucket_min_max_loop, bucket_min_max_numpy)
+hold = compile_kernel(_hold_loop, hold_numpy)
+union_sorted = compile_kernel(_union_sorted_loop, union_sorted_numpy)
+pchip_eval = compile_kernel(_pchip_eval_loop, pchip_eval_numpy)
+table_eval = compile_kernel(_table_eval_loop, table_eval_numpy)
+bucket_min_max = compile_kernel(_bucket_min_max_loop, bucket_min_max_numpy)
 
 
 def _warm_up() -> None:

@@ -19,6 +19,7 @@ import numpy as np
 import pandas as pd
 
 from screening.base import states
+from screening.base.calc_kernels import band_summary, margin_codes, weigh
 from screening.engine import field_head, lineflow, plotdata, severity
 from screening.engine.timeline import (
     NEVER,
@@ -34,7 +35,7 @@ from screening.inputs.tagdata import TagSeries
 from screening.physics import npsh, regions, suction
 from screening.physics.atmosphere import standard_pressure
 from screening.physics.curves import Npsh3Curve
-from screening.physics.margin import Guidance, margin_band
+from screening.physics.margin import Guidance
 from screening.physics.properties import FluidTable
 from screening.physics.regions import operating_region, pump_region_edges
 
@@ -115,25 +116,21 @@ def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str, 
     return np.broadcast_to(np.asarray(p_abs, dtype=np.float64), npsha.shape), npsha
 
 
-def _weigh(code, until, grid, t_next, span, day_base, n_days: int, n_states: int):
+def _weigh(code, until, grid, t_next, day_edges, n_states: int):
     """Hours per day and state [h] and the fresh part of each piece [ns].
 
     The fresh part of each piece (until its needed tags go stale) has the piece's state; the
-    rest of it has no data (code 6 in both kinds of state). ``span`` is each piece's length
-    [ns] and ``day_base`` its day index times ``n_states``. Sums are exact: integer
-    nanoseconds below 2^53 per bin.
+    rest of it has no data (code 6 in both kinds of state). Sums are exact: integer
+    nanoseconds, one compiled pass (:func:`screening.base.calc_kernels.weigh`).
     """
-    fresh = np.minimum(until, t_next)  # one array, worked in place
-    fresh -= grid
-    np.maximum(fresh, 0, out=fresh)
-    daily = np.bincount(day_base + code, weights=fresh, minlength=n_days * n_states)
-    stale = span - fresh
-    gaps = np.flatnonzero(stale)
-    if len(gaps):
-        daily += np.bincount(
-            day_base[gaps] + states.NO_DATA, weights=stale[gaps], minlength=n_days * n_states
-        )
-    return daily.reshape(n_days, n_states) / NS_PER_HOUR, fresh
+    daily, fresh = weigh(code, until, grid, t_next, day_edges, n_states, states.NO_DATA)
+    return daily / NS_PER_HOUR, fresh
+
+
+def _flat(values, n: int) -> np.ndarray:
+    """``values`` as a float64 array of ``n`` pieces (a scalar or broadcast view repeated)."""
+    a = np.asarray(values, dtype=np.float64)
+    return a if a.ndim == 1 and a.shape[0] == n else np.broadcast_to(a, (n,))
 
 
 @functools.lru_cache(maxsize=16)
@@ -384,21 +381,16 @@ def _evaluate(pump, curve, table, timeline: Timeline, barometer, settings, run) 
 
 
 def _classify_margin(phys: _Physics, run: _Running, guidance: Guidance, settings: Settings):
-    """The margin state of each piece, the time until which it holds [ns], and which pieces
-    are bad data."""
-    # An absolute pressure at or below zero (a gauge reading below the local vacuum) is
-    # impossible: bad data, not a number in the results.
-    with np.errstate(invalid="ignore"):
-        all_bad = run.all_bad | (np.asarray(phys.p_abs) <= 0.0)
-    on_curve = np.isfinite(phys.npsh3) & np.isfinite(phys.npsha)
-    with np.errstate(invalid="ignore"):
-        code = margin_band(phys.npsha, phys.npsh3, guidance, settings.ample_ratio)
-    code[~on_curve] = states.OFF_CURVE
-    code[all_bad] = states.BAD_DATA
-    code[~run.running] = states.STOPPED
-    code[run.decide_bad] = states.BAD_DATA
-    until = np.where(run.running & ~run.decide_bad, run.all_until, run.decide_until)
-    return code, until, all_bad
+    """The margin state of each piece (:func:`screening.physics.margin.margin_band`; off the
+    curve, bad data, stopped), the time until which it holds [ns], and which pieces are bad
+    data. An absolute pressure at or below zero (a gauge reading below the local vacuum) is
+    impossible: bad data, not a number in the results. One compiled pass
+    (:func:`screening.base.calc_kernels.margin_codes`)."""
+    return margin_codes(
+        phys.npsha, phys.npsh3, _flat(phys.p_abs, len(phys.npsha)), run.running,
+        run.decide_bad, run.all_bad, run.all_until, run.decide_until, guidance.ratio,
+        guidance.margin, settings.ample_ratio, (states.OFF_CURVE, states.BAD_DATA, states.STOPPED),
+    )  # fmt: skip
 
 
 def _classify_region(pump, curve, held, phys: _Physics, run: _Running, settings: Settings):
@@ -431,21 +423,16 @@ def _summarise(
     code, until, all_bad = margin
     rcode, r_until = region
     grid, t_next = timeline.grid, timeline.t_next
-    n_days = len(day_edges) - 1
-    # every local midnight is a grid point: the day index is a run-length repeat
-    first = np.searchsorted(grid, day_edges[:-1], side="left")
-    per_day = np.diff(np.append(first, len(grid)))
-    span = t_next - grid
     n_m, n_r = len(states.STATES), len(regions.REGIONS)
-    base = np.repeat(np.arange(n_days) * n_m, per_day)  # day index x states, per piece
-    r_base = base if n_r == n_m else np.repeat(np.arange(n_days) * n_r, per_day)
-    daily, fresh = _weigh(code, until, grid, t_next, span, base, n_days, n_m)
-    r_daily, r_fresh = _weigh(rcode, r_until, grid, t_next, span, r_base, n_days, n_r)
+    daily, fresh = _weigh(code, until, grid, t_next, day_edges, n_m)
+    r_daily, r_fresh = _weigh(rcode, r_until, grid, t_next, day_edges, n_r)
     hours = daily.sum(axis=0)
     window_hours = (end_ns - start_ns) / NS_PER_HOUR
 
-    ratio = phys.npsha / phys.npsh3
-    banded = (code <= states.AMPLE_MARGIN) & (fresh > 0)
+    worst, least_m, least_g, below_ns, below_first = band_summary(
+        code, fresh, phys.npsha, phys.npsh3, _flat(phys.p_abs, len(grid)), phys.p_v,
+        guidance.ratio, guidance.margin, (states.AMPLE_MARGIN, states.OFF_CURVE),
+    )  # fmt: skip
     result = PumpResult(pump.pump_id, hours, daily, window_hours)
     result.region_daily = r_daily
     result.region_hours = r_daily.sum(axis=0)
@@ -455,12 +442,18 @@ def _summarise(
         with np.errstate(invalid="ignore"):
             outside = (code <= states.AMPLE_MARGIN) & ((ratio_n < lo) | (ratio_n > hi))
         result.speed_outside_hours = float(fresh[outside].sum() / NS_PER_HOUR)
-    if banded.any():
-        i = int(np.argmin(np.where(banded, ratio, np.inf)))
-        result.worst_ratio = float(ratio[i])
-        result.worst_time = pd.Timestamp(int(grid[i]), tz="UTC")
-        _worst_margins(result, phys, guidance, banded)
-    _below_vapour(result, grid, phys, code, fresh)
+    if worst >= 0:
+        # the least margins in metres too: a ratio alone hides how little head is left on a
+        # small NPSH3
+        result.worst_ratio = float(phys.npsha[worst] / phys.npsh3[worst])
+        result.worst_time = pd.Timestamp(int(grid[worst]), tz="UTC")
+        result.worst_margin_m, result.worst_guidance_margin_m = least_m, least_g
+    if below_first >= 0:
+        # running with p_abs < p_v: the liquid would be boiling, impossible in steady flow,
+        # so a transmitter, its reference or the temperature is wrong (counted in its margin
+        # state as computed, below NPSH3 as a rule, and flagged)
+        result.below_vapour_hours = float(below_ns / NS_PER_HOUR)
+        result.below_vapour_first = pd.Timestamp(int(grid[below_first]), tz="UTC")
     right = None if ends is None else (ends.npsha, ends.npsh3)
     result.severity = severity.severity(
         grid, t_next, fresh, code, (phys.npsha, phys.npsh3), guidance, right
@@ -468,6 +461,7 @@ def _summarise(
     if pump.needs_barometer:
         counted = run.running & ~all_bad & (code != states.STOPPED)
         result.baro_fallback_hours = float(fresh[counted & ~phys.baro_used].sum() / NS_PER_HOUR)
+    ratio = phys.npsha / phys.npsh3 if plot_buckets or keep_series else None
     if plot_buckets:
         result.plot, result.points = _plot_data(
             pump, curve, guidance, timeline, run, phys, code, all_bad, fresh, ratio, ratio_n,
@@ -476,27 +470,6 @@ def _summarise(
     if keep_series:
         result.series = _series_frame(pump, timeline, run, phys, code, rcode, fresh, r_fresh, ratio)
     return result
-
-
-def _worst_margins(result: PumpResult, phys: _Physics, guidance: Guidance, banded) -> None:
-    """The least margins in metres on the pieces in a margin band: NPSHa − NPSH3 and NPSHa −
-    guidance head [m] (a ratio alone hides how little head is left on a small NPSH3)."""
-    npsha, npsh3 = phys.npsha[banded], phys.npsh3[banded]
-    result.worst_margin_m = float(np.min(npsha - npsh3))
-    result.worst_guidance_margin_m = float(np.min(npsha - guidance.head(npsh3)))
-
-
-def _below_vapour(result: PumpResult, grid, phys: _Physics, code, fresh) -> None:
-    """Hours [h] running in a margin band (or off the curve) with the absolute suction (or
-    vessel surface) pressure below the vapour pressure at the recorded temperature: the liquid
-    would be boiling, impossible in steady flow, so a transmitter, its reference or the
-    temperature is wrong. Counted in its margin state as computed (below NPSH3 as a rule) and
-    flagged."""
-    with np.errstate(invalid="ignore"):
-        below = (code <= states.OFF_CURVE) & (np.asarray(phys.p_abs) < phys.p_v) & (fresh > 0)
-    if below.any():
-        result.below_vapour_hours = float(fresh[below].sum() / NS_PER_HOUR)
-        result.below_vapour_first = pd.Timestamp(int(grid[np.argmax(below)]), tz="UTC")
 
 
 def _plot_data(

@@ -1,0 +1,250 @@
+"""Compiled passes of the per-pump calculation (numba), with plain numpy equivalents.
+
+The calculation of one pump is a handful of passes over its pieces (a month of one-minute
+data is some 43 000 of them). Written with numpy, each step is several whole-array passes and
+temporary arrays; the loops below do each step in one pass. They give the same numbers to the
+last bit as the numpy forms beside them (tests/test_kernels.py compares both on random input),
+which in turn are the calculator's definitions (DESIGN.md, "Time weighting").
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from screening.base.kernels import compile_kernel
+
+#: Larger than any instant [ns] of a window (the end of a merge).
+_LAST = np.iinfo(np.int64).max
+
+
+def merge_many_numpy(base, cat, offsets):
+    """Sorted unique union of the sorted int64 array ``base`` and the sorted pieces
+    ``cat[offsets[k]:offsets[k + 1]]`` (numpy form)."""
+    return np.unique(np.concatenate((base, cat)))
+
+
+def _merge_many_loop(base, cat, offsets):  # pragma: no cover - compiled
+    """Sorted unique union of ``base`` and every piece of ``cat``: one k-way merge pass."""
+    k_n = offsets.shape[0] - 1
+    pos = offsets[:-1].copy()
+    out = np.empty(base.shape[0] + cat.shape[0], np.int64)
+    n = 0
+    i = 0
+    nb = base.shape[0]
+    while True:
+        v = base[i] if i < nb else _LAST
+        for k in range(k_n):
+            p = pos[k]
+            if p < offsets[k + 1] and cat[p] < v:
+                v = cat[p]
+        if v == _LAST and i >= nb:
+            done = True
+            for k in range(k_n):
+                if pos[k] < offsets[k + 1]:
+                    done = False
+            if done:
+                break
+        if i < nb and base[i] == v:
+            i += 1
+        for k in range(k_n):
+            p = pos[k]
+            end = offsets[k + 1]
+            while p < end and cat[p] == v:
+                p += 1
+            pos[k] = p
+        out[n] = v
+        n += 1
+    return out[:n]
+
+
+def weigh_numpy(code, until, grid, t_next, day_edges, n_states, no_data):
+    """Time per day and state [ns] (int64, shape (days, n_states)) and the fresh part of each
+    piece [ns]: the fresh part (until ``until``) has the piece's state, the rest ``no_data``.
+    Every local midnight ``day_edges[1:-1]`` is a grid point (numpy form)."""
+    n_days = len(day_edges) - 1
+    day = np.searchsorted(day_edges, grid, side="right") - 1
+    fresh = np.maximum(np.minimum(until, t_next) - grid, 0)
+    stale = t_next - grid - fresh
+    out = np.zeros(n_days * n_states, dtype=np.int64)
+    np.add.at(out, day * n_states + code, fresh)
+    np.add.at(out, day * n_states + no_data, stale)
+    return out.reshape(n_days, n_states), fresh
+
+
+def _weigh_loop(code, until, grid, t_next, day_edges, n_states, no_data):  # pragma: no cover
+    """Time per day and state [ns] and the fresh part of each piece [ns], in one pass."""
+    n = grid.shape[0]
+    n_days = day_edges.shape[0] - 1
+    out = np.zeros((n_days, n_states), np.int64)
+    fresh = np.empty(n, np.int64)
+    d = 0
+    for i in range(n):
+        g = grid[i]
+        while d + 1 < n_days and g >= day_edges[d + 1]:
+            d += 1
+        nxt = t_next[i]
+        u = until[i]
+        f = (u if u < nxt else nxt) - g
+        if f < 0:
+            f = 0
+        fresh[i] = f
+        out[d, code[i]] += f
+        out[d, no_data] += nxt - g - f
+    return out, fresh
+
+
+def margin_codes_numpy(
+    npsha,
+    npsh3,
+    p_abs,
+    running,
+    decide_bad,
+    run_bad,
+    all_until,
+    decide_until,
+    g_ratio,
+    g_margin,
+    ample_ratio,
+    codes,
+):
+    """The margin state of each piece, until when it holds [ns] and which pieces are bad data
+    (numpy form). ``codes`` = (off_curve, bad_data, stopped); NPSHa, NPSH3 [m], the absolute
+    pressure [Pa] (at or below zero: impossible, bad data); guidance ratio [-] and margin [m],
+    the ample ratio [-]. The band is the number of edges reached (NPSH3, guidance, ample)."""
+    off_curve, bad_data, stopped = codes
+    with np.errstate(invalid="ignore"):
+        all_bad = run_bad | (p_abs <= 0.0)
+        guide = np.maximum(g_ratio * npsh3, npsh3 + g_margin)
+        ample = np.maximum(guide, ample_ratio * npsh3)
+        code = (npsha >= npsh3).view(np.int8)
+        code += npsha >= guide
+        code += npsha >= ample
+    code[~(np.isfinite(npsh3) & np.isfinite(npsha))] = off_curve
+    code[all_bad] = bad_data
+    code[~running] = stopped
+    code[decide_bad] = bad_data
+    until = np.where(running & ~decide_bad, all_until, decide_until)
+    return code, until, all_bad
+
+
+def _margin_codes_loop(
+    npsha,
+    npsh3,
+    p_abs,
+    running,
+    decide_bad,
+    run_bad,
+    all_until,
+    decide_until,
+    g_ratio,
+    g_margin,
+    ample_ratio,
+    codes,
+):  # pragma: no cover
+    """The margin state, until when it holds [ns] and bad data of each piece, in one pass."""
+    off_curve, bad_data, stopped = codes
+    n = npsha.shape[0]
+    code = np.empty(n, np.int8)
+    until = np.empty(n, np.int64)
+    all_bad = np.empty(n, np.bool_)
+    for i in range(n):
+        a = npsha[i]
+        h3 = npsh3[i]
+        bad = run_bad[i] or p_abs[i] <= 0.0
+        all_bad[i] = bad
+        if decide_bad[i]:
+            c = bad_data
+        elif not running[i]:
+            c = stopped
+        elif bad:
+            c = bad_data
+        elif not (np.isfinite(a) and np.isfinite(h3)):
+            c = off_curve
+        else:
+            guide = max(g_ratio * h3, h3 + g_margin)
+            ample = max(guide, ample_ratio * h3)
+            c = (a >= h3) + (a >= guide) + (a >= ample)
+        code[i] = c
+        until[i] = all_until[i] if running[i] and not decide_bad[i] else decide_until[i]
+    return code, until, all_bad
+
+
+def band_summary_numpy(code, fresh, npsha, npsh3, p_abs, p_v, g_ratio, g_margin, codes):
+    """One pass over the pieces for the summary (numpy form): the piece of the least
+    NPSHa/NPSH3 among fresh pieces in a margin band (-1: none), the least NPSHa − NPSH3 and
+    NPSHa − guidance head [m] there, and the fresh time [ns] running in a band or off the
+    curve with the absolute pressure below the vapour pressure [Pa], with its first piece
+    (-1: none). ``codes`` = (ample_margin, off_curve)."""
+    ample_margin, off_curve = codes
+    banded = (code <= ample_margin) & (fresh > 0)
+    worst, least_m, least_g = -1, np.nan, np.nan
+    if banded.any():
+        with np.errstate(invalid="ignore", divide="ignore"):
+            worst = int(np.argmin(np.where(banded, npsha / npsh3, np.inf)))
+        a, h3 = npsha[banded], npsh3[banded]
+        least_m = float(np.min(a - h3))
+        least_g = float(np.min(a - np.maximum(g_ratio * h3, h3 + g_margin)))
+    with np.errstate(invalid="ignore"):
+        below = (code <= off_curve) & (p_abs < p_v) & (fresh > 0)
+    first = int(np.argmax(below)) if below.any() else -1
+    return worst, least_m, least_g, int(fresh[below].sum()), first
+
+
+def _band_summary_loop(code, fresh, npsha, npsh3, p_abs, p_v, g_ratio, g_margin, codes):
+    """The summary's worst ratio, least margins and time below the vapour pressure, in one
+    pass."""  # pragma: no cover - compiled
+    ample_margin, off_curve = codes
+    worst = -1
+    best = np.inf
+    nan_seen = False
+    least_m = np.inf
+    least_g = np.inf
+    below_ns = 0
+    first = -1
+    for i in range(code.shape[0]):
+        c = code[i]
+        f = fresh[i]
+        if f <= 0:
+            continue
+        if c <= ample_margin:
+            a = npsha[i]
+            h3 = npsh3[i]
+            r = a / h3
+            if worst < 0:
+                worst = i  # np.argmin: the first piece unless a later one is less (or NaN)
+            if not nan_seen:
+                if r != r:
+                    worst = i
+                    nan_seen = True
+                elif r < best:
+                    best = r
+                    worst = i
+            least_m = min(least_m, a - h3)
+            least_g = min(least_g, a - max(g_ratio * h3, h3 + g_margin))
+        if c <= off_curve and p_abs[i] < p_v[i]:
+            below_ns += f
+            if first < 0:
+                first = i
+    if worst < 0:
+        least_m = np.nan
+        least_g = np.nan
+    return worst, least_m, least_g, below_ns, first
+
+
+merge_many = compile_kernel(_merge_many_loop, merge_many_numpy)
+weigh = compile_kernel(_weigh_loop, weigh_numpy)
+margin_codes = compile_kernel(_margin_codes_loop, margin_codes_numpy)
+band_summary = compile_kernel(_band_summary_loop, band_summary_numpy)
+
+
+def _warm_up() -> None:
+    """Load (or compile) every kernel once, at import (see :mod:`screening.base.kernels`)."""
+    t = np.array([0, 1], dtype=np.int64)
+    merge_many(t, t, np.array([0, 2], dtype=np.int64))
+    weigh(np.zeros(2, np.int8), t, t, t + 1, np.array([0, 2], dtype=np.int64), 7, 6)
+    x, yes = np.ones(2), np.ones(2, dtype=np.bool_)
+    margin_codes(x, x, x, yes, ~yes, ~yes, t, t, 1.1, 1.0, 1.5, (4, 7, 5))
+    band_summary(np.zeros(2, np.int8), t, x, x, x, x, 1.1, 1.0, (3, 4))
+
+
+_warm_up()
