@@ -13,6 +13,9 @@ import numpy as np
 
 from screening.base.kernels import compile_kernel
 
+#: Standard gravity [m/s²] (exact by definition, CGPM 1901), as in screening.physics.npsh.
+G = 9.80665
+
 #: Larger than any instant [ns] of a window (the end of a merge).
 _LAST = np.iinfo(np.int64).max
 
@@ -231,10 +234,120 @@ def _band_summary_loop(code, fresh, npsha, npsh3, p_abs, p_v, g_ratio, g_margin,
     return worst, least_m, least_g, below_ns, first
 
 
+def transmitter_npsha_numpy(reading, baro, gauge, temp, table, flow, area, elevation):
+    """Vapour pressure [Pa], density [kg/m³], absolute pressure [Pa] and NPSHa [m] of a pump
+    with a suction transmitter (numpy form of :mod:`screening.physics.npsh` and the fluid
+    table's interpolation). ``reading`` [Pa] gauge (``gauge`` True: plus ``baro`` [Pa]) or
+    absolute; ``temp`` [K]; ``table`` = (t_min [K], t_max [K], step [K], ln p_v [ln Pa],
+    rho [kg/m³]) on a uniform grid; ``flow`` [m³/s] through the tap of cross-section ``area``
+    [m²] at ``elevation`` [m] above the NPSH datum.
+
+    NPSHa = (p_abs − p_v)/(ρ·g) + v²/(2g) + z (ISO 9906:2012, ANSI/HI 1.3)."""
+    t_min, t_max, step, ln_pv, rho_t = table
+    ok = (temp >= t_min) & (temp <= t_max)
+    pos = np.where(ok, (temp - t_min) / step, 0.0)
+    idx = np.minimum(pos.astype(np.int64), len(rho_t) - 2)
+    frac = pos - idx
+    p_v = np.where(ok, np.exp(ln_pv[idx] + frac * (ln_pv[idx + 1] - ln_pv[idx])), np.nan)
+    rho = np.where(ok, rho_t[idx] + frac * (rho_t[idx + 1] - rho_t[idx]), np.nan)
+    p_abs = reading + baro if gauge else reading.copy()
+    v = flow / area
+    with np.errstate(over="ignore", invalid="ignore"):
+        npsha = (p_abs - p_v) / (rho * G) + v * v / (2.0 * G) + elevation
+    return p_v, rho, p_abs, npsha
+
+
+def _transmitter_npsha_loop(reading, baro, gauge, temp, table, flow, area, elevation):
+    """p_v, rho, p_abs and NPSHa of each piece in one pass (see the numpy form)."""  # pragma: no cover
+    t_min, t_max, step, ln_pv, rho_t = table
+    n = reading.shape[0]
+    last = rho_t.shape[0] - 1
+    p_v = np.empty(n)
+    rho = np.empty(n)
+    p_abs = np.empty(n)
+    npsha = np.empty(n)
+    pv_m = np.nan
+    r_m = np.nan
+    t_prev = np.nan
+    for m in range(n):
+        t = temp[m]
+        if t != t_prev:  # a held temperature repeats: the same properties
+            t_prev = t
+            if not (t >= t_min and t <= t_max):
+                pv_m = np.nan
+                r_m = np.nan
+            else:
+                pos = (t - t_min) / step
+                i = min(int(pos), last - 1)
+                f = pos - i
+                pv_m = np.exp(ln_pv[i] + f * (ln_pv[i + 1] - ln_pv[i]))
+                r_m = rho_t[i] + f * (rho_t[i + 1] - rho_t[i])
+        p_v[m] = pv_m
+        rho[m] = r_m
+    # apart from the loop above, which calls exp: a loop the compiler runs on several pieces
+    # at once (the same divisions, rounded the same)
+    for m in range(n):
+        p = reading[m] + baro[m] if gauge else reading[m]
+        p_abs[m] = p
+        v = flow[m] / area
+        npsha[m] = (p - p_v[m]) / (rho[m] * G) + v * v / (2.0 * G) + elevation
+    return p_v, rho, p_abs, npsha
+
+
+def region_codes_numpy(flow, edges, running, decide_bad, r_bad, r_until, decide_until, codes):
+    """The operating region of each piece and until when it holds [ns] (numpy form of
+    :func:`screening.physics.regions.operating_region` with bad data and stopped pieces):
+    ``edges`` = (q_min, q_por_low, q_por_high, q_max) [m³/s] per piece; ``codes`` =
+    (preferred, low_flow, below_min_flow, high_flow, beyond_allowable, bad_data, stopped)."""
+    preferred, low, below_min, high, beyond, bad_data, stopped = codes
+    q_min, q_lo, q_hi, q_max = edges
+    code = np.full(flow.shape, preferred, dtype=np.int8)
+    code[flow < q_lo] = low
+    code[flow < q_min] = below_min
+    code[flow > q_hi] = high
+    code[flow > q_max] = beyond
+    code[r_bad] = bad_data
+    code[~running] = stopped
+    code[decide_bad] = bad_data
+    return code, np.where(running & ~decide_bad, r_until, decide_until)
+
+
+def _region_codes_loop(flow, edges, running, decide_bad, r_bad, r_until, decide_until, codes):
+    """The operating region of each piece and until when it holds [ns], in one pass."""  # pragma: no cover
+    preferred, low, below_min, high, beyond, bad_data, stopped = codes
+    q_min, q_lo, q_hi, q_max = edges
+    n = flow.shape[0]
+    code = np.empty(n, np.int8)
+    until = np.empty(n, np.int64)
+    for i in range(n):
+        if decide_bad[i]:
+            c = bad_data
+        elif not running[i]:
+            c = stopped
+        elif r_bad[i]:
+            c = bad_data
+        else:
+            q = flow[i]
+            c = preferred
+            if q > q_max[i]:
+                c = beyond
+            elif q > q_hi[i]:
+                c = high
+            elif q < q_min[i]:
+                c = below_min
+            elif q < q_lo[i]:
+                c = low
+        code[i] = c
+        until[i] = r_until[i] if running[i] and not decide_bad[i] else decide_until[i]
+    return code, until
+
+
 merge_many = compile_kernel(_merge_many_loop, merge_many_numpy)
 weigh = compile_kernel(_weigh_loop, weigh_numpy)
 margin_codes = compile_kernel(_margin_codes_loop, margin_codes_numpy)
 band_summary = compile_kernel(_band_summary_loop, band_summary_numpy)
+transmitter_npsha = compile_kernel(_transmitter_npsha_loop, transmitter_npsha_numpy)
+region_codes = compile_kernel(_region_codes_loop, region_codes_numpy)
 
 
 def _warm_up() -> None:
@@ -245,6 +358,8 @@ def _warm_up() -> None:
     x, yes = np.ones(2), np.ones(2, dtype=np.bool_)
     margin_codes(x, x, x, yes, ~yes, ~yes, t, t, 1.1, 1.0, 1.5, (4, 7, 5))
     band_summary(np.zeros(2, np.int8), t, x, x, x, x, 1.1, 1.0, (3, 4))
+    transmitter_npsha(x, x, True, x, (0.0, 2.0, 1.0, x, x), x, 1.0, 0.0)
+    region_codes(x, (x, x, x, x), yes, ~yes, ~yes, t, t, (0, 1, 2, 3, 4, 7, 5))
 
 
 _warm_up()

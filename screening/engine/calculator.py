@@ -19,7 +19,13 @@ import numpy as np
 import pandas as pd
 
 from screening.base import states
-from screening.base.calc_kernels import band_summary, margin_codes, weigh
+from screening.base.calc_kernels import (
+    band_summary,
+    margin_codes,
+    region_codes,
+    transmitter_npsha,
+    weigh,
+)
 from screening.engine import field_head, lineflow, plotdata, severity
 from screening.engine.timeline import (
     NEVER,
@@ -37,7 +43,7 @@ from screening.physics.atmosphere import standard_pressure
 from screening.physics.curves import Npsh3Curve
 from screening.physics.margin import Guidance
 from screening.physics.properties import FluidTable
-from screening.physics.regions import operating_region, pump_region_edges
+from screening.physics.regions import pump_region_edges
 
 NS_PER_HOUR = 3_600_000_000_000
 
@@ -360,16 +366,21 @@ def _evaluate(pump, curve, table, timeline: Timeline, barometer, settings, run) 
     held = timeline.held
     baro, baro_used = _barometric(barometer, timeline.grid, settings)
     temp = held["temperature"].value
-    p_v, rho = table.properties(temp)
     flow = held["flow"].value
     if pump.source == "transmitter":
-        p_abs = npsh.absolute_pressure(held["suction"].value, baro, pump.gauge)
-        npsha = npsh.npsha_from_pressure(p_abs, p_v, rho, flow, pump.tap_bore, pump.tap_elevation)
+        # npsh.absolute_pressure, the table's properties and npsh.npsha_from_pressure in one
+        # compiled pass, to the last bit the same
+        area = npsh.pipe_area(pump.tap_bore)
+        p_v, rho, p_abs, npsha = transmitter_npsha(
+            held["suction"].value, baro, bool(pump.gauge), temp, table.grid(), flow, area,
+            float(pump.tap_elevation),
+        )  # fmt: skip
         # a vertical can from its nozzle to the impeller eye (register; counted once); none
         # registered: no loss (subtracting zeros would change no number)
         if pump.can_loss_k is not None:
             npsha = npsha - suction.can_loss(pump.can_loss_k, flow)
     else:
+        p_v, rho = table.properties(temp)
         p_abs, npsha = _vessel_npsha(
             pump, held, baro, p_v, rho, flow, temp, table.fluid, run.line_flow
         )
@@ -395,22 +406,22 @@ def _classify_margin(phys: _Physics, run: _Running, guidance: Guidance, settings
 
 def _classify_region(pump, curve, held, phys: _Physics, run: _Running, settings: Settings):
     """The operating region of each piece (flow [m³/s] against the region edges at the running
-    speed) and the time until which it holds [ns]: needs only the run decision, flow and
-    speed."""
+    speed, :func:`screening.physics.regions.operating_region`) and the time until which it
+    holds [ns]: needs only the run decision, flow and speed. One compiled pass
+    (:func:`screening.base.calc_kernels.region_codes`)."""
     edges = pump_region_edges(pump, curve.flow_max, phys.speed, settings.min_stable_flow_fraction)
-    with np.errstate(invalid="ignore"):
-        rcode = operating_region(phys.flow, edges)
-    r_bad = run.decide_bad.copy()
-    r_until = run.decide_until.copy()
+    n = len(phys.flow)
+    r_bad, r_until = run.decide_bad, run.decide_until
     for r in ("flow", "speed"):
         if r in held:
-            r_bad |= held[r].bad
+            r_bad = r_bad | held[r].bad
             r_until = np.minimum(r_until, held[r].until)
-    rcode[r_bad] = regions.BAD_DATA
-    rcode[~run.running] = regions.STOPPED
-    rcode[run.decide_bad] = regions.BAD_DATA
-    r_until = np.where(run.running & ~run.decide_bad, r_until, run.decide_until)
-    return rcode, r_until
+    return region_codes(
+        phys.flow, tuple(_flat(e, n) for e in edges), run.running, run.decide_bad, r_bad,
+        r_until, run.decide_until, (regions.PREFERRED, regions.LOW_FLOW,
+        regions.BELOW_MIN_FLOW, regions.HIGH_FLOW, regions.BEYOND_ALLOWABLE, regions.BAD_DATA,
+        regions.STOPPED),
+    )  # fmt: skip
 
 
 def _summarise(
