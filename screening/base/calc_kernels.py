@@ -74,28 +74,6 @@ def weigh_numpy(code, until, grid, t_next, day_edges, n_states, no_data):
     return out.reshape(n_days, n_states), fresh
 
 
-def _weigh_loop(code, until, grid, t_next, day_edges, n_states, no_data):  # pragma: no cover
-    """Time per day and state [ns] and the fresh part of each piece [ns], in one pass."""
-    n = grid.shape[0]
-    n_days = day_edges.shape[0] - 1
-    out = np.zeros((n_days, n_states), np.int64)
-    fresh = np.empty(n, np.int64)
-    d = 0
-    for i in range(n):
-        g = grid[i]
-        while d + 1 < n_days and g >= day_edges[d + 1]:
-            d += 1
-        nxt = t_next[i]
-        u = until[i]
-        f = (u if u < nxt else nxt) - g
-        if f < 0:
-            f = 0
-        fresh[i] = f
-        out[d, code[i]] += f
-        out[d, no_data] += nxt - g - f
-    return out, fresh
-
-
 def margin_codes_numpy(
     npsha,
     npsh3,
@@ -193,47 +171,6 @@ def band_summary_numpy(code, fresh, npsha, npsh3, p_abs, p_v, g_ratio, g_margin,
     return worst, least_m, least_g, int(fresh[below].sum()), first
 
 
-def _band_summary_loop(code, fresh, npsha, npsh3, p_abs, p_v, g_ratio, g_margin, codes):
-    """The summary's worst ratio, least margins and time below the vapour pressure, in one
-    pass."""  # pragma: no cover - compiled
-    ample_margin, off_curve = codes
-    worst = -1
-    best = np.inf
-    nan_seen = False
-    least_m = np.inf
-    least_g = np.inf
-    below_ns = 0
-    first = -1
-    for i in range(code.shape[0]):
-        c = code[i]
-        f = fresh[i]
-        if f <= 0:
-            continue
-        if c <= ample_margin:
-            a = npsha[i]
-            h3 = npsh3[i]
-            r = a / h3
-            if worst < 0:
-                worst = i  # np.argmin: the first piece unless a later one is less (or NaN)
-            if not nan_seen:
-                if r != r:
-                    worst = i
-                    nan_seen = True
-                elif r < best:
-                    best = r
-                    worst = i
-            least_m = min(least_m, a - h3)
-            least_g = min(least_g, a - max(g_ratio * h3, h3 + g_margin))
-        if c <= off_curve and p_abs[i] < p_v[i]:
-            below_ns += f
-            if first < 0:
-                first = i
-    if worst < 0:
-        least_m = np.nan
-        least_g = np.nan
-    return worst, least_m, least_g, below_ns, first
-
-
 def transmitter_npsha_numpy(reading, baro, gauge, temp, table, flow, area, elevation):
     """Vapour pressure [Pa], density [kg/m³], absolute pressure [Pa] and NPSHa [m] of a pump
     with a suction transmitter (numpy form of :mod:`screening.physics.npsh` and the fluid
@@ -258,7 +195,7 @@ def transmitter_npsha_numpy(reading, baro, gauge, temp, table, flow, area, eleva
 
 
 def _transmitter_npsha_loop(reading, baro, gauge, temp, table, flow, area, elevation):
-    """p_v, rho, p_abs and NPSHa of each piece in one pass (see the numpy form)."""  # pragma: no cover
+    """p_v, rho, p_abs and NPSHa of each piece in one pass (see the numpy form)."""
     t_min, t_max, step, ln_pv, rho_t = table
     n = reading.shape[0]
     last = rho_t.shape[0] - 1
@@ -313,7 +250,7 @@ def region_codes_numpy(flow, edges, running, decide_bad, r_bad, r_until, decide_
 
 
 def _region_codes_loop(flow, edges, running, decide_bad, r_bad, r_until, decide_until, codes):
-    """The operating region of each piece and until when it holds [ns], in one pass."""  # pragma: no cover
+    """The operating region of each piece and until when it holds [ns], in one pass."""
     preferred, low, below_min, high, beyond, bad_data, stopped = codes
     q_min, q_lo, q_hi, q_max = edges
     n = flow.shape[0]
@@ -342,24 +279,122 @@ def _region_codes_loop(flow, edges, running, decide_bad, r_bad, r_until, decide_
     return code, until
 
 
+def piece_sums_numpy(margin, region, grid, t_next, day_edges, sizes, phys, speed, baro, par):
+    """The time weighting and the summary of one pump's pieces (numpy form).
+
+    ``margin`` = (code, until [ns]) and ``region`` = (code, until [ns]) of each piece;
+    ``sizes`` = (margin states, region states, no-data code); ``phys`` = (NPSHa [m], NPSH3
+    [m], absolute pressure [Pa], vapour pressure [Pa]); ``speed`` = running speed over rated
+    [-] per piece (empty: no speed tag); ``baro`` = (running, bad data, barometer used) per
+    piece (empty: the pump needs no barometer); ``par`` = (guidance ratio [-], guidance margin
+    [m], lowest and highest trusted speed ratio [-], ample-margin code, off-curve code,
+    stopped code).
+
+    Returns the time [ns] per day and margin state, per day and region, the fresh part of
+    each piece [ns] for each, the summary of :func:`band_summary_numpy`, the fresh time [ns] in
+    a margin band outside the trusted speed ratios, and the fresh time [ns] counted with the
+    standard atmosphere in place of the barometer."""
+    n_m, n_r, no_data = sizes
+    daily, fresh = weigh_numpy(margin[0], margin[1], grid, t_next, day_edges, n_m, no_data)
+    r_daily, r_fresh = weigh_numpy(region[0], region[1], grid, t_next, day_edges, n_r, no_data)
+    g_ratio, g_margin, lo, hi, ample, off_curve, stopped = par
+    code = margin[0]
+    summary = band_summary_numpy(code, fresh, *phys, g_ratio, g_margin, (ample, off_curve))
+    outside = 0
+    if len(speed):
+        with np.errstate(invalid="ignore"):
+            out = (code <= ample) & ((speed < lo) | (speed > hi))
+        outside = int(fresh[out].sum())
+    fallback = 0
+    if len(baro[0]):
+        running, bad, used = baro
+        fallback = int(fresh[running & ~bad & (code != stopped) & ~used].sum())
+    return daily, r_daily, fresh, r_fresh, summary, outside, fallback
+
+
+def _piece_sums_loop(margin, region, grid, t_next, day_edges, sizes, phys, speed, baro, par):
+    """The time weighting and the summary of one pump's pieces in one pass (see the numpy
+    form)."""
+    n_m, n_r, no_data = sizes
+    code, until = margin
+    rcode, r_until = region
+    npsha, npsh3, p_abs, p_v = phys
+    running, bad, used = baro
+    g_ratio, g_margin, lo, hi, ample, off_curve, stopped = par
+    n = grid.shape[0]
+    n_days = day_edges.shape[0] - 1
+    daily = np.zeros((n_days, n_m), np.int64)
+    r_daily = np.zeros((n_days, n_r), np.int64)
+    fresh = np.empty(n, np.int64)
+    r_fresh = np.empty(n, np.int64)
+    has_speed = speed.shape[0] > 0
+    has_baro = running.shape[0] > 0
+    worst, best, nan_seen = -1, np.inf, False
+    least_m, least_g, below_ns, first, outside, fallback = np.inf, np.inf, 0, -1, 0, 0
+    d = 0
+    for i in range(n):
+        g = grid[i]
+        while d + 1 < n_days and g >= day_edges[d + 1]:
+            d += 1
+        span = t_next[i] - g
+        f = max(min(until[i], t_next[i]) - g, 0)
+        rf = max(min(r_until[i], t_next[i]) - g, 0)
+        fresh[i] = f
+        r_fresh[i] = rf
+        c = code[i]
+        daily[d, c] += f
+        daily[d, no_data] += span - f
+        r_daily[d, rcode[i]] += rf
+        r_daily[d, no_data] += span - rf
+        if f <= 0:
+            continue
+        if c <= ample:
+            a = npsha[i]
+            h3 = npsh3[i]
+            r = a / h3
+            if worst < 0:
+                worst = i  # np.argmin: the first piece unless a later one is less (or NaN)
+            if not nan_seen:
+                if r != r:
+                    worst, nan_seen = i, True
+                elif r < best:
+                    best, worst = r, i
+            least_m = min(least_m, a - h3)
+            least_g = min(least_g, a - max(g_ratio * h3, h3 + g_margin))
+            if has_speed and (speed[i] < lo or speed[i] > hi):
+                outside += f
+        if c <= off_curve and p_abs[i] < p_v[i]:
+            below_ns += f
+            if first < 0:
+                first = i
+        if has_baro and running[i] and not bad[i] and c != stopped and not used[i]:
+            fallback += f
+    if worst < 0:
+        least_m = np.nan
+        least_g = np.nan
+    summary = (worst, least_m, least_g, below_ns, first)
+    return daily, r_daily, fresh, r_fresh, summary, outside, fallback
+
+
 merge_many = compile_kernel(_merge_many_loop, merge_many_numpy)
-weigh = compile_kernel(_weigh_loop, weigh_numpy)
 margin_codes = compile_kernel(_margin_codes_loop, margin_codes_numpy)
-band_summary = compile_kernel(_band_summary_loop, band_summary_numpy)
 transmitter_npsha = compile_kernel(_transmitter_npsha_loop, transmitter_npsha_numpy)
 region_codes = compile_kernel(_region_codes_loop, region_codes_numpy)
+piece_sums = compile_kernel(_piece_sums_loop, piece_sums_numpy)
 
 
 def _warm_up() -> None:
     """Load (or compile) every kernel once, at import (see :mod:`screening.base.kernels`)."""
     t = np.array([0, 1], dtype=np.int64)
     merge_many(t, t, np.array([0, 2], dtype=np.int64))
-    weigh(np.zeros(2, np.int8), t, t, t + 1, np.array([0, 2], dtype=np.int64), 7, 6)
     x, yes = np.ones(2), np.ones(2, dtype=np.bool_)
     margin_codes(x, x, x, yes, ~yes, ~yes, t, t, 1.1, 1.0, 1.5, (4, 7, 5))
-    band_summary(np.zeros(2, np.int8), t, x, x, x, x, 1.1, 1.0, (3, 4))
     transmitter_npsha(x, x, True, x, (0.0, 2.0, 1.0, x, x), x, 1.0, 0.0)
     region_codes(x, (x, x, x, x), yes, ~yes, ~yes, t, t, (0, 1, 2, 3, 4, 7, 5))
+    code, days = np.zeros(2, np.int8), np.array([0, 2], dtype=np.int64)
+    for speed, baro in ((x, (yes, ~yes, yes)), (x[:0], (yes[:0], yes[:0], yes[:0]))):
+        piece_sums((code, t), (code, t), t, t + 1, days, (9, 9, 6), (x, x, x, x), speed, baro,
+                   (1.1, 1.0, 0.8, 1.2, 3, 4, 5))  # fmt: skip
 
 
 _warm_up()

@@ -20,11 +20,10 @@ import pandas as pd
 
 from screening.base import states
 from screening.base.calc_kernels import (
-    band_summary,
     margin_codes,
+    piece_sums,
     region_codes,
     transmitter_npsha,
-    weigh,
 )
 from screening.engine import field_head, lineflow, plotdata, severity
 from screening.engine.timeline import (
@@ -120,17 +119,6 @@ def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str, 
     )
     p_abs = p_v if pump.vessel_surface == "saturated" else p_surface
     return np.broadcast_to(np.asarray(p_abs, dtype=np.float64), npsha.shape), npsha
-
-
-def _weigh(code, until, grid, t_next, day_edges, n_states: int):
-    """Hours per day and state [h] and the fresh part of each piece [ns].
-
-    The fresh part of each piece (until its needed tags go stale) has the piece's state; the
-    rest of it has no data (code 6 in both kinds of state). Sums are exact: integer
-    nanoseconds, one compiled pass (:func:`screening.base.calc_kernels.weigh`).
-    """
-    daily, fresh = weigh(code, until, grid, t_next, day_edges, n_states, states.NO_DATA)
-    return daily / NS_PER_HOUR, fresh
 
 
 def _flat(values, n: int) -> np.ndarray:
@@ -435,24 +423,23 @@ def _summarise(
     rcode, r_until = region
     grid, t_next = timeline.grid, timeline.t_next
     n_m, n_r = len(states.STATES), len(regions.REGIONS)
-    daily, fresh = _weigh(code, until, grid, t_next, day_edges, n_m)
-    r_daily, r_fresh = _weigh(rcode, r_until, grid, t_next, day_edges, n_r)
-    hours = daily.sum(axis=0)
-    window_hours = (end_ns - start_ns) / NS_PER_HOUR
-
-    worst, least_m, least_g, below_ns, below_first = band_summary(
-        code, fresh, phys.npsha, phys.npsh3, _flat(phys.p_abs, len(grid)), phys.p_v,
-        guidance.ratio, guidance.margin, (states.AMPLE_MARGIN, states.OFF_CURVE),
+    speed_ratio = None if phys.speed is None else phys.speed / pump.rated_speed
+    no = np.empty(0, dtype=bool)
+    baro = (run.running, all_bad, phys.baro_used) if pump.needs_barometer else (no, no, no)
+    daily, r_daily, fresh, r_fresh, summary, outside, fallback = piece_sums(
+        (code, until), (rcode, r_until), grid, t_next, day_edges, (n_m, n_r, states.NO_DATA),
+        (phys.npsha, phys.npsh3, _flat(phys.p_abs, len(grid)), phys.p_v),
+        np.empty(0) if speed_ratio is None else speed_ratio, baro,
+        (guidance.ratio, guidance.margin, *settings.speed_scaling_range, states.AMPLE_MARGIN,
+         states.OFF_CURVE, states.STOPPED),
     )  # fmt: skip
-    result = PumpResult(pump.pump_id, hours, daily, window_hours)
+    worst, least_m, least_g, below_ns, below_first = summary
+    daily, r_daily = daily / NS_PER_HOUR, r_daily / NS_PER_HOUR
+    result = PumpResult(pump.pump_id, daily.sum(axis=0), daily, (end_ns - start_ns) / NS_PER_HOUR)
     result.region_daily = r_daily
     result.region_hours = r_daily.sum(axis=0)
-    ratio_n = np.ones(len(grid)) if phys.speed is None else phys.speed / pump.rated_speed
-    if phys.speed is not None:
-        lo, hi = settings.speed_scaling_range
-        with np.errstate(invalid="ignore"):
-            outside = (code <= states.AMPLE_MARGIN) & ((ratio_n < lo) | (ratio_n > hi))
-        result.speed_outside_hours = float(fresh[outside].sum() / NS_PER_HOUR)
+    if speed_ratio is not None:
+        result.speed_outside_hours = float(outside / NS_PER_HOUR)
     if worst >= 0:
         # the least margins in metres too: a ratio alone hides how little head is left on a
         # small NPSH3
@@ -470,9 +457,9 @@ def _summarise(
         grid, t_next, fresh, code, (phys.npsha, phys.npsh3), guidance, right
     )
     if pump.needs_barometer:
-        counted = run.running & ~all_bad & (code != states.STOPPED)
-        result.baro_fallback_hours = float(fresh[counted & ~phys.baro_used].sum() / NS_PER_HOUR)
+        result.baro_fallback_hours = float(fallback / NS_PER_HOUR)
     ratio = phys.npsha / phys.npsh3 if plot_buckets or keep_series else None
+    ratio_n = np.ones(len(grid)) if speed_ratio is None else speed_ratio
     if plot_buckets:
         result.plot, result.points = _plot_data(
             pump, curve, guidance, timeline, run, phys, code, all_bad, fresh, ratio, ratio_n,
