@@ -180,13 +180,16 @@ def _bucket_min_max_loop(values, starts):  # pragma: no cover - compiled
 
 
 def compile_kernel(func, fallback):
-    """``func`` compiled by numba (machine code cached beside the module), else ``fallback``."""
+    """``func`` compiled by numba (machine code cached beside the module), else ``fallback``.
+
+    Floating-point errors follow numpy (x/0 is inf or NaN, as in the numpy forms), not
+    Python (which would raise in the middle of a pump)."""
     if numba is None:  # pragma: no cover
         return fallback
     try:
-        return numba.njit(cache=True, nogil=True)(func)
+        return numba.njit(cache=True, nogil=True, error_model="numpy")(func)
     except Exception:  # pragma: no cover - e.g. a read-only install without a cache folder
-        return numba.njit(nogil=True)(func)
+        return numba.njit(nogil=True, error_model="numpy")(func)
 
 
 hold = compile_kernel(_hold_loop, hold_numpy)
