@@ -94,18 +94,21 @@ def pchip_eval_numpy(x_nodes, coef, q):
 
 
 def _pchip_eval_loop(x_nodes, coef, q):  # pragma: no cover - compiled
-    """Piecewise cubic at each ``q`` (intervals found by a short scan); NaN outside."""
+    """Piecewise cubic at each ``q``; NaN outside. Each interval is found by a short scan from
+    the previous one (flows change little from one piece to the next)."""
     n = q.shape[0]
     k = x_nodes.shape[0] - 1
     out = np.empty(n)
     lo = x_nodes[0]
     hi = x_nodes[k]
+    i = 0
     for m in range(n):
         v = q[m]
         if not (v >= lo and v <= hi):
             out[m] = np.nan
             continue
-        i = 0
+        while i > 0 and v < x_nodes[i]:
+            i -= 1
         while i < k - 1 and v >= x_nodes[i + 1]:
             i += 1
         d = v - x_nodes[i]
