@@ -94,18 +94,21 @@ def pchip_eval_numpy(x_nodes, coef, q):
 
 
 def _pchip_eval_loop(x_nodes, coef, q):  # pragma: no cover - compiled
-    """Piecewise cubic at each ``q`` (intervals found by a short scan); NaN outside."""
+    """Piecewise cubic at each ``q``; NaN outside. Each interval is found by a short scan from
+    the previous one (flows change little from one piece to the next)."""
     n = q.shape[0]
     k = x_nodes.shape[0] - 1
     out = np.empty(n)
     lo = x_nodes[0]
     hi = x_nodes[k]
+    i = 0
     for m in range(n):
         v = q[m]
         if not (v >= lo and v <= hi):
             out[m] = np.nan
             continue
-        i = 0
+        while i > 0 and v < x_nodes[i]:
+            i -= 1
         while i < k - 1 and v >= x_nodes[i + 1]:
             i += 1
         d = v - x_nodes[i]
@@ -179,20 +182,24 @@ def _bucket_min_max_loop(values, starts):  # pragma: no cover - compiled
     return lo, hi
 
 
-def _compile(func, fallback):
+def compile_kernel(func, fallback):
+    """``func`` compiled by numba (machine code cached beside the module), else ``fallback``.
+
+    Floating-point errors follow numpy (x/0 is inf or NaN, as in the numpy forms), not
+    Python (which would raise in the middle of a pump)."""
     if numba is None:  # pragma: no cover
         return fallback
     try:
-        return numba.njit(cache=True, nogil=True)(func)
+        return numba.njit(cache=True, nogil=True, error_model="numpy")(func)
     except Exception:  # pragma: no cover - e.g. a read-only install without a cache folder
-        return numba.njit(nogil=True)(func)
+        return numba.njit(nogil=True, error_model="numpy")(func)
 
 
-hold = _compile(_hold_loop, hold_numpy)
-union_sorted = _compile(_union_sorted_loop, union_sorted_numpy)
-pchip_eval = _compile(_pchip_eval_loop, pchip_eval_numpy)
-table_eval = _compile(_table_eval_loop, table_eval_numpy)
-bucket_min_max = _compile(_bucket_min_max_loop, bucket_min_max_numpy)
+hold = compile_kernel(_hold_loop, hold_numpy)
+union_sorted = compile_kernel(_union_sorted_loop, union_sorted_numpy)
+pchip_eval = compile_kernel(_pchip_eval_loop, pchip_eval_numpy)
+table_eval = compile_kernel(_table_eval_loop, table_eval_numpy)
+bucket_min_max = compile_kernel(_bucket_min_max_loop, bucket_min_max_numpy)
 
 
 def _warm_up() -> None:

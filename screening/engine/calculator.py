@@ -19,6 +19,12 @@ import numpy as np
 import pandas as pd
 
 from screening.base import states
+from screening.base.calc_kernels import (
+    margin_codes,
+    piece_sums,
+    region_codes,
+    transmitter_npsha,
+)
 from screening.engine import field_head, lineflow, plotdata, severity
 from screening.engine.timeline import (
     NEVER,
@@ -34,9 +40,9 @@ from screening.inputs.tagdata import TagSeries
 from screening.physics import npsh, regions, suction
 from screening.physics.atmosphere import standard_pressure
 from screening.physics.curves import Npsh3Curve
-from screening.physics.margin import Guidance, margin_band
+from screening.physics.margin import Guidance
 from screening.physics.properties import FluidTable
-from screening.physics.regions import operating_region, pump_region_edges
+from screening.physics.regions import pump_region_edges
 
 NS_PER_HOUR = 3_600_000_000_000
 
@@ -115,25 +121,10 @@ def _vessel_npsha(pump: PumpSpec, held, baro, p_v, rho, flow, temp, fluid: str, 
     return np.broadcast_to(np.asarray(p_abs, dtype=np.float64), npsha.shape), npsha
 
 
-def _weigh(code, until, grid, t_next, span, day_base, n_days: int, n_states: int):
-    """Hours per day and state [h] and the fresh part of each piece [ns].
-
-    The fresh part of each piece (until its needed tags go stale) has the piece's state; the
-    rest of it has no data (code 6 in both kinds of state). ``span`` is each piece's length
-    [ns] and ``day_base`` its day index times ``n_states``. Sums are exact: integer
-    nanoseconds below 2^53 per bin.
-    """
-    fresh = np.minimum(until, t_next)  # one array, worked in place
-    fresh -= grid
-    np.maximum(fresh, 0, out=fresh)
-    daily = np.bincount(day_base + code, weights=fresh, minlength=n_days * n_states)
-    stale = span - fresh
-    gaps = np.flatnonzero(stale)
-    if len(gaps):
-        daily += np.bincount(
-            day_base[gaps] + states.NO_DATA, weights=stale[gaps], minlength=n_days * n_states
-        )
-    return daily.reshape(n_days, n_states) / NS_PER_HOUR, fresh
+def _flat(values, n: int) -> np.ndarray:
+    """``values`` as a float64 array of ``n`` pieces (a scalar or broadcast view repeated)."""
+    a = np.asarray(values, dtype=np.float64)
+    return a if a.ndim == 1 and a.shape[0] == n else np.broadcast_to(a, (n,))
 
 
 @functools.lru_cache(maxsize=16)
@@ -363,16 +354,21 @@ def _evaluate(pump, curve, table, timeline: Timeline, barometer, settings, run) 
     held = timeline.held
     baro, baro_used = _barometric(barometer, timeline.grid, settings)
     temp = held["temperature"].value
-    p_v, rho = table.properties(temp)
     flow = held["flow"].value
     if pump.source == "transmitter":
-        p_abs = npsh.absolute_pressure(held["suction"].value, baro, pump.gauge)
-        npsha = npsh.npsha_from_pressure(p_abs, p_v, rho, flow, pump.tap_bore, pump.tap_elevation)
+        # npsh.absolute_pressure, the table's properties and npsh.npsha_from_pressure in one
+        # compiled pass, to the last bit the same
+        area = npsh.pipe_area(pump.tap_bore)
+        p_v, rho, p_abs, npsha = transmitter_npsha(
+            held["suction"].value, baro, bool(pump.gauge), temp, table.grid(), flow, area,
+            float(pump.tap_elevation),
+        )  # fmt: skip
         # a vertical can from its nozzle to the impeller eye (register; counted once); none
         # registered: no loss (subtracting zeros would change no number)
         if pump.can_loss_k is not None:
             npsha = npsha - suction.can_loss(pump.can_loss_k, flow)
     else:
+        p_v, rho = table.properties(temp)
         p_abs, npsha = _vessel_npsha(
             pump, held, baro, p_v, rho, flow, temp, table.fluid, run.line_flow
         )
@@ -384,41 +380,36 @@ def _evaluate(pump, curve, table, timeline: Timeline, barometer, settings, run) 
 
 
 def _classify_margin(phys: _Physics, run: _Running, guidance: Guidance, settings: Settings):
-    """The margin state of each piece, the time until which it holds [ns], and which pieces
-    are bad data."""
-    # An absolute pressure at or below zero (a gauge reading below the local vacuum) is
-    # impossible: bad data, not a number in the results.
-    with np.errstate(invalid="ignore"):
-        all_bad = run.all_bad | (np.asarray(phys.p_abs) <= 0.0)
-    on_curve = np.isfinite(phys.npsh3) & np.isfinite(phys.npsha)
-    with np.errstate(invalid="ignore"):
-        code = margin_band(phys.npsha, phys.npsh3, guidance, settings.ample_ratio)
-    code[~on_curve] = states.OFF_CURVE
-    code[all_bad] = states.BAD_DATA
-    code[~run.running] = states.STOPPED
-    code[run.decide_bad] = states.BAD_DATA
-    until = np.where(run.running & ~run.decide_bad, run.all_until, run.decide_until)
-    return code, until, all_bad
+    """The margin state of each piece (:func:`screening.physics.margin.margin_band`; off the
+    curve, bad data, stopped), the time until which it holds [ns], and which pieces are bad
+    data. An absolute pressure at or below zero (a gauge reading below the local vacuum) is
+    impossible: bad data, not a number in the results. One compiled pass
+    (:func:`screening.base.calc_kernels.margin_codes`)."""
+    return margin_codes(
+        phys.npsha, phys.npsh3, _flat(phys.p_abs, len(phys.npsha)), run.running,
+        run.decide_bad, run.all_bad, run.all_until, run.decide_until, guidance.ratio,
+        guidance.margin, settings.ample_ratio, (states.OFF_CURVE, states.BAD_DATA, states.STOPPED),
+    )  # fmt: skip
 
 
 def _classify_region(pump, curve, held, phys: _Physics, run: _Running, settings: Settings):
     """The operating region of each piece (flow [m³/s] against the region edges at the running
-    speed) and the time until which it holds [ns]: needs only the run decision, flow and
-    speed."""
+    speed, :func:`screening.physics.regions.operating_region`) and the time until which it
+    holds [ns]: needs only the run decision, flow and speed. One compiled pass
+    (:func:`screening.base.calc_kernels.region_codes`)."""
     edges = pump_region_edges(pump, curve.flow_max, phys.speed, settings.min_stable_flow_fraction)
-    with np.errstate(invalid="ignore"):
-        rcode = operating_region(phys.flow, edges)
-    r_bad = run.decide_bad.copy()
-    r_until = run.decide_until.copy()
+    n = len(phys.flow)
+    r_bad, r_until = run.decide_bad, run.decide_until
     for r in ("flow", "speed"):
         if r in held:
-            r_bad |= held[r].bad
+            r_bad = r_bad | held[r].bad
             r_until = np.minimum(r_until, held[r].until)
-    rcode[r_bad] = regions.BAD_DATA
-    rcode[~run.running] = regions.STOPPED
-    rcode[run.decide_bad] = regions.BAD_DATA
-    r_until = np.where(run.running & ~run.decide_bad, r_until, run.decide_until)
-    return rcode, r_until
+    return region_codes(
+        phys.flow, tuple(_flat(e, n) for e in edges), run.running, run.decide_bad, r_bad,
+        r_until, run.decide_until, (regions.PREFERRED, regions.LOW_FLOW,
+        regions.BELOW_MIN_FLOW, regions.HIGH_FLOW, regions.BEYOND_ALLOWABLE, regions.BAD_DATA,
+        regions.STOPPED),
+    )  # fmt: skip
 
 
 def _summarise(
@@ -431,43 +422,44 @@ def _summarise(
     code, until, all_bad = margin
     rcode, r_until = region
     grid, t_next = timeline.grid, timeline.t_next
-    n_days = len(day_edges) - 1
-    # every local midnight is a grid point: the day index is a run-length repeat
-    first = np.searchsorted(grid, day_edges[:-1], side="left")
-    per_day = np.diff(np.append(first, len(grid)))
-    span = t_next - grid
     n_m, n_r = len(states.STATES), len(regions.REGIONS)
-    base = np.repeat(np.arange(n_days) * n_m, per_day)  # day index x states, per piece
-    r_base = base if n_r == n_m else np.repeat(np.arange(n_days) * n_r, per_day)
-    daily, fresh = _weigh(code, until, grid, t_next, span, base, n_days, n_m)
-    r_daily, r_fresh = _weigh(rcode, r_until, grid, t_next, span, r_base, n_days, n_r)
-    hours = daily.sum(axis=0)
-    window_hours = (end_ns - start_ns) / NS_PER_HOUR
-
-    ratio = phys.npsha / phys.npsh3
-    banded = (code <= states.AMPLE_MARGIN) & (fresh > 0)
-    result = PumpResult(pump.pump_id, hours, daily, window_hours)
+    speed_ratio = None if phys.speed is None else phys.speed / pump.rated_speed
+    no = np.empty(0, dtype=bool)
+    baro = (run.running, all_bad, phys.baro_used) if pump.needs_barometer else (no, no, no)
+    daily, r_daily, fresh, r_fresh, summary, outside, fallback = piece_sums(
+        (code, until), (rcode, r_until), grid, t_next, day_edges, (n_m, n_r, states.NO_DATA),
+        (phys.npsha, phys.npsh3, _flat(phys.p_abs, len(grid)), phys.p_v),
+        np.empty(0) if speed_ratio is None else speed_ratio, baro,
+        (guidance.ratio, guidance.margin, *settings.speed_scaling_range, states.AMPLE_MARGIN,
+         states.OFF_CURVE, states.STOPPED),
+    )  # fmt: skip
+    worst, least_m, least_g, below_ns, below_first = summary
+    daily, r_daily = daily / NS_PER_HOUR, r_daily / NS_PER_HOUR
+    result = PumpResult(pump.pump_id, daily.sum(axis=0), daily, (end_ns - start_ns) / NS_PER_HOUR)
     result.region_daily = r_daily
     result.region_hours = r_daily.sum(axis=0)
-    ratio_n = np.ones(len(grid)) if phys.speed is None else phys.speed / pump.rated_speed
-    if phys.speed is not None:
-        lo, hi = settings.speed_scaling_range
-        with np.errstate(invalid="ignore"):
-            outside = (code <= states.AMPLE_MARGIN) & ((ratio_n < lo) | (ratio_n > hi))
-        result.speed_outside_hours = float(fresh[outside].sum() / NS_PER_HOUR)
-    if banded.any():
-        i = int(np.argmin(np.where(banded, ratio, np.inf)))
-        result.worst_ratio = float(ratio[i])
-        result.worst_time = pd.Timestamp(int(grid[i]), tz="UTC")
-        _worst_margins(result, phys, guidance, banded)
-    _below_vapour(result, grid, phys, code, fresh)
+    if speed_ratio is not None:
+        result.speed_outside_hours = float(outside / NS_PER_HOUR)
+    if worst >= 0:
+        # the least margins in metres too: a ratio alone hides how little head is left on a
+        # small NPSH3
+        result.worst_ratio = float(phys.npsha[worst] / phys.npsh3[worst])
+        result.worst_time = pd.Timestamp(int(grid[worst]), tz="UTC")
+        result.worst_margin_m, result.worst_guidance_margin_m = least_m, least_g
+    if below_first >= 0:
+        # running with p_abs < p_v: the liquid would be boiling, impossible in steady flow,
+        # so a transmitter, its reference or the temperature is wrong (counted in its margin
+        # state as computed, below NPSH3 as a rule, and flagged)
+        result.below_vapour_hours = float(below_ns / NS_PER_HOUR)
+        result.below_vapour_first = pd.Timestamp(int(grid[below_first]), tz="UTC")
     right = None if ends is None else (ends.npsha, ends.npsh3)
     result.severity = severity.severity(
         grid, t_next, fresh, code, (phys.npsha, phys.npsh3), guidance, right
     )
     if pump.needs_barometer:
-        counted = run.running & ~all_bad & (code != states.STOPPED)
-        result.baro_fallback_hours = float(fresh[counted & ~phys.baro_used].sum() / NS_PER_HOUR)
+        result.baro_fallback_hours = float(fallback / NS_PER_HOUR)
+    ratio = phys.npsha / phys.npsh3 if plot_buckets or keep_series else None
+    ratio_n = np.ones(len(grid)) if speed_ratio is None else speed_ratio
     if plot_buckets:
         result.plot, result.points = _plot_data(
             pump, curve, guidance, timeline, run, phys, code, all_bad, fresh, ratio, ratio_n,
@@ -476,27 +468,6 @@ def _summarise(
     if keep_series:
         result.series = _series_frame(pump, timeline, run, phys, code, rcode, fresh, r_fresh, ratio)
     return result
-
-
-def _worst_margins(result: PumpResult, phys: _Physics, guidance: Guidance, banded) -> None:
-    """The least margins in metres on the pieces in a margin band: NPSHa − NPSH3 and NPSHa −
-    guidance head [m] (a ratio alone hides how little head is left on a small NPSH3)."""
-    npsha, npsh3 = phys.npsha[banded], phys.npsh3[banded]
-    result.worst_margin_m = float(np.min(npsha - npsh3))
-    result.worst_guidance_margin_m = float(np.min(npsha - guidance.head(npsh3)))
-
-
-def _below_vapour(result: PumpResult, grid, phys: _Physics, code, fresh) -> None:
-    """Hours [h] running in a margin band (or off the curve) with the absolute suction (or
-    vessel surface) pressure below the vapour pressure at the recorded temperature: the liquid
-    would be boiling, impossible in steady flow, so a transmitter, its reference or the
-    temperature is wrong. Counted in its margin state as computed (below NPSH3 as a rule) and
-    flagged."""
-    with np.errstate(invalid="ignore"):
-        below = (code <= states.OFF_CURVE) & (np.asarray(phys.p_abs) < phys.p_v) & (fresh > 0)
-    if below.any():
-        result.below_vapour_hours = float(fresh[below].sum() / NS_PER_HOUR)
-        result.below_vapour_first = pd.Timestamp(int(grid[np.argmax(below)]), tz="UTC")
 
 
 def _plot_data(

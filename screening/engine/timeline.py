@@ -29,7 +29,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from screening.base.kernels import hold, union_sorted
+from screening.base.calc_kernels import merge_many
+from screening.base.kernels import hold
 from screening.inputs.tagdata import TagSeries
 
 NEVER = np.iinfo(np.int64).min // 4
@@ -135,10 +136,11 @@ def align(pump, tags, barometer, stale_limit: float, start_ns, end_ns, day_edges
         parts.append(expiry[(expiry > start_ns) & (expiry < end_ns)])
     if extra is not None and len(extra):
         parts.append(np.asarray(extra, dtype=np.int64))
-    # every part is sorted: merge them one by one into the sorted unique grid
-    grid = np.unique(np.concatenate(parts))
-    for piece in seen:
-        grid = union_sorted(grid, np.ascontiguousarray(piece))
+    # every part is sorted: merge the time axes into the sorted unique grid in one pass
+    base = np.unique(np.concatenate(parts))
+    offsets = np.cumsum([0] + [len(x) for x in seen], dtype=np.int64)
+    cat = np.concatenate(seen) if seen else np.empty(0, dtype=np.int64)
+    grid = merge_many(base, cat, offsets)
     t_next = np.append(grid[1:], end_ns)
     return Timeline(grid, t_next, held_at(pump, tags, grid, stale_limit))
 

@@ -29,13 +29,17 @@ def absolute_pressure(reading, barometric, gauge: bool):
     return reading + barometric if gauge else reading
 
 
+def pipe_area(bore):
+    """Cross-section π·D²/4 [m²] of a pipe of inner diameter ``bore`` [m]."""
+    return np.pi * np.asarray(bore, dtype=np.float64) ** 2 / 4.0
+
+
 def velocity_head(flow, bore):
     """Velocity head v²/(2g) [m] of ``flow`` [m³/s] in a pipe of inner diameter ``bore`` [m].
 
     v = Q / (π·D²/4) (continuity); velocity head as in ISO 9906:2012 §3.2 and ANSI/HI 1.3.
     """
-    area = np.pi * np.asarray(bore, dtype=np.float64) ** 2 / 4.0
-    v = np.asarray(flow, dtype=np.float64) / area
+    v = np.asarray(flow, dtype=np.float64) / pipe_area(bore)
     with np.errstate(over="ignore"):  # an absurd flow gives inf, and is off the curve anyway
         return v * v / (2.0 * G)
 

@@ -1,0 +1,400 @@
+"""Compiled passes of the per-pump calculation (numba), with plain numpy equivalents.
+
+The calculation of one pump is a handful of passes over its pieces (a month of one-minute
+data is some 43 000 of them). Written with numpy, each step is several whole-array passes and
+temporary arrays; the loops below do each step in one pass. They give the same numbers to the
+last bit as the numpy forms beside them (tests/test_kernels.py compares both on random input),
+which in turn are the calculator's definitions (DESIGN.md, "Time weighting").
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from screening.base.kernels import compile_kernel
+
+#: Standard gravity [m/s²] (exact by definition, CGPM 1901), as in screening.physics.npsh.
+G = 9.80665
+
+#: Larger than any instant [ns] of a window (the end of a merge).
+_LAST = np.iinfo(np.int64).max
+
+
+def merge_many_numpy(base, cat, offsets):
+    """Sorted unique union of the sorted int64 array ``base`` and the sorted pieces
+    ``cat[offsets[k]:offsets[k + 1]]`` (numpy form)."""
+    return np.unique(np.concatenate((base, cat)))
+
+
+def _merge_many_loop(base, cat, offsets):  # pragma: no cover - compiled
+    """Sorted unique union of ``base`` and every piece of ``cat``: one k-way merge pass."""
+    k_n = offsets.shape[0] - 1
+    pos = offsets[:-1].copy()
+    out = np.empty(base.shape[0] + cat.shape[0], np.int64)
+    n = 0
+    i = 0
+    nb = base.shape[0]
+    while True:
+        v = base[i] if i < nb else _LAST
+        for k in range(k_n):
+            p = pos[k]
+            if p < offsets[k + 1] and cat[p] < v:
+                v = cat[p]
+        if v == _LAST and i >= nb:
+            done = True
+            for k in range(k_n):
+                if pos[k] < offsets[k + 1]:
+                    done = False
+            if done:
+                break
+        if i < nb and base[i] == v:
+            i += 1
+        for k in range(k_n):
+            p = pos[k]
+            end = offsets[k + 1]
+            while p < end and cat[p] == v:
+                p += 1
+            pos[k] = p
+        out[n] = v
+        n += 1
+    return out[:n]
+
+
+def weigh_numpy(code, until, grid, t_next, day_edges, n_states, no_data):
+    """Time per day and state [ns] (int64, shape (days, n_states)) and the fresh part of each
+    piece [ns]: the fresh part (until ``until``) has the piece's state, the rest ``no_data``.
+    Every local midnight ``day_edges[1:-1]`` is a grid point (numpy form)."""
+    n_days = len(day_edges) - 1
+    day = np.searchsorted(day_edges, grid, side="right") - 1
+    fresh = np.maximum(np.minimum(until, t_next) - grid, 0)
+    stale = t_next - grid - fresh
+    out = np.zeros(n_days * n_states, dtype=np.int64)
+    np.add.at(out, day * n_states + code, fresh)
+    np.add.at(out, day * n_states + no_data, stale)
+    return out.reshape(n_days, n_states), fresh
+
+
+def margin_codes_numpy(
+    npsha,
+    npsh3,
+    p_abs,
+    running,
+    decide_bad,
+    run_bad,
+    all_until,
+    decide_until,
+    g_ratio,
+    g_margin,
+    ample_ratio,
+    codes,
+):
+    """The margin state of each piece, until when it holds [ns] and which pieces are bad data
+    (numpy form). ``codes`` = (off_curve, bad_data, stopped); NPSHa, NPSH3 [m], the absolute
+    pressure [Pa] (at or below zero: impossible, bad data); guidance ratio [-] and margin [m],
+    the ample ratio [-]. The band is the number of edges reached (NPSH3, guidance, ample)."""
+    off_curve, bad_data, stopped = codes
+    with np.errstate(invalid="ignore"):
+        all_bad = run_bad | (p_abs <= 0.0)
+        guide = np.maximum(g_ratio * npsh3, npsh3 + g_margin)
+        ample = np.maximum(guide, ample_ratio * npsh3)
+        code = (npsha >= npsh3).view(np.int8)
+        code += npsha >= guide
+        code += npsha >= ample
+    code[~(np.isfinite(npsh3) & np.isfinite(npsha))] = off_curve
+    code[all_bad] = bad_data
+    code[~running] = stopped
+    code[decide_bad] = bad_data
+    until = np.where(running & ~decide_bad, all_until, decide_until)
+    return code, until, all_bad
+
+
+def _margin_codes_loop(
+    npsha,
+    npsh3,
+    p_abs,
+    running,
+    decide_bad,
+    run_bad,
+    all_until,
+    decide_until,
+    g_ratio,
+    g_margin,
+    ample_ratio,
+    codes,
+):  # pragma: no cover
+    """The margin state, until when it holds [ns] and bad data of each piece, in one pass."""
+    off_curve, bad_data, stopped = codes
+    n = npsha.shape[0]
+    code = np.empty(n, np.int8)
+    until = np.empty(n, np.int64)
+    all_bad = np.empty(n, np.bool_)
+    for i in range(n):
+        a = npsha[i]
+        h3 = npsh3[i]
+        bad = run_bad[i] or p_abs[i] <= 0.0
+        all_bad[i] = bad
+        if decide_bad[i]:
+            c = bad_data
+        elif not running[i]:
+            c = stopped
+        elif bad:
+            c = bad_data
+        elif not (np.isfinite(a) and np.isfinite(h3)):
+            c = off_curve
+        else:
+            guide = max(g_ratio * h3, h3 + g_margin)
+            ample = max(guide, ample_ratio * h3)
+            c = (a >= h3) + (a >= guide) + (a >= ample)
+        code[i] = c
+        until[i] = all_until[i] if running[i] and not decide_bad[i] else decide_until[i]
+    return code, until, all_bad
+
+
+def band_summary_numpy(code, fresh, npsha, npsh3, p_abs, p_v, g_ratio, g_margin, codes):
+    """One pass over the pieces for the summary (numpy form): the piece of the least
+    NPSHa/NPSH3 among fresh pieces in a margin band (-1: none), the least NPSHa − NPSH3 and
+    NPSHa − guidance head [m] there, and the fresh time [ns] running in a band or off the
+    curve with the absolute pressure below the vapour pressure [Pa], with its first piece
+    (-1: none). ``codes`` = (ample_margin, off_curve)."""
+    ample_margin, off_curve = codes
+    banded = (code <= ample_margin) & (fresh > 0)
+    worst, least_m, least_g = -1, np.nan, np.nan
+    if banded.any():
+        with np.errstate(invalid="ignore", divide="ignore"):
+            worst = int(np.argmin(np.where(banded, npsha / npsh3, np.inf)))
+        a, h3 = npsha[banded], npsh3[banded]
+        least_m = float(np.min(a - h3))
+        least_g = float(np.min(a - np.maximum(g_ratio * h3, h3 + g_margin)))
+    with np.errstate(invalid="ignore"):
+        below = (code <= off_curve) & (p_abs < p_v) & (fresh > 0)
+    first = int(np.argmax(below)) if below.any() else -1
+    return worst, least_m, least_g, int(fresh[below].sum()), first
+
+
+def transmitter_npsha_numpy(reading, baro, gauge, temp, table, flow, area, elevation):
+    """Vapour pressure [Pa], density [kg/m³], absolute pressure [Pa] and NPSHa [m] of a pump
+    with a suction transmitter (numpy form of :mod:`screening.physics.npsh` and the fluid
+    table's interpolation). ``reading`` [Pa] gauge (``gauge`` True: plus ``baro`` [Pa]) or
+    absolute; ``temp`` [K]; ``table`` = (t_min [K], t_max [K], step [K], ln p_v [ln Pa],
+    rho [kg/m³]) on a uniform grid; ``flow`` [m³/s] through the tap of cross-section ``area``
+    [m²] at ``elevation`` [m] above the NPSH datum.
+
+    NPSHa = (p_abs − p_v)/(ρ·g) + v²/(2g) + z (ISO 9906:2012, ANSI/HI 1.3)."""
+    t_min, t_max, step, ln_pv, rho_t = table
+    ok = (temp >= t_min) & (temp <= t_max)
+    pos = np.where(ok, (temp - t_min) / step, 0.0)
+    idx = np.minimum(pos.astype(np.int64), len(rho_t) - 2)
+    frac = pos - idx
+    p_v = np.where(ok, np.exp(ln_pv[idx] + frac * (ln_pv[idx + 1] - ln_pv[idx])), np.nan)
+    rho = np.where(ok, rho_t[idx] + frac * (rho_t[idx + 1] - rho_t[idx]), np.nan)
+    p_abs = reading + baro if gauge else reading.copy()
+    v = flow / area
+    with np.errstate(over="ignore", invalid="ignore"):
+        npsha = (p_abs - p_v) / (rho * G) + v * v / (2.0 * G) + elevation
+    return p_v, rho, p_abs, npsha
+
+
+def _transmitter_npsha_loop(reading, baro, gauge, temp, table, flow, area, elevation):
+    """p_v, rho, p_abs and NPSHa of each piece in one pass (see the numpy form)."""
+    t_min, t_max, step, ln_pv, rho_t = table
+    n = reading.shape[0]
+    last = rho_t.shape[0] - 1
+    p_v = np.empty(n)
+    rho = np.empty(n)
+    p_abs = np.empty(n)
+    npsha = np.empty(n)
+    pv_m = np.nan
+    r_m = np.nan
+    t_prev = np.nan
+    for m in range(n):
+        t = temp[m]
+        if t != t_prev:  # a held temperature repeats: the same properties
+            t_prev = t
+            if not (t >= t_min and t <= t_max):
+                pv_m = np.nan
+                r_m = np.nan
+            else:
+                pos = (t - t_min) / step
+                i = min(int(pos), last - 1)
+                f = pos - i
+                pv_m = np.exp(ln_pv[i] + f * (ln_pv[i + 1] - ln_pv[i]))
+                r_m = rho_t[i] + f * (rho_t[i + 1] - rho_t[i])
+        p_v[m] = pv_m
+        rho[m] = r_m
+    # apart from the loop above, which calls exp: a loop the compiler runs on several pieces
+    # at once (the same divisions, rounded the same)
+    for m in range(n):
+        p = reading[m] + baro[m] if gauge else reading[m]
+        p_abs[m] = p
+        v = flow[m] / area
+        npsha[m] = (p - p_v[m]) / (rho[m] * G) + v * v / (2.0 * G) + elevation
+    return p_v, rho, p_abs, npsha
+
+
+def region_codes_numpy(flow, edges, running, decide_bad, r_bad, r_until, decide_until, codes):
+    """The operating region of each piece and until when it holds [ns] (numpy form of
+    :func:`screening.physics.regions.operating_region` with bad data and stopped pieces):
+    ``edges`` = (q_min, q_por_low, q_por_high, q_max) [m³/s] per piece; ``codes`` =
+    (preferred, low_flow, below_min_flow, high_flow, beyond_allowable, bad_data, stopped)."""
+    preferred, low, below_min, high, beyond, bad_data, stopped = codes
+    q_min, q_lo, q_hi, q_max = edges
+    code = np.full(flow.shape, preferred, dtype=np.int8)
+    code[flow < q_lo] = low
+    code[flow < q_min] = below_min
+    code[flow > q_hi] = high
+    code[flow > q_max] = beyond
+    code[r_bad] = bad_data
+    code[~running] = stopped
+    code[decide_bad] = bad_data
+    return code, np.where(running & ~decide_bad, r_until, decide_until)
+
+
+def _region_codes_loop(flow, edges, running, decide_bad, r_bad, r_until, decide_until, codes):
+    """The operating region of each piece and until when it holds [ns], in one pass."""
+    preferred, low, below_min, high, beyond, bad_data, stopped = codes
+    q_min, q_lo, q_hi, q_max = edges
+    n = flow.shape[0]
+    code = np.empty(n, np.int8)
+    until = np.empty(n, np.int64)
+    for i in range(n):
+        if decide_bad[i]:
+            c = bad_data
+        elif not running[i]:
+            c = stopped
+        elif r_bad[i]:
+            c = bad_data
+        else:
+            q = flow[i]
+            c = preferred
+            if q > q_max[i]:
+                c = beyond
+            elif q > q_hi[i]:
+                c = high
+            elif q < q_min[i]:
+                c = below_min
+            elif q < q_lo[i]:
+                c = low
+        code[i] = c
+        until[i] = r_until[i] if running[i] and not decide_bad[i] else decide_until[i]
+    return code, until
+
+
+def piece_sums_numpy(margin, region, grid, t_next, day_edges, sizes, phys, speed, baro, par):
+    """The time weighting and the summary of one pump's pieces (numpy form).
+
+    ``margin`` = (code, until [ns]) and ``region`` = (code, until [ns]) of each piece;
+    ``sizes`` = (margin states, region states, no-data code); ``phys`` = (NPSHa [m], NPSH3
+    [m], absolute pressure [Pa], vapour pressure [Pa]); ``speed`` = running speed over rated
+    [-] per piece (empty: no speed tag); ``baro`` = (running, bad data, barometer used) per
+    piece (empty: the pump needs no barometer); ``par`` = (guidance ratio [-], guidance margin
+    [m], lowest and highest trusted speed ratio [-], ample-margin code, off-curve code,
+    stopped code).
+
+    Returns the time [ns] per day and margin state, per day and region, the fresh part of
+    each piece [ns] for each, the summary of :func:`band_summary_numpy`, the fresh time [ns] in
+    a margin band outside the trusted speed ratios, and the fresh time [ns] counted with the
+    standard atmosphere in place of the barometer."""
+    n_m, n_r, no_data = sizes
+    daily, fresh = weigh_numpy(margin[0], margin[1], grid, t_next, day_edges, n_m, no_data)
+    r_daily, r_fresh = weigh_numpy(region[0], region[1], grid, t_next, day_edges, n_r, no_data)
+    g_ratio, g_margin, lo, hi, ample, off_curve, stopped = par
+    code = margin[0]
+    summary = band_summary_numpy(code, fresh, *phys, g_ratio, g_margin, (ample, off_curve))
+    outside = 0
+    if len(speed):
+        with np.errstate(invalid="ignore"):
+            out = (code <= ample) & ((speed < lo) | (speed > hi))
+        outside = int(fresh[out].sum())
+    fallback = 0
+    if len(baro[0]):
+        running, bad, used = baro
+        fallback = int(fresh[running & ~bad & (code != stopped) & ~used].sum())
+    return daily, r_daily, fresh, r_fresh, summary, outside, fallback
+
+
+def _piece_sums_loop(margin, region, grid, t_next, day_edges, sizes, phys, speed, baro, par):
+    """The time weighting and the summary of one pump's pieces in one pass (see the numpy
+    form)."""
+    n_m, n_r, no_data = sizes
+    code, until = margin
+    rcode, r_until = region
+    npsha, npsh3, p_abs, p_v = phys
+    running, bad, used = baro
+    g_ratio, g_margin, lo, hi, ample, off_curve, stopped = par
+    n = grid.shape[0]
+    n_days = day_edges.shape[0] - 1
+    daily = np.zeros((n_days, n_m), np.int64)
+    r_daily = np.zeros((n_days, n_r), np.int64)
+    fresh = np.empty(n, np.int64)
+    r_fresh = np.empty(n, np.int64)
+    has_speed = speed.shape[0] > 0
+    has_baro = running.shape[0] > 0
+    worst, best, nan_seen = -1, np.inf, False
+    least_m, least_g, below_ns, first, outside, fallback = np.inf, np.inf, 0, -1, 0, 0
+    d = 0
+    for i in range(n):
+        g = grid[i]
+        while d + 1 < n_days and g >= day_edges[d + 1]:
+            d += 1
+        span = t_next[i] - g
+        f = max(min(until[i], t_next[i]) - g, 0)
+        rf = max(min(r_until[i], t_next[i]) - g, 0)
+        fresh[i] = f
+        r_fresh[i] = rf
+        c = code[i]
+        daily[d, c] += f
+        daily[d, no_data] += span - f
+        r_daily[d, rcode[i]] += rf
+        r_daily[d, no_data] += span - rf
+        if f <= 0:
+            continue
+        if c <= ample:
+            a = npsha[i]
+            h3 = npsh3[i]
+            r = a / h3
+            if worst < 0:
+                worst = i  # np.argmin: the first piece unless a later one is less (or NaN)
+            if not nan_seen:
+                if r != r:
+                    worst, nan_seen = i, True
+                elif r < best:
+                    best, worst = r, i
+            least_m = min(least_m, a - h3)
+            least_g = min(least_g, a - max(g_ratio * h3, h3 + g_margin))
+            if has_speed and (speed[i] < lo or speed[i] > hi):
+                outside += f
+        if c <= off_curve and p_abs[i] < p_v[i]:
+            below_ns += f
+            if first < 0:
+                first = i
+        if has_baro and running[i] and not bad[i] and c != stopped and not used[i]:
+            fallback += f
+    if worst < 0:
+        least_m = np.nan
+        least_g = np.nan
+    summary = (worst, least_m, least_g, below_ns, first)
+    return daily, r_daily, fresh, r_fresh, summary, outside, fallback
+
+
+merge_many = compile_kernel(_merge_many_loop, merge_many_numpy)
+margin_codes = compile_kernel(_margin_codes_loop, margin_codes_numpy)
+transmitter_npsha = compile_kernel(_transmitter_npsha_loop, transmitter_npsha_numpy)
+region_codes = compile_kernel(_region_codes_loop, region_codes_numpy)
+piece_sums = compile_kernel(_piece_sums_loop, piece_sums_numpy)
+
+
+def _warm_up() -> None:
+    """Load (or compile) every kernel once, at import (see :mod:`screening.base.kernels`)."""
+    t = np.array([0, 1], dtype=np.int64)
+    merge_many(t, t, np.array([0, 2], dtype=np.int64))
+    x, yes = np.ones(2), np.ones(2, dtype=np.bool_)
+    margin_codes(x, x, x, yes, ~yes, ~yes, t, t, 1.1, 1.0, 1.5, (4, 7, 5))
+    transmitter_npsha(x, x, True, x, (0.0, 2.0, 1.0, x, x), x, 1.0, 0.0)
+    region_codes(x, (x, x, x, x), yes, ~yes, ~yes, t, t, (0, 1, 2, 3, 4, 7, 5))
+    code, days = np.zeros(2, np.int8), np.array([0, 2], dtype=np.int64)
+    for speed, baro in ((x, (yes, ~yes, yes)), (x[:0], (yes[:0], yes[:0], yes[:0]))):
+        piece_sums((code, t), (code, t), t, t + 1, days, (9, 9, 6), (x, x, x, x), speed, baro,
+                   (1.1, 1.0, 0.8, 1.2, 3, 4, 5))  # fmt: skip
+
+
+_warm_up()

@@ -1,0 +1,162 @@
+"""The calculation's compiled passes give what their numpy forms give, and what the step by
+step definitions give (to the last bit where the calculator relies on it).
+
+The references are the plain numpy forms beside each loop and the physics modules they fuse:
+``screening.physics.npsh`` (ISO 9906:2012 / ANSI/HI 1.3), the fluid table's own evaluation,
+``screening.physics.margin.margin_band`` and ``screening.physics.regions.operating_region``.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from screening.base import calc_kernels as ck
+from screening.base import states
+from screening.physics import regions
+
+sorted_unique = st.lists(st.integers(0, 10**6), max_size=120).map(
+    lambda v: np.unique(np.array(v, dtype=np.int64))
+)
+
+
+def _random_pieces(rng, n: int):
+    """Values of the kinds the calculator meets: NaN, zero, negative and ordinary."""
+    npsha = rng.normal(8.0, 4.0, n)
+    npsh3 = rng.normal(4.0, 2.0, n)
+    for a in (npsha, npsh3):
+        a[rng.random(n) < 0.1] = np.nan
+    npsh3[rng.random(n) < 0.02] = 0.0
+    p_abs = rng.normal(2e5, 1.5e5, n)
+    return npsha, npsh3, p_abs
+
+
+@settings(max_examples=150, deadline=None)
+@given(base=sorted_unique, pieces=st.lists(sorted_unique, max_size=5))
+def test_the_grid_is_the_union_of_every_time_axis(base, pieces):
+    cat = np.concatenate(pieces) if pieces else np.empty(0, dtype=np.int64)
+    offsets = np.cumsum([0] + [len(p) for p in pieces], dtype=np.int64)
+    expected = np.union1d(base, cat).astype(np.int64)
+    np.testing.assert_array_equal(ck.merge_many(base, cat, offsets), expected)
+    np.testing.assert_array_equal(ck.merge_many_numpy(base, cat, offsets), expected)
+
+
+@pytest.mark.parametrize("random_state", [1, 2, 3])
+def test_margin_states_match_the_margin_bands(random_state):
+    from screening.physics.margin import Guidance, margin_band
+
+    rng = np.random.default_rng(random_state)  # fixed random state
+    n = 4000
+    npsha, npsh3, p_abs = _random_pieces(rng, n)
+    running = rng.random(n) < 0.7
+    decide_bad = rng.random(n) < 0.05
+    run_bad = decide_bad | (rng.random(n) < 0.05)
+    all_until = rng.integers(0, 10**6, n)
+    decide_until = rng.integers(0, 10**6, n)
+    guidance = Guidance(1.3, 1.0, "test")
+    codes = (states.OFF_CURVE, states.BAD_DATA, states.STOPPED)
+    args = (npsha, npsh3, p_abs, running, decide_bad, run_bad, all_until, decide_until,
+            guidance.ratio, guidance.margin, 2.5, codes)  # fmt: skip
+    got = ck.margin_codes(*args)
+    for a, b in zip(got, ck.margin_codes_numpy(*args), strict=True):
+        np.testing.assert_array_equal(a, b)
+    # the bands themselves are screening.physics.margin's
+    plain = (~run_bad & (p_abs > 0) & running & ~decide_bad
+             & np.isfinite(npsha) & np.isfinite(npsh3))  # fmt: skip
+    with np.errstate(invalid="ignore"):
+        bands = margin_band(npsha, npsh3, guidance, 2.5)
+    np.testing.assert_array_equal(got[0][plain], bands[plain])
+    assert set(np.unique(got[0][~running & ~decide_bad])) <= {states.STOPPED}
+
+
+@pytest.mark.parametrize("gauge", [True, False])
+def test_transmitter_npsha_is_the_step_by_step_definition_to_the_bit(gauge):
+    from screening.base.kernels import table_eval
+    from screening.physics import npsh
+
+    rng = np.random.default_rng(11)  # fixed random state
+    n = 5000
+    ln_pv = np.log(np.linspace(600.0, 9e4, 101))
+    rho_t = np.linspace(1000.0, 950.0, 101)
+    table = (273.15, 373.15, 1.0, ln_pv, rho_t)
+    temp = rng.uniform(260.0, 390.0, n)
+    temp[::7] = temp[1::7][: len(temp[::7])]  # repeated temperatures reuse their properties
+    temp[rng.random(n) < 0.05] = np.nan
+    reading = rng.normal(1e5, 5e4, n)
+    baro = rng.normal(101325.0, 500.0, n)
+    flow = rng.uniform(0.0, 0.2, n)
+    bore, elevation = 0.2, -0.4
+    area = npsh.pipe_area(bore)
+    p_v, rho, p_abs, npsha = ck.transmitter_npsha(
+        reading, baro, gauge, temp, table, flow, area, elevation
+    )
+    pv_ref, rho_ref = table_eval(temp, *table)
+    p_ref = npsh.absolute_pressure(reading, baro, gauge)
+    npsha_ref = npsh.npsha_from_pressure(p_ref, pv_ref, rho_ref, flow, bore, elevation)
+    for a, b in ((p_v, pv_ref), (rho, rho_ref), (p_abs, p_ref), (npsha, npsha_ref)):
+        np.testing.assert_array_equal(a, b)
+    # the numpy form (numpy's own exp) agrees to rounding (NPSHa near zero: absolutely)
+    for a, b in zip(
+        (p_v, rho, p_abs, npsha),
+        ck.transmitter_npsha_numpy(reading, baro, gauge, temp, table, flow, area, elevation),
+        strict=True,
+    ):
+        np.testing.assert_allclose(a, b, rtol=1e-13, atol=1e-9, equal_nan=True)
+
+
+def test_region_states_match_the_operating_regions():
+    rng = np.random.default_rng(5)  # fixed random state
+    n = 4000
+    flow = rng.uniform(-0.01, 0.3, n)
+    flow[rng.random(n) < 0.05] = np.nan
+    ratio = rng.uniform(0.6, 1.3, n)
+    edges = regions.region_edges(0.1, ratio, 0.7, 1.2, 0.03, 0.02, 0.25)
+    edges = tuple(np.broadcast_to(np.asarray(e, dtype=np.float64), (n,)) for e in edges)
+    running = rng.random(n) < 0.7
+    decide_bad = rng.random(n) < 0.05
+    r_bad = decide_bad | (rng.random(n) < 0.05)
+    r_until = rng.integers(0, 10**6, n)
+    decide_until = rng.integers(0, 10**6, n)
+    codes = (regions.PREFERRED, regions.LOW_FLOW, regions.BELOW_MIN_FLOW, regions.HIGH_FLOW,
+             regions.BEYOND_ALLOWABLE, regions.BAD_DATA, regions.STOPPED)  # fmt: skip
+    args = (flow, edges, running, decide_bad, r_bad, r_until, decide_until, codes)
+    got = ck.region_codes(*args)
+    for a, b in zip(got, ck.region_codes_numpy(*args), strict=True):
+        np.testing.assert_array_equal(a, b)
+    plain = running & ~r_bad & ~decide_bad
+    expected = regions.operating_region(flow, edges)
+    np.testing.assert_array_equal(got[0][plain], expected[plain])
+
+
+@pytest.mark.parametrize("random_state", [3, 4])
+@pytest.mark.parametrize("with_speed", [True, False])
+def test_piece_sums_match_the_numpy_form(random_state, with_speed):
+    rng = np.random.default_rng(random_state)  # fixed random state
+    n = 3000
+    day_edges = np.array([0, 10**6, 2 * 10**6, 3 * 10**6], dtype=np.int64)
+    grid = np.unique(np.concatenate([day_edges[:-1], rng.integers(0, 3 * 10**6, n)]))
+    n = len(grid)
+    t_next = np.append(grid[1:], day_edges[-1])
+    code = rng.integers(0, 9, n).astype(np.int8)
+    code[rng.random(n) < 0.3] = states.BELOW_NPSH3
+    rcode = rng.integers(0, 9, n).astype(np.int8)
+    until = grid + rng.integers(-100, 2000, n)
+    r_until = grid + rng.integers(-100, 2000, n)
+    npsha, npsh3, p_abs = _random_pieces(rng, n)
+    # a piece is in a margin band only where both heads are known (the margin states' rule)
+    code[(code <= states.AMPLE_MARGIN) & ~(np.isfinite(npsha) & np.isfinite(npsh3))] = 4
+    p_v = rng.normal(1e5, 5e4, n)
+    speed = rng.uniform(0.6, 1.4, n) if with_speed else np.empty(0)
+    baro = (rng.random(n) < 0.8, rng.random(n) < 0.1, rng.random(n) < 0.5)
+    par = (1.3, 1.0, 0.8, 1.2, states.AMPLE_MARGIN, states.OFF_CURVE, states.STOPPED)
+    args = ((code, until), (rcode, r_until), grid, t_next, day_edges, (9, 9, states.NO_DATA),
+            (npsha, npsh3, p_abs, p_v), speed, baro, par)  # fmt: skip
+    got, ref = ck.piece_sums(*args), ck.piece_sums_numpy(*args)
+    for a, b in zip(got[:4], ref[:4], strict=True):
+        np.testing.assert_array_equal(a, b)
+    np.testing.assert_array_equal(np.array(got[4], dtype=float), np.array(ref[4], dtype=float))
+    assert got[5:] == ref[5:]
+    # every nanosecond of every day is in one state of each kind
+    assert got[0].sum() == got[1].sum() == day_edges[-1] - grid[0]
