@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from screening.base.kernels import _compile
+from screening.base.kernels import compile_kernel
 
 # ----------------------------------------------------------------- one wide column of numbers
 
@@ -289,10 +289,10 @@ def _strictly_increasing_loop(times):  # pragma: no cover - compiled
     return later
 
 
-wide_column = _compile(_wide_column_loop, wide_column_numpy)
-overflow_frozen = _compile(_overflow_frozen_loop, overflow_frozen_numpy)
-long_steps = _compile(_long_steps_loop, long_steps_numpy)
-strictly_increasing = _compile(_strictly_increasing_loop, strictly_increasing_numpy)
+wide_column = compile_kernel(_wide_column_loop, wide_column_numpy)
+overflow_frozen = compile_kernel(_overflow_frozen_loop, overflow_frozen_numpy)
+long_steps = compile_kernel(_long_steps_loop, long_steps_numpy)
+strictly_increasing = compile_kernel(_strictly_increasing_loop, strictly_increasing_numpy)
 
 
 def _warm_up() -> None:
