@@ -40,8 +40,22 @@ def write_workbook(path: Path, result: ScanResult, changes) -> None:
             for j, head in enumerate(f.columns):  # pandas' order: the header, then by column
                 sheet.write(0, j, str(head), None)
             for j, cells in enumerate(columns):
-                for i, value in enumerate(cells, start=1):
-                    sheet.write(i, j, value, None)
+                _write_column(sheet, j, cells)
+
+
+def _write_column(sheet, j: int, cells: list) -> None:
+    """Cells of :func:`_excel_cells` into column ``j`` from the second row, each by the method
+    ``sheet.write`` would pick for it (an unformatted blank "" is no cell at all), without
+    ``write``'s dispatch per cell; any other kind of value through ``write`` itself."""
+    by_kind = {float: sheet.write_number, int: sheet.write_number, bool: sheet.write_boolean}
+    write_string, write = sheet.write_string, sheet.write
+    for i, value in enumerate(cells, start=1):
+        kind = value.__class__
+        if kind is str:
+            if value:
+                write_string(i, j, value, None)
+        else:
+            by_kind.get(kind, write)(i, j, value, None)
 
 
 def _excel_cells(column: pd.Series) -> list | None:
