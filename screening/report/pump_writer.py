@@ -55,8 +55,10 @@ def running_speed(plot: pd.DataFrame | None, rated: float) -> float:
     rated speed where the pump has no speed tag."""
     if plot is None or "speed_rpm_min" not in plot:
         return rated
-    mid = ((plot["speed_rpm_min"] + plot["speed_rpm_max"]) / 2).dropna()
-    mid = mid[plot.loc[mid.index, "npsha_m_min"].notna()]  # running buckets only
+    lo, hi, npsha = (plot[c].to_numpy(dtype=np.float64) for c in
+                     ("speed_rpm_min", "speed_rpm_max", "npsha_m_min"))  # fmt: skip
+    mid = (lo + hi) / 2
+    mid = mid[~np.isnan(mid) & ~np.isnan(npsha)]  # running buckets only
     return float(np.median(mid)) if len(mid) else rated
 
 
