@@ -188,3 +188,24 @@ def test_scan_refuses_unknown_display_units_before_the_work(two_pumps, tmp_path,
     ok = CliRunner().invoke(app, ["scan", str(two_pumps), "--out", str(out), "--units", "US"])
     assert ok.exit_code == 0, ok.output
     assert "US customary" in next((out / "pumps").glob("*.html")).read_text()
+
+
+def test_the_installed_command_in_its_own_process(two_pumps, tmp_path):
+    # the command as a user runs it: a process of its own, which ends with the exit code and a
+    # complete report (every table readable) after the interpreter's teardown
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    out = tmp_path / "report"
+    code = "import sys; from screening.cli.main import app; sys.exit(app())"
+    args = ["scan", str(two_pumps), "--out", str(out), "--quiet"]
+    done = subprocess.run([sys.executable, "-c", code, *args], capture_output=True, text=True,
+                          cwd=Path(screening.__file__).parents[1])  # fmt: skip
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip() == str((out / "index.html").resolve())
+    book = pd.read_excel(out / "summary.xlsx", sheet_name=None)
+    assert set(book) == {"summary", "hours", "data_quality", "not_screened"}
+    assert sorted(book["summary"]["pump_id"]) == ["P1", "P2"]
+    api = screening.scan(two_pumps)
+    pd.testing.assert_frame_equal(pd.read_parquet(out / "hours.parquet"), api.hours)

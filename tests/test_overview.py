@@ -132,3 +132,35 @@ def _rows_page(out: Path, pump_id: str) -> str:
     """The file name of a pump's page, as the overview links it."""
     html = (out / "index.html").read_text(encoding="utf-8")
     return re.search(rf'<a href="pumps/([^"]+)">{re.escape(pump_id)}</a>', html).group(1)
+
+
+@pytest.mark.parametrize("sizes", [[1], [2], [1, 2, 3, 4], list(range(1, 40)), [1500, 7, 999]])
+def test_worst_input_medians_and_spreads_are_numpys(sizes):
+    # the overview's running medians and 10th-90th percentile spreads, worked out for every
+    # pump and input at once, against numpy.median and numpy.percentile (default "linear"
+    # method, Hyndman & Fan 1996 type 7) group by group: the same numbers to the last bit
+    import numpy as np
+
+    from screening.report.why import median_and_deciles
+
+    rng = np.random.default_rng(len(sizes))
+    groups = []
+    for k, n in enumerate(sizes):
+        g = rng.normal(size=n) * 10.0 ** (k % 7 - 3)
+        groups.append(np.round(g, 1) if k % 2 else g)  # ties in every other group
+    got = median_and_deciles(groups)
+    assert got.shape == (len(groups), 3)
+    for g, (median, p10, p90) in zip(groups, got, strict=True):
+        assert median == np.median(g)
+        assert [p10, p90] == list(np.percentile(g, [10, 90]))
+
+
+def test_worst_inputs_of_one_pump_and_of_all_agree(demo):
+    # the table's rows (all pumps at once) and the one-pump reading give the same inputs
+    from screening.report.why import worst_inputs, worst_inputs_by_pump
+
+    result, _, _ = demo
+    every = worst_inputs_by_pump(result.summary, result.plots)
+    assert sum(map(len, every.values())) > 0
+    for row in result.summary.itertuples(index=False):
+        assert every[row.pump_id] == worst_inputs(result.plots.get(row.pump_id), row.worst_time)

@@ -3,6 +3,9 @@ processes, or on a local Dask cluster (invented plants; the reference is the in-
 
 from __future__ import annotations
 
+import os
+import re
+import zipfile
 from pathlib import Path
 
 import numpy as np
@@ -79,18 +82,108 @@ def test_progress_is_reported_per_batch(tmp_path):
     assert sum(s for _, s in seen) == screening.scan(path, processes=1).samples
 
 
-def test_pump_pages_written_in_parallel_are_the_same(tmp_path, monkeypatch):
-    from screening.engine.plotdata import DEFAULT_BUCKETS
-    from screening.report import plant_report as report
+SOME = ["CD-412", "RW-502", "DH-202", "CW-103"]
 
-    some = ["CD-412", "RW-502", "DH-202", "CW-103"]
-    result = screening.scan(DEMO, plot_buckets=DEFAULT_BUCKETS, pumps=some)
-    screening.write_report(result, tmp_path / "one")
-    monkeypatch.setattr(report, "PARALLEL_PAGES", 2)
-    monkeypatch.setattr(report, "default_processes", lambda: 2)
-    screening.write_report(result, tmp_path / "two")
-    one = sorted((tmp_path / "one" / "pumps").iterdir())
-    two = sorted((tmp_path / "two" / "pumps").iterdir())
-    assert [p.name for p in one] == [p.name for p in two] and len(one) == 4
-    for a, b in zip(one, two, strict=True):
-        assert a.read_bytes() == b.read_bytes()
+
+@pytest.fixture(scope="module")
+def some_pumps():
+    from screening.engine.plotdata import DEFAULT_BUCKETS
+
+    return screening.scan(DEMO, plot_buckets=DEFAULT_BUCKETS, pumps=SOME)
+
+
+def _shared(monkeypatch, cores: int) -> None:
+    """Make the report's work shared among forked processes even for four pumps."""
+    from screening.report import sharing
+
+    monkeypatch.setattr(sharing, "PARALLEL_PAGES", 2)
+    monkeypatch.setattr(sharing, "PAGES_PER_TAKE", 1)
+    monkeypatch.setattr(sharing, "default_processes", lambda: cores)
+
+
+def _same_files(one: Path, two: Path) -> None:
+    """Every file of two report folders alike: the workbook's parts but its creation time,
+    ``run.json`` and the overview but the time written, every other file byte for byte."""
+    names = sorted(p.relative_to(one) for p in one.rglob("*") if p.is_file())
+    assert names == sorted(p.relative_to(two) for p in two.rglob("*") if p.is_file())
+    written = re.compile(rb"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ?(\+00:00)?")
+    for name in names:
+        a, b = one / name, two / name
+        if name.suffix == ".xlsx":
+            za, zb = zipfile.ZipFile(a), zipfile.ZipFile(b)
+            assert za.namelist() == zb.namelist()
+            for part in za.namelist():
+                x, y = za.read(part), zb.read(part)
+                if part == "docProps/core.xml":
+                    x, y = written.sub(b"", x), written.sub(b"", y)
+                assert x == y, f"{name}: {part}"
+        elif name.suffix == ".parquet":
+            pd.testing.assert_frame_equal(pd.read_parquet(a), pd.read_parquet(b), check_exact=True)
+        else:
+            x, y = a.read_bytes(), b.read_bytes()
+            if name.name in ("run.json", "index.html"):
+                x, y = written.sub(b"", x), written.sub(b"", y)
+                x = re.sub(rb'"elapsed_s": [0-9.]+', b"", x)
+                y = re.sub(rb'"elapsed_s": [0-9.]+', b"", y)
+            assert x == y, name
+
+
+@pytest.mark.parametrize("cores", [2, 3])
+def test_a_report_written_by_forked_processes_is_the_same(tmp_path, monkeypatch, some_pumps,
+                                                          cores):  # fmt: skip
+    screening.write_report(some_pumps, tmp_path / "one")
+    _shared(monkeypatch, cores)
+    screening.write_report(some_pumps, tmp_path / "two")
+    assert len(list((tmp_path / "two" / "pumps").iterdir())) == len(SOME)
+    _same_files(tmp_path / "one", tmp_path / "two")
+
+
+def test_a_page_failing_in_a_forked_process_stops_the_report(tmp_path, monkeypatch, some_pumps):
+    from screening.report.pump_writer import PageWriter
+
+    _shared(monkeypatch, 2)
+    here, write = os.getpid(), PageWriter.write
+
+    def failing(self, pid, name):
+        if os.getpid() != here:  # only in the forked process
+            raise RuntimeError(f"disk full writing {name}")
+        write(self, pid, name)
+
+    monkeypatch.setattr(PageWriter, "write", failing)
+    with pytest.raises(RuntimeError, match="disk full writing"):
+        screening.write_report(some_pumps, tmp_path / "out")
+    assert not (tmp_path / "out").exists()  # no report moved into place without every page
+
+
+def test_a_failing_workbook_stops_the_report(tmp_path, monkeypatch, some_pumps):
+    from screening.report import plant_report
+
+    _shared(monkeypatch, 2)
+
+    def failing(path, result, changes):
+        raise OSError(f"{path.name}: no space left")
+
+    monkeypatch.setattr(plant_report, "write_workbook", failing)
+    with pytest.raises(OSError, match="summary.xlsx: no space left"):
+        screening.write_report(some_pumps, tmp_path / "out")
+    assert not (tmp_path / "out").exists()
+
+
+def test_shared_work_does_every_item_once(tmp_path, monkeypatch):
+    from screening.report import sharing
+
+    monkeypatch.setattr(sharing, "PARALLEL_PAGES", 10)
+    monkeypatch.setattr(sharing, "default_processes", lambda: 3)
+    pages = {f"P{k}": f"P{k}.txt" for k in range(50)}
+
+    def write_page(pid, name):
+        with open(tmp_path / "log", "a") as log:  # O_APPEND: one line per write, any process
+            log.write(f"{name} {os.getpid()}\n")
+
+    def job():
+        write_page("job", "job")
+
+    with sharing.shared_work([job, job], pages, write_page):
+        pass
+    lines = (tmp_path / "log").read_text().split("\n")[:-1]
+    assert sorted(line.split()[0] for line in lines) == sorted([*pages.values(), "job", "job"])

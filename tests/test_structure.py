@@ -4,7 +4,11 @@ and functions small enough to read (DEVELOPERS.md, "Map of the house")."""
 from __future__ import annotations
 
 import ast
+import subprocess
+import sys
 from pathlib import Path
+
+import pytest
 
 PACKAGE = Path(__file__).resolve().parents[1] / "screening"
 
@@ -182,3 +186,36 @@ def test_public_api_is_importable_from_the_package():
                  "__version__"):  # fmt: skip
         assert hasattr(screening, name), name
     assert callable(screening.whatif) and callable(screening.scan)
+    with pytest.raises(AttributeError, match="no attribute 'scna'"):
+        screening.scna  # noqa: B018 - a misspelt name is an AttributeError, as for any module
+    assert set(screening.__all__) <= set(dir(screening))
+
+
+def test_the_command_line_starts_without_what_other_commands_need():
+    # a fresh interpreter: which modules `import screening.cli.main` brings in (no timing)
+    code = (
+        "import sys, screening.cli.main\n"
+        "print(' '.join(sorted(sys.modules)))"
+    )  # fmt: skip
+    out = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True,
+        cwd=PACKAGE.parent,
+    ).stdout.split()  # fmt: skip
+    assert "screening.engine.scan" in out  # what `scan` needs is there
+    for absent in ("screening.onset.investigate", "screening.scenarios.whatif",
+                   "screening.inputs.ingest", "rich.console", "dask", "CoolProp"):  # fmt: skip
+        assert absent not in out, absent
+
+
+def test_dask_stays_importable_after_pint():
+    # pint is imported with dask hidden (screening.inputs.units); dask itself is not harmed
+    pytest.importorskip("dask")
+    code = (
+        "import screening.inputs.units as u, dask, dask.base, numpy as np\n"
+        "print(u.to_si(np.array([1.0]), 'bar', 'pressure')[0], dask.base.tokenize(1) != '')"
+    )  # fmt: skip
+    out = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True,
+        cwd=PACKAGE.parent,
+    ).stdout.split()  # fmt: skip
+    assert out == ["100000.0", "True"]  # 1 bar = 100 kPa (BIPM SI Brochure, 8th ed. 2006, table 8)

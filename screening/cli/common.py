@@ -12,7 +12,6 @@ from functools import wraps
 from typing import NoReturn
 
 import typer
-from rich.console import Console
 
 from screening.inputs.window import WindowError, check_iso
 from screening.report.pump_pages import DISPLAY_UNITS
@@ -125,6 +124,7 @@ def progress_bar(total_pumps: int, quiet: bool) -> Iterator[Callable | None]:
     if quiet or not sys.stderr.isatty() or total_pumps <= 0:
         yield None
         return
+    from rich.console import Console  # here: rich's console costs 0.1 s to import
     from rich.progress import (
         BarColumn,
         MofNCompleteColumn,

@@ -7,7 +7,6 @@ from pathlib import Path
 import typer
 
 from screening.base.files import check_out
-from screening.inputs.ingest import ingest
 
 from .common import (
     DEBUG_OPTION,
@@ -43,6 +42,8 @@ def ingest_command(
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Convert raw exports into a Parquet dataset by pump and month, for faster scans."""
+    from screening.inputs.ingest import ingest  # here: only this command needs it
+
     out = out or Path("datasets") / config.stem
     check_out(out, "dataset")  # refuse a folder not ours before reading, not after it
     s = ingest(config, out, start, end)

@@ -7,8 +7,6 @@ from pathlib import Path
 import typer
 
 from screening.base.files import check_out, safe_name
-from screening.onset.investigate import investigate
-from screening.report.onset_page import write_onset_report
 from screening.report.pump_pages import DISPLAY_UNITS
 
 from .common import (
@@ -66,6 +64,9 @@ def onset_command(
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Find when a pump's suction margin began to shrink, in which episodes, driven by what."""
+    from screening.onset.investigate import investigate  # here: only this command needs them
+    from screening.report.onset_page import write_onset_report
+
     default = safe_name("".join(c if c.isalnum() else "_" for c in pump))
     out = out or Path("reports") / f"onset_{default}"
     check_out(out, "onset")  # refuse a folder not ours before the work, not after it

@@ -10,8 +10,6 @@ import typer
 from screening.base.files import check_out
 from screening.base.text import hours_text
 from screening.inputs.plant import load_plant
-from screening.report.whatif_page import write_whatif_report
-from screening.scenarios.whatif import whatif
 
 from .common import (
     DEBUG_OPTION,
@@ -48,6 +46,9 @@ def whatif_command(
     debug: bool = DEBUG_OPTION,
 ) -> None:
     """Replay history with each scenario's changes; report hours moved and required setpoints."""
+    from screening.report.whatif_page import write_whatif_report  # here: only this command
+    from screening.scenarios.whatif import whatif
+
     shares = tuple(sorted(set(share))) if share else (0.99, 1.0)
     if out is not None:
         check_out(out, "whatif")  # refuse a folder not ours before the work, not after it

@@ -9,10 +9,29 @@ or one of the wrong dimension, is an error that names what was expected.
 from __future__ import annotations
 
 import re
+import sys
 from functools import lru_cache
 
 import numpy as np
-import pint
+
+
+def _import_pint():
+    """pint, imported without dask: pint imports dask wherever it is installed (for quantities
+    of dask arrays, which pumpscreen never makes), and dask's import takes about a tenth of a
+    second of every command's start. Dask itself stays importable (``--workers``, ``--cluster``)."""
+    if "pint" in sys.modules or "dask" in sys.modules:
+        import pint
+
+        return pint
+    sys.modules["dask"] = None  # importlib.util.find_spec("dask") answers None: taken as absent
+    try:
+        import pint
+    finally:
+        del sys.modules["dask"]
+    return pint
+
+
+pint = _import_pint()
 
 #: The one unit registry of the program.
 ureg = pint.UnitRegistry()

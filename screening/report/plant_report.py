@@ -8,25 +8,18 @@ from __future__ import annotations
 
 import hashlib
 import json
-import multiprocessing
-import sys
-from collections.abc import Iterator
-from concurrent.futures import ProcessPoolExecutor
-from contextlib import ExitStack, contextmanager
 from datetime import UTC, datetime
+from functools import partial
 from importlib import metadata
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import pyarrow as pa
-import pyarrow.csv as pa_csv
 from plotly.offline import get_plotlyjs
 
 from screening.base import states
 from screening.base.files import atomic_folder, page_names
 from screening.base.version import __version__
-from screening.engine.execution import default_processes
 from screening.engine.scan import ScanResult
 from screening.inputs.window import WindowError
 from screening.physics import regions
@@ -42,89 +35,15 @@ from screening.report.palette import (
     STATE_PATTERNS,
 )
 from screening.report.pump_pages import DISPLAY_UNITS
-from screening.report.pump_writer import write_some_pages
+from screening.report.pump_writer import PageWriter
+from screening.report.sharing import shared_work
+from screening.report.tablefiles import CSV_MAX_ROWS, as_text, write_table
 from screening.report.templating import ENV
 from screening.report.trend import trend_cells
 from screening.report.why import why_text, worst_inputs_by_pump, worst_inputs_table
+from screening.report.workbook import write_workbook
 
 _ENV = ENV
-_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
-
-
-def _safe_cell(value):
-    """Neutralise text a spreadsheet would read as a formula (prefix a quote)."""
-    if isinstance(value, str) and value.startswith(_FORMULA_START):
-        try:
-            float(value)
-            return value
-        except ValueError:
-            return "'" + value
-    return value
-
-
-def _neutralised(column: pd.Series) -> pd.Series:
-    """The column with formula-like text neutralised; each distinct value is checked once (a
-    plot table repeats 500 pump ids 750 000 times)."""
-    try:
-        distinct = pd.unique(column)
-    except TypeError:  # unhashable cells: check each
-        return column.map(_safe_cell)
-    changed = {v: _safe_cell(v) for v in distinct if isinstance(v, str)}
-    changed = {k: v for k, v in changed.items() if v != k}
-    return column.replace(changed) if changed else column
-
-
-#: Tables longer than this are written as Parquet only: the plot data of a 500-pump month
-#: (750 000 rows) would make a 200 MB CSV that no spreadsheet opens, its daily hours (250 000
-#: rows) a 12 MB one.
-CSV_MAX_ROWS = 100_000
-
-
-def write_table(
-    frame: pd.DataFrame,
-    folder: Path,
-    name: str,
-    csv_max_rows: int | None = None,
-    float32: bool = False,
-):
-    """Write a table as ``name.parquet`` and ``name.csv``; formula-like text in the CSV is
-    neutralised (a quote in front), so a spreadsheet shows it as text. With ``csv_max_rows``,
-    a longer table gets no CSV (the Parquet file holds every row). With ``float32`` the
-    Parquet file keeps floats in 32 bits (7 significant digits; for the plot tables, whose
-    pages show less) and is compressed with zstd."""
-    if float32:
-        floats = [c for c in frame.columns if frame[c].dtype == "float64"]
-        small = frame.astype(dict.fromkeys(floats, "float32"))
-        # dictionary encoding only where values repeat (pump ids, times): tried on a float
-        # column it is given up after each page, at three times the cost of the whole write
-        dictionary = [c for c in frame.columns if frame[c].dtype.kind not in "fc"]
-        small.to_parquet(folder / f"{name}.parquet", index=False, compression="zstd",
-                         use_dictionary=dictionary)  # fmt: skip
-    else:
-        frame.to_parquet(folder / f"{name}.parquet", index=False)
-    if csv_max_rows is not None and len(frame) > csv_max_rows:
-        return
-    text = frame.copy()
-    for col in text.columns:
-        if text[col].dtype == object or pd.api.types.is_string_dtype(text[col]):
-            text[col] = _neutralised(text[col])
-    try:
-        # Arrow's CSV writer: ten times faster than pandas on the large plot tables; times
-        # keep their offset (2026-10-25 02:00:00.000000+0200)
-        pa_csv.write_csv(pa.Table.from_pandas(text, preserve_index=False),
-                         folder / f"{name}.csv")  # fmt: skip
-    except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError):
-        text.to_csv(folder / f"{name}.csv", index=False)  # a column of mixed Python objects
-
-
-def _as_text(column: pd.Series) -> pd.Series:
-    """``column.astype("string")``, each distinct value turned to text once (a 500-pump
-    month's daily table repeats 31 dates 279 000 times)."""
-    codes, uniques = pd.factorize(column)
-    if (codes < 0).any():  # missing values: pandas' own way
-        return column.astype("string")
-    text = np.array([str(u) for u in uniques], dtype=object)[codes]
-    return pd.Series(text, index=column.index, name=column.name).astype("string")
 
 
 def _hours_figure(result: ScanResult, kind: str = "margin") -> str:
@@ -222,68 +141,76 @@ def write_report(
     if units not in DISPLAY_UNITS:
         raise ValueError(f"display units {units!r} are not 'si' or 'us'")
     changes, months = _compared(result, compare_to)
-    with atomic_folder(out, "report") as tmp, ExitStack() as stack:
-        write_table(result.hours, tmp, "hours")
-        summary = result.summary.copy()
-        if "worst_time" in summary:
-            summary["worst_time"] = summary["worst_time"].astype("string")
-        write_table(summary, tmp, "summary")
-        daily = result.daily.copy()
-        daily["date"] = _as_text(daily["date"])
-        write_table(daily, tmp, "daily_hours", CSV_MAX_ROWS)
-        write_table(result.quality, tmp, "data_quality")
-        write_table(result.problems, tmp, "not_screened")
-        write_table(result.file_problems, tmp, "files_not_read")
-        ranked = worst_inputs_by_pump(result.summary, result.plots)
-        write_table(worst_inputs_table(result, result.plots, ranked), tmp, "worst_inputs")
-        write_table(_events_table(result), tmp, "events")
-        pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
-        # the pump pages are written while the tables are (in forked processes, large plants)
-        stack.enter_context(_pump_pages(result, tmp, pages, DISPLAY_UNITS[units]))
-        (tmp / "plotly.min.js").write_text(get_plotlyjs(), encoding="utf-8")
-        site = result.plant.settings.site
-        meta = {
-            "tool": "pumpscreen",
-            "version": __version__,
-            "written_utc": datetime.now(UTC).isoformat(timespec="seconds"),
-            "plant": site.name,
-            "config": str(result.plant.path),
-            "window_start_utc": result.start.isoformat(),
-            "window_end_utc": result.end.isoformat(),
-            "timezone": site.timezone,
-            "pumps_screened": int(result.summary.shape[0]),
-            "pumps_not_screened": int(result.problems.shape[0]),
-            "samples": result.samples,
-            "elapsed_s": round(result.elapsed_s, 3),
-            "coolprop": metadata.version("CoolProp"),
-            "inputs": _input_files(result),
-        }
-        (tmp / "run.json").write_text(json.dumps(meta, indent=2), encoding="utf-8")
-        if changes is not None:
-            write_table(changes, tmp, "changes")
-            write_table(months, tmp, "monthly_hours")
-        if result.plots:
-            # the numbers behind the pump pages' plots, tidy, beside them
-            buckets = _buckets_table(result)
-            write_table(buckets, tmp, "plot_buckets", CSV_MAX_ROWS, float32=True)
-            points = _points_table(result.points)
-            write_table(points, tmp, "operating_points", CSV_MAX_ROWS, float32=True)
-        field_page.write_tables(result, tmp, write_table)
-        _write_workbook(tmp / "summary.xlsx", result, changes)
-        stack.close()  # every pump page written
-        (tmp / "index.html").write_text(
-            _overview_html(
-                result,
-                meta,
-                pages,
-                changes,
-                DISPLAY_UNITS[units],
-                trend_cells(months) if months is not None else None,
-                ranked,
-            ),
-            encoding="utf-8",
-        )
+    display = DISPLAY_UNITS[units]
+    pages = page_names(result.summary["pump_id"]) if len(result.summary) else {}
+    with atomic_folder(out, "report") as tmp:
+        (tmp / "pumps").mkdir()
+        pump_page = PageWriter(result, tmp, display)
+        # the big single files first, then the pump pages: in forked processes for a large
+        # plant, while this process writes the tables and the overview (report.sharing)
+        jobs = [partial(_write_plot_tables, result, tmp)] if result.plots else []
+        jobs.append(partial(write_workbook, tmp / "summary.xlsx", result, changes))
+        with shared_work(jobs, pages, pump_page.write):
+            _write_tables(result, tmp, changes, months)
+            ranked = worst_inputs_by_pump(result.summary, result.plots)
+            write_table(worst_inputs_table(result, result.plots, ranked), tmp, "worst_inputs")
+            (tmp / "plotly.min.js").write_text(get_plotlyjs(), encoding="utf-8")
+            meta = _run_meta(result)
+            (tmp / "run.json").write_text(json.dumps(meta, indent=2), encoding="utf-8")
+            trends = trend_cells(months) if months is not None else None
+            overview = _overview_html(result, meta, pages, changes, display, trends, ranked)
+            (tmp / "index.html").write_text(overview, encoding="utf-8")
     return out
+
+
+def _write_tables(result: ScanResult, tmp: Path, changes, months) -> None:
+    """The tidy tables written by the main process (the plot tables and the workbook are
+    jobs of :func:`screening.report.sharing.shared_work`)."""
+    write_table(result.hours, tmp, "hours")
+    summary = result.summary.copy()
+    if "worst_time" in summary:
+        summary["worst_time"] = summary["worst_time"].astype("string")
+    write_table(summary, tmp, "summary")
+    daily = result.daily.copy()
+    daily["date"] = as_text(daily["date"])
+    write_table(daily, tmp, "daily_hours", CSV_MAX_ROWS)
+    write_table(result.quality, tmp, "data_quality")
+    write_table(result.problems, tmp, "not_screened")
+    write_table(result.file_problems, tmp, "files_not_read")
+    write_table(_events_table(result), tmp, "events")
+    if changes is not None:
+        write_table(changes, tmp, "changes")
+        write_table(months, tmp, "monthly_hours")
+    field_page.write_tables(result, tmp, write_table)
+
+
+def _write_plot_tables(result: ScanResult, tmp: Path) -> None:
+    """The numbers behind the pump pages' plots, tidy, beside them."""
+    buckets = _buckets_table(result)
+    write_table(buckets, tmp, "plot_buckets", CSV_MAX_ROWS, float32=True)
+    points = _points_table(result.points)
+    write_table(points, tmp, "operating_points", CSV_MAX_ROWS, float32=True)
+
+
+def _run_meta(result: ScanResult) -> dict:
+    """What ``run.json`` records of the run: tool, window, counts, inputs and their hashes."""
+    site = result.plant.settings.site
+    return {
+        "tool": "pumpscreen",
+        "version": __version__,
+        "written_utc": datetime.now(UTC).isoformat(timespec="seconds"),
+        "plant": site.name,
+        "config": str(result.plant.path),
+        "window_start_utc": result.start.isoformat(),
+        "window_end_utc": result.end.isoformat(),
+        "timezone": site.timezone,
+        "pumps_screened": int(result.summary.shape[0]),
+        "pumps_not_screened": int(result.problems.shape[0]),
+        "samples": result.samples,
+        "elapsed_s": round(result.elapsed_s, 3),
+        "coolprop": metadata.version("CoolProp"),
+        "inputs": _input_files(result),
+    }
 
 
 def _compared(result: ScanResult, compare_to) -> tuple:
@@ -328,104 +255,6 @@ def _changes(result: ScanResult, previous: Path) -> pd.DataFrame:
         ["new", "not in this report", "worse", "better"], default="unchanged",
     )  # fmt: skip
     return out.reset_index().rename(columns={"index": "pump_id"})
-
-
-def _write_workbook(path: Path, result: ScanResult, changes) -> None:
-    """One spreadsheet gathering the summary tables (formula-like text neutralised)."""
-    sheets = {
-        "summary": result.summary,
-        "hours": result.hours,
-        "data_quality": result.quality,
-        "not_screened": result.problems,
-    }
-    if changes is not None:
-        sheets["changes"] = changes
-    # XlsxWriter: three times faster than openpyxl on a 500-pump plant; text is never read
-    # as a formula or a link
-    options = {"strings_to_formulas": False, "strings_to_urls": False}
-    with pd.ExcelWriter(path, engine="xlsxwriter", engine_kwargs={"options": options}) as xl:
-        for name, frame in sheets.items():
-            f = frame.copy()
-            for col in f.columns:
-                if isinstance(f[col].dtype, pd.DatetimeTZDtype):
-                    f[col] = f[col].astype("string")
-                elif f[col].dtype == object or pd.api.types.is_string_dtype(f[col]):
-                    f[col] = _neutralised(f[col])
-            columns = [_excel_cells(f[c]) for c in f.columns]
-            if any(c is None for c in columns):  # a kind of value not handled below
-                f.to_excel(xl, sheet_name=name, index=False)
-                continue
-            sheet = xl.book.add_worksheet(name)
-            for j, head in enumerate(f.columns):  # pandas' order: the header, then by column
-                sheet.write(0, j, str(head), None)
-            for j, cells in enumerate(columns):
-                for i, value in enumerate(cells, start=1):
-                    sheet.write(i, j, value, None)
-
-
-def _excel_cells(column: pd.Series) -> list | None:
-    """A column's cells as pandas' ``to_excel`` writes them (without its per-cell objects,
-    two thirds of the workbook's time): missing -> "" (a blank), ±inf -> "inf"/"-inf",
-    numbers, booleans and text as Python values; None for anything else (datetimes, long
-    text), which is then left to pandas."""
-    out = []
-    for v in column.tolist():
-        if v is None or v is pd.NA or v is pd.NaT:
-            out.append("")
-        elif isinstance(v, bool | np.bool_):
-            out.append(bool(v))
-        elif isinstance(v, int | np.integer):
-            out.append(int(v))
-        elif isinstance(v, float | np.floating):
-            v = float(v)
-            out.append("" if v != v else "inf" if v == np.inf else "-inf" if v == -np.inf else v)
-        elif isinstance(v, str) and len(v) <= 32767:
-            out.append(v)
-        else:
-            return None
-    return out
-
-
-#: From this many pump pages on, they are written by forked worker processes (one per core):
-#: a page costs about 13 ms, so a 500-pump plant's pages take 6-7 s on one core.
-PARALLEL_PAGES = 100
-
-
-@contextmanager
-def _pump_pages(result: ScanResult, folder: Path, pages: dict, units) -> Iterator[None]:
-    """Write every pump page by the end of the block. For large plants (Linux) forked
-    processes write them while the block runs (the tables and the workbook): the children
-    inherit ``result`` (no copy is sent) and each writes its share. A failure in one is raised
-    here, so the report is never moved into place without all its pages; an error in the
-    block stops the children."""
-    (folder / "pumps").mkdir()
-    n = min(default_processes(), len(pages) // (PARALLEL_PAGES // 2) or 1)
-    if len(pages) < PARALLEL_PAGES or n < 2 or not sys.platform.startswith("linux"):
-        yield
-        write_some_pages(result, folder, pages, units)
-        return
-    items = list(pages.items())
-    shares = [dict(items[i::n]) for i in range(n)]
-    _FORKED[id(result)] = result  # before the children fork, so that they inherit it
-    pool = ProcessPoolExecutor(max_workers=n, mp_context=multiprocessing.get_context("fork"))
-    try:
-        futures = [
-            pool.submit(_pages_in_child, id(result), folder, share, units) for share in shares
-        ]
-        yield
-        for f in futures:
-            f.result()
-    finally:
-        pool.shutdown(wait=True, cancel_futures=True)
-        _FORKED.pop(id(result), None)
-
-
-#: The scan result the forked page writers inherit, by id (set before the children fork).
-_FORKED: dict[int, ScanResult] = {}
-
-
-def _pages_in_child(key: int, folder: Path, pages: dict, units) -> None:
-    write_some_pages(_FORKED[key], folder, pages, units)
 
 
 def _events_table(result: ScanResult) -> pd.DataFrame:

@@ -55,37 +55,46 @@ def running_speed(plot: pd.DataFrame | None, rated: float) -> float:
     rated speed where the pump has no speed tag."""
     if plot is None or "speed_rpm_min" not in plot:
         return rated
-    mid = ((plot["speed_rpm_min"] + plot["speed_rpm_max"]) / 2).dropna()
-    mid = mid[plot.loc[mid.index, "npsha_m_min"].notna()]  # running buckets only
+    lo, hi, npsha = (plot[c].to_numpy(dtype=np.float64) for c in
+                     ("speed_rpm_min", "speed_rpm_max", "npsha_m_min"))  # fmt: skip
+    mid = (lo + hi) / 2
+    mid = mid[~np.isnan(mid) & ~np.isnan(npsha)]  # running buckets only
     return float(np.median(mid)) if len(mid) else rated
 
 
 def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: DisplayUnits) -> None:
     """Write the pages of ``pages`` (pump id -> file name) under ``folder``/pumps, in display
     ``units``."""
-    plant = result.plant
-    tz = plant.timezone
-    template = ENV.get_template("pump.html")
-    a, b = result.start.tz_convert(tz), result.end.tz_convert(tz)
-    window = f"{a:%Y-%m-%d %H:%M} to {b:%Y-%m-%d %H:%M}"
-    ample = plant.settings.policy.ample_ratio
-    # each pump's rows picked once (a mask per pump would cost pumps x rows)
-    hours_of = hours_by_pump(result.hours)
-    margin_days = result.daily[result.daily.kind == "margin"]
-    calendars = pump_pages.calendars_by_pump(margin_days)
-    daily_of = {} if calendars else dict(list(margin_days.groupby("pump_id", sort=False)))
-    thin = result.not_enough_data.set_index("pump_id")["coverage"].to_dict()
-    least = plant.settings.data.min_coverage
-    summary_of = {row["pump_id"]: row for row in result.summary.to_dict("records")}
-    bad_tags_of = problem_tags_by_pump(result.quality)
+    writer = PageWriter(result, folder, units)
     for pid, name in pages.items():
-        pump = plant.pumps[pid]
-        g = plant.guidance[pid]
-        events = (
-            events_for(plant.events, pid, pump.area, result.start, result.end)
-            if len(plant.events)
-            else plant.events
+        writer.write(pid, name)
+
+
+class PageWriter:
+    """Writes pump pages one at a time; what every page needs is picked from the scan's tables
+    once, when it is made (each pump's rows in one pass: a mask per pump would cost pumps x
+    rows). Made before the report's page writers fork, it is theirs without a copy."""
+
+    def __init__(self, result: ScanResult, folder: Path, units: DisplayUnits) -> None:
+        plant = result.plant
+        self.result, self.folder, self.units = result, folder, units
+        self.template = ENV.get_template("pump.html")
+        a, b = result.start.tz_convert(plant.timezone), result.end.tz_convert(plant.timezone)
+        self.window = f"{a:%Y-%m-%d %H:%M} to {b:%Y-%m-%d %H:%M}"
+        self.hours_of = hours_by_pump(result.hours)
+        self.margin_days = result.daily[result.daily.kind == "margin"]
+        self.calendars = pump_pages.calendars_by_pump(self.margin_days) or {}
+        self.daily_of = (
+            {} if self.calendars else dict(list(self.margin_days.groupby("pump_id", sort=False)))
         )
+        self.thin = result.not_enough_data.set_index("pump_id")["coverage"].to_dict()
+        self.summary_of = {row["pump_id"]: row for row in result.summary.to_dict("records")}
+        self.bad_tags_of = problem_tags_by_pump(result.quality)
+
+    def _figures(self, pid: str, pump, g, events) -> dict[str, str]:
+        """The page's three figures as HTML: time, operating points, calendar."""
+        result, units, tz = self.result, self.units, self.result.plant.timezone
+        ample = result.plant.settings.policy.ample_ratio
         plot = result.plots.get(pid)
         figs = {"fig_time": "", "fig_points": ""}
         if plot is not None and len(plot):
@@ -94,20 +103,33 @@ def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: Displ
         if pid in result.points:
             speed = running_speed(plot, pump.rated_speed)
             fig = pump_pages.points_figure(
-                result.points[pid], plant.curves[pump.curve_id], pump, units, g, speed
+                result.points[pid], result.plant.curves[pump.curve_id], pump, units, g, speed
             )
             figs["fig_points"] = figure_html(fig, "points")
-        calendar = (calendars or {}).get(pid)
+        calendar = self.calendars.get(pid)
         if calendar is None:
-            calendar = pump_pages.calendar_figure(daily_of.get(pid, margin_days.iloc[:0]))
+            calendar = pump_pages.calendar_figure(self.daily_of.get(pid, self.margin_days.iloc[:0]))
         figs["fig_calendar"] = figure_html(calendar, "calendar")
+        return figs
+
+    def write(self, pid: str, name: str) -> None:
+        """Write pump ``pid``'s page as ``name`` under the folder's ``pumps``."""
+        result, plant, units = self.result, self.result.plant, self.units
+        pump, g = plant.pumps[pid], plant.guidance[pid]
+        events = (
+            events_for(plant.events, pid, pump.area, result.start, result.end)
+            if len(plant.events)
+            else plant.events
+        )
+        plot = result.plots.get(pid)
         model = fluid_table(pump.fluid, pump.vapour_pressure).vapour_pressure_model
-        html = template.render(
+        thin, least = self.thin, plant.settings.data.min_coverage
+        html = self.template.render(
             pump=pump,
             plant_name=plant.name,
-            window=window,
+            window=self.window,
             units_label=units.name,
-            hours_rows=hours_rows(hours_of.get(pid, {})),
+            hours_rows=hours_rows(self.hours_of.get(pid, {})),
             downsample_note=(
                 f"Downsampled for the browser: the window is cut into "
                 f"{len(plot) if plot is not None else 0} time buckets and each keeps the minimum "
@@ -116,10 +138,10 @@ def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: Displ
             ),
             guidance_ratio=f"{g.ratio:.2f}",
             guidance_margin=units.length_text(g.margin),
-            ample_ratio=f"{ample:.2f}",
+            ample_ratio=f"{plant.settings.policy.ample_ratio:.2f}",
             register=pump_pages.register_rows(pump, g, model, units),
-            flags=pump_pages.pump_flags(summary_of.get(pid), units, bad_tags_of.get(pid)),
-            events=pump_pages.event_rows(events, tz),
+            flags=pump_pages.pump_flags(self.summary_of.get(pid), units, self.bad_tags_of.get(pid)),
+            events=pump_pages.event_rows(events, plant.timezone),
             cautions=CAUTIONS,
             field_section=field_page.section(
                 result.evidence.get(pid), pump, plant.curves[pump.curve_id], units
@@ -132,6 +154,6 @@ def write_some_pages(result: ScanResult, folder: Path, pages: dict, units: Displ
                 if pid in thin
                 else ""
             ),
-            **figs,
+            **self._figures(pid, pump, g, events),
         )
-        pump_pages.write_pump_page(folder / "pumps" / name, html)
+        pump_pages.write_pump_page(self.folder / "pumps" / name, html)

@@ -17,8 +17,8 @@ from screening.inputs.units import UnitError, si_to
 from screening.report.cautions import CAUTIONS
 from screening.report.figjson import figure_html
 from screening.report.palette import STATE_COLOURS, STATE_LABELS, STATE_PATTERNS
-from screening.report.plant_report import write_table
 from screening.report.pump_pages import DISPLAY_UNITS, DisplayUnits
+from screening.report.tablefiles import write_table
 from screening.scenarios.scenario import ACTIONS
 from screening.scenarios.whatif import WhatIfResult
 

@@ -47,10 +47,10 @@ class WorstInput:
     score: float
 
 
-def worst_inputs(plot: pd.DataFrame | None, worst_time) -> list[WorstInput]:
-    """Each input of ``plot`` at the bucket holding ``worst_time`` against its running
-    median, by score (distance from the median toward less margin, in spreads), largest
-    first; empty without plot data or a worst time."""
+def _candidates(plot: pd.DataFrame | None, worst_time) -> list[tuple]:
+    """Each input of ``plot`` at the bucket holding ``worst_time``: (label, kind, low side,
+    value on the side that lowers the margin, running buckets' mid values without NaN);
+    empty without plot data or a worst time."""
     if plot is None or not len(plot) or worst_time is None or pd.isna(worst_time):
         return []
     # numpy arrays of the columns (pandas' indexing per value cost 4 ms a pump)
@@ -69,14 +69,63 @@ def worst_inputs(plot: pd.DataFrame | None, worst_time) -> list[WorstInput]:
         mid = ((lo + hi) / 2)[running]
         mid = mid[~np.isnan(mid)]
         value = lo[at - 1] if low_side else hi[at - 1]
-        if not len(mid) or np.isnan(value):
-            continue
-        median = float(np.median(mid))
-        p10, p90 = np.percentile(mid, [10, 90])
+        if len(mid) and not np.isnan(value):
+            out.append((label, kind, low_side, value, mid))
+    return out
+
+
+def median_and_deciles(groups: list[np.ndarray]) -> np.ndarray:
+    """``np.median`` and ``np.percentile(g, [10, 90])`` of each non-empty array ``g`` of
+    ``groups`` (no NaN) at once, as rows (median, p10, p90), with numpy's own arithmetic: the
+    groups sorted side by side, the median the middle value or the mean of the middle two,
+    the percentiles numpy's default ("linear", Hyndman & Fan 1996 method 7) interpolation
+    between neighbours (two calls per group and input cost 0.3 s on a 500-pump plant)."""
+    n = np.array([len(g) for g in groups], dtype=np.intp)
+    table = np.full((len(groups), int(n.max(initial=1))), np.nan)
+    for i, g in enumerate(groups):
+        table[i, : len(g)] = g
+    table.sort(axis=1)  # the NaN padding last
+    rows = np.arange(len(groups))
+    half = n // 2
+    middle = table[rows, half]
+    below = table[rows, np.maximum(half - 1, 0)]
+    median = np.where(n % 2 == 1, middle, (below + middle) / 2)
+    # numpy's _quantile: virtual index (n - 1) q, its floor and the next; at or past the last
+    # value both are the last (numpy's index -1, whose gamma is then the index + 1)
+    q = np.true_divide(np.array([10, 90]), 100)
+    virtual = (n[:, None] - 1) * q[None, :]
+    past = virtual >= (n[:, None] - 1)
+    prev = np.where(past, -1, np.floor(virtual)).astype(np.intp)
+    gamma = virtual - prev
+    prev = np.where(past, n[:, None] - 1, prev)
+    nxt = np.where(past, n[:, None] - 1, prev + 1)
+    a, b = table[rows[:, None], prev], table[rows[:, None], nxt]
+    diff = b - a
+    deciles = np.where(gamma >= 0.5, b - diff * (1 - gamma), a + diff * gamma)  # numpy's _lerp
+    return np.column_stack([median, deciles])
+
+
+def _ranked(candidates: list[tuple], stats: np.ndarray) -> list[WorstInput]:
+    """The candidates of one pump with their (median, p10, p90), by score, largest first."""
+    out = []
+    for (label, kind, low_side, value, _), (median, p10, p90) in zip(
+        candidates, stats, strict=True
+    ):
+        median = float(median)
         spread = max(float(p90 - p10), MIN_SPREAD * abs(median), 1e-12)
         toward = (median - value) if low_side else (value - median)
         out.append(WorstInput(label, kind, float(value), median, spread, float(toward / spread)))
     return sorted(out, key=lambda w: -w.score)
+
+
+def worst_inputs(plot: pd.DataFrame | None, worst_time) -> list[WorstInput]:
+    """Each input of ``plot`` at the bucket holding ``worst_time`` against its running
+    median, by score (distance from the median toward less margin, in spreads), largest
+    first; empty without plot data or a worst time."""
+    found = _candidates(plot, worst_time)
+    if not found:
+        return []
+    return _ranked(found, median_and_deciles([c[-1] for c in found]))
 
 
 def _input_text(w: WorstInput, units) -> str:
@@ -143,11 +192,19 @@ def why_text(
 
 def worst_inputs_by_pump(summary: pd.DataFrame, plots: dict) -> dict[str, list[WorstInput]]:
     """Every pump's :func:`worst_inputs`, by pump id (worked out once for the table and the
-    overview)."""
-    return {
-        row["pump_id"]: worst_inputs(plots.get(row["pump_id"]), row.get("worst_time"))
-        for row in summary.to_dict("records")
+    overview, the medians and spreads of every pump and input in one go)."""
+    times = summary["worst_time"] if "worst_time" in summary else [None] * len(summary)
+    found = {
+        pid: _candidates(plots.get(pid), when)
+        for pid, when in zip(summary["pump_id"], times, strict=True)
     }
+    groups = [c[-1] for cs in found.values() for c in cs]
+    stats = median_and_deciles(groups) if groups else np.empty((0, 3))
+    out, at = {}, 0
+    for pid, cs in found.items():
+        out[pid] = _ranked(cs, stats[at : at + len(cs)]) if cs else []
+        at += len(cs)
+    return out
 
 
 def worst_inputs_table(result, pages_plots: dict, ranked: dict | None = None) -> pd.DataFrame:
