@@ -74,20 +74,8 @@ def weigh_numpy(code, until, grid, t_next, day_edges, n_states, no_data):
     return out.reshape(n_days, n_states), fresh
 
 
-def margin_codes_numpy(
-    npsha,
-    npsh3,
-    p_abs,
-    running,
-    decide_bad,
-    run_bad,
-    all_until,
-    decide_until,
-    g_ratio,
-    g_margin,
-    ample_ratio,
-    codes,
-):
+def margin_codes_numpy(npsha, npsh3, p_abs, running, decide_bad, run_bad, all_until,
+                       decide_until, g_ratio, g_margin, ample_ratio, codes):  # fmt: skip
     """The margin state of each piece, until when it holds [ns] and which pieces are bad data
     (numpy form). ``codes`` = (off_curve, bad_data, stopped); NPSHa, NPSH3 [m], the absolute
     pressure [Pa] (at or below zero: impossible, bad data); guidance ratio [-] and margin [m],
@@ -108,20 +96,8 @@ def margin_codes_numpy(
     return code, until, all_bad
 
 
-def _margin_codes_loop(
-    npsha,
-    npsh3,
-    p_abs,
-    running,
-    decide_bad,
-    run_bad,
-    all_until,
-    decide_until,
-    g_ratio,
-    g_margin,
-    ample_ratio,
-    codes,
-):  # pragma: no cover
+def _margin_codes_loop(npsha, npsh3, p_abs, running, decide_bad, run_bad, all_until,
+                       decide_until, g_ratio, g_margin, ample_ratio, codes):  # fmt: skip
     """The margin state, until when it holds [ns] and bad data of each piece, in one pass."""
     off_curve, bad_data, stopped = codes
     n = npsha.shape[0]
