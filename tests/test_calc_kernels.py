@@ -1,8 +1,8 @@
 """The calculation's compiled passes give what their numpy forms give, and what the step by
 step definitions give (to the last bit where the calculator relies on it).
 
-The references are the plain numpy forms beside each loop and the physics modules they fuse:
-``screening.physics.npsh`` (ISO 9906:2012 / ANSI/HI 1.3), the fluid table's own evaluation,
+The references are the plain numpy forms beside each loop and the definitions they fuse:
+``screening.physics.npsh`` (ISO 9906:2012 / ANSI/HI 1.3), the fluid table's own look-up,
 ``screening.physics.margin.margin_band`` and ``screening.physics.regions.operating_region``.
 """
 
@@ -71,39 +71,48 @@ def test_margin_states_match_the_margin_bands(random_state):
     assert set(np.unique(got[0][~running & ~decide_bad])) <= {states.STOPPED}
 
 
-@pytest.mark.parametrize("gauge", [True, False])
-def test_transmitter_npsha_is_the_step_by_step_definition_to_the_bit(gauge):
+def test_a_repeated_temperature_gets_the_same_properties_to_the_bit():
+    # the table look-up reuses a held temperature's properties; each value looked up alone
+    # (no repeat possible) is the reference
     from screening.base.kernels import table_eval
-    from screening.physics import npsh
 
     rng = np.random.default_rng(11)  # fixed random state
-    n = 5000
     ln_pv = np.log(np.linspace(600.0, 9e4, 101))
     rho_t = np.linspace(1000.0, 950.0, 101)
     table = (273.15, 373.15, 1.0, ln_pv, rho_t)
-    temp = rng.uniform(260.0, 390.0, n)
-    temp[::7] = temp[1::7][: len(temp[::7])]  # repeated temperatures reuse their properties
-    temp[rng.random(n) < 0.05] = np.nan
+    temp = np.repeat(rng.uniform(260.0, 390.0, 400), rng.integers(1, 5, 400))
+    temp[rng.random(len(temp)) < 0.05] = np.nan
+    p_v, rho = table_eval(temp, *table)
+    alone = [table_eval(temp[i : i + 1], *table) for i in range(len(temp))]
+    np.testing.assert_array_equal(p_v, [a[0][0] for a in alone])
+    np.testing.assert_array_equal(rho, [a[1][0] for a in alone])
+    assert np.isnan(p_v[(temp < 273.15) | (temp > 373.15)]).all()  # outside the table: NaN
+
+
+@pytest.mark.parametrize("gauge", [True, False])
+def test_transmitter_npsha_is_the_step_by_step_definition_to_the_bit(gauge):
+    # the definitions: screening.physics.npsh (ISO 9906:2012, ANSI/HI 1.3)
+    from screening.physics import npsh
+
+    rng = np.random.default_rng(13)  # fixed random state
+    n = 5000
     reading = rng.normal(1e5, 5e4, n)
     baro = rng.normal(101325.0, 500.0, n)
+    p_v = rng.uniform(600.0, 9e4, n)
+    rho = rng.uniform(950.0, 1000.0, n)
+    for a in (reading, p_v, rho):
+        a[rng.random(n) < 0.03] = np.nan
     flow = rng.uniform(0.0, 0.2, n)
     bore, elevation = 0.2, -0.4
-    area = npsh.pipe_area(bore)
-    p_v, rho, p_abs, npsha = ck.transmitter_npsha(
-        reading, baro, gauge, temp, table, flow, area, elevation
-    )
-    pv_ref, rho_ref = table_eval(temp, *table)
+    args = (reading, baro, gauge, p_v, rho, flow, float(npsh.pipe_area(bore)), elevation)
+    p_abs, npsha = ck.transmitter_npsha(*args)
     p_ref = npsh.absolute_pressure(reading, baro, gauge)
-    npsha_ref = npsh.npsha_from_pressure(p_ref, pv_ref, rho_ref, flow, bore, elevation)
-    for a, b in ((p_v, pv_ref), (rho, rho_ref), (p_abs, p_ref), (npsha, npsha_ref)):
+    np.testing.assert_array_equal(p_abs, p_ref)
+    np.testing.assert_array_equal(
+        npsha, npsh.npsha_from_pressure(p_ref, p_v, rho, flow, bore, elevation)
+    )
+    for a, b in zip((p_abs, npsha), ck.transmitter_npsha_numpy(*args), strict=True):
         np.testing.assert_array_equal(a, b)
-    # the numpy form (numpy's own exp) agrees to rounding (NPSHa near zero: absolutely)
-    for a, b in zip(
-        (p_v, rho, p_abs, npsha),
-        ck.transmitter_npsha_numpy(reading, baro, gauge, temp, table, flow, area, elevation),
-        strict=True,
-    ):
-        np.testing.assert_allclose(a, b, rtol=1e-13, atol=1e-9, equal_nan=True)
 
 
 def test_region_states_match_the_operating_regions():

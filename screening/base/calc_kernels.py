@@ -147,64 +147,32 @@ def band_summary_numpy(code, fresh, npsha, npsh3, p_abs, p_v, g_ratio, g_margin,
     return worst, least_m, least_g, int(fresh[below].sum()), first
 
 
-def transmitter_npsha_numpy(reading, baro, gauge, temp, table, flow, area, elevation):
-    """Vapour pressure [Pa], density [kg/m³], absolute pressure [Pa] and NPSHa [m] of a pump
-    with a suction transmitter (numpy form of :mod:`screening.physics.npsh` and the fluid
-    table's interpolation). ``reading`` [Pa] gauge (``gauge`` True: plus ``baro`` [Pa]) or
-    absolute; ``temp`` [K]; ``table`` = (t_min [K], t_max [K], step [K], ln p_v [ln Pa],
-    rho [kg/m³]) on a uniform grid; ``flow`` [m³/s] through the tap of cross-section ``area``
-    [m²] at ``elevation`` [m] above the NPSH datum.
-
-    NPSHa = (p_abs − p_v)/(ρ·g) + v²/(2g) + z (ISO 9906:2012, ANSI/HI 1.3)."""
-    t_min, t_max, step, ln_pv, rho_t = table
-    ok = (temp >= t_min) & (temp <= t_max)
-    pos = np.where(ok, (temp - t_min) / step, 0.0)
-    idx = np.minimum(pos.astype(np.int64), len(rho_t) - 2)
-    frac = pos - idx
-    p_v = np.where(ok, np.exp(ln_pv[idx] + frac * (ln_pv[idx + 1] - ln_pv[idx])), np.nan)
-    rho = np.where(ok, rho_t[idx] + frac * (rho_t[idx + 1] - rho_t[idx]), np.nan)
+def transmitter_npsha_numpy(reading, baro, gauge, p_v, rho, flow, area, elevation):
+    """Absolute pressure [Pa] and NPSHa [m] of a pump with a suction transmitter (numpy form;
+    the definitions are :func:`screening.physics.npsh.absolute_pressure` and
+    :func:`screening.physics.npsh.npsha_from_pressure`, ISO 9906:2012 and ANSI/HI 1.3):
+    ``reading`` [Pa] gauge (``gauge`` True: plus ``baro`` [Pa]) or absolute, vapour pressure
+    ``p_v`` [Pa] and density ``rho`` [kg/m³], ``flow`` [m³/s] through the tap of cross-section
+    ``area`` [m²] at ``elevation`` [m] above the NPSH datum."""
     p_abs = reading + baro if gauge else reading.copy()
     v = flow / area
-    with np.errstate(over="ignore", invalid="ignore"):
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         npsha = (p_abs - p_v) / (rho * G) + v * v / (2.0 * G) + elevation
-    return p_v, rho, p_abs, npsha
+    return p_abs, npsha
 
 
-def _transmitter_npsha_loop(reading, baro, gauge, temp, table, flow, area, elevation):
-    """p_v, rho, p_abs and NPSHa of each piece in one pass (see the numpy form)."""
-    t_min, t_max, step, ln_pv, rho_t = table
+def _transmitter_npsha_loop(reading, baro, gauge, p_v, rho, flow, area, elevation):
+    """p_abs and NPSHa of each piece in one pass, without temporaries (the same divisions,
+    rounded the same: the same bits as the numpy form)."""
     n = reading.shape[0]
-    last = rho_t.shape[0] - 1
-    p_v = np.empty(n)
-    rho = np.empty(n)
     p_abs = np.empty(n)
     npsha = np.empty(n)
-    pv_m = np.nan
-    r_m = np.nan
-    t_prev = np.nan
-    for m in range(n):
-        t = temp[m]
-        if t != t_prev:  # a held temperature repeats: the same properties
-            t_prev = t
-            if not (t >= t_min and t <= t_max):
-                pv_m = np.nan
-                r_m = np.nan
-            else:
-                pos = (t - t_min) / step
-                i = min(int(pos), last - 1)
-                f = pos - i
-                pv_m = np.exp(ln_pv[i] + f * (ln_pv[i + 1] - ln_pv[i]))
-                r_m = rho_t[i] + f * (rho_t[i + 1] - rho_t[i])
-        p_v[m] = pv_m
-        rho[m] = r_m
-    # apart from the loop above, which calls exp: a loop the compiler runs on several pieces
-    # at once (the same divisions, rounded the same)
     for m in range(n):
         p = reading[m] + baro[m] if gauge else reading[m]
         p_abs[m] = p
         v = flow[m] / area
         npsha[m] = (p - p_v[m]) / (rho[m] * G) + v * v / (2.0 * G) + elevation
-    return p_v, rho, p_abs, npsha
+    return p_abs, npsha
 
 
 def region_codes_numpy(flow, edges, running, decide_bad, r_bad, r_until, decide_until, codes):
@@ -365,7 +333,7 @@ def _warm_up() -> None:
     merge_many(t, t, np.array([0, 2], dtype=np.int64))
     x, yes = np.ones(2), np.ones(2, dtype=np.bool_)
     margin_codes(x, x, x, yes, ~yes, ~yes, t, t, 1.1, 1.0, 1.5, (4, 7, 5))
-    transmitter_npsha(x, x, True, x, (0.0, 2.0, 1.0, x, x), x, 1.0, 0.0)
+    transmitter_npsha(x, x, True, x, x, x, 1.0, 0.0)
     region_codes(x, (x, x, x, x), yes, ~yes, ~yes, t, t, (0, 1, 2, 3, 4, 7, 5))
     code, days = np.zeros(2, np.int8), np.array([0, 2], dtype=np.int64)
     for speed, baro in ((x, (yes, ~yes, yes)), (x[:0], (yes[:0], yes[:0], yes[:0]))):

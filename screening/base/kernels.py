@@ -128,22 +128,30 @@ def table_eval_numpy(t, t_min, t_max, step, ln_pv, rho):
 
 
 def _table_eval_loop(t, t_min, t_max, step, ln_pv, rho):  # pragma: no cover - compiled
-    """Linear interpolation of ln p_v and rho on a uniform grid; NaN outside."""
+    """Linear interpolation of ln p_v and rho on a uniform grid; NaN outside. A temperature
+    held from one piece to the next repeats: its properties are reused, the same bits."""
     n = t.shape[0]
     last = rho.shape[0] - 1
     pv = np.empty(n)
     r = np.empty(n)
+    v_prev = np.nan
+    pv_m = np.nan
+    r_m = np.nan
     for m in range(n):
         v = t[m]
-        if not (v >= t_min and v <= t_max):
-            pv[m] = np.nan
-            r[m] = np.nan
-            continue
-        pos = (v - t_min) / step
-        i = min(int(pos), last - 1)
-        f = pos - i
-        pv[m] = np.exp(ln_pv[i] + f * (ln_pv[i + 1] - ln_pv[i]))
-        r[m] = rho[i] + f * (rho[i + 1] - rho[i])
+        if v != v_prev:
+            v_prev = v
+            if not (v >= t_min and v <= t_max):
+                pv_m = np.nan
+                r_m = np.nan
+            else:
+                pos = (v - t_min) / step
+                i = min(int(pos), last - 1)
+                f = pos - i
+                pv_m = np.exp(ln_pv[i] + f * (ln_pv[i + 1] - ln_pv[i]))
+                r_m = rho[i] + f * (rho[i + 1] - rho[i])
+        pv[m] = pv_m
+        r[m] = r_m
     return pv, r
 
 

@@ -354,21 +354,20 @@ def _evaluate(pump, curve, table, timeline: Timeline, barometer, settings, run) 
     held = timeline.held
     baro, baro_used = _barometric(barometer, timeline.grid, settings)
     temp = held["temperature"].value
+    p_v, rho = table.properties(temp)
     flow = held["flow"].value
     if pump.source == "transmitter":
-        # npsh.absolute_pressure, the table's properties and npsh.npsha_from_pressure in one
-        # compiled pass, to the last bit the same
-        area = npsh.pipe_area(pump.tap_bore)
-        p_v, rho, p_abs, npsha = transmitter_npsha(
-            held["suction"].value, baro, bool(pump.gauge), temp, table.grid(), flow, area,
-            float(pump.tap_elevation),
+        # npsh.absolute_pressure and npsh.npsha_from_pressure in one compiled pass, the same
+        # bits (tests/test_calc_kernels.py)
+        p_abs, npsha = transmitter_npsha(
+            held["suction"].value, baro, bool(pump.gauge), p_v, rho, flow,
+            float(npsh.pipe_area(pump.tap_bore)), float(pump.tap_elevation),
         )  # fmt: skip
         # a vertical can from its nozzle to the impeller eye (register; counted once); none
         # registered: no loss (subtracting zeros would change no number)
         if pump.can_loss_k is not None:
             npsha = npsha - suction.can_loss(pump.can_loss_k, flow)
     else:
-        p_v, rho = table.properties(temp)
         p_abs, npsha = _vessel_npsha(
             pump, held, baro, p_v, rho, flow, temp, table.fluid, run.line_flow
         )
@@ -459,8 +458,8 @@ def _summarise(
     if pump.needs_barometer:
         result.baro_fallback_hours = float(fallback / NS_PER_HOUR)
     ratio = phys.npsha / phys.npsh3 if plot_buckets or keep_series else None
-    ratio_n = np.ones(len(grid)) if speed_ratio is None else speed_ratio
     if plot_buckets:
+        ratio_n = np.ones(len(grid)) if speed_ratio is None else speed_ratio
         result.plot, result.points = _plot_data(
             pump, curve, guidance, timeline, run, phys, code, all_bad, fresh, ratio, ratio_n,
             start_ns, end_ns, plot_buckets,

@@ -144,11 +144,6 @@ class FluidTable:
         shape = np.shape(temperature)
         return pv.reshape(shape), rho.reshape(shape)
 
-    def grid(self) -> tuple[float, float, float, np.ndarray, np.ndarray]:
-        """The table as plain values for a compiled loop: t_min, t_max, step [K], ln p_v at
-        the nodes [ln Pa] and rho at the nodes [kg/m³]."""
-        return float(self.t_min), float(self.t_max), float(self.step), self.ln_pv, self.rho
-
     def vapour_pressure(self, temperature) -> np.ndarray:
         """Vapour pressure [Pa] at ``temperature`` [K]; NaN outside the valid range."""
         return self.properties(temperature)[0]
