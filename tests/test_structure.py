@@ -197,10 +197,7 @@ def test_the_command_line_starts_without_what_other_commands_need():
         "import sys, screening.cli.main\n"
         "print(' '.join(sorted(sys.modules)))"
     )  # fmt: skip
-    out = subprocess.run(
-        [sys.executable, "-c", code], capture_output=True, text=True, check=True,
-        cwd=PACKAGE.parent,
-    ).stdout.split()  # fmt: skip
+    out = _printed(code)
     assert "screening.engine.scan" in out  # what `scan` needs is there
     for absent in ("screening.onset.investigate", "screening.scenarios.whatif",
                    "screening.inputs.ingest", "rich.console", "dask", "CoolProp"):  # fmt: skip
@@ -214,8 +211,13 @@ def test_dask_stays_importable_after_pint():
         "import screening.inputs.units as u, dask, dask.base, numpy as np\n"
         "print(u.to_si(np.array([1.0]), 'bar', 'pressure')[0], dask.base.tokenize(1) != '')"
     )  # fmt: skip
-    out = subprocess.run(
+    out = _printed(code)
+    assert out == ["100000.0", "True"]  # 1 bar = 100 kPa (BIPM SI Brochure, 8th ed. 2006, table 8)
+
+
+def _printed(code: str) -> list[str]:
+    """The words ``code`` prints, run in a fresh interpreter beside the package."""
+    return subprocess.run(
         [sys.executable, "-c", code], capture_output=True, text=True, check=True,
         cwd=PACKAGE.parent,
     ).stdout.split()  # fmt: skip
-    assert out == ["100000.0", "True"]  # 1 bar = 100 kPa (BIPM SI Brochure, 8th ed. 2006, table 8)
