@@ -36,11 +36,25 @@ def _random_pieces(rng, n: int):
 @settings(max_examples=150, deadline=None)
 @given(base=sorted_unique, pieces=st.lists(sorted_unique, max_size=5))
 def test_the_grid_is_the_union_of_every_time_axis(base, pieces):
-    cat = np.concatenate(pieces) if pieces else np.empty(0, dtype=np.int64)
-    offsets = np.cumsum([0] + [len(p) for p in pieces], dtype=np.int64)
-    expected = np.union1d(base, cat).astype(np.int64)
-    np.testing.assert_array_equal(ck.merge_many(base, cat, offsets), expected)
-    np.testing.assert_array_equal(ck.merge_many_numpy(base, cat, offsets), expected)
+    expected = np.append(np.union1d(base, np.concatenate([base, *pieces])), 10**7)
+    np.testing.assert_array_equal(ck.merge_axes(base, pieces, 10**7), expected)
+    np.testing.assert_array_equal(ck.merge_axes_numpy(base, pieces, 10**7), expected)
+
+
+@pytest.mark.parametrize("random_state", [5, 6])
+def test_axes_missing_a_few_samples_each_merge_into_one_grid(random_state):
+    """The usual case: a wide file's tags each lack a few samples (blanks dropped), the
+    barometer is on its own slower axis and the window's midnights fall between samples."""
+    rng = np.random.default_rng(random_state)
+    full = np.arange(0, 43_200 * 60, 60, dtype=np.int64) * 10**9
+    axes = [np.sort(rng.choice(full, len(full) - k, replace=False)) for k in (0, 13, 200, 5)]
+    axes.append(np.arange(7, 43_200 * 60, 600, dtype=np.int64) * 10**9)  # another clock
+    base = np.arange(0, 31, dtype=np.int64) * 86_400 * 10**9 + 30 * 10**9
+    out = ck.merge_axes(base, axes, 43_200 * 60 * 10**9)
+    np.testing.assert_array_equal(out[:-1], np.unique(np.concatenate([base, *axes])))
+    assert out[-1] == 43_200 * 60 * 10**9
+    # a missing sample of the longest axis that another axis holds is still a cut
+    assert ck.merge_axes(base[:1], [full[1:], full[:2]], 10**15)[0] == full[0]
 
 
 @pytest.mark.parametrize("random_state", [1, 2, 3])

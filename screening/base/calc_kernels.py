@@ -16,48 +16,71 @@ from screening.base.kernels import compile_kernel
 #: Standard gravity [m/s²] (exact by definition, CGPM 1901), as in screening.physics.npsh.
 G = 9.80665
 
-#: Larger than any instant [ns] of a window (the end of a merge).
-_LAST = np.iinfo(np.int64).max
+
+def merge_axes_numpy(base, axes, end):
+    """Sorted unique union of the sorted int64 array ``base`` and the strictly increasing
+    arrays ``axes``, followed by ``end`` (numpy form: the grid is ``out[:-1]``, each piece's
+    next start ``out[1:]``)."""
+    cat = np.concatenate([base, *axes]) if axes else base
+    return np.append(np.unique(cat), np.int64(end))
 
 
-def merge_many_numpy(base, cat, offsets):
-    """Sorted unique union of the sorted int64 array ``base`` and the sorted pieces
-    ``cat[offsets[k]:offsets[k + 1]]`` (numpy form)."""
-    return np.unique(np.concatenate((base, cat)))
+def _not_in_loop(a, b):  # pragma: no cover - compiled
+    """The elements of the strictly increasing ``b`` that are not in the strictly
+    increasing ``a``: one walk of both."""
+    out = np.empty(b.shape[0], np.int64)
+    n = 0
+    j = 0
+    na = a.shape[0]
+    for i in range(b.shape[0]):
+        v = b[i]
+        while j < na and a[j] < v:
+            j += 1
+        if j >= na or a[j] != v:
+            out[n] = v
+            n += 1
+    return out[:n]
 
 
-def _merge_many_loop(base, cat, offsets):  # pragma: no cover - compiled
-    """Sorted unique union of ``base`` and every piece of ``cat``: one k-way merge pass."""
-    k_n = offsets.shape[0] - 1
-    pos = offsets[:-1].copy()
-    out = np.empty(base.shape[0] + cat.shape[0], np.int64)
+def _insert_sorted_loop(a, few, end):  # pragma: no cover - compiled
+    """The union of the strictly increasing ``a`` and the sorted unique ``few``, followed by
+    ``end``: each run of ``a`` between two of ``few`` is found by bisection and copied whole."""
+    na = a.shape[0]
+    out = np.empty(na + few.shape[0] + 1, np.int64)
     n = 0
     i = 0
-    nb = base.shape[0]
-    while True:
-        v = base[i] if i < nb else _LAST
-        for k in range(k_n):
-            p = pos[k]
-            if p < offsets[k + 1] and cat[p] < v:
-                v = cat[p]
-        if v == _LAST and i >= nb:
-            done = True
-            for k in range(k_n):
-                if pos[k] < offsets[k + 1]:
-                    done = False
-            if done:
-                break
-        if i < nb and base[i] == v:
-            i += 1
-        for k in range(k_n):
-            p = pos[k]
-            end = offsets[k + 1]
-            while p < end and cat[p] == v:
-                p += 1
-            pos[k] = p
+    for e in range(few.shape[0]):
+        v = few[e]
+        j = i + np.searchsorted(a[i:], v)
+        out[n : n + j - i] = a[i:j]
+        n += j - i
+        i = j
+        if i < na and a[i] == v:
+            continue
         out[n] = v
         n += 1
-    return out[:n]
+    out[n : n + na - i] = a[i:]
+    n += na - i
+    out[n] = end
+    return out[: n + 1]
+
+
+def merge_axes(base: np.ndarray, axes: list[np.ndarray], end: int) -> np.ndarray:
+    """Sorted unique union of ``base`` (sorted, unique) and the strictly increasing time axes
+    ``axes`` [ns], followed by ``end`` [ns]: the grid is ``out[:-1]`` and each piece's next
+    start ``out[1:]`` (two views of one array).
+
+    The tags of a pump mostly share their sample times, each missing a few: the longest axis
+    is taken whole, the others are walked once each for the few instants it lacks, and those
+    are inserted by bisection and block copies (about twice as fast as a k-way merge of all
+    the axes on a month of one-minute data, the same array as :func:`merge_axes_numpy`).
+    """
+    if not axes:
+        return insert_sorted(np.empty(0, dtype=np.int64), base, np.int64(end))
+    longest = max(axes, key=len)
+    few = [base] + [not_in(longest, b) for b in axes if b is not longest]
+    few = np.unique(np.concatenate(few)) if len(few) > 1 else few[0]
+    return insert_sorted(longest, few, np.int64(end))
 
 
 def weigh_numpy(code, until, grid, t_next, day_edges, n_states, no_data):
@@ -320,7 +343,10 @@ def _piece_sums_loop(margin, region, grid, t_next, day_edges, sizes, phys, speed
     return daily, r_daily, fresh, r_fresh, summary, outside, fallback
 
 
-merge_many = compile_kernel(_merge_many_loop, merge_many_numpy)
+not_in = compile_kernel(_not_in_loop, lambda a, b: np.setdiff1d(b, a, assume_unique=True))
+insert_sorted = compile_kernel(
+    _insert_sorted_loop, lambda a, few, end: np.append(np.union1d(a, few), np.int64(end))
+)
 margin_codes = compile_kernel(_margin_codes_loop, margin_codes_numpy)
 transmitter_npsha = compile_kernel(_transmitter_npsha_loop, transmitter_npsha_numpy)
 region_codes = compile_kernel(_region_codes_loop, region_codes_numpy)
@@ -330,7 +356,7 @@ piece_sums = compile_kernel(_piece_sums_loop, piece_sums_numpy)
 def _warm_up() -> None:
     """Load (or compile) every kernel once, at import (see :mod:`screening.base.kernels`)."""
     t = np.array([0, 1], dtype=np.int64)
-    merge_many(t, t, np.array([0, 2], dtype=np.int64))
+    merge_axes(t, [t, t[1:]], 2)
     x, yes = np.ones(2), np.ones(2, dtype=np.bool_)
     margin_codes(x, x, x, yes, ~yes, ~yes, t, t, 1.1, 1.0, 1.5, (4, 7, 5))
     transmitter_npsha(x, x, True, x, x, x, 1.0, 0.0)

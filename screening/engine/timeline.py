@@ -29,7 +29,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from screening.base.calc_kernels import merge_many
+from screening.base.calc_kernels import merge_axes
 from screening.base.kernels import hold
 from screening.inputs.tagdata import TagSeries
 
@@ -119,14 +119,12 @@ def align(pump, tags, barometer, stale_limit: float, start_ns, end_ns, day_edges
     and the ``extra`` instants [ns] (sorted, inside the window); hold or draw every tag on the
     pieces (``stale_limit`` [s]: the plant's default)."""
     parts = [np.array([start_ns], dtype=np.int64), day_edges[:-1]]
-    seen: list[np.ndarray] = []
+    axes: dict[tuple[int, int, int], np.ndarray] = {}
     for s in list(tags.values()) + [barometer]:
         if s is not None and len(s.times):
             lo, hi = np.searchsorted(s.times, [start_ns, end_ns])
-            piece = s.times[lo:hi]
-            # tags of one wide file share their times: add each distinct time axis once
-            if not any(len(x) == len(piece) and np.array_equal(x, piece) for x in seen):
-                seen.append(piece)
+            # tags of one wide file share their time array: each axis is added once
+            axes.setdefault((id(s.times), int(lo), int(hi)), s.times[lo:hi])
     header = tags.get("header_flow") if pump.header_flow is not None else None
     if header is not None and len(header.times):
         # a shared line's header flow: where its samples go stale the line's flow falls back
@@ -136,12 +134,9 @@ def align(pump, tags, barometer, stale_limit: float, start_ns, end_ns, day_edges
         parts.append(expiry[(expiry > start_ns) & (expiry < end_ns)])
     if extra is not None and len(extra):
         parts.append(np.asarray(extra, dtype=np.int64))
-    # every part is sorted: merge the time axes into the sorted unique grid in one pass
-    base = np.unique(np.concatenate(parts))
-    offsets = np.cumsum([0] + [len(x) for x in seen], dtype=np.int64)
-    cat = np.concatenate(seen) if seen else np.empty(0, dtype=np.int64)
-    grid = merge_many(base, cat, offsets)
-    t_next = np.append(grid[1:], end_ns)
+    # the grid and each piece's next start: two views of one merged array
+    edges = merge_axes(np.unique(np.concatenate(parts)), list(axes.values()), end_ns)
+    grid, t_next = edges[:-1], edges[1:]
     return Timeline(grid, t_next, held_at(pump, tags, grid, stale_limit))
 
 
