@@ -58,6 +58,50 @@ def _hold_loop(times, values, bad, grid, stale_ns, never):  # pragma: no cover -
     return value, flag, until
 
 
+def hold_fold_numpy(times, values, bad, grid, stale_ns, never, in_bad, in_until, inplace):
+    """A tag held at each grid point (:func:`hold_numpy`), its bad flags or-ed into ``in_bad``
+    and its fresh-until times [ns] min-ed into ``in_until`` (empty: nothing to fold into);
+    returns (value, bad, until) (numpy form; ``inplace`` is ignored, the result is new)."""
+    value, flag, until = hold_numpy(times, values, bad, grid, stale_ns, never)
+    if len(in_bad):
+        flag, until = flag | in_bad, np.minimum(until, in_until)
+    return value, flag, until
+
+
+def _hold_fold_loop(times, values, bad, grid, stale_ns, never, in_bad, in_until, inplace):
+    """A tag held at each grid point, folded into the bad flags and fresh-until times of the
+    tags before it in one pass (into those arrays themselves when ``inplace``)."""
+    n = grid.shape[0]
+    m = times.shape[0]
+    value = np.empty(n)
+    fold = in_bad.shape[0] > 0
+    if fold and inplace:
+        flag = in_bad
+        until = in_until
+    else:
+        flag = np.empty(n, np.bool_)
+        until = np.empty(n, np.int64)
+    k = -1
+    for i in range(n):
+        g = grid[i]
+        while k + 1 < m and times[k + 1] <= g:
+            k += 1
+        if k < 0:
+            value[i] = np.nan
+            b = False
+            u = never
+        else:
+            value[i] = values[k]
+            b = bad[k]
+            u = times[k] + stale_ns
+        if fold:
+            b = b or in_bad[i]
+            u = min(u, in_until[i])
+        flag[i] = b
+        until[i] = u
+    return value, flag, until
+
+
 def union_sorted_numpy(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Sorted unique union of two sorted int64 arrays (numpy form)."""
     grid = np.sort(np.concatenate((a, b)), kind="stable")
@@ -204,6 +248,7 @@ def compile_kernel(func, fallback):
 
 
 hold = compile_kernel(_hold_loop, hold_numpy)
+hold_fold = compile_kernel(_hold_fold_loop, hold_fold_numpy)
 union_sorted = compile_kernel(_union_sorted_loop, union_sorted_numpy)
 pchip_eval = compile_kernel(_pchip_eval_loop, pchip_eval_numpy)
 table_eval = compile_kernel(_table_eval_loop, table_eval_numpy)
@@ -217,7 +262,10 @@ def _warm_up() -> None:
     not inside the first pump's calculation.
     """
     t = np.array([0, 1], dtype=np.int64)
-    hold(t, np.zeros(2), np.zeros(2, dtype=np.bool_), t, 1, -1)
+    no = np.zeros(2, dtype=np.bool_)
+    hold(t, np.zeros(2), no, t, 1, -1)
+    for into in (no[:0], no):
+        hold_fold(t, np.zeros(2), no, t, 1, -1, into, t[: len(into)], False)
     union_sorted(t, t)
     x = np.array([0.0, 1.0])
     pchip_eval(x, np.zeros((4, 1)), x)

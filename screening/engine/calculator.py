@@ -28,6 +28,7 @@ from screening.base.calc_kernels import (
 from screening.engine import field_head, lineflow, plotdata, severity
 from screening.engine.timeline import (
     NEVER,
+    OWN_ROLES,
     Held,
     Timeline,
     align,
@@ -189,7 +190,8 @@ def calculate_pump(
     run = _decide_running(pump, timeline, settings)
     phys = _evaluate(pump, curve, table, timeline, barometer, settings, run)
     code, until, all_bad = _classify_margin(phys, run, guidance, settings)
-    rcode, r_until = _classify_region(pump, curve, timeline.held, phys, run, settings)
+    rcode, r_until = _classify_region(pump, curve, timeline.held, phys, run, settings,
+                                      timeline.folds)  # fmt: skip
     if settings.settle_after_start > 0:
         _mark_starting(timeline.grid, run, code, rcode, int(settings.settle_after_start * 1e9))
     # the pieces' right ends (just before the next piece) where inputs are drawn by lines
@@ -298,31 +300,31 @@ class _Physics:
     line_flow: np.ndarray | None = None
 
 
-#: The roles of a pump's own process tags: every one is needed on a running piece.
-OWN_ROLES = ("suction", "temperature", "flow", "speed", "run", "level", "vessel_pressure")
-
-
 def _decide_running(pump: PumpSpec, timeline: Timeline, settings: Settings) -> _Running:
     """Running or stopped: the run status, else flow [m³/s] (and speed [rpm]) against their
     fractions of BEP flow and rated speed. A running piece needs all the pump's own tags, and
     on a shared suction line the line's total flow (:mod:`screening.engine.lineflow`)."""
-    held = timeline.held
-    running, decide_bad, decide_until = lineflow.decide(
-        held.get("run"), held["flow"], held.get("speed"), pump.bep_flow, pump.rated_speed,
-        settings.min_flow_fraction, settings.min_speed_fraction,
-    )  # fmt: skip
-    all_bad = decide_bad.copy()
-    all_until = decide_until.copy()
-    for r in OWN_ROLES:
-        if r in held:
-            all_bad |= held[r].bad
-            all_until = np.minimum(all_until, held[r].until)
+    held, folds = timeline.held, timeline.folds
+    args = (held.get("run"), held["flow"], held.get("speed"), pump.bep_flow, pump.rated_speed,
+            settings.min_flow_fraction, settings.min_speed_fraction)  # fmt: skip
+    if folds is not None:  # folded as the tags were held (timeline.hold_roles)
+        running = lineflow.is_running(*args)
+        decide_bad, decide_until = folds.decide_bad, folds.decide_until
+        all_bad, all_until = folds.all_bad, folds.all_until
+    else:
+        running, decide_bad, decide_until = lineflow.decide(*args)
+        all_bad = decide_bad.copy()
+        all_until = decide_until.copy()
+        for r in OWN_ROLES:
+            if r in held:
+                all_bad |= held[r].bad
+                all_until = np.minimum(all_until, held[r].until)
     line_q = None
     if pump.shared_line is not None:
         line_q, bad, until = lineflow.line_flow(
             pump, held, timeline.grid, settings.min_flow_fraction, settings.min_speed_fraction
         )
-        all_bad |= bad
+        all_bad = all_bad | bad
         all_until = np.minimum(all_until, until)
     return _Running(running, decide_bad, decide_until, all_bad, all_until, line_q)
 
@@ -391,18 +393,22 @@ def _classify_margin(phys: _Physics, run: _Running, guidance: Guidance, settings
     )  # fmt: skip
 
 
-def _classify_region(pump, curve, held, phys: _Physics, run: _Running, settings: Settings):
+def _classify_region(pump, curve, held, phys: _Physics, run: _Running, settings: Settings,
+                     folds=None):  # fmt: skip
     """The operating region of each piece (flow [m³/s] against the region edges at the running
     speed, :func:`screening.physics.regions.operating_region`) and the time until which it
     holds [ns]: needs only the run decision, flow and speed. One compiled pass
     (:func:`screening.base.calc_kernels.region_codes`)."""
     edges = pump_region_edges(pump, curve.flow_max, phys.speed, settings.min_stable_flow_fraction)
     n = len(phys.flow)
-    r_bad, r_until = run.decide_bad, run.decide_until
-    for r in ("flow", "speed"):
-        if r in held:
-            r_bad = r_bad | held[r].bad
-            r_until = np.minimum(r_until, held[r].until)
+    if folds is not None:  # folded as the tags were held (timeline.hold_roles)
+        r_bad, r_until = folds.region_bad, folds.region_until
+    else:
+        r_bad, r_until = run.decide_bad, run.decide_until
+        for r in ("flow", "speed"):
+            if r in held:
+                r_bad = r_bad | held[r].bad
+                r_until = np.minimum(r_until, held[r].until)
     return region_codes(
         phys.flow, tuple(_flat(e, n) for e in edges), run.running, run.decide_bad, r_bad,
         r_until, run.decide_until, (regions.PREFERRED, regions.LOW_FLOW,

@@ -28,6 +28,20 @@ import numpy as np
 _FOREVER = np.iinfo(np.int64).max
 
 
+def is_running(
+    run, flow, speed, bep_flow: float, rated_speed: float, min_flow: float, min_speed: float
+) -> np.ndarray:
+    """Running or stopped on each piece (the values alone; see :func:`decide` for the
+    parameters): the run status above 0.5, else flow [m³/s] above ``min_flow``·``bep_flow``
+    and (with a speed tag) speed [rpm] above ``min_speed``·``rated_speed``."""
+    if run is not None:
+        return run.value > 0.5
+    running = flow.value > min_flow * bep_flow
+    if speed is not None:
+        running &= speed.value > min_speed * rated_speed
+    return running
+
+
 def decide(
     run, flow, speed, bep_flow: float, rated_speed: float, min_flow: float, min_speed: float
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -47,14 +61,8 @@ def decide(
     min_flow, min_speed : float
         Fractions of BEP flow and rated speed [-] (plant file ``[running]``).
     """
-    if run is not None:
-        deciding = [run]
-        running = run.value > 0.5
-    else:
-        deciding = [flow] + ([speed] if speed is not None else [])
-        running = flow.value > min_flow * bep_flow
-        if speed is not None:
-            running &= speed.value > min_speed * rated_speed
+    running = is_running(run, flow, speed, bep_flow, rated_speed, min_flow, min_speed)
+    deciding = [run] if run is not None else [flow] + ([speed] if speed is not None else [])
     n = len(running)
     bad = np.zeros(n, dtype=bool)
     until = np.full(n, _FOREVER, dtype=np.int64)

@@ -30,7 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from screening.base.calc_kernels import merge_axes
-from screening.base.kernels import hold
+from screening.base.kernels import hold, hold_fold
 from screening.inputs.tagdata import TagSeries
 
 NEVER = np.iinfo(np.int64).min // 4
@@ -38,17 +38,51 @@ NEVER = np.iinfo(np.int64).min // 4
 
 class Held:
     """A tag's last sample at each grid point [ns], with the time until which it stays fresh
-    [ns] (step reconstruction)."""
+    [ns] (step reconstruction).
 
-    def __init__(self, s: TagSeries | None, grid: np.ndarray, stale_ns: int):
+    Built with ``value`` (from :func:`hold_roles`, which folds the bad flags and fresh-until
+    times of a pump's tags without keeping each tag's own), ``bad`` and ``until`` are found
+    when first asked for."""
+
+    def __init__(self, s: TagSeries | None, grid: np.ndarray, stale_ns: int, value=None):
+        self._bad: np.ndarray | None = None
+        self._until: np.ndarray | None = None
+        self._source = (s, grid, stale_ns)
+        if value is not None:
+            self.value = value
+            return
         if s is None or len(s.times) == 0:
             self.value = np.full(len(grid), np.nan)
-            self.bad = np.zeros(len(grid), dtype=bool)
-            self.until = np.full(len(grid), NEVER, dtype=np.int64)
+            self._bad = np.zeros(len(grid), dtype=bool)
+            self._until = np.full(len(grid), NEVER, dtype=np.int64)
             return
-        self.value, self.bad, self.until = hold(
+        self.value, self._bad, self._until = hold(
             s.times, s.values, s.bad, grid, np.int64(stale_ns), np.int64(NEVER)
         )
+
+    def _hold(self) -> None:
+        s, grid, stale_ns = self._source
+        if s is None or len(s.times) == 0:
+            self._bad = np.zeros(len(grid), dtype=bool)
+            self._until = np.full(len(grid), NEVER, dtype=np.int64)
+        else:
+            _, self._bad, self._until = hold(
+                s.times, s.values, s.bad, grid, np.int64(stale_ns), np.int64(NEVER)
+            )
+
+    @property
+    def bad(self) -> np.ndarray:
+        """Whether the held sample is bad, at each grid point."""
+        if self._bad is None:
+            self._hold()
+        return self._bad
+
+    @property
+    def until(self) -> np.ndarray:
+        """Until when [ns] the held sample stays fresh, at each grid point."""
+        if self._until is None:
+            self._hold()
+        return self._until
 
 
 class Linear(Held):
@@ -71,8 +105,8 @@ class Linear(Held):
             frac = np.where(line, (grid - t[kk]) / np.where(line, gap, 1), 0.0)
             value = v[kk] + frac * np.where(line, v[nxt] - v[kk], 0.0)
         self.value = np.where(has, value, np.nan)
-        self.bad = b[kk] & has
-        self.until = np.where(has, t[kk] + interval, NEVER)
+        self._bad = b[kk] & has
+        self._until = np.where(has, t[kk] + interval, NEVER)
 
 
 def held_tag(s: TagSeries | None, grid: np.ndarray, stale_ns: int) -> Held:
@@ -84,13 +118,28 @@ def held_tag(s: TagSeries | None, grid: np.ndarray, stale_ns: int) -> Held:
 
 
 @dataclass
+class Folds:
+    """The bad flags and fresh-until times [ns] of a pump's own tags folded on each piece:
+    of the tags deciding running or stopped (the run status, else flow and speed), of those
+    and flow and speed (the operating region), and of all its own process tags."""
+
+    decide_bad: np.ndarray
+    decide_until: np.ndarray
+    region_bad: np.ndarray
+    region_until: np.ndarray
+    all_bad: np.ndarray
+    all_until: np.ndarray
+
+
+@dataclass
 class Timeline:
-    """The pump's pieces: their start times [ns], the next piece's start [ns] and every tag
-    held on them."""
+    """The pump's pieces: their start times [ns], the next piece's start [ns], every tag
+    held on them and, where every tag is held in steps, their folds."""
 
     grid: np.ndarray
     t_next: np.ndarray
     held: dict[str, Held]
+    folds: Folds | None = None
 
 
 def stale_ns_of(spec, default: float) -> int:
@@ -137,7 +186,9 @@ def align(pump, tags, barometer, stale_limit: float, start_ns, end_ns, day_edges
     # the grid and each piece's next start: two views of one merged array
     edges = merge_axes(np.unique(np.concatenate(parts)), list(axes.values()), end_ns)
     grid, t_next = edges[:-1], edges[1:]
-    return Timeline(grid, t_next, held_at(pump, tags, grid, stale_limit))
+    if any_linear(tags):
+        return Timeline(grid, t_next, held_at(pump, tags, grid, stale_limit))
+    return Timeline(grid, t_next, *hold_roles(pump, tags, grid, stale_limit))
 
 
 def held_at(pump, tags, times: np.ndarray, stale_limit: float) -> dict[str, Held]:
@@ -146,6 +197,40 @@ def held_at(pump, tags, times: np.ndarray, stale_limit: float) -> dict[str, Held
         r: held_tag(tags.get(r), times, stale_ns_of(spec, stale_limit))
         for r, spec in pump_roles(pump).items()
     }
+
+
+#: The roles of a pump's own process tags: every one is needed on a running piece.
+OWN_ROLES = ("suction", "temperature", "flow", "speed", "run", "level", "vessel_pressure")
+
+
+def hold_roles(pump, tags, grid: np.ndarray, stale_limit: float) -> tuple[dict[str, Held], Folds]:
+    """Every tag of the pump held in steps on the pieces starting at ``grid`` [ns]
+    (``stale_limit`` [s]: the plant's default), with the folds of its own tags' bad flags and
+    fresh-until times (:class:`Folds`; the same as or-ing and min-ing each tag's own, as
+    :func:`screening.engine.lineflow.decide` and the calculator define them). Each own tag's
+    flags are folded into those of the tags before it as it is held, in one pass."""
+    roles = pump_roles(pump)
+    deciding = ["run"] if "run" in roles else [r for r in ("flow", "speed") if r in roles]
+    region = [r for r in ("flow", "speed") if r in roles and r not in deciding]
+    own = [r for r in OWN_ROLES if r in roles and r not in deciding and r not in region]
+    empty_t, empty_b = np.empty(0, dtype=np.int64), np.empty(0, dtype=np.bool_)
+    held: dict[str, Held] = {}
+    bad, until = empty_b, empty_t
+    folds = []
+    for group in (deciding, region, own):
+        for i, r in enumerate(group):
+            s = tags.get(r)
+            stale = np.int64(stale_ns_of(roles[r], stale_limit))
+            t, v, b = (empty_t, np.empty(0), empty_b) if s is None else (s.times, s.values, s.bad)
+            # the first tag of a group folds into a new pair of arrays (the group before it
+            # keeps its own), the rest into that pair
+            value, bad, until = hold_fold(t, v, b, grid, stale, np.int64(NEVER), bad, until, i > 0)
+            held[r] = Held(s, grid, int(stale), value)
+        folds += [bad, until]
+    for r, spec in roles.items():
+        if r not in held:
+            held[r] = held_tag(tags.get(r), grid, stale_ns_of(spec, stale_limit))
+    return {r: held[r] for r in roles}, Folds(*folds)
 
 
 def any_linear(tags: dict) -> bool:
