@@ -85,17 +85,21 @@ def test_margin_states_match_the_margin_bands(random_state):
     assert set(np.unique(got[0][~running & ~decide_bad])) <= {states.STOPPED}
 
 
-def test_a_repeated_temperature_gets_the_same_properties_to_the_bit():
-    # the table look-up reuses a held temperature's properties; each value looked up alone
-    # (no repeat possible) is the reference
+@pytest.mark.parametrize("distinct", [400, 5000])
+def test_a_repeated_temperature_gets_the_same_properties_to_the_bit(distinct):
+    # the table look-up reuses a temperature's properties from its cache (held repeats, and
+    # values met again later: 5000 distinct values overflow the cache, so entries collide
+    # and are replaced); each value looked up alone (no reuse possible) is the reference
     from screening.base.kernels import table_eval
 
     rng = np.random.default_rng(11)  # fixed random state
     ln_pv = np.log(np.linspace(600.0, 9e4, 101))
     rho_t = np.linspace(1000.0, 950.0, 101)
     table = (273.15, 373.15, 1.0, ln_pv, rho_t)
-    temp = np.repeat(rng.uniform(260.0, 390.0, 400), rng.integers(1, 5, 400))
+    values = np.round(rng.uniform(260.0, 390.0, distinct), 2)  # a resolution, as stored
+    temp = np.repeat(rng.choice(values, 4000), rng.integers(1, 5, 4000))
     temp[rng.random(len(temp)) < 0.05] = np.nan
+    temp[rng.random(len(temp)) < 0.01] = -0.0
     p_v, rho = table_eval(temp, *table)
     alone = [table_eval(temp[i : i + 1], *table) for i in range(len(temp))]
     np.testing.assert_array_equal(p_v, [a[0][0] for a in alone])

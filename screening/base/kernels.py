@@ -171,29 +171,48 @@ def table_eval_numpy(t, t_min, t_max, step, ln_pv, rho):
     return np.where(ok, pv, np.nan), np.where(ok, r, np.nan)
 
 
+#: Entries of the table look-up's cache of recent temperatures (a power of two).
+_CACHE = 1024
+
+
 def _table_eval_loop(t, t_min, t_max, step, ln_pv, rho):  # pragma: no cover - compiled
-    """Linear interpolation of ln p_v and rho on a uniform grid; NaN outside. A temperature
-    held from one piece to the next repeats: its properties are reused, the same bits."""
+    """Linear interpolation of ln p_v and rho on a uniform grid; NaN outside.
+
+    Historian temperatures are stored to a resolution (0.01 or 0.1 of a degree), so a month
+    of one-minute samples holds a few thousand distinct values. Each value's properties are
+    kept in a small cache keyed by its exact bits (direct-mapped, a multiplicative hash,
+    Knuth, *The Art of Computer Programming* vol. 3 §6.4): a value met before gets the
+    properties computed for it then, the same bits, without a second ``exp``."""
     n = t.shape[0]
     last = rho.shape[0] - 1
     pv = np.empty(n)
     r = np.empty(n)
-    v_prev = np.nan
-    pv_m = np.nan
-    r_m = np.nan
+    bits = t.view(np.uint64)
+    keys = np.zeros(_CACHE, np.uint64)
+    have = np.zeros(_CACHE, np.bool_)
+    c_pv = np.empty(_CACHE)
+    c_r = np.empty(_CACHE)
     for m in range(n):
+        b = bits[m]
+        h = ((b ^ (b >> np.uint64(29))) * np.uint64(0x9E3779B97F4A7C15)) >> np.uint64(54)
+        if have[h] and keys[h] == b:
+            pv[m] = c_pv[h]
+            r[m] = c_r[h]
+            continue
         v = t[m]
-        if v != v_prev:
-            v_prev = v
-            if not (v >= t_min and v <= t_max):
-                pv_m = np.nan
-                r_m = np.nan
-            else:
-                pos = (v - t_min) / step
-                i = min(int(pos), last - 1)
-                f = pos - i
-                pv_m = np.exp(ln_pv[i] + f * (ln_pv[i + 1] - ln_pv[i]))
-                r_m = rho[i] + f * (rho[i + 1] - rho[i])
+        if not (v >= t_min and v <= t_max):
+            pv_m = np.nan
+            r_m = np.nan
+        else:
+            pos = (v - t_min) / step
+            i = min(int(pos), last - 1)
+            f = pos - i
+            pv_m = np.exp(ln_pv[i] + f * (ln_pv[i + 1] - ln_pv[i]))
+            r_m = rho[i] + f * (rho[i + 1] - rho[i])
+        have[h] = True
+        keys[h] = b
+        c_pv[h] = pv_m
+        c_r[h] = r_m
         pv[m] = pv_m
         r[m] = r_m
     return pv, r
