@@ -692,13 +692,14 @@ def main() -> None:
         print("RESULT " + json.dumps(out, default=float))
         return
     before, t0 = runs.load(), time.perf_counter()
+    fresh_before = runs.fresh_memory_ms_per_mb()
     got: dict[str, list] = {k: [] for k in args.only}
     for i in range(args.repeat):  # interleaved, so that a busy spell touches every measure
         for k in args.only:
             print(f"measuring {k} (run {i + 1} of {args.repeat}) ...", flush=True)
             got[k].append(run_worker(k, args))
     results = {k: runs.summarise(v) for k, v in got.items()}
-    machine = runs.machine_text(before, runs.load())
+    machine = runs.machine_text(before, runs.load(), (fresh_before, runs.fresh_memory_ms_per_mb()))
     report(args, samples, {k: v for k, v in results.items() if v}, machine)
     print(f"\nthe benchmark took {time.perf_counter() - t0:.0f} s")
 

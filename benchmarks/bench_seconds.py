@@ -367,14 +367,14 @@ def main() -> None:
     if "fleet" in args.only:
         ensure("fleet", args.pumps, FLEET_START, args.days)
     ensure("year", 1, YEAR_START, args.year_days)
-    before = runs.load()
+    before, fresh_before = runs.load(), runs.fresh_memory_ms_per_mb()
     results: dict[str, list[dict]] = {}
     for kind in args.only:
         count = 1 if kind == "same" else args.runs
         for i in range(count):
             print(f"measuring {kind} ({i + 1}/{count}) ...", flush=True)
             results.setdefault(kind, []).append(run_worker(kind, args))
-    print(runs.machine_text(before, runs.load()))
+    print(runs.machine_text(before, runs.load(), (fresh_before, runs.fresh_memory_ms_per_mb())))
     report(args, results)
 
 

@@ -59,16 +59,55 @@ def load() -> tuple[float, float, float]:
         return (float("nan"),) * 3
 
 
-def machine_text(before: tuple[float, float, float], after: tuple[float, float, float]) -> str:
-    """Lines naming the machine, Python and the load average before and after the runs."""
+#: Touches one byte in every 4 KiB page of a fresh 256 MiB array and prints the seconds.
+_TOUCH = """
+import time, numpy as np
+a = np.empty(256 * 2**20, dtype=np.uint8)
+t = time.perf_counter(); a[::4096] = 1; print(time.perf_counter() - t)
+"""
+
+
+def fresh_memory_ms_per_mb() -> float:
+    """Milliseconds per MiB [ms] for a fresh process to write its first byte into each page of
+    256 MiB it has just allocated (the kernel maps a zeroed page on the first write).
+
+    On the 2-core AMD EPYC virtual machine the figures in docs/scale.md come from, it
+    measured 0.3 ms right after another process had used and freed the memory, and 2.5 to
+    3 ms on pages the machine had not used for a while: its host backs the guest's memory
+    lazily and pays a page fault of its own on each first touch. Every measure that allocates
+    varies with it (a scan of the benchmark plant allocates several hundred MiB). NaN if the
+    child fails."""
+    try:
+        out = subprocess.run([sys.executable, "-c", _TOUCH], capture_output=True, text=True,
+                             timeout=120, check=True)  # fmt: skip
+        return float(out.stdout.strip()) * 1000.0 / 256.0
+    except (subprocess.SubprocessError, ValueError, OSError):
+        return float("nan")
+
+
+def machine_text(
+    before: tuple[float, float, float],
+    after: tuple[float, float, float],
+    fresh_memory: tuple[float, float] | None = None,
+) -> str:
+    """Lines naming the machine, Python, the load average before and after the runs and, when
+    measured, the cost of fresh memory [ms per MiB] before and after
+    (:func:`fresh_memory_ms_per_mb`)."""
     total, usable = cores()
     fmt = "{:.2f} / {:.2f} / {:.2f}".format
-    return (
+    text = (
         f"machine: {cpu_model()}, {total} cores ({usable} usable), Python "
         f"{platform.python_version()}, {platform.system()} {platform.release()}\n"
         f"load average (1 / 5 / 15 min): before {fmt(*before)}, after {fmt(*after)} "
         f"(other work on the machine slows every figure)"
     )
+    if fresh_memory is not None:
+        text += (
+            f"\nfresh memory, first write per MiB: before {fresh_memory[0]:.2f} ms, after "
+            f"{fresh_memory[1]:.2f} ms (0.3 ms where the pages were recently used; several ms: "
+            f"the host backs this machine's memory lazily, and every figure varies with it)"
+        )
+    return text
 
 
 def run_child(args: list[str], label: str) -> dict | None:
