@@ -250,3 +250,24 @@ def test_long_rows_without_a_tag_are_reported_not_dropped(tmp_path):
     message = problems[str(tmp_path / "long" / "l.csv")]
     assert "2 row(s) without a tag name in column 'tag' (first at data row 241)" in message
     assert "P1" in set(r.summary["pump_id"])
+
+
+def test_parquet_duplicate_after_blank_cells_names_the_files_rows(tmp_path):
+    # the wide Parquet reader keeps only where the rows it drops are (blank cells); the row of
+    # a duplicate instant is found from them, and must be the file's row, not the position
+    # among the kept samples
+    path = make_plant(tmp_path, wide={})
+    frame = steady_frame()
+    frame = frame.assign(timestamp=pd.to_datetime(frame["timestamp"]).dt.tz_localize("UTC"))
+    frame = pd.concat([frame.iloc[:11], frame.iloc[[10]], frame.iloc[11:]], ignore_index=True)
+    frame.loc[[2, 3, 7], "P1.PS"] = np.nan  # three blank cells before the duplicate
+    frame.to_parquet(tmp_path / "exports" / "a.parquet")
+    (tmp_path / "plant.toml").write_text(
+        (tmp_path / "plant.toml").read_text().replace('"exports/*.csv"', '"exports/*.parquet"')
+    )
+    r = screening.scan(path)
+    q = r.quality.set_index("role").loc["suction"]
+    assert q["duplicates"] == 1
+    a = tmp_path / "exports" / "a.parquet"
+    # rows numbered from 0 as the Parquet reader numbers them: 10:00 at rows 10 and 11
+    assert f"duplicate time: {a} row 10, again at {a} row 11" in q["first_problem"]

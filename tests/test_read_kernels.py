@@ -22,7 +22,14 @@ from screening.base.read_kernels import (
     wide_column_numpy,
 )
 from screening.inputs.quality import frozen_samples, gap_stretches
-from screening.inputs.tagdata import TagQuality, add_chunk, add_numbers, placed_in_order
+from screening.inputs.tagdata import (
+    TagQuality,
+    add_chunk,
+    add_numbers,
+    chunk_rows,
+    kept_row,
+    placed_in_order,
+)
 
 # a few distinct numbers so that runs of equal values and zeros are common
 cells = st.sampled_from([np.nan, np.inf, -np.inf, 0.0, -0.0, 1.5, 2.0, 1e308])
@@ -75,7 +82,12 @@ def test_add_numbers_counts_as_the_general_path(column):
                 np.testing.assert_array_equal(a, b)
                 assert a.dtype == b.dtype
             assert got[3][0] == exp[3][0]
-            np.testing.assert_array_equal(got[3][1], exp[3][1])
+            rows = chunk_rows(got[3])
+            np.testing.assert_array_equal(rows, chunk_rows(exp[3]))
+            # each sample's row found alone, as a message finds it
+            if len(got[3]) == 3 and len(rows):
+                for at in {0, len(rows) // 2, len(rows) - 1}:
+                    assert kept_row(got[3][1], got[3][2], at) == rows[at]
 
 
 @settings(max_examples=300, deadline=None)
@@ -98,8 +110,8 @@ def test_a_column_read_whole_shares_the_files_arrays():
     raw = np.array([1.0, np.inf, 2.0, 3.0])
     chunks, quality = {"T": []}, {"T": TagQuality("T")}
     add_numbers("T", "f.parquet", raw, times, np.ones(4, bool), rows, chunks, quality, None, True)
-    t, v, bad, (where, r) = chunks["T"][0]
-    assert t is times and v is raw and r is rows
+    t, v, bad, (where, r, skipped) = chunks["T"][0]
+    assert t is times and v is raw and r is rows and len(skipped) == 0
     np.testing.assert_array_equal(bad, [False, True, False, False])
     assert quality["T"].first_problem == {"missing or infinite value": "f.parquet row 1"}
 

@@ -30,10 +30,12 @@ def wide_column_numpy(times, ok, raw, rows, lo, hi, use_span, ordered=False):
     ``ordered``: the placed times of the file strictly increase (a shortcut of the compiled
     form; the result is the same).
 
-    Returns ``(kept, all_kept, t, v, r, bad, counts)``: how many samples have a time, whether
-    those are every row (then ``t``, ``v`` and ``r`` are empty and the caller uses the
-    inputs as they are), the kept samples' times [ns], values and rows, which of them are
-    infinite (``bad``), and ``counts`` = (bad times, the row of the first, infinite values,
+    Returns ``(kept, all_kept, t, v, skipped, bad, counts)``: how many samples have a time,
+    whether those are every row (then ``t``, ``v`` and ``skipped`` are empty and the caller
+    uses the inputs as they are), the kept samples' times [ns] and values, the positions in
+    the inputs of the rows not kept (a kept sample's row is found from them when a message
+    needs it, :func:`screening.inputs.tagdata.kept_row`), which kept samples are infinite
+    (``bad``), and ``counts`` = (bad times, the row of the first, infinite values,
     the row of the first, steps back in time, the row of the first later sample, samples
     without a time or in the span, 1 when the kept times strictly increase), a row being -1
     where there is none.
@@ -65,7 +67,7 @@ def wide_column_numpy(times, ok, raw, rows, lo, hi, use_span, ordered=False):
     if len(idx) == n:
         empty = np.zeros(0, dtype=np.int64)
         return n, True, empty, np.zeros(0), empty, bad, counts
-    return len(idx), False, t, v, r, bad, counts
+    return len(idx), False, t, v, np.flatnonzero(~timed), bad, counts
 
 
 def _wide_column_loop(times, ok, raw, rows, lo, hi, use_span, ordered):  # pragma: no cover
@@ -118,22 +120,25 @@ def _wide_column_loop(times, ok, raw, rows, lo, hi, use_span, ordered):  # pragm
     m = 0 if all_kept else kept
     t_out = np.empty(m + 1, np.int64)
     v_out = np.empty(m + 1)
-    r_out = np.empty(m + 1, np.int64)
+    s_out = np.empty(n - kept + 1, np.int64)
     bad = np.zeros(kept + 1, np.bool_)
     if all_kept:
         for i in range(n if infinite else 0):
             bad[i] = (raw[i] - raw[i]) != 0
     else:
         j = np.uint64(0)  # unsigned: no check for an index from the end
+        sk = np.uint64(0)
         for i in range(n):
             x = raw[i]
             t = times[i]
             t_out[j] = t
             v_out[j] = x
-            r_out[j] = rows[i]
             if infinite:
                 bad[j] = (x - x) != 0
-            j += np.uint64((x == x) & ok[i] & ((not use_span) | ((t >= lo) & (t < hi))))
+            keep = (x == x) & ok[i] & ((not use_span) | ((t >= lo) & (t < hi)))
+            s_out[sk] = i  # a row kept is overwritten by the next row not kept
+            j += np.uint64(keep)
+            sk += np.uint64(not keep)
     counts = np.empty(8, np.int64)
     counts[0] = bad_times
     counts[1] = first_bad_time
@@ -143,7 +148,8 @@ def _wide_column_loop(times, ok, raw, rows, lo, hi, use_span, ordered):  # pragm
     counts[5] = first_back
     counts[6] = bad_times + kept
     counts[7] = increasing
-    return kept, all_kept, t_out[:m], v_out[:m], r_out[:m], bad[:kept], counts
+    skipped = s_out[: 0 if all_kept else n - kept]
+    return kept, all_kept, t_out[:m], v_out[:m], skipped, bad[:kept], counts
 
 
 # ------------------------------------------------------- overflow and frozen transmitters

@@ -154,7 +154,7 @@ def add_numbers(tag, path, raw, times, ok, rows, chunks, quality, span=None, ord
     steps back in time) as :func:`add_chunk`; when every row is kept the chunk holds the
     times and rows given (shared by the file's tags: never written to)."""
     lo, hi = span if span is not None else (0, 0)
-    kept, all_kept, t, v, r, bad, c = wide_column(
+    kept, all_kept, t, v, skipped, bad, c = wide_column(
         times, ok, raw, rows, np.int64(lo), np.int64(hi), span is not None, ordered
     )
     if c[6] == 0:  # nothing sampled (in the span): as add_chunk, no chunk
@@ -172,8 +172,9 @@ def add_numbers(tag, path, raw, times, ok, rows, chunks, quality, span=None, ord
         q.note("out of order", where + str(c[5]))
     q.samples += int(kept)
     if all_kept:  # the file's arrays (the values writable, as a tag's own copy is)
-        t, v, r = times, raw if raw.flags.writeable else raw.copy(), rows
-    chunks[tag].append((t, v, bad, (where, r)))
+        t, v = times, raw if raw.flags.writeable else raw.copy()
+    # the file's rows (shared) and where those not kept are: a sample's row found when needed
+    chunks[tag].append((t, v, bad, (where, rows, skipped)))
 
 
 def placed_in_order(times: np.ndarray, ok: np.ndarray) -> bool:
@@ -278,14 +279,32 @@ def count_samples(
     return is_text | not_finite | malformed | bad_q
 
 
+def kept_row(rows: np.ndarray, skipped: np.ndarray, position: int):
+    """The row of the kept sample at ``position``: ``rows`` of every input row, ``skipped``
+    the sorted positions of the rows not kept (the kept ones are the others, in order)."""
+    keep = np.ones(len(rows), dtype=bool)
+    keep[skipped] = False
+    return rows[np.flatnonzero(keep)[position]]
+
+
+def chunk_rows(place: tuple) -> np.ndarray:
+    """The rows of a chunk's samples from its place (``(where, rows)``, or ``(where, rows,
+    skipped)`` from :func:`add_numbers`)."""
+    return place[1] if len(place) == 2 else np.delete(place[1], place[2])
+
+
 def _place(parts: list[tuple], position: int) -> str | None:
     """Where the sample at ``position`` of the concatenated chunks came from ("file line n"),
-    when the chunks carry their places (a 4th element ``(where, rows)``)."""
+    when the chunks carry their places (a 4th element ``(where, rows)``, or ``(where, rows,
+    skipped)`` from :func:`add_numbers`)."""
     for part in parts:
         n = len(part[0])
         if position < n:
             if len(part) < 4:
                 return None
+            if len(part[3]) == 3:
+                where, rows, skipped = part[3]
+                return where + str(kept_row(rows, skipped, position))
             where, rows = part[3]
             return where + str(rows[position])
         position -= n
