@@ -187,3 +187,59 @@ def test_piece_sums_match_the_numpy_form(random_state, with_speed):
     assert got[5:] == ref[5:]
     # every nanosecond of every day is in one state of each kind
     assert got[0].sum() == got[1].sum() == day_edges[-1] - grid[0]
+
+
+#: Own tags of pumps with a run status, with speed and no run status, and vessel-fed.
+ROLE_SETS = [
+    ("run", "flow", "suction", "temperature"),
+    ("flow", "speed", "suction", "temperature"),
+    ("run", "flow", "speed", "level", "vessel_pressure"),
+]
+
+
+@pytest.mark.parametrize("random_state", [21, 22, 23])
+@pytest.mark.parametrize("roles", ROLE_SETS)
+def test_folds_as_tags_are_held_equal_each_tags_own_folded(random_state, roles):
+    """The timeline folds the bad flags and fresh-until times of a pump's own tags while it
+    holds them (timeline.hold_roles); the definitions are lineflow.decide's (the deciding
+    tags) and the calculator's (flow and speed for the region, every own tag for a running
+    piece), each tag held alone (timeline.held_at). A tag may be missing from the exports."""
+    from types import SimpleNamespace
+
+    from screening.engine import lineflow
+    from screening.engine.timeline import OWN_ROLES, held_at, hold_roles
+    from screening.inputs.pumpspec import TagSpec
+    from screening.inputs.tagdata import TagQuality, TagSeries
+
+    rng = np.random.default_rng(random_state)  # fixed random state
+    grid = np.unique(rng.integers(0, 10**6, 3000))
+    # each tag's stale limit [s]: the plant's default (None) or its own
+    specs = {r: TagSpec(r, "-", "any", [None, 50e-6, 5e-3][rng.integers(3)]) for r in roles}
+    tags = {}
+    for r in roles:
+        t = np.unique(rng.integers(-1000, 10**6, rng.integers(0, 2000)))
+        tags[r] = TagSeries(r, t, rng.normal(size=len(t)), rng.random(len(t)) < 0.1,
+                            TagQuality(r))  # fmt: skip
+    tags[roles[-1]] = None  # no samples of this tag in the exports
+    pump = SimpleNamespace(**{r: specs.get(r) for r in OWN_ROLES}, header_flow=None,
+                           peer_tags=dict)  # fmt: skip
+    held, folds = hold_roles(pump, tags, grid, 1e-4)
+    alone = held_at(pump, tags, grid, 1e-4)
+    assert list(held) == list(alone)
+    for r in held:
+        np.testing.assert_array_equal(held[r].value, alone[r].value)
+        np.testing.assert_array_equal(held[r].bad, alone[r].bad)
+        np.testing.assert_array_equal(held[r].until, alone[r].until)
+    _, d_bad, d_until = lineflow.decide(alone.get("run"), alone["flow"], alone.get("speed"),
+                                        1.0, 1.0, 0.1, 0.1)  # fmt: skip
+    r_bad, r_until, a_bad, a_until = d_bad, d_until, d_bad, d_until
+    for r in ("flow", "speed"):
+        if r in alone:
+            r_bad, r_until = r_bad | alone[r].bad, np.minimum(r_until, alone[r].until)
+    for r in OWN_ROLES:
+        if r in alone:
+            a_bad, a_until = a_bad | alone[r].bad, np.minimum(a_until, alone[r].until)
+    for got, want in ((folds.decide_bad, d_bad), (folds.decide_until, d_until),
+                      (folds.region_bad, r_bad), (folds.region_until, r_until),
+                      (folds.all_bad, a_bad), (folds.all_until, a_until)):  # fmt: skip
+        np.testing.assert_array_equal(got, want)

@@ -96,3 +96,33 @@ def test_bucket_min_max_matches_numpy():
         bucket_min_max(values, starts), bucket_min_max_numpy(values, starts), strict=True
     ):
         np.testing.assert_array_equal(a, b)
+
+
+@settings(max_examples=200, deadline=None)
+@given(times=sorted_unique, grid=sorted_any, stale=st.integers(0, 10**9), into=st.booleans(),
+       inplace=st.booleans())  # fmt: skip
+def test_hold_fold_matches_numpy(times, grid, stale, into, inplace):
+    from screening.base.kernels import hold_fold, hold_fold_numpy, hold_numpy
+
+    rng = np.random.default_rng(len(times) + 3 * len(grid))  # fixed random state per case
+    values = rng.normal(size=len(times))
+    bad = rng.random(len(times)) < 0.3
+    never = np.int64(-(2**60))
+    n = len(grid) if into else 0
+    in_bad = rng.random(n) < 0.2
+    in_until = rng.integers(-(10**9), 10**9, n)
+    expected = hold_fold_numpy(times, values, bad, grid, stale, never, in_bad, in_until, False)
+    got = hold_fold(times, values, bad, grid, np.int64(stale), never, in_bad.copy(),
+                    in_until.copy(), inplace)  # fmt: skip
+    for a, b in zip(got, expected, strict=True):
+        np.testing.assert_array_equal(a, b)
+    # the tag's own flags are hold's; folded into nothing, the fold is the tag's own
+    own = hold_numpy(times, values, bad, grid, stale, never)
+    np.testing.assert_array_equal(got[1], own[1])
+    if not into:
+        np.testing.assert_array_equal(got[3], own[2])
+    # in place (the compiled form): the arrays folded into are the ones returned
+    if into and inplace and n and hold_fold is not hold_fold_numpy:
+        flags, until = in_bad.copy(), in_until.copy()
+        out = hold_fold(times, values, bad, grid, np.int64(stale), never, flags, until, True)
+        assert np.shares_memory(out[2], flags) and np.shares_memory(out[3], until)

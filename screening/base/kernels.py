@@ -61,19 +61,22 @@ def _hold_loop(times, values, bad, grid, stale_ns, never):  # pragma: no cover -
 def hold_fold_numpy(times, values, bad, grid, stale_ns, never, in_bad, in_until, inplace):
     """A tag held at each grid point (:func:`hold_numpy`), its bad flags or-ed into ``in_bad``
     and its fresh-until times [ns] min-ed into ``in_until`` (empty: nothing to fold into);
-    returns (value, bad, until) (numpy form; ``inplace`` is ignored, the result is new)."""
+    returns (value, the tag's own bad flags, the folded bad flags, the folded fresh-until
+    times) (numpy form; ``inplace`` is ignored, the result is new)."""
     value, flag, until = hold_numpy(times, values, bad, grid, stale_ns, never)
     if len(in_bad):
-        flag, until = flag | in_bad, np.minimum(until, in_until)
-    return value, flag, until
+        return value, flag, flag | in_bad, np.minimum(until, in_until)
+    return value, flag, flag.copy(), until
 
 
 def _hold_fold_loop(times, values, bad, grid, stale_ns, never, in_bad, in_until, inplace):
-    """A tag held at each grid point, folded into the bad flags and fresh-until times of the
-    tags before it in one pass (into those arrays themselves when ``inplace``)."""
+    """A tag held at each grid point with its own bad flags, folded into the bad flags and
+    fresh-until times of the tags before it in one pass (into those arrays themselves when
+    ``inplace``)."""
     n = grid.shape[0]
     m = times.shape[0]
     value = np.empty(n)
+    own = np.empty(n, np.bool_)
     fold = in_bad.shape[0] > 0
     if fold and inplace:
         flag = in_bad
@@ -94,12 +97,13 @@ def _hold_fold_loop(times, values, bad, grid, stale_ns, never, in_bad, in_until,
             value[i] = values[k]
             b = bad[k]
             u = times[k] + stale_ns
+        own[i] = b
         if fold:
             b = b or in_bad[i]
             u = min(u, in_until[i])
         flag[i] = b
         until[i] = u
-    return value, flag, until
+    return value, own, flag, until
 
 
 def union_sorted_numpy(a: np.ndarray, b: np.ndarray) -> np.ndarray:

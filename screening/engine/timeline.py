@@ -40,12 +40,13 @@ class Held:
     """A tag's last sample at each grid point [ns], with the time until which it stays fresh
     [ns] (step reconstruction).
 
-    Built with ``value`` (from :func:`hold_roles`, which folds the bad flags and fresh-until
-    times of a pump's tags without keeping each tag's own), ``bad`` and ``until`` are found
-    when first asked for."""
+    Built with ``value`` and ``bad`` (from :func:`hold_roles`, which folds the fresh-until
+    times of a pump's tags without keeping each tag's own), ``until`` is found when first
+    asked for."""
 
-    def __init__(self, s: TagSeries | None, grid: np.ndarray, stale_ns: int, value=None):
-        self._bad: np.ndarray | None = None
+    def __init__(self, s: TagSeries | None, grid: np.ndarray, stale_ns: int, value=None,
+                 bad=None):  # fmt: skip
+        self._bad: np.ndarray | None = bad
         self._until: np.ndarray | None = None
         self._source = (s, grid, stale_ns)
         if value is not None:
@@ -224,8 +225,9 @@ def hold_roles(pump, tags, grid: np.ndarray, stale_limit: float) -> tuple[dict[s
             t, v, b = (empty_t, np.empty(0), empty_b) if s is None else (s.times, s.values, s.bad)
             # the first tag of a group folds into a new pair of arrays (the group before it
             # keeps its own), the rest into that pair
-            value, bad, until = hold_fold(t, v, b, grid, stale, np.int64(NEVER), bad, until, i > 0)
-            held[r] = Held(s, grid, int(stale), value)
+            value, own, bad, until = hold_fold(t, v, b, grid, stale, np.int64(NEVER), bad, until,
+                                               i > 0)  # fmt: skip
+            held[r] = Held(s, grid, int(stale), value, own)
         folds += [bad, until]
     for r, spec in roles.items():
         if r not in held:
