@@ -116,6 +116,8 @@ def test_hold_fold_matches_numpy(times, grid, stale, into, inplace):
                     in_until.copy(), inplace)  # fmt: skip
     for a, b in zip(got, expected, strict=True):
         np.testing.assert_array_equal(a, b)
+    # a later tag folds into the folded flags in place: they must not be the tag's own
+    assert not np.shares_memory(got[1], got[2])
     # the tag's own flags are hold's; folded into nothing, the fold is the tag's own
     own = hold_numpy(times, values, bad, grid, stale, never)
     np.testing.assert_array_equal(got[1], own[1])

@@ -35,29 +35,6 @@ def hold_numpy(times, values, bad, grid, stale_ns, never):
     return value, flag, until
 
 
-def _hold_loop(times, values, bad, grid, stale_ns, never):  # pragma: no cover - compiled
-    """Each tag's last sample at each grid point: (value, bad, fresh-until), one merge pass."""
-    n = grid.shape[0]
-    m = times.shape[0]
-    value = np.empty(n)
-    flag = np.empty(n, np.bool_)
-    until = np.empty(n, np.int64)
-    k = -1
-    for i in range(n):
-        g = grid[i]
-        while k + 1 < m and times[k + 1] <= g:
-            k += 1
-        if k < 0:
-            value[i] = np.nan
-            flag[i] = False
-            until[i] = never
-        else:
-            value[i] = values[k]
-            flag[i] = bad[k]
-            until[i] = times[k] + stale_ns
-    return value, flag, until
-
-
 def hold_fold_numpy(times, values, bad, grid, stale_ns, never, in_bad, in_until, inplace):
     """A tag held at each grid point (:func:`hold_numpy`), its bad flags or-ed into ``in_bad``
     and its fresh-until times [ns] min-ed into ``in_until`` (empty: nothing to fold into);
@@ -81,7 +58,7 @@ def _hold_fold_loop(times, values, bad, grid, stale_ns, never, in_bad, in_until,
     if fold and inplace:
         flag = in_bad
         until = in_until
-    else:
+    else:  # new arrays (a later tag may fold into them in place: never the tag's own)
         flag = np.empty(n, np.bool_)
         until = np.empty(n, np.int64)
     k = -1
@@ -270,8 +247,20 @@ def compile_kernel(func, fallback):
         return numba.njit(nogil=True, error_model="numpy")(func)
 
 
-hold = compile_kernel(_hold_loop, hold_numpy)
 hold_fold = compile_kernel(_hold_fold_loop, hold_fold_numpy)
+_NO_FLAGS = np.empty(0, dtype=np.bool_)
+_NO_TIMES = np.empty(0, dtype=np.int64)
+
+
+def hold(times, values, bad, grid, stale_ns, never):
+    """Each tag's last sample at each grid point [ns]: (value, bad, fresh-until [ns]), one
+    merge pass (:func:`hold_fold` folding into nothing; the definition is
+    :func:`hold_numpy`)."""
+    value, own, _, until = hold_fold(times, values, bad, grid, stale_ns, never, _NO_FLAGS,
+                                     _NO_TIMES, False)  # fmt: skip
+    return value, own, until
+
+
 union_sorted = compile_kernel(_union_sorted_loop, union_sorted_numpy)
 pchip_eval = compile_kernel(_pchip_eval_loop, pchip_eval_numpy)
 table_eval = compile_kernel(_table_eval_loop, table_eval_numpy)
