@@ -152,8 +152,9 @@ def table_eval_numpy(t, t_min, t_max, step, ln_pv, rho):
     return np.where(ok, pv, np.nan), np.where(ok, r, np.nan)
 
 
-#: Entries of the table look-up's cache of recent temperatures (a power of two).
-_CACHE = 1024
+#: The table look-up's cache of temperatures met: 2**_CACHE_BITS entries.
+_CACHE_BITS = 10
+_CACHE = 1 << _CACHE_BITS
 
 
 def _table_eval_loop(t, t_min, t_max, step, ln_pv, rho):  # pragma: no cover - compiled
@@ -161,9 +162,9 @@ def _table_eval_loop(t, t_min, t_max, step, ln_pv, rho):  # pragma: no cover - c
 
     Historian temperatures are stored to a resolution (0.01 or 0.1 of a degree), so a month
     of one-minute samples holds a few thousand distinct values. Each value's properties are
-    kept in a small cache keyed by its exact bits (direct-mapped, a multiplicative hash,
-    Knuth, *The Art of Computer Programming* vol. 3 §6.4): a value met before gets the
-    properties computed for it then, the same bits, without a second ``exp``."""
+    kept in a small cache keyed by its exact bits (direct-mapped, a multiplicative hash:
+    Knuth, *The Art of Computer Programming* vol. 3 §6.4, from memory): a value met before
+    gets the properties computed for it then, the same bits, without a second ``exp``."""
     n = t.shape[0]
     last = rho.shape[0] - 1
     pv = np.empty(n)
@@ -175,7 +176,9 @@ def _table_eval_loop(t, t_min, t_max, step, ln_pv, rho):  # pragma: no cover - c
     c_r = np.empty(_CACHE)
     for m in range(n):
         b = bits[m]
-        h = ((b ^ (b >> np.uint64(29))) * np.uint64(0x9E3779B97F4A7C15)) >> np.uint64(54)
+        h = ((b ^ (b >> np.uint64(29))) * np.uint64(0x9E3779B97F4A7C15)) >> np.uint64(
+            64 - _CACHE_BITS
+        )
         if have[h] and keys[h] == b:
             pv[m] = c_pv[h]
             r[m] = c_r[h]

@@ -213,21 +213,21 @@ def hold_roles(pump, tags, grid: np.ndarray, stale_limit: float) -> tuple[dict[s
     roles = pump_roles(pump)
     deciding = ["run"] if "run" in roles else [r for r in ("flow", "speed") if r in roles]
     region = [r for r in ("flow", "speed") if r in roles and r not in deciding]
-    own = [r for r in OWN_ROLES if r in roles and r not in deciding and r not in region]
+    rest = [r for r in OWN_ROLES if r in roles and r not in deciding and r not in region]
     empty_t, empty_b = np.empty(0, dtype=np.int64), np.empty(0, dtype=np.bool_)
     held: dict[str, Held] = {}
     bad, until = empty_b, empty_t
     folds = []
-    for group in (deciding, region, own):
+    for group in (deciding, region, rest):
         for i, r in enumerate(group):
             s = tags.get(r)
             stale = np.int64(stale_ns_of(roles[r], stale_limit))
             t, v, b = (empty_t, np.empty(0), empty_b) if s is None else (s.times, s.values, s.bad)
             # the first tag of a group folds into a new pair of arrays (the group before it
             # keeps its own), the rest into that pair
-            value, own, bad, until = hold_fold(t, v, b, grid, stale, np.int64(NEVER), bad, until,
-                                               i > 0)  # fmt: skip
-            held[r] = Held(s, grid, int(stale), value, own)
+            value, own_bad, bad, until = hold_fold(t, v, b, grid, stale, np.int64(NEVER), bad,
+                                                   until, i > 0)  # fmt: skip
+            held[r] = Held(s, grid, int(stale), value, own_bad)
         folds += [bad, until]
     for r, spec in roles.items():
         if r not in held:
