@@ -34,9 +34,14 @@ def _not_in_loop(a, b):  # pragma: no cover - compiled
     na = a.shape[0]
     for i in range(b.shape[0]):
         v = b[i]
+        if j < na and a[j] == v:  # the usual case: the next instant of a (half the work)
+            j += 1
+            continue
         while j < na and a[j] < v:
             j += 1
-        if j >= na or a[j] != v:
+        if j < na and a[j] == v:
+            j += 1
+        else:
             out[n] = v
             n += 1
     return out[:n]

