@@ -26,8 +26,8 @@ lint: $(STAMP)
 
 # The scan benchmark at full size (500 pumps x 30 days of one-minute data): every measure run
 # three times, median and least printed with the machine and its load (docs/scale.md). Takes
-# about 2 minutes (97-126 s on the project's shared 2-core machine, 2026-12-03; most of it the
-# naive CoolProp loop and the command line), and 10 s more the first time (it builds the
+# about 2 minutes (86-113 s on the project's shared 2-core machine, 2026-12-03 afternoon; most
+# of it the naive CoolProp loop and the command line), and 10 s more the first time (it builds the
 # synthetic plant under benchmarks/_data/). `--repeat 1` for a third of that.
 bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_scan.py
@@ -37,7 +37,7 @@ clean-venv:
 
 # One-second data (docs/scale.md, "One-second data"): 50 pumps x 30 days at 1 s on 2 cores, a
 # pump-year through scan and onset within 1 GB, chunked tables against one piece; three runs
-# of each. Takes about 6 minutes, and about 1.5 minutes and 1.3 GB of disk more the first time
+# of each. Takes 3-6 minutes (3 min 15 s on 2026-12-03), and about 1.5 minutes and 1.3 GB of disk more the first time
 # (it builds the plants under benchmarks/_data/). `--runs 1` for a third of that.
 bench-seconds: $(STAMP)
 	$(BIN)/python benchmarks/bench_seconds.py
