@@ -207,7 +207,7 @@ def test_folds_as_tags_are_held_equal_each_tags_own_folded(random_state, roles):
     from types import SimpleNamespace
 
     from screening.engine import lineflow
-    from screening.engine.timeline import OWN_ROLES, held_at, hold_roles
+    from screening.engine.timeline import OWN_ROLES, folds_of, held_at, hold_roles
     from screening.inputs.pumpspec import TagSpec
     from screening.inputs.tagdata import TagQuality, TagSeries
 
@@ -239,7 +239,9 @@ def test_folds_as_tags_are_held_equal_each_tags_own_folded(random_state, roles):
     for r in OWN_ROLES:
         if r in alone:
             a_bad, a_until = a_bad | alone[r].bad, np.minimum(a_until, alone[r].until)
-    for got, want in ((folds.decide_bad, d_bad), (folds.decide_until, d_until),
-                      (folds.region_bad, r_bad), (folds.region_until, r_until),
-                      (folds.all_bad, a_bad), (folds.all_until, a_until)):  # fmt: skip
-        np.testing.assert_array_equal(got, want)
+    # as folded while holding, and from tags each held alone (a timeline drawn by lines)
+    for f in (folds, folds_of(alone)):
+        for got, want in ((f.decide_bad, d_bad), (f.decide_until, d_until),
+                          (f.region_bad, r_bad), (f.region_until, r_until),
+                          (f.all_bad, a_bad), (f.all_until, a_until)):  # fmt: skip
+            np.testing.assert_array_equal(got, want)

@@ -115,6 +115,7 @@ def _write(folder, chunks):
     keep &= ~between("2026-10-24 23:20", "2026-10-24 23:59:50")
     ps[rng.random(n) < 0.001] = np.nan  # missing values
     tt[rng.random(n) < 0.0005] = 500.0  # impossible? no: counted as a reading
+    ps[[5_000, 30_000, 30_001]] = 1e306  # kPa: finite, but too large to convert to SI
     (folder / "wide").mkdir(parents=True)
     wide = pa.table({
         "timestamp": pa.array(t[keep].as_unit("ns"), pa.timestamp("ns", tz="UTC")),
@@ -205,6 +206,7 @@ def test_chunked_tables_equal_whole(plants, which):
     q = whole.quality.set_index(["pump_id", "role"])
     assert q.loc[("P1", "suction"), "frozen"] > 0
     assert q.loc[("P1", "suction"), "gaps"] > 0
+    assert q.loc[("P1", "suction"), "not_finite"] == 3  # the readings too large for SI
     assert q.loc[("P2", "suction"), "duplicates"] > 0
     assert q.loc[("P2", "suction"), "text_values"] > 0
     assert whole.quality["out_of_order"].sum() > 0

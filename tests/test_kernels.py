@@ -25,15 +25,6 @@ def test_grid_points_equal_to_samples_take_that_sample():
     np.testing.assert_array_equal(until, [-1, 15, 15, 25, 35, 35])
 
 
-@settings(max_examples=200, deadline=None)
-@given(a=sorted_unique, b=sorted_unique)
-def test_union_sorted_matches_numpy(a, b):
-    from screening.base.kernels import union_sorted, union_sorted_numpy
-
-    np.testing.assert_array_equal(union_sorted(a, b), union_sorted_numpy(a, b))
-    np.testing.assert_array_equal(union_sorted(a, b), np.union1d(a, b))
-
-
 @settings(max_examples=100, deadline=None)
 @given(
     q=st.lists(st.one_of(st.floats(-1.0, 12.0), st.just(np.nan)), min_size=1, max_size=100),

@@ -27,7 +27,6 @@ from screening.inputs.tagdata import (
     add_chunk,
     add_numbers,
     chunk_rows,
-    kept_row,
     placed_in_order,
 )
 
@@ -82,12 +81,7 @@ def test_add_numbers_counts_as_the_general_path(column):
                 np.testing.assert_array_equal(a, b)
                 assert a.dtype == b.dtype
             assert got[3][0] == exp[3][0]
-            rows = chunk_rows(got[3])
-            np.testing.assert_array_equal(rows, chunk_rows(exp[3]))
-            # each sample's row found alone, as a message finds it
-            if len(got[3]) == 3 and len(rows):
-                for at in {0, len(rows) // 2, len(rows) - 1}:
-                    assert kept_row(got[3][1], got[3][2], at) == rows[at]
+            np.testing.assert_array_equal(chunk_rows(got[3]), chunk_rows(exp[3]))
 
 
 @settings(max_examples=300, deadline=None)

@@ -88,31 +88,6 @@ def _hold_fold_loop(times, values, bad, grid, stale_ns, never, in_bad, in_until,
     return value, own, flag, until
 
 
-def union_sorted_numpy(a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """Sorted unique union of two sorted int64 arrays (numpy form)."""
-    grid = np.sort(np.concatenate((a, b)), kind="stable")
-    return grid[np.concatenate(([True], grid[1:] != grid[:-1]))] if len(grid) else grid
-
-
-def _union_sorted_loop(a, b):  # pragma: no cover - compiled
-    """Sorted unique union of two sorted int64 arrays in one merge pass."""
-    out = np.empty(a.shape[0] + b.shape[0], np.int64)
-    i = 0
-    j = 0
-    n = 0
-    while i < a.shape[0] or j < b.shape[0]:
-        if j >= b.shape[0] or (i < a.shape[0] and a[i] <= b[j]):
-            v = a[i]
-            i += 1
-        else:
-            v = b[j]
-            j += 1
-        if n == 0 or out[n - 1] != v:
-            out[n] = v
-            n += 1
-    return out[:n]
-
-
 def pchip_eval_numpy(x_nodes, coef, q):
     """Evaluate a piecewise cubic (scipy PPoly layout: coef[4, k]) at ``q``; NaN outside."""
     inside = (q >= x_nodes[0]) & (q <= x_nodes[-1])
@@ -269,7 +244,6 @@ def hold(times, values, bad, grid, stale_ns, never):
     return value, own, until
 
 
-union_sorted = compile_kernel(_union_sorted_loop, union_sorted_numpy)
 pchip_eval = compile_kernel(_pchip_eval_loop, pchip_eval_numpy)
 table_eval = compile_kernel(_table_eval_loop, table_eval_numpy)
 bucket_min_max = compile_kernel(_bucket_min_max_loop, bucket_min_max_numpy)
@@ -286,7 +260,6 @@ def _warm_up() -> None:
     hold(t, np.zeros(2), no, t, 1, -1)
     for into in (no[:0], no):
         hold_fold(t, np.zeros(2), no, t, 1, -1, into, t[: len(into)], False)
-    union_sorted(t, t)
     x = np.array([0.0, 1.0])
     pchip_eval(x, np.zeros((4, 1)), x)
     table_eval(x, 0.0, 1.0, 1.0, x, x)

@@ -34,7 +34,7 @@ def wide_column_numpy(times, ok, raw, rows, lo, hi, use_span, ordered=False):
     whether those are every row (then ``t``, ``v`` and ``skipped`` are empty and the caller
     uses the inputs as they are), the kept samples' times [ns] and values, the positions in
     the inputs of the rows not kept (a kept sample's row is found from them when a message
-    needs it, :func:`screening.inputs.tagdata.kept_row`), which kept samples are infinite
+    needs it, :func:`screening.inputs.tagdata.chunk_rows`), which kept samples are infinite
     (``bad``), and ``counts`` = (bad times, the row of the first, infinite values,
     the row of the first, steps back in time, the row of the first later sample, samples
     without a time or in the span, 1 when the kept times strictly increase), a row being -1

@@ -28,12 +28,12 @@ from screening.base.calc_kernels import (
 from screening.engine import field_head, lineflow, plotdata, severity
 from screening.engine.timeline import (
     NEVER,
-    OWN_ROLES,
     Held,
     Timeline,
     align,
     any_linear,
     crossings,
+    folds_of,
     held_at,
 )
 from screening.inputs.register import PumpSpec
@@ -190,8 +190,7 @@ def calculate_pump(
     run = _decide_running(pump, timeline, settings)
     phys = _evaluate(pump, curve, table, timeline, barometer, settings, run)
     code, until, all_bad = _classify_margin(phys, run, guidance, settings)
-    rcode, r_until = _classify_region(pump, curve, timeline.held, phys, run, settings,
-                                      timeline.folds)  # fmt: skip
+    rcode, r_until = _classify_region(pump, curve, timeline.folds, phys, run, settings)
     if settings.settle_after_start > 0:
         _mark_starting(timeline.grid, run, code, rcode, int(settings.settle_after_start * 1e9))
     # the pieces' right ends (just before the next piece) where inputs are drawn by lines
@@ -210,7 +209,8 @@ def calculate_pump(
 def _probe(pump, curve, table, tags, barometer, settings, times: np.ndarray):
     """The running decision and the physics at sorted instants ``times`` [ns], every tag
     held or drawn as on the timeline."""
-    tl = Timeline(times, times, held_at(pump, tags, times, settings.stale_limit))
+    held = held_at(pump, tags, times, settings.stale_limit)
+    tl = Timeline(times, times, held, folds_of(held))
     run = _decide_running(pump, tl, settings)
     return tl, run, _evaluate(pump, curve, table, tl, barometer, settings, run)
 
@@ -220,7 +220,7 @@ def _codes_at(pump, curve, guidance, settings, probe, times: np.ndarray) -> np.n
     region) whose changes are the cuts of :func:`screening.engine.timeline.crossings`."""
     tl, run, phys = probe(times)
     code, _, _ = _classify_margin(phys, run, guidance, settings)
-    rcode, _ = _classify_region(pump, curve, tl.held, phys, run, settings)
+    rcode, _ = _classify_region(pump, curve, tl.folds, phys, run, settings)
     return code.astype(np.int64) * 16 + rcode
 
 
@@ -305,20 +305,12 @@ def _decide_running(pump: PumpSpec, timeline: Timeline, settings: Settings) -> _
     fractions of BEP flow and rated speed. A running piece needs all the pump's own tags, and
     on a shared suction line the line's total flow (:mod:`screening.engine.lineflow`)."""
     held, folds = timeline.held, timeline.folds
-    args = (held.get("run"), held["flow"], held.get("speed"), pump.bep_flow, pump.rated_speed,
-            settings.min_flow_fraction, settings.min_speed_fraction)  # fmt: skip
-    if folds is not None:  # folded as the tags were held (timeline.hold_roles)
-        running = lineflow.is_running(*args)
-        decide_bad, decide_until = folds.decide_bad, folds.decide_until
-        all_bad, all_until = folds.all_bad, folds.all_until
-    else:
-        running, decide_bad, decide_until = lineflow.decide(*args)
-        all_bad = decide_bad.copy()
-        all_until = decide_until.copy()
-        for r in OWN_ROLES:
-            if r in held:
-                all_bad |= held[r].bad
-                all_until = np.minimum(all_until, held[r].until)
+    running = lineflow.is_running(
+        held.get("run"), held["flow"], held.get("speed"), pump.bep_flow, pump.rated_speed,
+        settings.min_flow_fraction, settings.min_speed_fraction,
+    )  # fmt: skip
+    decide_bad, decide_until = folds.decide_bad, folds.decide_until
+    all_bad, all_until = folds.all_bad, folds.all_until
     line_q = None
     if pump.shared_line is not None:
         line_q, bad, until = lineflow.line_flow(
@@ -393,27 +385,19 @@ def _classify_margin(phys: _Physics, run: _Running, guidance: Guidance, settings
     )  # fmt: skip
 
 
-def _classify_region(pump, curve, held, phys: _Physics, run: _Running, settings: Settings,
-                     folds=None):  # fmt: skip
+def _classify_region(pump, curve, folds, phys: _Physics, run: _Running, settings: Settings):
     """The operating region of each piece (flow [m³/s] against the region edges at the running
     speed, :func:`screening.physics.regions.operating_region`) and the time until which it
-    holds [ns]: needs only the run decision, flow and speed. One compiled pass
+    holds [ns]: needs only the run decision, flow and speed (``folds``: the timeline's, whose
+    region flags are those of the deciding tags, flow and speed). One compiled pass
     (:func:`screening.base.calc_kernels.region_codes`)."""
     edges = pump_region_edges(pump, curve.flow_max, phys.speed, settings.min_stable_flow_fraction)
     n = len(phys.flow)
-    if folds is not None:  # folded as the tags were held (timeline.hold_roles)
-        r_bad, r_until = folds.region_bad, folds.region_until
-    else:
-        r_bad, r_until = run.decide_bad, run.decide_until
-        for r in ("flow", "speed"):
-            if r in held:
-                r_bad = r_bad | held[r].bad
-                r_until = np.minimum(r_until, held[r].until)
     return region_codes(
-        phys.flow, tuple(_flat(e, n) for e in edges), run.running, run.decide_bad, r_bad,
-        r_until, run.decide_until, (regions.PREFERRED, regions.LOW_FLOW,
-        regions.BELOW_MIN_FLOW, regions.HIGH_FLOW, regions.BEYOND_ALLOWABLE, regions.BAD_DATA,
-        regions.STOPPED),
+        phys.flow, tuple(_flat(e, n) for e in edges), run.running, run.decide_bad,
+        folds.region_bad, folds.region_until, run.decide_until, (regions.PREFERRED,
+        regions.LOW_FLOW, regions.BELOW_MIN_FLOW, regions.HIGH_FLOW, regions.BEYOND_ALLOWABLE,
+        regions.BAD_DATA, regions.STOPPED),
     )  # fmt: skip
 
 

@@ -93,10 +93,9 @@ def _overflow_frozen(series: TagSeries, values, q, frozen_on: bool, limit: int) 
 def _overflow(series: TagSeries, values, q, mine) -> np.ndarray:
     """The bad flags with the samples that overflowed on conversion added, those in ``mine``
     counted into ``q``."""
-    bad = series.bad.copy()
-    overflow = ~np.isfinite(values) & ~bad
-    if overflow.any():
-        bad |= overflow
+    bad, counts = overflow_frozen(series.times, values, series.bad, np.int64(0), False)
+    if counts[0]:
+        overflow = bad & ~series.bad
         if overflow[mine].any():
             q.not_finite += int(overflow[mine].sum())
             t = series.times[mine][overflow[mine]][0]

@@ -123,8 +123,8 @@ def _daily(results, days, kind: str, names: list[str], get) -> pd.DataFrame:
     n_days, n_states = len(days), len(names)
     if not results:
         return pd.DataFrame(
-            {"pump_id": np.repeat([], 0), "kind": kind, "date": np.tile(np.repeat(days, 0), 0),
-             "state": np.tile(names, 0), "hours": []}
+            {"pump_id": np.array([]), "kind": kind, "date": days[:0],
+             "state": np.array(names)[:0], "hours": []}
         )  # fmt: skip
     n = len(results)
     # the text columns taken from their few distinct words: as pandas builds them from the

@@ -135,12 +135,12 @@ class Folds:
 @dataclass
 class Timeline:
     """The pump's pieces: their start times [ns], the next piece's start [ns], every tag
-    held on them and, where every tag is held in steps, their folds."""
+    held on them and the folds of the pump's own tags' flags (:class:`Folds`)."""
 
     grid: np.ndarray
     t_next: np.ndarray
     held: dict[str, Held]
-    folds: Folds | None = None
+    folds: Folds
 
 
 def stale_ns_of(spec, default: float) -> int:
@@ -188,7 +188,8 @@ def align(pump, tags, barometer, stale_limit: float, start_ns, end_ns, day_edges
     edges = merge_axes(np.unique(np.concatenate(parts)), list(axes.values()), end_ns)
     grid, t_next = edges[:-1], edges[1:]
     if any_linear(tags):
-        return Timeline(grid, t_next, held_at(pump, tags, grid, stale_limit))
+        held = held_at(pump, tags, grid, stale_limit)
+        return Timeline(grid, t_next, held, folds_of(held))
     return Timeline(grid, t_next, *hold_roles(pump, tags, grid, stale_limit))
 
 
@@ -211,14 +212,11 @@ def hold_roles(pump, tags, grid: np.ndarray, stale_limit: float) -> tuple[dict[s
     :func:`screening.engine.lineflow.decide` and the calculator define them). Each own tag's
     flags are folded into those of the tags before it as it is held, in one pass."""
     roles = pump_roles(pump)
-    deciding = ["run"] if "run" in roles else [r for r in ("flow", "speed") if r in roles]
-    region = [r for r in ("flow", "speed") if r in roles and r not in deciding]
-    rest = [r for r in OWN_ROLES if r in roles and r not in deciding and r not in region]
     empty_t, empty_b = np.empty(0, dtype=np.int64), np.empty(0, dtype=np.bool_)
     held: dict[str, Held] = {}
     bad, until = empty_b, empty_t
     folds = []
-    for group in (deciding, region, rest):
+    for group in fold_groups(roles):
         for i, r in enumerate(group):
             s = tags.get(r)
             stale = np.int64(stale_ns_of(roles[r], stale_limit))
@@ -233,6 +231,31 @@ def hold_roles(pump, tags, grid: np.ndarray, stale_limit: float) -> tuple[dict[s
         if r not in held:
             held[r] = held_tag(tags.get(r), grid, stale_ns_of(spec, stale_limit))
     return {r: held[r] for r in roles}, Folds(*folds)
+
+
+def fold_groups(roles) -> tuple[list[str], list[str], list[str]]:
+    """A pump's own roles (of ``roles``) in the groups whose flags :class:`Folds` folds, each
+    group adding to the one before: the tags deciding running or stopped (the run status,
+    else flow and speed: :func:`screening.engine.lineflow.decide`), then flow and speed for
+    the operating region, then the other own process tags."""
+    deciding = ["run"] if "run" in roles else [r for r in ("flow", "speed") if r in roles]
+    region = [r for r in ("flow", "speed") if r in roles and r not in deciding]
+    rest = [r for r in OWN_ROLES if r in roles and r not in deciding and r not in region]
+    return deciding, region, rest
+
+
+def folds_of(held: dict[str, Held]) -> Folds:
+    """The folds of tags held each with its own flags (:func:`held_at`: a timeline with tags
+    drawn by lines, or the instants a crossing is looked for at): the same as
+    :func:`hold_roles` gives while it holds."""
+    n = len(held["flow"].value)
+    bad, until = np.zeros(n, dtype=bool), np.full(n, np.iinfo(np.int64).max, dtype=np.int64)
+    folds = []
+    for group in fold_groups(held):
+        for r in group:
+            bad, until = bad | held[r].bad, np.minimum(until, held[r].until)
+        folds += [bad, until]
+    return Folds(*folds)
 
 
 def any_linear(tags: dict) -> bool:

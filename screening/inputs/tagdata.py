@@ -279,17 +279,10 @@ def count_samples(
     return is_text | not_finite | malformed | bad_q
 
 
-def kept_row(rows: np.ndarray, skipped: np.ndarray, position: int):
-    """The row of the kept sample at ``position``: ``rows`` of every input row, ``skipped``
-    the sorted positions of the rows not kept (the kept ones are the others, in order)."""
-    keep = np.ones(len(rows), dtype=bool)
-    keep[skipped] = False
-    return rows[np.flatnonzero(keep)[position]]
-
-
 def chunk_rows(place: tuple) -> np.ndarray:
-    """The rows of a chunk's samples from its place (``(where, rows)``, or ``(where, rows,
-    skipped)`` from :func:`add_numbers`)."""
+    """The rows of a chunk's samples from its place: ``(where, rows)``, or ``(where, rows,
+    skipped)`` from :func:`add_numbers` (the file's rows and the sorted positions of those
+    not kept)."""
     return place[1] if len(place) == 2 else np.delete(place[1], place[2])
 
 
@@ -302,11 +295,7 @@ def _place(parts: list[tuple], position: int) -> str | None:
         if position < n:
             if len(part) < 4:
                 return None
-            if len(part[3]) == 3:
-                where, rows, skipped = part[3]
-                return where + str(kept_row(rows, skipped, position))
-            where, rows = part[3]
-            return where + str(rows[position])
+            return part[3][0] + str(chunk_rows(part[3])[position])
         position -= n
     return None
 
