@@ -98,6 +98,42 @@ def test_wide_column_kernel_matches_its_numpy_form(column):
             np.testing.assert_array_equal(a, b)
 
 
+@st.composite
+def usual_wide_columns(draw):
+    """The usual wide file: every time placed and strictly increasing, a long column with a
+    few empty cells (up to about one in ten, either side of the shorter way's limit of one in
+    16), a few infinities, and a span that may cut it anywhere (or hold none of it)."""
+    n = draw(st.integers(1, 3000))
+    seed = draw(st.integers(0, 2**32 - 1))
+    rng = np.random.default_rng(seed)
+    times = np.cumsum(rng.integers(1, 4, n)).astype(np.int64)
+    raw = rng.normal(size=n)
+    raw[rng.random(n) < draw(st.sampled_from([0.0, 0.001, 0.03, 0.0625, 0.1]))] = np.nan
+    raw[rng.random(n) < draw(st.sampled_from([0.0, 0.001, 0.01]))] = np.inf
+    rows = np.arange(n, dtype=np.int64) + draw(st.integers(0, 5))
+    span = None
+    if draw(st.booleans()):
+        lo = int(times[0]) + draw(st.integers(-5, int(times[-1] - times[0]) + 5))
+        span = (lo, lo + draw(st.integers(-3, int(times[-1] - times[0]) + 5)))
+    return times, np.ones(n, dtype=bool), raw, rows, span
+
+
+@settings(max_examples=200, deadline=None)
+@given(column=usual_wide_columns())
+def test_wide_column_usual_file_matches_its_numpy_form(column):
+    """The shorter way for an ordered file with every time placed (bisection of the span,
+    block copies between the empty cells) gives what the numpy form gives."""
+    times, ok, raw, rows, span = column
+    lo, hi = span if span is not None else (0, 0)
+    args = (times, ok, raw, rows, np.int64(lo), np.int64(hi), span is not None)
+    exp = wide_column_numpy(*args)
+    got = wide_column(*args, True)
+    assert got[0] == exp[0] and got[1] == exp[1]
+    for a, b in zip(got[2:], exp[2:], strict=True):
+        np.testing.assert_array_equal(a, b)
+        assert a.dtype == b.dtype
+
+
 def test_a_column_read_whole_shares_the_files_arrays():
     times = np.arange(4, dtype=np.int64)
     rows = np.arange(4, dtype=np.int64)

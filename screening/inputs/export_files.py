@@ -469,6 +469,15 @@ def parquet_time_range(path: Path, column: str, meta=None) -> tuple[int, int] | 
     return None if lo is None else (lo, hi)
 
 
+def read_whole(path: Path, columns: list[str]) -> pa.Table:
+    """These columns of every row of a Parquet file, by the file reader alone.
+
+    ``pq.read_table`` goes through Arrow's dataset layer, whose first use in a process loads
+    and registers it: 0.1-0.4 s, paid again by every forked worker of the scan (measured with
+    benchmarks/bench_scan.py), for a read that needs no filter."""
+    return pq.ParquetFile(path).read(columns=list(dict.fromkeys(columns)))
+
+
 def read_parquet_rows(info: FileInfo, columns: list[str], span, tags=None):
     """The rows of a Parquet file with a time-zone-aware time column whose time is in
     ``span`` [ns] (None: every row; rows without a time are then kept), and of ``tags`` when

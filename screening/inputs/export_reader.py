@@ -18,6 +18,7 @@ from screening.inputs.export_files import (
     long_columns,
     read_csv_rows,
     read_parquet_rows,
+    read_whole,
 )
 from screening.inputs.tagdata import (
     FILE_FAULTS,
@@ -153,9 +154,9 @@ class TagReader:
             try:
                 if filters and info.timestamp_typed:  # row groups in the span, rows numbered
                     table, rows = read_parquet_rows(info, cols, span)
-                else:
-                    table = pq.read_table(info.path, columns=cols, filters=filters or None)
-            except (pa.ArrowException, OSError) as exc:
+                else:  # the whole file (a filter is only ever needed above)
+                    table = read_whole(info.path, cols)
+            except (pa.ArrowException, OSError, KeyError) as exc:
                 raise ExportError(f"{info.path}: cannot be read ({exc})") from exc
             if info.timestamp_typed:
                 self._wide_arrow(info, table, tags, chunks, quality, span, rows)
