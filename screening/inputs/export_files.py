@@ -472,9 +472,9 @@ def parquet_time_range(path: Path, column: str, meta=None) -> tuple[int, int] | 
 def read_whole(path: Path, columns: list[str]) -> pa.Table:
     """These columns of every row of a Parquet file, by the file reader alone.
 
-    ``pq.read_table`` goes through Arrow's dataset layer, whose first use in a process loads
-    and registers it: 0.1-0.4 s, paid again by every forked worker of the scan (measured with
-    benchmarks/bench_scan.py), for a read that needs no filter."""
+    ``pq.read_table`` goes through Arrow's dataset layer, which a read without a filter does
+    not need; its first use in a process imports it (about 10 ms after pandas, again in every
+    forked worker of the scan)."""
     return pq.ParquetFile(path).read(columns=list(dict.fromkeys(columns)))
 
 
