@@ -77,6 +77,46 @@ def _copy_loop(source, target):  # pragma: no cover
         target[k] = source[k]
 
 
+def _usual_rows_loop(times, ok, raw, lo, hi, use_span):  # pragma: no cover
+    """For a column of a file whose placed times strictly increase: when every time is placed
+    and at most one row in 16 of the span is an empty cell, the span's rows ``a`` to ``b``
+    (end excluded; found by bisection), the places of the empty cells among them and how many
+    infinite values they hold; else ``a`` = -1."""
+    n = raw.shape[0]
+    nothing = np.empty(0, np.int64)
+    every_ok = True
+    for i in range(n):
+        every_ok &= ok[i]
+    if not every_ok:
+        return -1, -1, nothing, 0
+    a, b = 0, n
+    if use_span:  # the times strictly increase: the span is one range of rows
+        a = np.searchsorted(times, lo)
+        b = max(a, np.searchsorted(times, hi))
+    # (numba vectorises a loop over a whole array from 0, not one from a variable start)
+    span_raw = raw[a:b]
+    nonfinite = 0
+    for i in range(span_raw.shape[0]):
+        x = span_raw[i]
+        nonfinite += (x - x) != 0  # NaN for NaN and for an infinity
+    empty = np.empty(span_raw.shape[0] // 16 + 1, np.int64)
+    found = 0
+    for start in range(0, span_raw.shape[0] if nonfinite else 0, 256):
+        block = span_raw[start : start + 256]
+        here = 0
+        for i in range(block.shape[0]):
+            x = block[i]
+            here += x != x
+        if here:
+            if found + here > empty.shape[0]:
+                return -1, -1, nothing, 0
+            for i in range(block.shape[0]):
+                if block[i] != block[i]:
+                    empty[found] = a + start + i
+                    found += 1
+    return a, b, empty[:found], nonfinite - found
+
+
 def _wide_column_blocks(times, raw, rows, a, b, empty, infinite):  # pragma: no cover
     """:func:`_wide_column_loop` of a column whose times are all placed and strictly increase,
     with the span's rows ``a`` to ``b`` (end excluded), the places of its empty cells in that
@@ -144,39 +184,9 @@ def _wide_column_loop(times, ok, raw, rows, lo, hi, use_span, ordered):  # pragm
     empty cells (:func:`_wide_column_blocks`)."""
     n = raw.shape[0]
     if ordered and n > 0:
-        every_ok = True
-        for i in range(n):
-            every_ok &= ok[i]
-        if every_ok:
-            a, b = 0, n
-            if use_span:  # the times strictly increase: the span is one range of rows
-                a = np.searchsorted(times, lo)
-                b = max(a, np.searchsorted(times, hi))
-            # the empty cells' places; more than one in 16 rows: the general way below.
-            # (numba vectorises a loop over a whole array from 0, not one from a variable)
-            span_raw = raw[a:b]
-            nonfinite = 0
-            for i in range(span_raw.shape[0]):
-                x = span_raw[i]
-                nonfinite += (x - x) != 0  # NaN for NaN and for an infinity
-            empty = np.empty(span_raw.shape[0] // 16 + 1, np.int64)
-            found = 0
-            for start in range(0, span_raw.shape[0] if nonfinite else 0, 256):
-                block = span_raw[start : start + 256]
-                here = 0
-                for i in range(block.shape[0]):
-                    x = block[i]
-                    here += x != x
-                if here:
-                    if found + here > empty.shape[0]:
-                        found = -1
-                        break
-                    for i in range(block.shape[0]):
-                        if block[i] != block[i]:
-                            empty[found] = a + start + i
-                            found += 1
-            if found >= 0:
-                return _wide_column_blocks(times, raw, rows, a, b, empty[:found], nonfinite - found)
+        a, b, empty, infinite = _usual_rows(times, ok, raw, lo, hi, use_span)
+        if a >= 0:
+            return _wide_column_blocks(times, raw, rows, a, b, empty, infinite)
     kept = 0
     bad_times = 0
     infinite = 0
@@ -397,6 +407,7 @@ def _strictly_increasing_loop(times):  # pragma: no cover - compiled
 
 
 _copy = compile_kernel(_copy_loop, None)
+_usual_rows = compile_kernel(_usual_rows_loop, None)
 _wide_column_blocks = compile_kernel(_wide_column_blocks, None)
 wide_column = compile_kernel(_wide_column_loop, wide_column_numpy)
 overflow_frozen = compile_kernel(_overflow_frozen_loop, overflow_frozen_numpy)

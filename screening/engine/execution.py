@@ -32,6 +32,7 @@ from screening.base.allocator import keep_collector_off_imports, keep_freed_memo
 from screening.engine.calculator import PumpResult, Settings
 from screening.engine.chunked import chunk_days, screen_chunked
 from screening.engine.one_pump import quality_flags, quality_row, screen_pump
+from screening.inputs.export_reader import LazySeries
 from screening.inputs.loader import ExportIndex
 from screening.inputs.plant import Plant
 from screening.inputs.tagdata import ExportError, TagSeries
@@ -84,11 +85,24 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
             for pid in batch}  # fmt: skip
     tags = [t.tag for pid in batch if days[pid] is None for t in plant.pumps[pid].all_tags()
             if t.tag in known]  # fmt: skip
-    raw, read_problems = index.read(tags, ctx.span) if tags else ({}, {})
+    # made into series pump by pump (the batch's columns stay as the file decoded them), and
+    # each tag forgotten after the last pump that reads it: the memory of a batch is its
+    # decoded files and one pump's series, which stay in the processor's cache
+    raw, read_problems = index.read(tags, ctx.span, lazy=True) if tags else ({}, {})
+    last_use = {}
+    for k, pid in enumerate(batch):
+        pump = plant.pumps[pid]
+        for spec in [*pump.all_tags(), *pump.peer_tags().values()]:
+            last_use[spec.tag] = k
+    done_after: dict[int, list[str]] = {}
+    for tag, k in last_use.items():
+        done_after.setdefault(k, []).append(tag)
     # files read in part (dates without a declared order): the worker's index says so
     out = BatchOutput([], {}, [], [], {**index.partly_read, **read_problems}, 0, len(batch))
     keep = ctx.keep_series or ctx.each_pump is not None
-    for pid in batch:
+    for k, pid in enumerate(batch):
+        if k and isinstance(raw, LazySeries):
+            raw.forget(done_after.get(k - 1, ()))
         pump = plant.pumps[pid]
         try:
             if days[pid] is None:

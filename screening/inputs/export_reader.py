@@ -5,6 +5,7 @@ by month), each file's values counted and merged per tag by :mod:`screening.inpu
 from __future__ import annotations
 
 from collections import OrderedDict
+from collections.abc import Iterator, Mapping
 from pathlib import Path
 
 import numpy as np
@@ -46,6 +47,7 @@ class TagReader:
     def __init__(self, index):
         self.index = index
         self._count: tuple[int, int] | None = None  # see read(count=)
+        self._later: set[str] = set()  # see read(lazy=)
         self._time_cache: OrderedDict[Path, tuple[np.ndarray, np.ndarray]] = OrderedDict()
 
     def _times(self, info: FileInfo, raw: pd.Series, rows, label: str, groups=None):
@@ -69,8 +71,9 @@ class TagReader:
         return cached
 
     def read(
-        self, tags: list[str], span: tuple[int, int] | None = None, count=None
-    ) -> tuple[dict[str, TagSeries], dict[str, str]]:
+        self, tags: list[str], span: tuple[int, int] | None = None, count=None,
+        lazy: bool = False,
+    ) -> tuple[Mapping[str, TagSeries], dict[str, str]]:  # fmt: skip
         """Read ``tags`` from every file that holds them.
 
         Parameters
@@ -85,6 +88,11 @@ class TagReader:
             Count in the quality figures only the samples in this part of ``span`` [ns] (a
             time chunk's own part, :mod:`screening.engine.chunked`); only time-zone-aware
             Parquet files are read so.
+        lazy : bool
+            Return a :class:`LazySeries`: the columns of a tag held only in wide Parquet
+            files are decoded from the file (read whole here) but made into its series when
+            the tag is first asked for, so that a batch's series need not all be in memory at
+            once. The series, counts and problems are those of an eager read.
 
         Returns
         -------
@@ -101,6 +109,14 @@ class TagReader:
         for tag in wanted:
             for info in self.index._by_tag[tag]:
                 files.setdefault(info.path, (info, []))[1].append(tag)
+        # tags whose every file is a wide Parquet file read without pandas: made later
+        self._later = set()
+        if lazy and count is None:
+            self._later = {
+                t for t in wanted
+                if all(f.fmt == "parquet" and f.source.layout == "wide" and f.timestamp_typed
+                       for f in self.index._by_tag[t])
+            }  # fmt: skip
         # In the order of the index, so that "the last in file order" of a tag's duplicate
         # times never depends on which other tags are read with it.
         position = {f.path: i for i, f in enumerate(self.index.files)}
@@ -116,12 +132,18 @@ class TagReader:
                 problems[str(info.path)] = str(exc)
             except FILE_FAULTS as exc:  # the last line of defence: one file, not the run
                 problems[str(info.path)] = unexpected(info.path, exc)
-        series = {}
+        series = LazySeries() if lazy else {}
         failed = set(problems)
         for tag in wanted:
+            if any(str(f.path) in failed for f in self.index._by_tag[tag]):
+                chunks[tag] = _made(chunks[tag])  # a series or not: by its samples
             if chunks[tag] or any(str(f.path) not in failed for f in self.index._by_tag[tag]):
                 # a tag with no sample in the span is an empty series: no data, not an error
-                series[tag] = assemble(tag, chunks[tag], quality[tag], count)
+                if tag in self._later:
+                    series.pending[tag] = (chunks[tag], quality[tag])
+                else:
+                    series[tag] = assemble(tag, chunks[tag], quality[tag], count)
+        self._later = set()
         return series, problems
 
     def _time_filter(self, info: FileInfo, span) -> list | None:
@@ -192,14 +214,22 @@ class TagReader:
             if pa.types.is_floating(column.type) or pa.types.is_integer(column.type):
                 raw = column.to_numpy(zero_copy_only=False).astype(np.float64, copy=False)
                 if self._count is None:  # a null (or NaN) cell: not sampled at this instant
-                    add_numbers(
-                        tag, info.path, raw, times, ok, rows, chunks, quality, span, ordered
-                    )
+                    if tag in self._later:
+                        chunks[tag].append(
+                            _Later((tag, info.path, raw, times, ok, rows, quality, span, ordered))
+                        )
+                    else:
+                        add_numbers(
+                            tag, info.path, raw, times, ok, rows, chunks, quality, span, ordered
+                        )
                     continue
                 present = ~np.isnan(raw)
             else:
                 raw = column.to_pandas()
                 present = raw.notna().to_numpy()
+            if tag in self._later:  # made now, after its columns before this one
+                self._later.discard(tag)
+                chunks[tag] = _made(chunks[tag])
             add_chunk(
                 tag, info, raw[present], times[present], ok[present], rows[present],
                 None, chunks, quality, self.index.good_quality, "row", span, None,
@@ -266,3 +296,62 @@ class TagReader:
                 qual, chunks, quality, self.index.good_quality, label, span, malformed[sel],
                 self.index.status_words.get(tag), self._count,
             )  # fmt: skip
+
+
+class _Later:
+    """A wide file's column of numbers for :func:`add_numbers`, made into its chunk when its
+    tag is first asked for (``args`` are add_numbers' arguments but the chunks)."""
+
+    __slots__ = ("args",)
+
+    def __init__(self, args: tuple):
+        self.args = args
+
+
+def _made(parts: list) -> list:
+    """A tag's chunks with every :class:`_Later` column made, in file order (a new list: the
+    made arrays belong to the caller alone)."""
+    out = []
+    for part in parts:
+        if isinstance(part, _Later):
+            tag = part.args[0]
+            made = {tag: []}  # add_numbers appends the column's chunk (none: nothing sampled)
+            add_numbers(*part.args[:6], made, *part.args[6:])
+            out.extend(made[tag])
+        else:
+            out.append(part)
+    return out
+
+
+class LazySeries(Mapping):
+    """The series of a read with ``lazy=True``: a mapping of tag to :class:`TagSeries` whose
+    series of wide Parquet columns are made when first asked for and kept until
+    :meth:`forget`. Each is what the eager read gives, with the same counts."""
+
+    def __init__(self):
+        self.ready: dict[str, TagSeries] = {}
+        self.pending: dict[str, tuple[list, TagQuality]] = {}
+
+    def __getitem__(self, tag: str) -> TagSeries:
+        if tag not in self.ready:
+            parts, quality = self.pending.pop(tag)  # KeyError: not read
+            self.ready[tag] = assemble(tag, _made(parts), quality)
+        return self.ready[tag]
+
+    def __setitem__(self, tag: str, series: TagSeries) -> None:
+        self.ready[tag] = series
+
+    def __contains__(self, tag) -> bool:
+        return tag in self.ready or tag in self.pending
+
+    def __iter__(self) -> Iterator[str]:
+        return iter([*self.ready, *self.pending])
+
+    def __len__(self) -> int:
+        return len(self.ready) + len(self.pending)
+
+    def forget(self, tags) -> None:
+        """Drop these tags' series (made or not) to free their memory."""
+        for tag in tags:
+            self.ready.pop(tag, None)
+            self.pending.pop(tag, None)

@@ -14,6 +14,7 @@ with a filter on the tag column. The index of which file holds which tag is buil
 from __future__ import annotations
 
 import glob
+from collections.abc import Mapping
 from pathlib import Path
 
 import numpy as np
@@ -266,10 +267,11 @@ class ExportIndex:
         return int(min(t[0] for t in times)), int(max(t[-1] for t in times))
 
     def read(
-        self, tags: list[str], span: tuple[int, int] | None = None, count=None
-    ) -> tuple[dict[str, TagSeries], dict[str, str]]:
+        self, tags: list[str], span: tuple[int, int] | None = None, count=None,
+        lazy: bool = False,
+    ) -> tuple[Mapping[str, TagSeries], dict[str, str]]:  # fmt: skip
         """Read ``tags`` from every file that holds them (see :meth:`TagReader.read`)."""
-        return self._reader.read(tags, span, count)
+        return self._reader.read(tags, span, count, lazy)
 
 
 def open_exports(plant) -> ExportIndex:
