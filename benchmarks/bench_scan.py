@@ -382,7 +382,7 @@ def measure_scan(toml: Path, start, end, processes: int = 1, cluster=None) -> di
     """The Python API scan. With one process the time is split by step (the steps run here);
     with more processes or a cluster they run elsewhere and only the total is measured."""
     import screening
-    from screening.inputs import loader
+    from screening.inputs import export_reader, loader
 
     scan_mod = importlib.import_module("screening.engine.scan")  # the module, not the function
     one_pump = importlib.import_module("screening.engine.one_pump")
@@ -393,6 +393,9 @@ def measure_scan(toml: Path, start, end, processes: int = 1, cluster=None) -> di
                            (scan_mod, "table_part", "scan_tables")):  # fmt: skip
         setattr(mod, name, _timed(getattr(mod, name), key, totals))
     loader.ExportIndex.read = _timed(loader.ExportIndex.read, "read", totals)
+    # a batch's series are made when each pump first asks for them (the lazy read): reading too
+    export_reader.LazySeries.__getitem__ = _timed(export_reader.LazySeries.__getitem__, "read",
+                                                  totals)  # fmt: skip
     base, cpu = peak_mb(), cpu_s()
     client = startup = None
     if cluster:
@@ -551,7 +554,7 @@ def _scan_rows(scan: dict, samples: int) -> None:
         note=f"({scan['import_mb']:,.0f} MB after imports)")  # fmt: skip
     parts = scan["parts"]
     for key, label in (
-        ("read", "reading exports (ExportIndex.read)"),
+        ("read", "reading and making series (ExportIndex)"),
         ("prepare_tag", "units, frozen, range (prepare_tag)"),
         ("calculate_pump", "calculation (calculate_pump)"),
         ("scan_tables", "result tables (scan_tables)"),
