@@ -554,7 +554,7 @@ def _scan_rows(scan: dict, samples: int) -> None:
         note=f"({scan['import_mb']:,.0f} MB after imports)")  # fmt: skip
     parts = scan["parts"]
     for key, label in (
-        ("read", "reading and making series (ExportIndex)"),
+        ("read", "reading exports, making series"),
         ("prepare_tag", "units, frozen, range (prepare_tag)"),
         ("calculate_pump", "calculation (calculate_pump)"),
         ("scan_tables", "result tables (scan_tables)"),
