@@ -86,8 +86,8 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
     tags = [t.tag for pid in batch if days[pid] is None for t in plant.pumps[pid].all_tags()
             if t.tag in known]  # fmt: skip
     # made into series pump by pump (the batch's columns stay as the file decoded them), and
-    # each tag forgotten after the last pump that reads it: the memory of a batch is its
-    # decoded files and one pump's series, which stay in the processor's cache
+    # each tag forgotten after the last pump that reads it (its own tags and its suction
+    # line's): a batch holds its decoded files and one pump's series, not every series
     raw, read_problems = index.read(tags, ctx.span, lazy=True) if tags else ({}, {})
     last_use = {}
     for k, pid in enumerate(batch):
