@@ -77,6 +77,23 @@ def _copy_loop(source, target):  # pragma: no cover
         target[k] = source[k]
 
 
+def _outputs_loop(raw, kept, infinite):  # pragma: no cover
+    """The arrays a wide column's pass fills for ``kept`` [-] samples kept of ``raw`` (one
+    element more than needed, so that a branchless copy may write past the last): whether
+    every row is kept (then the kept times and values are the inputs, and only the infinite
+    values' flags are set here), how many are copied, times, values, rows not kept, flags."""
+    n = raw.shape[0]
+    all_kept = kept == n
+    m = 0 if all_kept else kept
+    t_out = np.empty(m + 1, np.int64)
+    v_out = np.empty(m + 1)
+    s_out = np.empty(n - kept + 1, np.int64)
+    bad = np.zeros(kept + 1, np.bool_)
+    for i in range(n if all_kept and infinite else 0):
+        bad[i] = (raw[i] - raw[i]) != 0
+    return all_kept, m, t_out, v_out, s_out, bad
+
+
 def _usual_rows_loop(times, ok, raw, lo, hi, use_span):  # pragma: no cover
     """For a column of a file whose placed times strictly increase: when every time is placed
     and at most one row in 16 of the span is an empty cell, the span's rows ``a`` to ``b``
@@ -131,16 +148,8 @@ def _wide_column_blocks(times, raw, rows, a, b, empty, infinite):  # pragma: no 
             if x == x and (x - x) != 0:
                 first_infinite = rows[i]
                 break
-    all_kept = kept == n
-    m = 0 if all_kept else kept
-    t_out = np.empty(m + 1, np.int64)
-    v_out = np.empty(m + 1)
-    s_out = np.empty(n - kept + 1, np.int64)
-    bad = np.zeros(kept + 1, np.bool_)
-    if all_kept:
-        for i in range(n if infinite else 0):
-            bad[i] = (raw[i] - raw[i]) != 0
-    else:
+    all_kept, m, t_out, v_out, s_out, bad = _outputs(raw, kept, infinite)
+    if not all_kept:
         sk = 0
         for i in range(a):
             s_out[sk] = i
@@ -227,16 +236,8 @@ def _wide_column_loop(times, ok, raw, rows, lo, hi, use_span, ordered):  # pragm
                         first_back = rows[i]
             last = t
             seen = True
-    all_kept = kept == n
-    m = 0 if all_kept else kept
-    t_out = np.empty(m + 1, np.int64)
-    v_out = np.empty(m + 1)
-    s_out = np.empty(n - kept + 1, np.int64)
-    bad = np.zeros(kept + 1, np.bool_)
-    if all_kept:
-        for i in range(n if infinite else 0):
-            bad[i] = (raw[i] - raw[i]) != 0
-    else:
+    all_kept, m, t_out, v_out, s_out, bad = _outputs(raw, kept, infinite)
+    if not all_kept:
         j = np.uint64(0)  # unsigned: no check for an index from the end
         sk = np.uint64(0)
         for i in range(n):
@@ -407,6 +408,7 @@ def _strictly_increasing_loop(times):  # pragma: no cover - compiled
 
 
 _copy = compile_kernel(_copy_loop, None)
+_outputs = compile_kernel(_outputs_loop, None)
 _usual_rows = compile_kernel(_usual_rows_loop, None)
 _wide_column_blocks = compile_kernel(_wide_column_blocks, None)
 wide_column = compile_kernel(_wide_column_loop, wide_column_numpy)
