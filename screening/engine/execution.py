@@ -86,14 +86,11 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
     tags = [t.tag for pid in batch if days[pid] is None for t in plant.pumps[pid].all_tags()
             if t.tag in known]  # fmt: skip
     # made into series pump by pump (the batch's columns stay as the file decoded them), and
-    # each tag forgotten after the last pump that reads it (its own tags and its suction
-    # line's): a batch holds its decoded files and one pump's series, not every series
+    # each tag forgotten after the last pump that reads it (all_tags: its own, its field
+    # evidence's and its suction line's other members'): a batch holds its decoded files and
+    # one pump's series, not every series
     raw, read_problems = index.read(tags, ctx.span, lazy=True) if tags else ({}, {})
-    last_use = {}
-    for k, pid in enumerate(batch):
-        pump = plant.pumps[pid]
-        for spec in [*pump.all_tags(), *pump.peer_tags().values()]:
-            last_use[spec.tag] = k
+    last_use = {spec.tag: k for k, pid in enumerate(batch) for spec in plant.pumps[pid].all_tags()}
     done_after: dict[int, list[str]] = {}
     for tag, k in last_use.items():
         done_after.setdefault(k, []).append(tag)
