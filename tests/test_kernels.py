@@ -119,3 +119,24 @@ def test_hold_fold_matches_numpy(times, grid, stale, into, inplace):
         flags, until = in_bad.copy(), in_until.copy()
         out = hold_fold(times, values, bad, grid, np.int64(stale), never, flags, until, True)
         assert np.shares_memory(out[2], flags) and np.shares_memory(out[3], until)
+
+
+@settings(max_examples=100, deadline=None)
+@given(
+    source=st.lists(st.integers(-(2**62), 2**62), max_size=40),
+    extra=st.integers(0, 5),
+    writable=st.booleans(),
+)
+def test_copy_into_matches_slice_assignment(source, extra, writable):
+    """The compiled copy (a loop numba vectorises) writes what slice assignment writes, and
+    nothing past the source's length."""
+    from screening.base.kernels import copy_into, copy_into_numpy
+
+    src = np.array(source, dtype=np.int64)
+    src.setflags(write=writable)  # Arrow lends read-only arrays
+    got = np.full(len(src) + extra, -7, dtype=np.int64)
+    expected = got.copy()
+    copy_into(src, got)
+    copy_into_numpy(src, expected)
+    np.testing.assert_array_equal(got, expected)
+    assert (got[len(src) :] == -7).all()

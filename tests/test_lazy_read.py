@@ -159,3 +159,15 @@ def test_a_file_failing_after_an_empty_column_leaves_its_tag_out_in_both(tmp_pat
     assert "cannot be read" in str(problems) and "P1.PS" not in eager
     lazy, _ = index.read(["P1.PS", "P1.TT"], None, lazy=True)
     _same(eager, lazy)
+
+
+def test_a_column_gone_since_the_file_was_indexed_names_the_file(three_files, tmp_path):
+    """The file reader leaves out a column a file lacks; a wide file replaced since it was
+    indexed, without a tag's column, is named as not read rather than read without it."""
+    index = three_files
+    a = tmp_path / "exports" / "a.parquet"
+    pq.write_table(pq.read_table(a).drop_columns(["P1.RUN"]), a)
+    for lazy in (False, True):
+        series, problems = index.read(["P1.PS", "P1.RUN"], None, lazy=lazy)
+        assert "no column P1.RUN" in problems[str(a)], problems
+        assert problems[str(a)].startswith(str(a))

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from screening.base.kernels import compile_kernel
+from screening.base.kernels import compile_kernel, copy_into
 
 #: Standard gravity [m/s²] (exact by definition, CGPM 1901), as in screening.physics.npsh.
 G = 9.80665
@@ -57,14 +57,14 @@ def _insert_sorted_loop(a, few, end):  # pragma: no cover - compiled
     for e in range(few.shape[0]):
         v = few[e]
         j = i + np.searchsorted(a[i:], v)
-        out[n : n + j - i] = a[i:j]
+        copy_into(a[i:j], out[n:])
         n += j - i
         i = j
         if i < na and a[i] == v:
             continue
         out[n] = v
         n += 1
-    out[n : n + na - i] = a[i:]
+    copy_into(a[i:], out[n:])
     n += na - i
     out[n] = end
     return out[: n + 1]

@@ -230,6 +230,19 @@ def compile_kernel(func, fallback):
         return numba.njit(nogil=True, error_model="numpy")(func)
 
 
+def copy_into_numpy(source, target) -> None:
+    """``target[:len(source)] = source`` (numpy form)."""
+    target[: len(source)] = source
+
+
+def _copy_into_loop(source, target):  # pragma: no cover - compiled
+    """``target[:len(source)] = source`` as a loop from 0, which numba vectorises (its slice
+    assignment is a general strided copy, about twice as slow)."""
+    for k in range(source.shape[0]):
+        target[k] = source[k]
+
+
+copy_into = compile_kernel(_copy_into_loop, copy_into_numpy)
 hold_fold = compile_kernel(_hold_fold_loop, hold_fold_numpy)
 _NO_FLAGS = np.empty(0, dtype=np.bool_)
 _NO_TIMES = np.empty(0, dtype=np.int64)

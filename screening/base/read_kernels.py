@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from screening.base.kernels import compile_kernel
+from screening.base.kernels import compile_kernel, copy_into
 
 # ----------------------------------------------------------------- one wide column of numbers
 
@@ -68,13 +68,6 @@ def wide_column_numpy(times, ok, raw, rows, lo, hi, use_span, ordered=False):
         empty = np.zeros(0, dtype=np.int64)
         return n, True, empty, np.zeros(0), empty, bad, counts
     return len(idx), False, t, v, np.flatnonzero(~timed), bad, counts
-
-
-def _copy_loop(source, target):  # pragma: no cover
-    """``target[:len(source)] = source`` as a loop from 0 (numba's slice assignment is a
-    general strided copy, about twice as slow)."""
-    for k in range(source.shape[0]):
-        target[k] = source[k]
 
 
 def _outputs_loop(raw, kept, infinite):  # pragma: no cover
@@ -157,14 +150,14 @@ def _wide_column_blocks(times, raw, rows, a, b, empty, infinite):  # pragma: no 
         j = 0
         start = a
         for i in empty:  # an empty cell ends a block
-            _copy(times[start:i], t_out[j : j + i - start])
-            _copy(raw[start:i], v_out[j : j + i - start])
+            copy_into(times[start:i], t_out[j:])
+            copy_into(raw[start:i], v_out[j:])
             j += i - start
             s_out[sk] = i
             sk += 1
             start = i + 1
-        _copy(times[start:b], t_out[j:])
-        _copy(raw[start:b], v_out[j:])
+        copy_into(times[start:b], t_out[j:])
+        copy_into(raw[start:b], v_out[j:])
         for i in range(b, n):
             s_out[sk] = i
             sk += 1
@@ -407,7 +400,6 @@ def _strictly_increasing_loop(times):  # pragma: no cover - compiled
     return later
 
 
-_copy = compile_kernel(_copy_loop, None)
 _outputs = compile_kernel(_outputs_loop, None)
 _usual_rows = compile_kernel(_usual_rows_loop, None)
 _wide_column_blocks = compile_kernel(_wide_column_blocks, None)

@@ -89,7 +89,7 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
     # each tag forgotten after the last pump that reads it (all_tags: its own, its field
     # evidence's and its suction line's other members'): a batch holds its decoded files and
     # one pump's series, not every series
-    raw, read_problems = index.read(tags, ctx.span, lazy=True) if tags else ({}, {})
+    raw, read_problems = index.read(tags, ctx.span, lazy=True) if tags else (LazySeries(), {})
     last_use = {spec.tag: k for k, pid in enumerate(batch) for spec in plant.pumps[pid].all_tags()}
     done_after: dict[int, list[str]] = {}
     for tag, k in last_use.items():
@@ -98,8 +98,7 @@ def run_batch(ctx: BatchContext, batch: list[str]) -> BatchOutput:
     out = BatchOutput([], {}, [], [], {**index.partly_read, **read_problems}, 0, len(batch))
     keep = ctx.keep_series or ctx.each_pump is not None
     for k, pid in enumerate(batch):
-        if k and isinstance(raw, LazySeries):
-            raw.forget(done_after.get(k - 1, ()))
+        raw.forget(done_after.get(k - 1, ()))  # the tags no pump from here on reads
         pump = plant.pumps[pid]
         try:
             if days[pid] is None:

@@ -49,27 +49,19 @@ class Held:
         self._bad: np.ndarray | None = bad
         self._until: np.ndarray | None = None
         self._source = (s, grid, stale_ns)
-        if value is not None:
-            self.value = value
-            return
-        if s is None or len(s.times) == 0:
-            self.value = np.full(len(grid), np.nan)
-            self._bad = np.zeros(len(grid), dtype=bool)
-            self._until = np.full(len(grid), NEVER, dtype=np.int64)
-            return
-        self.value, self._bad, self._until = hold(
-            s.times, s.values, s.bad, grid, np.int64(stale_ns), np.int64(NEVER)
-        )
+        self.value = self._hold() if value is None else value
 
-    def _hold(self) -> None:
+    def _hold(self) -> np.ndarray:
+        """Hold the tag: its bad flags and fresh-until times set, its values returned."""
         s, grid, stale_ns = self._source
         if s is None or len(s.times) == 0:
             self._bad = np.zeros(len(grid), dtype=bool)
             self._until = np.full(len(grid), NEVER, dtype=np.int64)
-        else:
-            _, self._bad, self._until = hold(
-                s.times, s.values, s.bad, grid, np.int64(stale_ns), np.int64(NEVER)
-            )
+            return np.full(len(grid), np.nan)
+        value, self._bad, self._until = hold(
+            s.times, s.values, s.bad, grid, np.int64(stale_ns), np.int64(NEVER)
+        )
+        return value
 
     @property
     def bad(self) -> np.ndarray:

@@ -474,8 +474,19 @@ def read_whole(path: Path, columns: list[str]) -> pa.Table:
 
     ``pq.read_table`` goes through Arrow's dataset layer, which a read without a filter does
     not need; its first use in a process imports it (about 10 ms after pandas, again in every
-    forked worker of the scan)."""
-    return pq.ParquetFile(path).read(columns=list(dict.fromkeys(columns)))
+    forked worker of the scan). The file reader leaves out a column the file lacks (a file
+    replaced since it was indexed) where the dataset layer refused it: refused here too.
+
+    Raises
+    ------
+    KeyError
+        A column not in the file (named)."""
+    wanted = list(dict.fromkeys(columns))
+    table = pq.ParquetFile(path).read(columns=wanted)
+    missing = [c for c in wanted if c not in table.column_names]
+    if missing:
+        raise KeyError(f"no column {', '.join(missing)}")
+    return table
 
 
 def read_parquet_rows(info: FileInfo, columns: list[str], span, tags=None):
