@@ -26,17 +26,17 @@ def _same(a, b) -> None:
     assert a.samples == b.samples
 
 
-def _plant(tmp_path):
-    """Five pumps in three files over a window of 400 days (one pump per batch), one of them
-    with a missing tag (a problem that must travel back the same way)."""
+def _plant(tmp_path, pumps: int = 5):
+    """Five pumps (or ``pumps``) in three files over a window of 400 days (one pump per
+    batch), one of them with a missing tag (a problem that must travel back the same way)."""
     frames = {}
-    for k in range(5):
+    for k in range(pumps):
         f = steady_frame(f"P{k}", periods=2880, pressure_kpa=40.0 + 10 * k)
         f[f"P{k}.PS"] = f[f"P{k}.PS"] + np.sin(np.arange(2880) / 50.0) * 60.0
         frames.setdefault(f"f{k % 3}.csv", []).append(f.set_index("timestamp"))
     wide = {n: pd.concat(fs, axis=1).reset_index() for n, fs in frames.items()}
     wide["f0.csv"] = wide["f0.csv"].drop(columns=["P3.TT"])
-    rows = [pump_row(f"P{k}") for k in range(5)]
+    rows = [pump_row(f"P{k}") for k in range(pumps)]
     return make_plant(tmp_path, wide=wide, rows=rows, start="2026-01-01", end="2027-02-05")
 
 
@@ -80,6 +80,50 @@ def test_progress_is_reported_per_batch(tmp_path):
     screening.scan(path, processes=2, progress=lambda out: seen.append((out.pumps, out.samples)))
     assert sum(p for p, _ in seen) == 5
     assert sum(s for _, s in seen) == screening.scan(path, processes=1).samples
+
+
+def test_the_pools_last_batches_are_cut_keeping_lines_together():
+    """The last batches of a pool are cut into pieces (the workers then finish within a piece
+    of each other); every pump stays, once and in order, and a shared suction line's members
+    stay in one piece."""
+    from types import SimpleNamespace
+
+    from screening.engine.execution import TAIL_PIECES, _finer_tail
+
+    lines = {"P23": "L1", "P24": "L1", "P25": "L1", "P32": "L2", "P33": "L2"}
+    ids = [f"P{k:02d}" for k in range(40)]
+    plant = SimpleNamespace(pumps={p: SimpleNamespace(suction_line_id=lines.get(p)) for p in ids})
+    batches = [ids[:10], ids[10:20], ids[20:30], ids[30:]]
+    out = _finer_tail(plant, batches, 2)
+    assert out[:2] == batches[:2]  # the first batches whole
+    assert sum(out, []) == ids
+    assert all(out)
+    for line in ("L1", "L2"):
+        members = [p for p, name in lines.items() if name == line]
+        assert sum(any(m in piece for m in members) for piece in out) == 1
+    # ten pumps, L1's three members one unit: eight units in four pieces of two units
+    assert TAIL_PIECES == 4
+    assert [len(piece) for piece in out[2:6]] == [2, 4, 2, 2]
+    # L2's two members one unit: nine units in pieces of 2, 2, 2 and 3 units
+    assert [len(piece) for piece in out[6:]] == [2, 3, 2, 3]
+    # too few batches for two workers to share a tail: unchanged
+    assert _finer_tail(plant, batches[:3], 2) == batches[:3]
+
+
+def test_a_pool_with_cut_batches_gives_the_same_tables(tmp_path, monkeypatch):
+    """Eight pumps in batches of two over a short window: the last two batches are cut into
+    single pumps."""
+    import screening.engine.scan as scan_module
+
+    path = _plant(tmp_path, pumps=8)
+    window = ("2026-01-01", "2026-01-04")
+    one = screening.scan(path, *window, processes=1)
+    monkeypatch.setattr(scan_module, "BATCH_PUMPS", 2)
+    seen = []
+    two = screening.scan(path, *window, processes=2, progress=lambda out: seen.append(out.pumps))
+    assert sorted(seen) == [1, 1, 1, 1, 2, 2]
+    _same(one, two)
+    assert "P3" in set(two.problems["pump_id"])
 
 
 SOME = ["CD-412", "RW-502", "DH-202", "CW-103"]

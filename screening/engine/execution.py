@@ -230,11 +230,16 @@ def run_batches(
     return _run_pool(ctx, _finer_tail(ctx.plant, batches, n), n, progress)
 
 
+#: Pieces each of a pool's last batches is cut into (see :func:`_finer_tail`).
+TAIL_PIECES = 4
+
+
 def _finer_tail(plant: Plant, batches: list[list[str]], n: int) -> list[list[str]]:
-    """The batches with the last ``n`` [-] each cut in two (keeping a shared suction line's
-    members together), so that the workers finish together: the last batches of a pool
-    otherwise leave one worker idle for up to a batch's time. Results do not depend on the
-    cut: what is read for a pump never depends on the pumps beside it."""
+    """The batches with the last ``n`` [-] each cut into :data:`TAIL_PIECES` (keeping a shared
+    suction line's members together), so that the workers finish together: the last batches
+    of a pool otherwise leave one worker idle for up to a batch's time, and with the pieces
+    for up to a piece's. Results do not depend on the cut: what is read for a pump never
+    depends on the pumps beside it."""
     if len(batches) < 2 * n:
         return batches
     out = batches[:-n]
@@ -244,18 +249,19 @@ def _finer_tail(plant: Plant, batches: list[list[str]], n: int) -> list[list[str
             line = plant.pumps[pid].suction_line_id
             units.setdefault(pid if line is None else ("line", line), []).append(pid)
         groups = list(units.values())
-        half = len(groups) // 2
-        parts = [sum(groups[:half], []), sum(groups[half:], [])]
-        out.extend(p for p in parts if p)
+        k = min(TAIL_PIECES, len(groups))
+        cuts = [len(groups) * i // k for i in range(k + 1)]
+        out.extend(sum(groups[a:b], []) for a, b in zip(cuts, cuts[1:], strict=False))
     return out
 
 
 def _run_pool(ctx: BatchContext, batches, n: int, progress) -> list[BatchOutput]:
     """Run the batches in a pool of ``n`` forked worker processes; outputs in batch order."""
     done: dict[int, BatchOutput] = {}
-    with ProcessPoolExecutor(
+    pool = ProcessPoolExecutor(
         max_workers=n, mp_context=_pool_context(), initializer=_init_worker, initargs=(ctx,)
-    ) as pool:
+    )
+    try:
         futures = {pool.submit(_run_in_worker, b): i for i, b in enumerate(batches)}
         pending = set(futures)
         while pending:
@@ -264,6 +270,11 @@ def _run_pool(ctx: BatchContext, batches, n: int, progress) -> list[BatchOutput]
                 done[futures[f]] = f.result()
                 if progress:
                     progress(done[futures[f]])
+    finally:
+        # every output is in (or the run failed): the workers' exit, the system unmapping
+        # their memory, is not waited for (the pool's own thread joins them); the tables are
+        # built meanwhile. Batches not started are dropped when one failed.
+        pool.shutdown(wait=False, cancel_futures=True)
     return list(_in_order(done, len(batches)))
 
 
