@@ -15,7 +15,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from screening.inputs.units import UnitError, parse_quantity, parse_unit, to_si
+from screening.inputs.units import UnitError, parse_quantity, parse_unit, scalar_to_si, to_si
 
 EXACT = 1e-12
 GALLON_M3 = 3.785411784e-3  # US gallon [m³], exact
@@ -85,6 +85,23 @@ def test_to_si_returns_a_new_float_array():
     out[0] = 99.0
     assert src[0] == 1.0
     assert to_si([1, 2], "m3/s", "flow").dtype == np.float64
+
+
+@pytest.mark.parametrize(
+    ("unit", "kind"),
+    [("degF", "temperature"), ("°C", "temperature"), ("K", "temperature"), ("psi", "pressure"),
+     ("kPa", "pressure"), ("gpm", "flow"), ("ft", "length"), ("rpm", "speed"), ("Hz", "speed")],
+)  # fmt: skip
+def test_one_number_converts_as_an_array_does(unit, kind):
+    """scalar_to_si (the register's values) and to_si (the tags' samples) agree to the bit,
+    signed zeros and extremes included."""
+    values = np.concatenate(
+        [np.random.default_rng(7).normal(0.0, 1e3, 500), [0.0, -0.0, 1e-300, -1e300, 33.3]]
+    )
+    one = np.array([scalar_to_si(float(v), unit, kind) for v in values])
+    many = to_si(values, unit, kind)
+    assert np.array_equal(one, many)
+    assert np.array_equal(np.signbit(one), np.signbit(many))
 
 
 # --- parse_quantity -------------------------------------------------------------------------
