@@ -41,11 +41,11 @@ editable install points at.
     halves  two one-process scans started together (after both have imported), each of half
             the plant's pumps with Arrow on one thread, as a pool worker runs: the pool's
             work without the pool (no fork, no pickled results, each its own set-up and
-            memory). The later one's end, from the earlier start. The two-worker scan can be
-            no faster than this by anything the pool itself does: what is left between one
-            process and this is the machine's (two heaps of fresh memory for one plant's work,
-            the cores' shared memory bandwidth and host) and the one process's own use of a
-            second core (Arrow decodes on two threads).
+            memory). The later one's end, from the earlier start. A two-worker scan as fast
+            as this loses nothing of its own: what is then left between it and one process is
+            the machine's (two heaps of fresh memory for one plant's work, the cores' shared
+            memory bandwidth and host) and the one process's own use of a second core (Arrow
+            decodes on two threads).
     dask    the same on a local Dask cluster of 2 worker processes (``cluster=client``); the
             cluster's start-up is timed apart.
     cli     ``pumpscreen scan`` of this checkout as a child process (every core), including
@@ -59,7 +59,7 @@ Each measure runs ``--repeat`` times (3 by default), the measures interleaved so
 spell on the machine touches all of them; the table gives the median and the least seconds,
 and the medians of the rest. The machine (CPU model from /proc/cpuinfo, cores) and the load
 average before and after are printed: figures from a shared machine vary by tens of percent.
-At full size with three runs the whole benchmark takes about 2 minutes (116-127 s on the
+At full size with three runs the whole benchmark takes about 2 minutes (124-141 s on the
 project's shared 2-core machine, 2026-12-03), plus 10 s the first time to build the plant.
 
 Samples/s always means pump-samples (pumps x minutes) per second. "CPU s" is the user plus
@@ -573,8 +573,10 @@ def measure_halves(args) -> dict | None:
     started together once both have imported (a file each says ready, a third says go): the
     later end from the earlier start, and both processes' CPU seconds."""
     import tempfile
+    import threading
 
     opts = f"--pumps {args.pumps} --days {args.days}".split()
+    stop = threading.Event()  # both children have ended (a child that failed never says ready)
     with tempfile.TemporaryDirectory() as sync:
 
         def half(k: int):
@@ -583,13 +585,18 @@ def measure_halves(args) -> dict | None:
             )
 
         def starter() -> None:
-            while not all((Path(sync) / f"ready{k}").exists() for k in (0, 1)):
+            while not stop.is_set():
+                if all((Path(sync) / f"ready{k}").exists() for k in (0, 1)):
+                    (Path(sync) / "go").touch()
+                    return
                 time.sleep(0.001)
-            (Path(sync) / "go").touch()
 
         with concurrent.futures.ThreadPoolExecutor(3) as pool:
             pool.submit(starter)
-            both = list(pool.map(half, (0, 1)))
+            try:
+                both = list(pool.map(half, (0, 1)))
+            finally:
+                stop.set()
     if not all(both):
         return None
     start = min(h["start"] for h in both)
@@ -612,7 +619,10 @@ def measure_half(toml: Path, start, end, half: int, sync: str) -> dict:
     ids = sorted(pd.read_csv(toml.parent / "pumps.csv")["pump_id"].astype(str))
     part = ids[: len(ids) // 2] if half == 0 else ids[len(ids) // 2 :]
     (Path(sync) / f"ready{half}").touch()
-    while not (Path(sync) / "go").exists():
+    waited = time.perf_counter()
+    while not (Path(sync) / "go").exists():  # the other process never came: give up
+        if time.perf_counter() - waited > 300:
+            raise TimeoutError("the other half's process did not start within 300 s")
         time.sleep(0.001)
     cpu, t0 = cpu_s(), time.time()
     result = scan(toml, start, end, pumps=part, processes=1)

@@ -483,7 +483,7 @@ def read_whole(path: Path, columns: list[str]) -> pa.Table:
         A column not in the file (named)."""
     wanted = list(dict.fromkeys(columns))
     table = pq.ParquetFile(path).read(columns=wanted)
-    present = set(table.column_names)  # a list built anew on every access: once
+    present = set(table.column_names)  # pyarrow builds that list anew on every access
     missing = [c for c in wanted if c not in present]
     if missing:
         raise KeyError(f"no column {', '.join(missing)}")
