@@ -39,7 +39,8 @@ editable install points at.
             whose two cores share a memory bus, a cache or a host core gives two processes
             less than twice one's throughput, whatever the program does).
     halves  two one-process scans started together (after both have imported), each of half
-            the plant's pumps with Arrow on one thread, as a pool worker runs: the pool's
+            the plant's pumps with Arrow on one thread and its jemalloc pool
+            (``allocator.keep_arrow_memory``), as a pool worker runs: the pool's
             work without the pool (no fork, no pickled results, each its own set-up and
             memory). The later one's end, from the earlier start. A two-worker scan as fast
             as this loses nothing of its own: what is then left between it and one process is
@@ -609,12 +610,15 @@ def measure_halves(args) -> dict | None:
 
 def measure_half(toml: Path, start, end, half: int, sync: str) -> dict:
     """One of :func:`measure_halves`' processes: the first or the second half of the plant's
-    pumps (sorted by id, as the scan's batches go), in this process, Arrow on one thread."""
+    pumps (sorted by id, as the scan's batches go), in this process, Arrow on one thread and
+    its jemalloc pool, as a pool worker."""
     import pyarrow
 
     import screening
+    from screening.base.allocator import keep_arrow_memory
 
     pyarrow.set_cpu_count(1)  # as a pool worker (screening.engine.execution._init_worker)
+    keep_arrow_memory()
     scan = screening.scan  # the package imports its engine on first use: before the start
     ids = sorted(pd.read_csv(toml.parent / "pumps.csv")["pump_id"].astype(str))
     part = ids[: len(ids) // 2] if half == 0 else ids[len(ids) // 2 :]

@@ -126,6 +126,32 @@ def test_a_pool_with_cut_batches_gives_the_same_tables(tmp_path, monkeypatch):
     assert "P3" in set(two.problems["pump_id"])
 
 
+def _arrow_allocator(plant, result) -> str:
+    import pyarrow
+
+    return pyarrow.default_memory_pool().backend_name
+
+
+def test_pool_workers_keep_arrow_memory_and_this_process_is_left_alone(tmp_path):
+    """A pool worker reads with Arrow's jemalloc pool where pyarrow has it
+    (allocator.keep_arrow_memory); the caller's process keeps its own allocator."""
+    import pyarrow
+
+    path = _plant(tmp_path)
+    before = pyarrow.default_memory_pool().backend_name
+    two = screening.scan(path, processes=2, each_pump=_arrow_allocator)
+    one = screening.scan(path, processes=1, each_pump=_arrow_allocator)
+    try:
+        pyarrow.jemalloc_memory_pool()
+        expected = "jemalloc"
+    except NotImplementedError:  # a pyarrow built without it: the default stays
+        expected = before
+    assert len(two.extras) == 4  # P3 lacks a tag
+    assert set(two.extras.values()) == {expected}
+    assert set(one.extras.values()) == {before}
+    assert pyarrow.default_memory_pool().backend_name == before
+
+
 SOME = ["CD-412", "RW-502", "DH-202", "CW-103"]
 
 

@@ -55,3 +55,35 @@ def keep_collector_off_imports() -> bool:
     gc.freeze()
     _frozen = True
     return True
+
+
+def keep_arrow_memory() -> bool:
+    """Have Arrow allocate from its jemalloc pool, keeping the pages it frees, for the rest of
+    this process; True if applied. For a forked pool worker only
+    (:mod:`screening.engine.execution`), which ends with the scan.
+
+    A worker decodes each batch's export files (about 40 MiB a batch on the benchmark plant)
+    and frees them when the batch is done. With Arrow's default allocator (mimalloc) a
+    worker's decoding took its memory in transparent huge pages, each cleared by the kernel
+    on first touch, again and again (175-193 huge pages faulted in a two-worker scan, and
+    8.8 % of a two-worker scan's `perf` samples clearing them, against 3.8 % for one
+    process); with jemalloc 36-51, the scan's system time 0.26-0.33 s against 0.35-0.81 s,
+    and the scan faster in each of five interleaved pairs (benchmarks/bench_scan.py's plant,
+    2026-12-03; docs/scale.md). A fresh page is dear on a machine whose host backs memory
+    lazily (docs/scale.md, "Fresh memory on this machine"). The decay time is set to -1 too,
+    so that jemalloc never gives freed pages back (jemalloc manual, ``opt.dirty_decay_ms``:
+    -1 disables purging; recalled from memory; ``pyarrow.jemalloc_set_decay_ms`` sets it for
+    the arenas made afterwards): the worker holds its high-water mark until it exits, as
+    glibc's heap already does (:func:`keep_freed_memory`). Not for a long-lived process (the
+    command line's own, a notebook's), where Arrow's memory would stay for the process's
+    life. A pyarrow built without jemalloc (Windows wheels) keeps its default allocator.
+    """
+    import pyarrow
+
+    try:
+        pyarrow.jemalloc_set_decay_ms(-1)
+        pool = pyarrow.jemalloc_memory_pool()
+    except (NotImplementedError, AttributeError, pyarrow.ArrowException):
+        return False
+    pyarrow.set_memory_pool(pool)
+    return True

@@ -28,7 +28,11 @@ from typing import Any
 import numpy as np
 import pyarrow
 
-from screening.base.allocator import keep_collector_off_imports, keep_freed_memory
+from screening.base.allocator import (
+    keep_arrow_memory,
+    keep_collector_off_imports,
+    keep_freed_memory,
+)
 from screening.engine.calculator import PumpResult, Settings
 from screening.engine.chunked import chunk_days, screen_chunked
 from screening.engine.one_pump import quality_flags, quality_row, screen_pump
@@ -144,6 +148,7 @@ def _init_worker(ctx: BatchContext) -> None:
     # one thread per worker: the pool already keeps every core busy, and Arrow's own decoding
     # threads would only compete with the other workers
     pyarrow.set_cpu_count(1)
+    keep_arrow_memory()  # each batch's decoded files in the pages of the last
 
 
 def _run_in_worker(batch: list[str]) -> BatchOutput:
