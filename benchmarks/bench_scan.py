@@ -620,7 +620,7 @@ def measure_half(toml: Path, start, end, half: int, sync: str) -> dict:
     pyarrow.set_cpu_count(1)  # as a pool worker (screening.engine.execution._init_worker)
     keep_arrow_memory()
     scan = screening.scan  # the package imports its engine on first use: before the start
-    ids = sorted(pd.read_csv(toml.parent / "pumps.csv")["pump_id"].astype(str))
+    ids = sorted(screening.load_plant(toml).pumps)
     part = ids[: len(ids) // 2] if half == 0 else ids[len(ids) // 2 :]
     (Path(sync) / f"ready{half}").touch()
     waited = time.perf_counter()

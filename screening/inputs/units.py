@@ -220,11 +220,9 @@ def is_bare_frequency(unit: str) -> bool:
 
 
 def scalar_to_si(value: float, unit: str, kind: str) -> float:
-    """Convert one number in ``unit`` to the SI unit of ``kind`` [see :func:`to_si`]: the same
-    float64 arithmetic on a Python float, without an array (the register converts some
-    thousands of values)."""
-    scale, offset = _affine(unit, kind)
-    return float(value) * scale + offset if offset != 0.0 else float(value) * scale
+    """Convert one number in ``unit`` to the SI unit of ``kind`` [see :func:`to_si`], as a
+    zero-dimensional array (the register converts some thousands of values)."""
+    return float(to_si(value, unit, kind))
 
 
 def si_to(values, unit: str, kind: str) -> np.ndarray:
