@@ -26,9 +26,10 @@ lint: $(STAMP)
 
 # The scan benchmark at full size (500 pumps x 30 days of one-minute data): every measure run
 # three times, median and least printed with the machine and its load (docs/scale.md). Takes
-# about 2 minutes (124-141 s on the project's shared 2-core machine, 2026-12-03 15:26-15:33 UTC;
-# most of it the naive CoolProp loop and the command line), and 10 s more the first time (it builds the
-# synthetic plant under benchmarks/_data/). `--repeat 1` for a third of that.
+# 2-3 minutes (104-180 s on the project's shared 2-core machine, 2026-12-03 16:43-16:59 UTC,
+# the longest in a slow spell; most of it the naive CoolProp loop and the command line), and
+# 10 s more the first time (it builds the synthetic plant under benchmarks/_data/).
+# `--repeat 1` for a third of that.
 bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_scan.py
 

@@ -67,8 +67,9 @@ Each measure runs ``--repeat`` times (3 by default), the measures interleaved so
 spell on the machine touches all of them; the table gives the median and the least seconds,
 and the medians of the rest. The machine (CPU model from /proc/cpuinfo, cores) and the load
 average before and after are printed: figures from a shared machine vary by tens of percent.
-At full size with three runs the whole benchmark takes about 2 minutes (124-141 s on the
-project's shared 2-core machine, 2026-12-03), plus 10 s the first time to build the plant.
+At full size with three runs the whole benchmark takes 2-3 minutes (104-180 s on the
+project's shared 2-core machine, 2026-12-03, the longest in a slow spell), plus 10 s the first
+time to build the plant.
 
 Samples/s always means pump-samples (pumps x minutes) per second. "CPU s" is the user plus
 system CPU time of the measure's process (above the wall time where pyarrow reads with more than
