@@ -34,7 +34,7 @@ editable install points at.
     scan2   the same with ``processes=2`` (a process pool; the parts then run in the workers,
             so only the total is measured; "largest worker" is the peak of the biggest child).
     pace    the ``scan`` measure at a pool worker's pace: the whole plant in one process with
-            Arrow on one thread and its jemalloc pool (``allocator.keep_arrow_memory``), as
+            Arrow on one thread and its jemalloc pool (``execution.read_as_pool_worker``), as
             each worker of ``scan2`` reads. ``scan2`` against it is how the pool scales per
             core; ``scan2`` against ``scan`` is what a user gains, lower because one process
             already decodes on two threads. Printed beside that: the most two workers can gain
@@ -47,7 +47,7 @@ editable install points at.
             less than twice one's throughput, whatever the program does).
     halves  two one-process scans started together (after both have imported), each of half
             the plant's pumps with Arrow on one thread and its jemalloc pool
-            (``allocator.keep_arrow_memory``), as a pool worker runs: the pool's
+            (``execution.read_as_pool_worker``), as a pool worker runs: the pool's
             work without the pool (no fork, no pickled results, each its own set-up and
             memory). The later one's end, from the earlier start. A two-worker scan as fast
             as this loses nothing of its own: what is then left between it and one process is
@@ -407,15 +407,12 @@ def measure_scan(
     """The Python API scan. With one process the time is split by step (the steps run here);
     with more processes or a cluster they run elsewhere and only the total is measured.
     ``one_thread``: Arrow on one thread and its jemalloc pool, as a pool worker reads."""
-    import pyarrow
-
     import screening
-    from screening.base.allocator import keep_arrow_memory
+    from screening.engine.execution import read_as_pool_worker
     from screening.inputs import export_reader, loader
 
-    if one_thread:  # as screening.engine.execution._init_worker
-        pyarrow.set_cpu_count(1)
-        keep_arrow_memory()
+    if one_thread:
+        read_as_pool_worker()
 
     scan_mod = importlib.import_module("screening.engine.scan")  # the module, not the function
     one_pump = importlib.import_module("screening.engine.one_pump")
@@ -630,13 +627,10 @@ def measure_half(toml: Path, start, end, half: int, sync: str) -> dict:
     """One of :func:`measure_halves`' processes: the first or the second half of the plant's
     pumps (sorted by id, as the scan's batches go), in this process, Arrow on one thread and
     its jemalloc pool, as a pool worker."""
-    import pyarrow
-
     import screening
-    from screening.base.allocator import keep_arrow_memory
+    from screening.engine.execution import read_as_pool_worker
 
-    pyarrow.set_cpu_count(1)  # as a pool worker (screening.engine.execution._init_worker)
-    keep_arrow_memory()
+    read_as_pool_worker()
     scan = screening.scan  # the package imports its engine on first use: before the start
     ids = sorted(screening.load_plant(toml).pumps)
     part = ids[: len(ids) // 2] if half == 0 else ids[len(ids) // 2 :]

@@ -87,6 +87,22 @@ def _outputs_loop(raw, kept, infinite):  # pragma: no cover
     return all_kept, m, t_out, v_out, s_out, bad
 
 
+def _column_counts_loop(  # pragma: no cover - compiled
+    bad_times, first_bad_time, infinite, first_infinite, back, first_back, counted, increasing
+):
+    """A wide column's ``counts`` array, in the order :func:`wide_column_numpy` gives."""
+    counts = np.empty(8, np.int64)
+    counts[0] = bad_times
+    counts[1] = first_bad_time
+    counts[2] = infinite
+    counts[3] = first_infinite
+    counts[4] = back
+    counts[5] = first_back
+    counts[6] = counted
+    counts[7] = increasing
+    return counts
+
+
 def _usual_rows_loop(times, ok, raw, lo, hi, use_span):  # pragma: no cover
     """For a column of a file whose placed times strictly increase: when every time is placed
     and at most one row in 16 of the span is an empty cell, the span's rows ``a`` to ``b``
@@ -163,15 +179,7 @@ def _wide_column_blocks(times, raw, rows, a, b, empty, infinite):  # pragma: no 
             sk += 1
         for k in range(kept if infinite else 0):
             bad[k] = (v_out[k] - v_out[k]) != 0
-    counts = np.empty(8, np.int64)
-    counts[0] = 0
-    counts[1] = -1
-    counts[2] = infinite
-    counts[3] = first_infinite
-    counts[4] = 0
-    counts[5] = -1
-    counts[6] = kept
-    counts[7] = 1
+    counts = _column_counts(0, -1, infinite, first_infinite, 0, -1, kept, 1)
     skipped = s_out[: 0 if all_kept else n - kept]
     return kept, all_kept, t_out[:m], v_out[:m], skipped, bad[:kept], counts
 
@@ -244,15 +252,10 @@ def _wide_column_loop(times, ok, raw, rows, lo, hi, use_span, ordered):  # pragm
             s_out[sk] = i  # a row kept is overwritten by the next row not kept
             j += np.uint64(keep)
             sk += np.uint64(not keep)
-    counts = np.empty(8, np.int64)
-    counts[0] = bad_times
-    counts[1] = first_bad_time
-    counts[2] = infinite
-    counts[3] = first_infinite
-    counts[4] = back
-    counts[5] = first_back
-    counts[6] = bad_times + kept
-    counts[7] = increasing
+    counts = _column_counts(
+        bad_times, first_bad_time, infinite, first_infinite, back, first_back,
+        bad_times + kept, increasing,
+    )  # fmt: skip
     skipped = s_out[: 0 if all_kept else n - kept]
     return kept, all_kept, t_out[:m], v_out[:m], skipped, bad[:kept], counts
 
@@ -401,6 +404,7 @@ def _strictly_increasing_loop(times):  # pragma: no cover - compiled
 
 
 _outputs = compile_kernel(_outputs_loop, None)
+_column_counts = compile_kernel(_column_counts_loop, None)
 _usual_rows = compile_kernel(_usual_rows_loop, None)
 _wide_column_blocks = compile_kernel(_wide_column_blocks, None)
 wide_column = compile_kernel(_wide_column_loop, wide_column_numpy)

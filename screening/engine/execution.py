@@ -145,10 +145,16 @@ _WORKER_CTX: BatchContext | None = None
 def _init_worker(ctx: BatchContext) -> None:
     global _WORKER_CTX
     _WORKER_CTX = ctx  # run_batch adopts its fluid tables
-    # one thread per worker: the pool already keeps every core busy, and Arrow's own decoding
-    # threads would only compete with the other workers
+    read_as_pool_worker()
+
+
+def read_as_pool_worker() -> None:
+    """Arrow as each pool worker reads, for the rest of this process: on one thread (the pool
+    already keeps every core busy, and Arrow's own decoding threads would only compete with
+    the other workers) and from its jemalloc pool (:func:`keep_arrow_memory`: each batch's
+    decoded files in the pages of the last). The benchmarks call it to run a worker's pace."""
     pyarrow.set_cpu_count(1)
-    keep_arrow_memory()  # each batch's decoded files in the pages of the last
+    keep_arrow_memory()
 
 
 def _run_in_worker(batch: list[str]) -> BatchOutput:
