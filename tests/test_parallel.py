@@ -220,6 +220,15 @@ def test_a_page_failing_in_a_forked_process_stops_the_report(tmp_path, monkeypat
         write(self, pid, name)
 
     monkeypatch.setattr(PageWriter, "write", failing)
+    # the main process takes no item, so that the forked one does them all whatever the timing
+    # (else the main process may take every page before the fork has started)
+    from screening.report import sharing
+
+    take = sharing._Work.take
+    monkeypatch.setattr(
+        sharing._Work, "take",
+        lambda self: take(self) if os.getpid() != here else len(self.jobs) + len(self.parts),
+    )  # fmt: skip
     with pytest.raises(RuntimeError, match="disk full writing"):
         screening.write_report(some_pumps, tmp_path / "out")
     assert not (tmp_path / "out").exists()  # no report moved into place without every page
